@@ -1,0 +1,209 @@
+"""The section line: a polyline on the map, measured in metres along its length.
+
+A :class:`SectionLine` is the one object every stage uses to go between map
+coordinates (x, y in the line's CRS) and section coordinates (distance along
+the line, signed offset from it). Azimuths are bearings in degrees clockwise
+from grid north of the line's CRS.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import sys
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pyproj
+import shapely
+from shapely.geometry import LineString, MultiLineString
+
+from .errors import LineError
+
+_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
+_TEXT_LINE = re.compile(rf"^\s*{_NUMBER}\s*,\s*{_NUMBER}\s*(;\s*{_NUMBER}\s*,\s*{_NUMBER}\s*)+;?\s*$")
+
+
+@dataclass(frozen=True)
+class LinePosition:
+    """Where map points fall relative to a section line (arrays, one per point)."""
+
+    distance: np.ndarray  # metres along the line from its first vertex
+    offset: np.ndarray  # signed metres from the line; positive to the right of travel
+    segment: np.ndarray  # index of the segment each point projects onto
+    azimuth: np.ndarray  # bearing of that segment, degrees clockwise from north
+
+
+@dataclass(frozen=True, eq=False)
+class SectionLine:
+    """A section line of two or more vertices in a projected CRS (metres)."""
+
+    vertices: np.ndarray  # shape (n, 2), n >= 2
+    crs: pyproj.CRS | None = None
+    name: str = ""
+    cumulative: np.ndarray = field(init=False, repr=False)  # distance at each vertex
+
+    def __post_init__(self) -> None:
+        v = np.asarray(self.vertices, dtype=float)
+        if v.ndim != 2 or v.shape[1] != 2 or len(v) < 2:
+            raise LineError(f"section line {self.name or ''}: needs at least two vertices".replace(" :", ":"))
+        if not np.all(np.isfinite(v)):
+            raise LineError(f"section line {self.name}: vertices must be finite numbers")
+        seg = np.hypot(*np.diff(v, axis=0).T)
+        # Repeated vertices give zero-length segments with no azimuth: drop them.
+        keep = np.concatenate([[True], seg > 0])
+        v = v[keep]
+        if len(v) < 2:
+            raise LineError(f"section line {self.name}: has zero length".replace(" :", ":"))
+        object.__setattr__(self, "vertices", v)
+        object.__setattr__(self, "cumulative", np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(v, axis=0).T))]))
+
+    # --- basic measures -------------------------------------------------
+    @property
+    def length(self) -> float:
+        return float(self.cumulative[-1])
+
+    @property
+    def segment_azimuths(self) -> np.ndarray:
+        d = np.diff(self.vertices, axis=0)
+        return np.degrees(np.arctan2(d[:, 0], d[:, 1])) % 360.0
+
+    @property
+    def linestring(self) -> LineString:
+        return LineString(self.vertices)
+
+    @property
+    def start_bearing(self) -> float:
+        """Bearing from the first to the last vertex (the section's overall trend)."""
+        d = self.vertices[-1] - self.vertices[0]
+        return float(np.degrees(np.arctan2(d[0], d[1])) % 360.0)
+
+    # --- section <-> map ------------------------------------------------
+    def segment_at(self, distance: np.ndarray) -> np.ndarray:
+        """Index of the segment holding each distance (ends clamp to the end segments)."""
+        idx = np.searchsorted(self.cumulative, np.asarray(distance, float), side="right") - 1
+        return np.clip(idx, 0, len(self.vertices) - 2)
+
+    def azimuth_at(self, distance: np.ndarray) -> np.ndarray:
+        return self.segment_azimuths[self.segment_at(distance)]
+
+    def point_at(self, distance: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Map x, y at distances along the line (extrapolated along the end segments)."""
+        d = np.asarray(distance, float)
+        i = self.segment_at(d)
+        v0, v1 = self.vertices[i], self.vertices[i + 1]
+        seg = self.cumulative[i + 1] - self.cumulative[i]
+        t = ((d - self.cumulative[i]) / seg)[..., None]
+        p = v0 + t * (v1 - v0)
+        return p[..., 0], p[..., 1]
+
+    def locate(self, x: np.ndarray, y: np.ndarray) -> LinePosition:
+        """Project map points perpendicularly onto the nearest point of the line."""
+        x = np.atleast_1d(np.asarray(x, float))
+        y = np.atleast_1d(np.asarray(y, float))
+        v0 = self.vertices[:-1]  # (m, 2)
+        dv = np.diff(self.vertices, axis=0)
+        seg_len2 = np.einsum("ij,ij->i", dv, dv)
+        px = x[:, None] - v0[None, :, 0]
+        py = y[:, None] - v0[None, :, 1]
+        t = np.clip((px * dv[None, :, 0] + py * dv[None, :, 1]) / seg_len2[None, :], 0.0, 1.0)
+        cx = px - t * dv[None, :, 0]
+        cy = py - t * dv[None, :, 1]
+        dist2 = cx**2 + cy**2
+        seg = np.argmin(dist2, axis=1)
+        rows = np.arange(len(x))
+        tt = t[rows, seg]
+        seg_len = np.sqrt(seg_len2[seg])
+        distance = self.cumulative[seg] + tt * seg_len
+        # Cross product sign: positive when the point lies to the right of travel.
+        cross = dv[seg, 0] * py[rows, seg] - dv[seg, 1] * px[rows, seg]
+        offset = -np.sign(cross) * np.sqrt(dist2[rows, seg])
+        return LinePosition(distance, offset, seg, self.segment_azimuths[seg])
+
+    def densify(self, step: float) -> np.ndarray:
+        """Distances from 0 to the length at ``step``, always including every vertex."""
+        n = max(int(np.ceil(self.length / step)), 1)
+        d = np.linspace(0.0, self.length, n + 1) if np.isclose(n * step, self.length) else np.arange(0.0, self.length, step)
+        d = np.union1d(np.append(d, self.length), self.cumulative)
+        return d
+
+    def moved(self, vertices: np.ndarray) -> SectionLine:
+        return SectionLine(np.asarray(vertices, float), self.crs, self.name)
+
+    def to_crs(self, crs: pyproj.CRS) -> SectionLine:
+        if self.crs is None or pyproj.CRS(crs) == self.crs:
+            return SectionLine(self.vertices, pyproj.CRS(crs), self.name)
+        tr = pyproj.Transformer.from_crs(self.crs, crs, always_xy=True)
+        x, y = tr.transform(self.vertices[:, 0], self.vertices[:, 1])
+        return SectionLine(np.column_stack([x, y]), pyproj.CRS(crs), self.name)
+
+
+def utm_crs_for(lon: float, lat: float) -> pyproj.CRS:
+    """The WGS 84 / UTM zone CRS holding a geographic point."""
+    zone = int((lon + 180.0) // 6.0) % 60 + 1
+    return pyproj.CRS.from_epsg((32600 if lat >= 0 else 32700) + zone)
+
+
+def projected_line(line: SectionLine, warn=None) -> SectionLine:
+    """Return ``line`` in a projected CRS; a geographic line goes to its local UTM zone.
+
+    Densifies first so that the projected polyline follows the geodesic closely.
+    """
+    if line.crs is None or not line.crs.is_geographic:
+        return line
+    lon, lat = line.vertices.mean(axis=0)
+    utm = utm_crs_for(float(lon), float(lat))
+    msg = f"section line is in a geographic CRS; measuring in metres in {utm.name} (EPSG:{utm.to_epsg()})"
+    (warn or (lambda m: print(f"mapsection: note: {m}", file=sys.stderr)))(msg)
+    geod = pyproj.Geod(ellps="WGS84")
+    pts = [line.vertices[0]]
+    for a, b in zip(line.vertices[:-1], line.vertices[1:], strict=True):
+        inner = geod.npts(a[0], a[1], b[0], b[1], 64)
+        pts.extend(np.asarray(inner).reshape(-1, 2))
+        pts.append(b)
+    tr = pyproj.Transformer.from_crs(line.crs, utm, always_xy=True)
+    pts = np.asarray(pts)
+    x, y = tr.transform(pts[:, 0], pts[:, 1])
+    return SectionLine(np.column_stack([x, y]), utm, line.name)
+
+
+def parse_line_text(text: str, crs: pyproj.CRS | None = None, name: str = "") -> SectionLine:
+    """Parse ``"x1,y1;x2,y2[;...]"`` into a line."""
+    if not _TEXT_LINE.match(text):
+        raise LineError(f"section line text {text!r}: expected 'x1,y1;x2,y2[;...]'")
+    pts = [tuple(float(c) for c in p.split(",")) for p in text.strip().strip(";").split(";")]
+    return SectionLine(np.asarray(pts), crs, name)
+
+
+def read_line(spec: str | os.PathLike, crs: str | pyproj.CRS | None = None, name: str = "") -> SectionLine:
+    """Read a section line from a vector file (one LineString) or ``"x1,y1;x2,y2"`` text.
+
+    ``crs`` is the CRS of text coordinates; for a file it overrides a missing CRS.
+    """
+    crs_obj = pyproj.CRS(crs) if crs is not None else None
+    text = os.fspath(spec)
+    if not Path(text).exists():
+        if ";" in text or "," in text:
+            return parse_line_text(text, crs_obj, name)
+        raise LineError(f"{text}: no such line file")
+    import pyogrio
+
+    try:
+        df = pyogrio.read_dataframe(text)
+    except Exception as exc:  # pyogrio raises several kinds for unreadable files
+        raise LineError(f"{text}: not a readable vector file ({str(exc).splitlines()[0]})") from None
+    geoms = [g for g in df.geometry if g is not None and not g.is_empty]
+    lines = []
+    for g in geoms:
+        if isinstance(g, LineString):
+            lines.append(g)
+        elif isinstance(g, MultiLineString) and len(g.geoms) == 1:
+            lines.append(g.geoms[0])
+        else:
+            raise LineError(f"{text}: holds a {g.geom_type}; expected one LineString")
+    if len(lines) != 1:
+        raise LineError(f"{text}: holds {len(lines)} lines; expected exactly one LineString")
+    file_crs = df.crs if df.crs is not None else crs_obj
+    coords = shapely.get_coordinates(lines[0])
+    return SectionLine(coords, pyproj.CRS(file_crs) if file_crs is not None else None, name or Path(text).stem)

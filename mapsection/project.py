@@ -1,0 +1,283 @@
+"""The project file: one TOML file naming the DEM, the map, the attitudes, the
+stratigraphic column and the section lines.
+
+Relative paths resolve against the project file's folder. Every missing or
+wrong key is reported with its key path and the file's name, e.g.
+``project.toml: section[1].corridor: must be a number > 0``.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pyproj
+
+from .errors import ProjectFileError
+from .stratigraphy import Column, Unit
+
+METHODS = ("kink", "arc")
+PROJECTIONS = ("perpendicular", "strike", "plunge")
+CONVENTIONS = ("rhr", "dip-direction", "quadrant")
+
+
+@dataclass(frozen=True)
+class Thresholds:
+    """Pass thresholds of the balance checks (defaults are common practice)."""
+
+    contact_rms_m: float = 50.0  # the larger of this and 2 DEM pixels
+    contact_rms_pixels: float = 2.0
+    unit_agreement: float = 0.95
+    dip_rms_deg: float = 5.0
+    area_mismatch_pct: float = 5.0
+    line_length_spread_pct: float = 5.0
+
+
+@dataclass(frozen=True)
+class SectionSpec:
+    name: str
+    line: tuple[tuple[float, float], ...]
+    corridor: float = 500.0
+    method: str = "kink"
+    projection: str = "perpendicular"
+    ve: float = 1.0
+    dip_tolerance: float = 5.0  # degrees; dips closer than this share a dip domain
+    depth: float | None = None  # metres below the lowest ground; default: base of column
+    fault_depth: float | None = None
+    default_dip: float | None = None  # used, with a warning, where no dips fall in the corridor
+    pin: float | None = None  # distance of the pin line along the section, metres
+    loose: float | None = None
+
+
+@dataclass(frozen=True)
+class Project:
+    path: Path
+    crs: pyproj.CRS
+    dem_path: Path
+    map_path: Path
+    units_layer: str
+    unit_field: str
+    faults_layer: str | None
+    attitudes_path: Path
+    attitudes_layer: str | None
+    convention: str
+    column: Column
+    sections: tuple[SectionSpec, ...]
+    thresholds: Thresholds = field(default_factory=Thresholds)
+    fault_fields: dict[str, str] = field(default_factory=dict)
+    attitude_fields: dict[str, str] = field(default_factory=dict)
+
+    def section(self, name: str) -> SectionSpec:
+        for s in self.sections:
+            if s.name == name:
+                return s
+        names = ", ".join(s.name for s in self.sections)
+        raise ProjectFileError(f"{self.path.name}: no section named {name!r} (sections: {names})")
+
+
+class _Reader:
+    """Typed access to a TOML table that names the key path in every error."""
+
+    def __init__(self, fname: str, table: dict[str, Any], prefix: str = ""):
+        self.fname, self.table, self.prefix = fname, table, prefix
+
+    def _key(self, key: str) -> str:
+        return f"{self.prefix}{key}"
+
+    def fail(self, key: str, msg: str) -> ProjectFileError:
+        return ProjectFileError(f"{self.fname}: {self._key(key)}: {msg}")
+
+    def sub(self, key: str, required: bool = True) -> _Reader | None:
+        if key not in self.table:
+            if required:
+                raise self.fail(key, "missing table")
+            return None
+        val = self.table[key]
+        if not isinstance(val, dict):
+            raise self.fail(key, "must be a table")
+        return _Reader(self.fname, val, f"{self._key(key)}.")
+
+    def get(self, key: str, kind: type | tuple, default: Any = ..., *, choices=None, positive=False):
+        if key not in self.table:
+            if default is ...:
+                raise self.fail(key, "missing key")
+            return default
+        val = self.table[key]
+        if kind is float and isinstance(val, int) and not isinstance(val, bool):
+            val = float(val)
+        if not isinstance(val, kind) or isinstance(val, bool) and kind is not bool:
+            name = getattr(kind, "__name__", "value")
+            raise self.fail(key, f"must be a {'number' if kind is float else name}, got {val!r}")
+        if kind is float and (not math.isfinite(val) or (positive and val <= 0)):
+            raise self.fail(key, f"must be a number{' > 0' if positive else ''}, got {val!r}")
+        if choices is not None and val not in choices:
+            raise self.fail(key, f"must be one of {', '.join(choices)}, got {val!r}")
+        return val
+
+    def path(self, key: str, base: Path) -> Path:
+        val = self.get(key, str)
+        p = Path(os.path.expanduser(val))
+        return p if p.is_absolute() else (base / p)
+
+
+def _unknown(reader: _Reader, allowed: set[str]) -> None:
+    extra = sorted(set(reader.table) - allowed)
+    if extra:
+        raise reader.fail(extra[0], f"unknown key (known keys: {', '.join(sorted(allowed))})")
+
+
+def load_project(path: str | os.PathLike) -> Project:
+    """Read and validate a project file."""
+    path = Path(path)
+    fname = path.name
+    try:
+        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise ProjectFileError(f"{path}: no such project file") from None
+    except IsADirectoryError:
+        raise ProjectFileError(f"{path}: is a folder, not a project file") from None
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise ProjectFileError(f"{fname}: not valid TOML ({exc})") from None
+    base = path.resolve().parent
+    top = _Reader(fname, raw)
+    _unknown(top, {"crs", "dem", "map", "attitudes", "stratigraphy", "section", "checks", "title"})
+
+    crs_text = top.get("crs", str)
+    try:
+        crs = pyproj.CRS(crs_text)
+    except pyproj.exceptions.CRSError:
+        raise top.fail("crs", f"unknown CRS {crs_text!r}") from None
+    if not crs.is_projected:
+        raise top.fail("crs", f"{crs_text} is not a projected CRS in metres")
+
+    dem = top.sub("dem")
+    _unknown(dem, {"path"})
+    mp = top.sub("map")
+    _unknown(mp, {"path", "units_layer", "unit_field", "faults_layer", "fault_dip_field",
+                  "fault_dip_direction_field", "fault_sense_field", "fault_name_field"})
+    att = top.sub("attitudes")
+    _unknown(att, {"path", "layer", "convention", "x_field", "y_field", "strike_field",
+                   "dip_field", "dip_direction_field", "id_field", "overturned_field",
+                   "attitude_field"})
+
+    fault_fields = {
+        k: mp.get(f"fault_{k}_field", str, k) for k in ("dip", "dip_direction", "sense", "name")
+    }
+    attitude_fields = {
+        k: att.get(f"{k}_field", str, k)
+        for k in ("x", "y", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
+    }
+
+    strat = raw.get("stratigraphy")
+    if not isinstance(strat, list) or not strat:
+        raise ProjectFileError(f"{fname}: stratigraphy: missing [[stratigraphy]] list of units")
+    units = []
+    for i, entry in enumerate(strat):
+        if not isinstance(entry, dict):
+            raise ProjectFileError(f"{fname}: stratigraphy[{i}]: must be a table")
+        r = _Reader(fname, entry, f"stratigraphy[{i}].")
+        _unknown(r, {"unit", "thickness", "colour", "color", "age", "lithology"})
+        colour = r.get("colour", str, None) or r.get("color", str, None)
+        if colour is not None and not _is_hex_colour(colour):
+            raise r.fail("colour", f"must be '#rrggbb', got {colour!r}")
+        thickness = r.get("thickness", float)
+        if thickness <= 0:
+            raise r.fail("thickness", f"must be > 0 m, got {thickness}")
+        units.append(Unit(r.get("unit", str), thickness, colour, r.get("age", str, None),
+                          r.get("lithology", str, None)))
+    try:
+        column = Column(tuple(units))
+    except Exception as exc:
+        raise ProjectFileError(f"{fname}: {exc}") from None
+
+    secs = raw.get("section")
+    if not isinstance(secs, list) or not secs:
+        raise ProjectFileError(f"{fname}: section: missing [[section]] list")
+    sections = []
+    for i, entry in enumerate(secs):
+        if not isinstance(entry, dict):
+            raise ProjectFileError(f"{fname}: section[{i}]: must be a table")
+        r = _Reader(fname, entry, f"section[{i}].")
+        _unknown(r, {"name", "line", "corridor", "method", "projection", "ve", "dip_tolerance",
+                     "depth", "fault_depth", "default_dip", "pin", "loose"})
+        sections.append(_section(r))
+    names = [s.name for s in sections]
+    if len(set(names)) != len(names):
+        raise ProjectFileError(f"{fname}: section: two sections share a name")
+
+    checks = top.sub("checks", required=False)
+    thresholds = Thresholds()
+    if checks is not None:
+        _unknown(checks, set(Thresholds.__dataclass_fields__))
+        vals = {}
+        for k, dflt in Thresholds().__dict__.items():
+            v = checks.get(k, float, dflt)
+            if v < 0 or (k == "unit_agreement" and v > 1):
+                raise checks.fail(k, f"out of range: {v}")
+            vals[k] = v
+        thresholds = Thresholds(**vals)
+
+    return Project(
+        path=path,
+        crs=crs,
+        dem_path=dem.path("path", base),
+        map_path=mp.path("path", base),
+        units_layer=mp.get("units_layer", str),
+        unit_field=mp.get("unit_field", str),
+        faults_layer=mp.get("faults_layer", str, None),
+        attitudes_path=att.path("path", base),
+        attitudes_layer=att.get("layer", str, None),
+        convention=att.get("convention", str, "rhr", choices=CONVENTIONS),
+        column=column,
+        sections=tuple(sections),
+        thresholds=thresholds,
+        fault_fields=fault_fields,
+        attitude_fields=attitude_fields,
+    )
+
+
+def _section(r: _Reader) -> SectionSpec:
+    name = r.get("name", str)
+    line = r.get("line", list)
+    if len(line) < 2:
+        raise r.fail("line", "needs at least two vertices [[x1, y1], [x2, y2]]")
+    pts = []
+    for j, p in enumerate(line):
+        ok = (isinstance(p, list) and len(p) == 2
+              and all(isinstance(c, int | float) and not isinstance(c, bool) for c in p))
+        if not ok:
+            raise r.fail(f"line[{j}]", f"must be [x, y] numbers, got {p!r}")
+        pts.append((float(p[0]), float(p[1])))
+    if all(p == pts[0] for p in pts):
+        raise r.fail("line", "has zero length")
+
+    def opt(key: str, positive=False):
+        return r.get(key, float, None, positive=positive)
+
+    ve = r.get("ve", float, 1.0, positive=True)
+    tol = r.get("dip_tolerance", float, 5.0, positive=True)
+    default_dip = opt("default_dip")
+    if default_dip is not None and not -90 < default_dip < 90:
+        raise r.fail("default_dip", f"must be between -90 and 90 degrees, got {default_dip}")
+    return SectionSpec(
+        name=name,
+        line=tuple(pts),
+        corridor=r.get("corridor", float, 500.0, positive=True),
+        method=r.get("method", str, "kink", choices=METHODS),
+        projection=r.get("projection", str, "perpendicular", choices=PROJECTIONS),
+        ve=ve,
+        dip_tolerance=tol,
+        depth=opt("depth", positive=True),
+        fault_depth=opt("fault_depth", positive=True),
+        default_dip=default_dip,
+        pin=opt("pin"),
+        loose=opt("loose"),
+    )
+
+
+def _is_hex_colour(text: str) -> bool:
+    return len(text) == 7 and text[0] == "#" and all(c in "0123456789abcdefABCDEF" for c in text[1:])
