@@ -1,0 +1,97 @@
+"""The project file: keys, defaults, relative paths and one-line errors naming the key."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from mapsection.errors import ProjectFileError
+from mapsection.project import load_project
+
+GOOD = """
+crs = "EPSG:32611"
+[dem]
+path = "dem.tif"
+[map]
+path = "geology.gpkg"
+units_layer = "units"
+unit_field = "unit"
+faults_layer = "faults"
+[attitudes]
+path = "attitudes.csv"
+[[stratigraphy]]
+unit = "Upper"
+thickness = 250.0
+[[stratigraphy]]
+unit = "Lower"
+thickness = 300
+age = "Jurassic"
+[[section]]
+name = "A"
+line = [[500000.0, 4000000.0], [505000.0, 4001000.0]]
+corridor = 500.0
+method = "kink"
+[[section]]
+name = "B"
+line = [[500000, 4000000], [502000, 4003000], [506000, 4003500]]
+method = "arc"
+"""
+
+
+def write(tmp_path: Path, text: str) -> Path:
+    p = tmp_path / "project.toml"
+    p.write_text(text)
+    return p
+
+
+def test_keys_as_written(tmp_path):
+    # self-consistency: the documented keys load as written
+    proj = load_project(write(tmp_path, GOOD))
+    assert proj.crs.to_epsg() == 32611
+    assert proj.dem_path == tmp_path.resolve() / "dem.tif"
+    assert proj.map_path.name == "geology.gpkg" and proj.units_layer == "units"
+    assert proj.unit_field == "unit" and proj.faults_layer == "faults"
+    assert proj.column.names == ["Upper", "Lower"]
+    assert proj.column.depth_to_top.tolist() == [0.0, 250.0]
+    assert [s.name for s in proj.sections] == ["A", "B"]
+    assert proj.sections[1].method == "arc" and len(proj.sections[1].line) == 3
+    assert proj.sections[1].corridor == 500.0  # default
+    assert proj.thresholds.unit_agreement == 0.95  # common practice default
+
+
+@pytest.mark.parametrize(
+    "old, new, key",
+    [
+        ('crs = "EPSG:32611"', 'crs = "EPSG:4326"', "crs"),
+        ('crs = "EPSG:32611"', 'crs = "EPSG:999999"', "crs"),
+        ('units_layer = "units"', "", "map.units_layer"),
+        ("corridor = 500.0", "corridor = -5.0", "section[0].corridor"),
+        ('method = "kink"', 'method = "zigzag"', "section[0].method"),
+        ("thickness = 250.0", "thickness = 0.0", "stratigraphy[0].thickness"),
+        ("thickness = 250.0", 'thickness = "thick"', "stratigraphy[0].thickness"),
+        ("[505000.0, 4001000.0]", "[505000.0]", "section[0].line[1]"),
+        ('[dem]\npath = "dem.tif"', '[dem]\nfile = "dem.tif"', "dem.file"),
+    ],
+)
+def test_bad_key_named(tmp_path, old, new, key):
+    text = GOOD.replace(old, new, 1)
+    assert text != GOOD
+    with pytest.raises(ProjectFileError) as err:
+        load_project(write(tmp_path, text))
+    msg = str(err.value)
+    assert msg.startswith("project.toml: ") and key in msg and "\n" not in msg
+
+
+def test_missing_and_invalid_file(tmp_path):
+    with pytest.raises(ProjectFileError, match="no such project file"):
+        load_project(tmp_path / "nope.toml")
+    with pytest.raises(ProjectFileError, match="not valid TOML"):
+        load_project(write(tmp_path, "crs = [unclosed"))
+
+
+def test_thresholds_out_of_range(tmp_path):
+    with pytest.raises(ProjectFileError, match="checks.unit_agreement"):
+        load_project(write(tmp_path, GOOD + "\n[checks]\nunit_agreement = 1.5\n"))
+    proj = load_project(write(tmp_path, GOOD + "\n[checks]\ndip_rms_deg = 3\n"))
+    assert proj.thresholds.dip_rms_deg == 3.0
