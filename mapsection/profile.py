@@ -1,16 +1,28 @@
 """Topographic profile along a section line, sampled from a DEM.
 
-(Data model fixed here; the sampling function is filled in by the profile work.)
+:func:`profile` lays sample points along the line in the line's CRS (metres),
+transforms them to the DEM's CRS and interpolates the DEM bilinearly between
+pixel centres, reading only the DEM blocks the line passes through.
 """
 
 from __future__ import annotations
 
+import os
+import warnings
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 import pyproj
+import shapely
+from shapely.geometry import LineString
 
-from .line import SectionLine
+from .dem import Dem
+from .errors import DEMError, LineError, ParameterError
+from .line import SectionLine, projected_line, read_line
+
+# More samples than this is a mistaken step, not a profile (a 100 km line at 2 mm).
+_MAX_SAMPLES = 50_000_000
 
 
 @dataclass(frozen=True, eq=False)
@@ -38,3 +50,112 @@ class Profile:
         # Keep gaps: a distance whose nearest samples are nodata has no elevation.
         gap = np.interp(d, self.distance, (~ok).astype(float), left=1.0, right=1.0) > 0.5
         return np.where(gap, np.nan, z)
+
+
+def _default_warn(message: str) -> None:
+    warnings.warn(message, UserWarning, stacklevel=3)
+
+
+def resolve_line(line, crs, dem: Dem) -> SectionLine:
+    """The section line as a SectionLine with a CRS (its own, else ``crs``, else the DEM's)."""
+    crs_obj = None
+    if crs is not None:
+        try:
+            crs_obj = pyproj.CRS(crs)
+        except pyproj.exceptions.CRSError:
+            raise ParameterError(f"CRS {crs!r}: not a known CRS (give e.g. EPSG:32611)") from None
+    if isinstance(line, SectionLine):
+        sl = line
+    elif isinstance(line, LineString):
+        sl = SectionLine(shapely.get_coordinates(line), crs_obj)
+    elif isinstance(line, (str, os.PathLike)):
+        sl = read_line(line, crs=crs_obj)
+    else:
+        raise LineError(f"section line: cannot use a {type(line).__name__} as a line")
+    if sl.crs is None:
+        if crs_obj is not None:
+            sl = SectionLine(sl.vertices, crs_obj, sl.name)
+        elif not dem.crs.is_geographic:
+            sl = SectionLine(sl.vertices, dem.crs, sl.name)
+        else:
+            raise LineError(
+                f"section line {sl.name}: has no CRS and the DEM {dem.path.name} is geographic; "
+                "give the line's CRS (--crs)".replace("line :", "line:")
+            )
+    return sl
+
+
+def profile(
+    dem: Dem | str | os.PathLike,
+    line: SectionLine | LineString | str | os.PathLike,
+    step: float | None = None,
+    *,
+    crs: pyproj.CRS | str | None = None,
+    warn: Callable[[str], None] | None = None,
+) -> Profile:
+    """The ground surface along a section line, sampled from a DEM.
+
+    ``line`` is a SectionLine, a shapely LineString, a vector file holding one
+    LineString, or the text ``"x1,y1;x2,y2[;...]"``. Its CRS is its own, else
+    ``crs``, else the DEM's when that is projected. A line in a geographic CRS
+    is measured in metres in its local UTM zone (said on stderr). Samples lie
+    every ``step`` metres along the line (default: the DEM's pixel size) and at
+    every vertex, distance cumulative over bends; elevations are bilinear
+    between pixel centres of the DEM (see :meth:`Dem.sample`), in whatever CRS
+    the DEM is. Samples off the DEM or on nodata are NaN, with a warning; a
+    line wholly off the DEM is a DEMError.
+    """
+    note = warn  # None: projected_line says it on stderr
+    warn = warn or _default_warn
+    own = not isinstance(dem, Dem)
+    d = Dem.open(dem) if own else dem
+    try:
+        sl = projected_line(resolve_line(line, crs, d), warn=note)
+        if step is None:
+            step = d.pixel_size
+        try:
+            step = float(step)
+        except (TypeError, ValueError):
+            raise ParameterError(f"step {step!r}: must be a number of metres") from None
+        if not np.isfinite(step) or step <= 0:
+            raise ParameterError(f"step {step:g}: must be a positive number of metres")
+        if sl.length / step > _MAX_SAMPLES:
+            raise ParameterError(
+                f"step {step:g}: gives {sl.length / step:.3g} samples along a {sl.length:.0f} m "
+                f"line; use a step of at least {sl.length / _MAX_SAMPLES:.3g} m"
+            )
+        distance = sl.densify(step)
+        x, y = sl.point_at(distance)
+        z, inside = d._sample(x, y, sl.crs)
+        name = f"section line {sl.name}".rstrip()
+        if not inside.any():
+            b = d.bounds
+            raise DEMError(
+                f"{d.path}: {name} lies wholly outside the DEM (DEM bounds {b.left:.6g}, "
+                f"{b.bottom:.6g}, {b.right:.6g}, {b.top:.6g} in {d.crs.name})"
+            )
+        if not np.isfinite(z).any():
+            raise DEMError(f"{d.path}: the DEM has no data along {name}")
+        off = ~inside
+        if off.any():
+            gap = _gap_length(distance, off)
+            warn(
+                f"{name} leaves the DEM {d.path.name} over about {gap:.0f} m "
+                f"of its {sl.length:.0f} m; elevations there are empty"
+            )
+        nodata = inside & ~np.isfinite(z)
+        if nodata.any():
+            warn(
+                f"{name} crosses nodata in the DEM {d.path.name} over about "
+                f"{_gap_length(distance, nodata):.0f} m; elevations there are empty"
+            )
+        return Profile(distance, x, y, z, sl, sl.crs, d.pixel_size)
+    finally:
+        if own:
+            d.close()
+
+
+def _gap_length(distance: np.ndarray, gap: np.ndarray) -> float:
+    """Length of line covered by flagged samples (each sample stands for half its two spacings)."""
+    spacing = np.gradient(distance) if len(distance) > 1 else np.ones(1)
+    return float(np.sum(spacing[gap]))

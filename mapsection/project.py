@@ -162,14 +162,14 @@ def load_project(path: str | os.PathLike) -> Project:
     att = top.sub("attitudes")
     _unknown(att, {"path", "layer", "convention", "x_field", "y_field", "strike_field",
                    "dip_field", "dip_direction_field", "id_field", "overturned_field",
-                   "attitude_field"})
+                   "attitude_field", "z_field"})
 
     fault_fields = {
         k: mp.get(f"fault_{k}_field", str, k) for k in ("dip", "dip_direction", "sense", "name")
     }
     attitude_fields = {
         k: att.get(f"{k}_field", str, k)
-        for k in ("x", "y", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
+        for k in ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
     }
 
     strat = raw.get("stratigraphy")

@@ -1,0 +1,151 @@
+"""Benchmark: moving the section line in a loaded session (``python -m mapsection.bench move``).
+
+With the sample area's map and DEM and N (default 100 000) invented attitudes
+scattered over its extent (bedding of the sample model at the ground), it times
+
+* the first run: read the map, read the attitudes CSV, open the DEM, build the
+  session (attitude elevations from the DEM, spatial indexes) and run section A;
+* ~50 moves of the line (random shifts of up to 300 m and turns of up to 8
+  degrees of section A): the median time to re-project the dips, and the
+  median time of the whole re-run (profile, surface geology, dips);
+* for comparison, the dip projection over all attitudes without the index.
+
+Times are printed as ratios against the first run, measured in the same run.
+Targets: dips <= 50 ms, whole re-run <= 150 ms.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+DIPS_TARGET_S = 0.050
+RERUN_TARGET_S = 0.150
+
+
+def _default_project() -> Path:
+    return Path(__file__).resolve().parents[2] / "sample_area" / "project.toml"
+
+
+def _write_attitudes(path: Path, project, n: int, rng: np.random.Generator) -> None:
+    """N attitudes over the DEM's extent, bedding of the sample model at the ground."""
+    from mapsection.dem import Dem
+    from mapsection.sample import SAMPLE_MODEL
+
+    with Dem.open(project.dem_path) as dem:
+        left, bottom, right, top = dem.bounds
+        x = rng.uniform(left, right, n)
+        y = rng.uniform(bottom, top, n)
+        z = dem.sample(x, y)
+    z = np.where(np.isfinite(z), z, np.nanmean(z))
+    strike, dip = SAMPLE_MODEL.bedding_at(x, y, z)
+    strike = np.asarray(strike, float) % 360.0
+    dip = np.clip(np.asarray(dip, float), 0.0, 90.0)
+    data = np.column_stack([x, y, strike, dip, np.arange(1, n + 1)])
+    np.savetxt(path, data, delimiter=",", fmt=["%.2f", "%.2f", "%.2f", "%.2f", "%d"],
+               header="x,y,strike,dip,id", comments="")
+
+
+def _moved(base: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+    c = base.mean(axis=0)
+    t = np.radians(rng.uniform(-8.0, 8.0))
+    rot = np.array([[np.cos(t), -np.sin(t)], [np.sin(t), np.cos(t)]])
+    return (base - c) @ rot.T + c + rng.uniform(-300.0, 300.0, 2)
+
+
+def main(argv: list[str] | None = None) -> int:
+    p = argparse.ArgumentParser(prog="python -m mapsection.bench move", description=__doc__,
+                                formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("--project", type=Path, default=_default_project(),
+                   help="project file (default: the sample area's)")
+    p.add_argument("--section", default=None, help="section name (default: the first)")
+    p.add_argument("--attitudes", type=int, default=100_000, help="number of attitudes")
+    p.add_argument("--moves", type=int, default=50, help="number of moves")
+    p.add_argument("--seed", type=int, default=11)
+    args = p.parse_args(argv)
+
+    from mapsection.attitudes import read_attitudes
+    from mapsection.dem import Dem
+    from mapsection.dips import project_attitudes
+    from mapsection.geology import surface_geology
+    from mapsection.mapdata import read_map
+    from mapsection.profile import profile
+    from mapsection.project import load_project
+    from mapsection.session import SectionSession
+
+    if not args.project.exists():
+        print(f"mapsection.bench move: error: {args.project}: no project file (generate the "
+              "sample area first: python sample_area/generate.py)", file=sys.stderr)
+        return 2
+    project = load_project(args.project)
+    spec = project.section(args.section) if args.section else project.sections[0]
+    rng = np.random.default_rng(args.seed)
+    said: list[str] = []
+    with tempfile.TemporaryDirectory() as tmp:
+        csv = Path(tmp) / "attitudes.csv"
+        _write_attitudes(csv, project, args.attitudes, rng)
+
+        t0 = time.perf_counter()
+        map_data = read_map(project.map_path, project.units_layer, project.unit_field,
+                            project.faults_layer, project.fault_fields, crs=project.crs,
+                            warn=said.append)
+        attitudes = read_attitudes(csv, crs=project.crs, warn=said.append)
+        dem = Dem.open(project.dem_path)
+        session = SectionSession(dem, map_data, attitudes, spec.corridor, spec.projection,
+                                 warn=said.append)
+        from mapsection.line import SectionLine
+
+        base = SectionLine(np.asarray(spec.line, float), project.crs, spec.name)
+        first_data = session.run(base)
+        first = time.perf_counter() - t0
+
+    lines = [session._as_line(_moved(base.vertices, rng)) for _ in range(args.moves)]
+    session.move(lines[0])  # warm-up: first call of each code path
+    t_dips, t_whole, t_scan, n_dips, t_prof, t_geo = [], [], [], [], [], []
+    for line in lines:
+        t = time.perf_counter()
+        dips = session.project_dips(line)
+        t_dips.append(time.perf_counter() - t)
+        n_dips.append(len(dips))
+        t = time.perf_counter()
+        prof = profile(session.dem, line, session.step, warn=said.append)
+        t_prof.append(time.perf_counter() - t)
+        t = time.perf_counter()
+        surface_geology(session.map_data, line, prof, warn=said.append)
+        t_geo.append(time.perf_counter() - t)
+        t = time.perf_counter()
+        session.move(line)
+        t_whole.append(time.perf_counter() - t)
+    for line in lines[:10]:
+        t = time.perf_counter()
+        project_attitudes(session.attitudes, line, session.corridor, method=session.projection,
+                          axis=session.axis, warn=said.append)
+        t_scan.append(time.perf_counter() - t)
+    session.close()
+
+    dips_med = statistics.median(t_dips)
+    whole_med = statistics.median(t_whole)
+    scan_med = statistics.median(t_scan)
+    print(f"project {args.project.name}, section {spec.name}, corridor {spec.corridor:g} m, "
+          f"{args.attitudes} attitudes, {args.moves} moves")
+    print(f"first run (read map + attitudes CSV + open DEM + session + run): {first:.3f} s; "
+          f"{len(first_data.geology.intervals)} unit intervals, {len(first_data.dips)} dips")
+    print(f"median dips re-projection after a move: {1e3 * dips_med:.1f} ms "
+          f"(ratio to first run {dips_med / first:.4f}; target <= {1e3 * DIPS_TARGET_S:.0f} ms;"
+          f" median {int(np.median(n_dips))} dips in the corridor)")
+    print(f"median whole re-run (profile, surface geology, dips): {1e3 * whole_med:.1f} ms "
+          f"(ratio to first run {whole_med / first:.4f}; target <= "
+          f"{1e3 * RERUN_TARGET_S:.0f} ms; of which profile "
+          f"{1e3 * statistics.median(t_prof):.1f} ms, surface geology "
+          f"{1e3 * statistics.median(t_geo):.1f} ms)")
+    print(f"dips over all attitudes without the index: {1e3 * scan_med:.1f} ms "
+          f"(index speed-up x{scan_med / dips_med:.1f})")
+    ok = dips_med <= DIPS_TARGET_S and whole_med <= RERUN_TARGET_S
+    print("targets met" if ok else "TARGETS MISSED")
+    return 0 if ok else 1

@@ -1,0 +1,273 @@
+"""Build draft sections from a project file and write every output of each section.
+
+For each section of the project (or the one named), :func:`build_project` writes a
+folder ``OUTDIR/<section name>/`` holding
+
+- ``section.gpkg`` -- the section in section space (see :mod:`mapsection.export`);
+- ``section_3d.gpkg`` -- the ground, horizons and faults as LineString Z in the
+  project CRS;
+- ``section.png``, ``section.svg``, ``section.pdf`` -- the figure
+  (see :mod:`mapsection.figure`);
+- ``build.log`` -- what the construction did and every warning it gave;
+- ``checks.json`` and ``report.html`` -- the balance checks, when available.
+
+Each folder is written into a temporary sibling and replaces a previous build
+only once every file of the new one is complete: a failed build leaves the
+previous folder untouched.
+
+The map, the DEM and the attitudes are read once per project and shared by all
+its sections.
+
+Example::
+
+    from mapsection.build import build_project
+    folders = build_project("sample_area/project.toml", "out")   # out/A/, out/B/
+"""
+
+from __future__ import annotations
+
+import contextlib
+import sys
+import time
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import CAUTION, __version__
+from ._atomic import atomic_dir, atomic_file
+from .draft import Draft
+from .errors import OutputError, ParameterError
+from .line import SectionLine
+from .project import METHODS, Project, SectionSpec, load_project
+
+Warn = Callable[[str], None]
+STAGES = ("load", "section data", "construction", "checks", "figures", "geopackages")
+
+
+def _default_warn(message: str) -> None:
+    print(f"mapsection: warning: {message}", file=sys.stderr)
+
+
+@contextlib.contextmanager
+def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
+    """Add the wall time of the block to ``timings[name]`` (when timings are kept)."""
+    t0 = time.perf_counter()
+    try:
+        yield
+    finally:
+        if timings is not None:
+            timings[name] = timings.get(name, 0.0) + time.perf_counter() - t0
+
+
+@dataclass(eq=False)
+class ProjectInputs:
+    """The project's map, attitudes and open DEM, read once for all its sections."""
+
+    map_data: Any
+    attitudes: Any
+    dem: Any
+    _axis: Any = None
+
+    def axis(self) -> Any:
+        """The fold axis of all attitudes (Woodcock 1977), for plunge projection."""
+        if self._axis is None:
+            from .foldaxis import fold_axis
+
+            self._axis = fold_axis(np.asarray(self.attitudes.strike, float),
+                                   np.asarray(self.attitudes.dip, float))
+        return self._axis
+
+    def close(self) -> None:
+        self.dem.close()
+
+
+def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
+    """Read the map and the attitudes and open the DEM of a project (once)."""
+    from .attitudes import read_attitudes
+    from .dem import Dem
+    from .mapdata import read_map
+
+    warn = warn or _default_warn
+    map_data = read_map(project.map_path, project.units_layer, project.unit_field,
+                        project.faults_layer, project.fault_fields, crs=project.crs, warn=warn)
+    project.column.check_map_units(
+        map_data.unit_list, source=f"{project.map_path.name}: layer {project.units_layer!r}")
+    attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
+                               layer=project.attitudes_layer, fields=project.attitude_fields,
+                               crs=project.crs, warn=warn)
+    return ProjectInputs(map_data, attitudes, Dem.open(project.dem_path))
+
+
+def _check_options(method: str | None, ve: float | None) -> None:
+    if method is not None and method not in METHODS:
+        raise ParameterError(f"method {method!r}: must be one of {', '.join(METHODS)}")
+    if ve is not None and not (np.isfinite(ve) and ve > 0):
+        raise ParameterError(f"vertical exaggeration: must be a number > 0, got {ve!r}")
+
+
+def build_section(project: Project, spec: SectionSpec | str, *, method: str | None = None,
+                  ve: float | None = None, warn: Warn | None = None,
+                  inputs: ProjectInputs | None = None,
+                  timings: dict[str, float] | None = None) -> Draft:
+    """Construct the draft of one section of a project.
+
+    ``method`` (``kink`` or ``arc``) and ``ve`` override the section's settings.
+    ``inputs`` (from :func:`load_inputs`) share the loaded map, attitudes and DEM
+    between sections; without them they are read for this section alone.
+    """
+    from .construct import build_draft
+    from .session import SectionSession
+
+    _check_options(method, ve)
+    if isinstance(spec, str):
+        spec = project.section(spec)
+    warn = warn or _default_warn
+    line = SectionLine(np.asarray(spec.line, float), project.crs, spec.name)
+    with _stage(timings, "section data"):
+        if inputs is None:
+            session = SectionSession.from_project(project, spec, warn)
+        else:
+            axis = inputs.axis() if spec.projection == "plunge" else None
+            session = SectionSession(inputs.dem, inputs.map_data, inputs.attitudes,
+                                     spec.corridor, spec.projection, axis, warn=warn)
+        try:
+            data = session.run(line)
+        finally:
+            if inputs is None:
+                session.close()
+    with _stage(timings, "construction"):
+        return build_draft(
+            data.line, data.profile, data.geology, data.dips, project.column,
+            name=spec.name, method=method or spec.method, ve=ve or spec.ve,
+            dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
+            default_dip=spec.default_dip, warn=warn)
+
+
+def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:
+    lines = [
+        f"mapsection {__version__} build of section {draft.name}",
+        f"method: {draft.method}; vertical exaggeration: {draft.ve:g}",
+        f"section line: {len(draft.line.vertices)} vertices, {draft.line.length:.1f} m",
+        f"horizons: {len(draft.horizons)}; faults: {len(draft.faults)}; "
+        f"unit polygons: {len(draft.units)}; dip domains: {len(draft.domains)}",
+        "",
+        *draft.log,
+    ]
+    if warnings:
+        lines += ["", "warnings:", *[f"  {w}" for w in warnings]]
+    lines += ["", f"CAUTION: {CAUTION}"]
+    with atomic_file(path) as tmp:
+        tmp.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None, *,
+                          extra_layers: dict | None = None, warnings: list[str] = (),
+                          timings: dict[str, float] | None = None) -> list[Path]:
+    """Write section.gpkg, section_3d.gpkg, section.png/.svg/.pdf and build.log in ``folder``."""
+    from .export import write_section_3d, write_section_gpkg
+    from .figure import draw_section
+
+    folder = Path(folder)
+    if not folder.is_dir():
+        raise OutputError(f"{folder}: output folder does not exist")
+    with _stage(timings, "geopackages"):
+        out = [write_section_gpkg(draft, folder / "section.gpkg", extra_layers),
+               write_section_3d(draft, folder / "section_3d.gpkg")]
+    with _stage(timings, "figures"):
+        out += draw_section(draft, folder / "section", map_data)
+    out.append(write_build_log(draft, folder / "build.log", list(warnings)))
+    return out
+
+
+def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpec,
+                  warn: Warn | None = None) -> list[Path]:
+    """CHECKS CALL POINT: run the balance checks and write checks.json and report.html.
+
+    Skipped (with a note in the log) while :mod:`mapsection.checks` does not
+    provide ``run_checks``. A failed test is a result and is written like a pass.
+    """
+    try:
+        from .checks import run_checks
+        from .report import write_report
+    except ImportError as exc:
+        draft.log.append(f"checks not run: {exc}")
+        return []
+    import json
+
+    try:
+        report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
+    except ModuleNotFoundError as exc:
+        # While the checks package is incomplete, build without it (said in the log).
+        if not (exc.name or "").startswith(("mapsection.checks", "mapsection.report")):
+            raise
+        draft.log.append(f"checks not run: {exc}")
+        (warn or _default_warn)(f"checks not run: {exc}")
+        return []
+    text = json.dumps(report.to_dict(), indent=2, allow_nan=False)
+    checks = folder / "checks.json"
+    with atomic_file(checks) as tmp:
+        tmp.write_text(text + "\n", encoding="utf-8")
+    figures = {"section": folder / "section.png"}
+    for name in ("restored", "area_depth"):
+        if (folder / f"{name}.png").exists():
+            figures[name] = folder / f"{name}.png"
+    report_path = write_report(folder / "report.html", draft, report, figures)
+    return [checks, report_path]
+
+
+def build_project(project_path: str | Path, outdir: str | Path, *, section: str | None = None,
+                  method: str | None = None, ve: float | None = None, warn: Warn | None = None,
+                  timings: dict[str, float] | None = None) -> list[Path]:
+    """Build every section of a project (or the one named) into ``outdir/<name>/``.
+
+    Returns the section folders written. ``timings``, when given, receives the wall
+    time of each stage (see ``STAGES``).
+    """
+    _check_options(method, ve)
+    warn = warn or _default_warn
+    with _stage(timings, "load"):
+        project = load_project(project_path)
+        specs = [project.section(section)] if section is not None else list(project.sections)
+        outdir = Path(outdir)
+        if outdir.exists() and not outdir.is_dir():
+            raise OutputError(f"{outdir}: exists and is not a folder")
+        try:
+            outdir.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise OutputError(f"{outdir}: cannot create the output folder ({exc.strerror})") \
+                from None
+        inputs = load_inputs(project, warn)
+    folders = []
+    try:
+        for spec in specs:
+            said: list[str] = []
+
+            def section_warn(message: str, _said=said, _name=spec.name) -> None:
+                _said.append(message)
+                warn(f"section {_name}: {message}")
+
+            target = outdir / _folder_name(spec.name)
+            with atomic_dir(target) as tmp:
+                draft = build_section(project, spec, method=method, ve=ve, warn=section_warn,
+                                      inputs=inputs, timings=timings)
+                write_section_outputs(draft, tmp, inputs.map_data, warnings=said,
+                                      timings=timings)
+                # --- checks: checks.json and report.html (integration point) ---
+                with _stage(timings, "checks"):
+                    _write_checks(tmp, draft, project, spec, section_warn)
+                write_build_log(draft, tmp / "build.log", said)  # again, with the checks' notes
+            folders.append(target)
+    finally:
+        inputs.close()
+    return folders
+
+
+def _folder_name(name: str) -> str:
+    """A section name as a folder name (path separators and the like replaced)."""
+    bad = '<>:"/\\|?*'
+    clean = "".join("_" if c in bad or ord(c) < 32 else c for c in name).strip().strip(".")
+    return clean or "section"

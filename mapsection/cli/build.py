@@ -1,0 +1,47 @@
+"""``mapsection build``: draft sections of a project, with figures, GeoPackages and checks."""
+
+from __future__ import annotations
+
+import click
+
+from .. import CAUTION
+from ..project import METHODS
+from ._common import note, warn
+
+
+@click.command(
+    "build",
+    epilog=f"CAUTION: {CAUTION}",
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
+@click.argument("project", metavar="PROJECT.toml", type=click.Path(dir_okay=False))
+@click.option("-o", "--output", "outdir", required=True, metavar="OUTDIR",
+              help="Folder receiving one sub-folder per section (created if missing).")
+@click.option("--section", metavar="NAME", help="Build only the section of this name.")
+@click.option("--method", type=click.Choice(METHODS),
+              help="Construction method for every section [default: each section's own].")
+@click.option("--ve", type=click.FloatRange(min=0.0, min_open=True), metavar="FACTOR",
+              help="Vertical exaggeration of the figures [default: each section's own, 1].")
+def command(project: str, outdir: str, section: str | None, method: str | None,
+            ve: float | None) -> None:
+    """Construct the draft section of each section line of a project and write its outputs.
+
+    For every [[section]] of PROJECT.toml (or the one named with --section), the
+    beds are carried to depth by the kink-band (dip-domain) method or by Busk arcs,
+    and OUTDIR/<section name>/ receives: section.gpkg (the section in section space:
+    x = distance along the line, y = elevation, in metres), section_3d.gpkg (the
+    same horizons and faults as 3D lines in the project CRS), section.png/.svg/.pdf
+    (the figure), build.log, and checks.json with report.html (the balance checks).
+    A previous build of a section is replaced only once the new one is complete.
+
+    \b
+    Example (the sample area):
+      mapsection build sample_area/project.toml -o out
+      mapsection build sample_area/project.toml -o out --section B --method arc --ve 2
+    """
+    from ..build import build_project
+
+    folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn)
+    for folder in folders:
+        click.echo(str(folder))
+    note(f"built {len(folders)} section(s); each is a draft to be reviewed")

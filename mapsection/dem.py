@@ -1,0 +1,260 @@
+"""A digital elevation model read lazily, block by block, from a raster file.
+
+:class:`Dem` samples ground elevation at map points by bilinear interpolation
+between pixel centres. It decodes only the internal blocks (tiles or strips)
+of the raster that the points need and keeps them decoded, so a long section
+line across a large DEM reads a few dozen blocks, and moving the line nearby
+reads few or none again.
+"""
+
+from __future__ import annotations
+
+import os
+from collections import OrderedDict
+from functools import lru_cache
+from pathlib import Path
+
+import numpy as np
+import pyproj
+import rasterio
+from rasterio.errors import RasterioIOError
+from rasterio.windows import Window
+
+from .errors import DEMError
+
+# Strips wider than this are cached in pieces of this many columns, so that a
+# line crossing a strip-organised raster keeps only the parts it needs.
+_MAX_BLOCK_WIDTH = 1024
+_PIECE_WIDTH = 512
+
+
+@lru_cache(maxsize=64)
+def _transformer(src_wkt: str, dst_wkt: str) -> pyproj.Transformer | None:
+    """A transformer between two CRSs, built once per pair; None when they are the same."""
+    src, dst = pyproj.CRS.from_wkt(src_wkt), pyproj.CRS.from_wkt(dst_wkt)
+    if src == dst:
+        return None
+    return pyproj.Transformer.from_crs(src, dst, always_xy=True)
+
+
+def _crs_key(crs: pyproj.CRS | str) -> str:
+    return pyproj.CRS(crs).to_wkt()
+
+
+class Dem:
+    """A single-band elevation raster (metres), opened read-only.
+
+    Attributes: ``path``, ``crs`` (pyproj.CRS), ``transform`` (affine),
+    ``pixel_size`` (the smaller side of a pixel, in metres; for a geographic DEM
+    measured on the ellipsoid at the DEM's centre), ``nodata``, ``bounds``
+    (left, bottom, right, top in the DEM's CRS), ``width``, ``height``.
+
+    ``cache_bytes`` bounds the decoded blocks kept between calls (least recently
+    used go first); one call always keeps every block it needs.
+    """
+
+    def __init__(self, path: str | os.PathLike, *, cache_bytes: int = 512 * 2**20) -> None:
+        self.path = Path(path)
+        if not self.path.exists():
+            raise DEMError(f"{self.path}: no such DEM file")
+        if self.path.is_dir():
+            raise DEMError(f"{self.path}: is a folder, not a DEM raster")
+        try:
+            ds = rasterio.open(self.path)
+        except RasterioIOError as exc:
+            first = str(exc).splitlines()[0] if str(exc) else "unknown format"
+            raise DEMError(f"{self.path}: not a readable raster ({first})") from None
+        try:
+            self._check(ds)
+        except DEMError:
+            ds.close()
+            raise
+        self._ds = ds
+        self.crs = pyproj.CRS.from_wkt(ds.crs.to_wkt())
+        self._crs_wkt = self.crs.to_wkt()
+        self.transform = ds.transform
+        self._inverse = ~ds.transform
+        self.nodata = ds.nodata
+        self.bounds = ds.bounds
+        self.width, self.height = ds.width, ds.height
+        self._scale = float(ds.scales[0]) if ds.scales else 1.0
+        self._offset = float(ds.offsets[0]) if ds.offsets else 0.0
+        bh, bw = ds.block_shapes[0]
+        if bw >= self.width and bw > _MAX_BLOCK_WIDTH:
+            bw = _PIECE_WIDTH  # a strip: cache it in pieces (GDAL decodes the strip once)
+        self.block_shape = (int(bh), int(bw))
+        self._nbcols = -(-self.width // self.block_shape[1])
+        src = np.dtype(ds.dtypes[0])
+        wide = src.itemsize > 4 or src in (np.dtype("int32"), np.dtype("uint32"))
+        self._dtype = np.dtype("float64") if wide else np.dtype("float32")
+        self._capacity = max(int(cache_bytes // (bh * bw * self._dtype.itemsize)), 1)
+        self._pool = np.empty((0, bh, bw), self._dtype)  # decoded blocks, one per slot
+        self._slots: OrderedDict[int, int] = OrderedDict()  # block id -> slot, LRU order
+        self.blocks_read = 0  # decoded blocks, for tests and benchmarks
+        self.pixel_size = self._pixel_size_m()
+
+    @classmethod
+    def open(cls, path: str | os.PathLike, **kwargs) -> Dem:
+        """Open ``path``; DEMError naming the file if it is missing, not a raster, or has no CRS."""
+        return cls(path, **kwargs)
+
+    def _check(self, ds) -> None:
+        if ds.count < 1:
+            raise DEMError(f"{self.path}: raster has no bands")
+        if ds.crs is None:
+            raise DEMError(f"{self.path}: the DEM has no CRS; assign one (e.g. gdal_edit -a_srs)")
+        if ds.transform.is_identity:
+            raise DEMError(f"{self.path}: the DEM has no georeferencing (identity transform)")
+
+    # --- context manager -------------------------------------------------
+    def close(self) -> None:
+        self._ds.close()
+
+    def __enter__(self) -> Dem:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    def __repr__(self) -> str:
+        return f"Dem({str(self.path)!r}, {self.width}x{self.height}, {self.pixel_size:.3g} m)"
+
+    @property
+    def cached_blocks(self) -> set[tuple[int, int]]:
+        """(block row, block column) of every block held decoded."""
+        return {divmod(b, self._nbcols) for b in self._slots}
+
+    # --- measures ----------------------------------------------------------
+    def _pixel_size_m(self) -> float:
+        t = self.transform
+        xres, yres = float(np.hypot(t.a, t.d)), float(np.hypot(t.b, t.e))
+        if self.crs.is_geographic:
+            # Degrees to metres on the DEM's ellipsoid at the DEM's centre.
+            geod = self.crs.get_geod() or pyproj.Geod(ellps="WGS84")
+            cx, cy = t @ (self.width / 2.0, self.height / 2.0)
+            lon = np.array([cx, cx + t.a, cx + t.b])
+            lat = np.array([cy, cy + t.d, cy + t.e])
+            _, _, dist = geod.inv(lon[[0, 0]], lat[[0, 0]], lon[1:], lat[1:])
+            return float(min(dist))
+        factor = self.crs.axis_info[0].unit_conversion_factor if self.crs.axis_info else 1.0
+        return min(xres, yres) * float(factor)
+
+    # --- sampling ----------------------------------------------------------
+    def sample(self, x, y, crs: pyproj.CRS | str | None = None) -> np.ndarray:
+        """Elevation at map points by bilinear interpolation between pixel centres.
+
+        ``x``, ``y`` are in ``crs`` (default: the DEM's) and are transformed to
+        the DEM's CRS with pyproj. NaN where a point lies outside the DEM or any
+        of its four neighbouring pixels is nodata. Points between the outermost
+        pixel centres and the raster edge take the edge pixels' values.
+        """
+        return self._sample(x, y, crs)[0]
+
+    def inside(self, x, y, crs: pyproj.CRS | str | None = None) -> np.ndarray:
+        """True where points fall within the raster's footprint."""
+        col, row = self._pixel_coords(x, y, crs)
+        return self._inside(col, row)
+
+    def _pixel_coords(self, x, y, crs) -> tuple[np.ndarray, np.ndarray]:
+        x = np.asarray(x, dtype=float)
+        y = np.asarray(y, dtype=float)
+        if crs is not None:
+            tr = _transformer(_crs_key(crs), self._crs_wkt)
+            if tr is not None:
+                x, y = tr.transform(x, y)
+                x, y = np.asarray(x, float), np.asarray(y, float)
+        inv = self._inverse
+        col = inv.a * x + inv.b * y + inv.c
+        row = inv.d * x + inv.e * y + inv.f
+        return col, row
+
+    def _inside(self, col: np.ndarray, row: np.ndarray) -> np.ndarray:
+        with np.errstate(invalid="ignore"):
+            return (col >= 0) & (col <= self.width) & (row >= 0) & (row <= self.height)
+
+    def _sample(self, x, y, crs) -> tuple[np.ndarray, np.ndarray]:
+        col, row = self._pixel_coords(x, y, crs)
+        shape = col.shape
+        col, row = col.ravel(), row.ravel()
+        inside = self._inside(col, row)
+        z = np.full(col.shape, np.nan)
+        if inside.any():
+            z[inside] = self._bilinear(col[inside], row[inside])
+        return z.reshape(shape), inside.reshape(shape)
+
+    def _bilinear(self, col: np.ndarray, row: np.ndarray) -> np.ndarray:
+        # Pixel centres sit at half-integer pixel coordinates.
+        c, r = col - 0.5, row - 0.5
+        c0f, r0f = np.floor(c), np.floor(r)
+        fx, fy = c - c0f, r - r0f
+        c0 = np.clip(c0f.astype(np.int64), 0, self.width - 1)
+        r0 = np.clip(r0f.astype(np.int64), 0, self.height - 1)
+        c1 = np.clip(c0f.astype(np.int64) + 1, 0, self.width - 1)
+        r1 = np.clip(r0f.astype(np.int64) + 1, 0, self.height - 1)
+        rows = np.stack([r0, r0, r1, r1])
+        cols = np.stack([c0, c1, c0, c1])
+        vals = self._values(rows, cols)
+        top = vals[0] * (1 - fx) + vals[1] * fx
+        bottom = vals[2] * (1 - fx) + vals[3] * fx
+        return top * (1 - fy) + bottom * fy
+
+    def _values(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        """Pixel values (NaN for nodata) at integer pixel indices, decoding blocks as needed."""
+        bh, bw = self.block_shape
+        bid = (rows // bh) * self._nbcols + cols // bw
+        # Sorted distinct block ids (np.unique would do, at the cost of more work per call).
+        s = np.sort(bid, axis=None)
+        needed = s[np.concatenate([[True], s[1:] != s[:-1]])]
+        slots = self._ensure(needed)
+        where = np.searchsorted(needed, bid)
+        return self._pool[slots[where], rows % bh, cols % bw].astype(float)
+
+    def _ensure(self, needed: np.ndarray) -> np.ndarray:
+        """Slots of the blocks ``needed`` (sorted ids), decoding those not cached."""
+        missing = [int(b) for b in needed if int(b) not in self._slots]
+        for b in needed:  # mark as recently used
+            if int(b) in self._slots:
+                self._slots.move_to_end(int(b))
+        if missing:
+            free = self._free_slots(len(missing), keep=len(needed) - len(missing))
+            for b, slot in zip(missing, free, strict=True):
+                self._decode(b, slot)
+                self._slots[b] = slot
+        return np.fromiter((self._slots[int(b)] for b in needed), np.int64, len(needed))
+
+    def _free_slots(self, n: int, keep: int) -> list[int]:
+        """``n`` slots for new blocks: evict least recently used, grow the pool if needed."""
+        used = len(self._slots)
+        n_evict = max(0, min(used - keep, used + n - self._capacity))
+        free = [self._slots.popitem(last=False)[1] for _ in range(n_evict)]
+        in_use = set(self._slots.values()) | set(free)
+        free += [s for s in range(len(self._pool)) if s not in in_use][: n - len(free)]
+        short = n - len(free)
+        if short > 0:
+            start = len(self._pool)
+            grow = max(short, min(start, self._capacity - start))
+            extra = np.empty((grow, *self._pool.shape[1:]), self._dtype)
+            self._pool = np.concatenate([self._pool, extra]) if start else extra
+            free += list(range(start, start + short))
+        return free
+
+    def _decode(self, block_id: int, slot: int) -> None:
+        bh, bw = self.block_shape
+        bi, bj = divmod(block_id, self._nbcols)
+        r0, c0 = bi * bh, bj * bw
+        h, w = min(bh, self.height - r0), min(bw, self.width - c0)
+        data = self._ds.read(1, window=Window(c0, r0, w, h))
+        self.blocks_read += 1
+        out = self._pool[slot]
+        out[:h, :w] = data
+        if h < bh or w < bw:
+            out[h:, :] = np.nan
+            out[:, w:] = np.nan
+        if self.nodata is not None:
+            if np.isnan(self.nodata):
+                pass  # NaN stays NaN
+            else:
+                out[:h, :w][data == self.nodata] = np.nan
+        if self._scale != 1.0 or self._offset != 0.0:
+            out[:h, :w] *= self._scale
+            out[:h, :w] += self._offset

@@ -1,0 +1,244 @@
+"""A section session: the map, the DEM and the attitudes loaded once, the line moved many times.
+
+While choosing a section line the geologist moves it again and again. A
+:class:`SectionSession` reads every file once, keeps the open DEM (which caches
+its decoded blocks), the map with its STRtrees and the attitudes with their
+ground elevations and a spatial index, so that :meth:`SectionSession.move`
+re-runs the profile, the surface geology and the dip projection without
+reading any file again::
+
+    from mapsection.project import load_project
+    from mapsection.session import SectionSession
+
+    project = load_project("sample_area/project.toml")
+    session = SectionSession.from_project(project, project.sections[0])
+    data = session.run()                       # the section line of the project file
+    data = session.move([[x1, y1], [x2, y2]])  # a new line, same CRS and name
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+import sys
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import pyproj
+import shapely
+from shapely import STRtree
+
+from .errors import LineError, ParameterError
+from .geology import SurfaceGeology, same_crs, surface_geology
+from .line import SectionLine
+from .mapdata import MapData, read_map
+from .profile import Profile
+
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from .attitudes import Attitudes
+    from .dem import Dem
+    from .dips import ProjectedDips
+    from .project import Project, SectionSpec
+
+Warn = Callable[[str], None]
+PROJECTIONS = ("perpendicular", "strike", "plunge")
+
+
+def _default_warn(message: str) -> None:
+    print(f"mapsection: warning: {message}", file=sys.stderr)
+
+
+@dataclass(frozen=True, eq=False)
+class SectionData:
+    """Everything the map, the DEM and the attitudes say along one section line."""
+
+    line: SectionLine
+    profile: Profile
+    geology: SurfaceGeology
+    dips: ProjectedDips
+
+
+class SectionSession:
+    """Loaded inputs of one section, ready to be re-run for any line.
+
+    ``dem`` is an open :class:`mapsection.dem.Dem` (or a path, opened here);
+    ``attitudes`` get their ground elevation sampled from the DEM once, here,
+    where they have none. ``corridor`` is the half-width in metres of the strip
+    of attitudes projected; ``projection`` is ``perpendicular``, ``strike`` or
+    ``plunge`` (the latter needs ``axis``, a fold axis); ``step`` is the profile
+    sample spacing (default: the profile's own).
+    """
+
+    def __init__(self, dem: Dem | str | os.PathLike, map_data: MapData, attitudes: Attitudes,
+                 corridor: float, projection: str = "perpendicular", axis: Any = None,
+                 step: float | None = None, warn: Warn | None = None):
+        from .dem import Dem
+
+        if not (isinstance(corridor, int | float) and np.isfinite(corridor) and corridor > 0):
+            raise ParameterError(f"corridor: must be a number > 0 m, got {corridor!r}")
+        if projection not in PROJECTIONS:
+            raise ParameterError(f"projection: must be one of {', '.join(PROJECTIONS)}, "
+                                 f"got {projection!r}")
+        if projection == "plunge" and axis is None:
+            raise ParameterError("projection 'plunge': needs a fold axis")
+        if step is not None and not step > 0:
+            raise ParameterError(f"step: must be > 0 m, got {step!r}")
+        self.dem = dem if isinstance(dem, Dem) else Dem.open(dem)
+        self.map_data = map_data
+        self.corridor = float(corridor)
+        self.projection = projection
+        self.axis = axis
+        self.step = step
+        self.warn = warn or _default_warn
+        crs = map_data.crs if map_data.crs is not None else getattr(attitudes, "crs", None)
+        self.crs = pyproj.CRS(crs) if crs is not None and not isinstance(crs, pyproj.CRS) else crs
+        self.line: SectionLine | None = None
+        self.attitudes = self._with_elevations(attitudes)
+        # Index of the attitude points: a move only looks at the points near the new line.
+        self._points = shapely.points(np.asarray(self.attitudes.x, float),
+                                      np.asarray(self.attitudes.y, float))
+        self._tree = STRtree(self._points)
+        self._warm_dem()
+
+    # --- loading --------------------------------------------------------------------------
+    def _with_elevations(self, attitudes: Attitudes) -> Attitudes:
+        """Attitudes with z from the DEM where they carry none (sampled once, vectorised)."""
+        z = np.asarray(attitudes.z, float) if attitudes.z is not None else None
+        if z is not None and len(z) == len(attitudes) and np.all(np.isfinite(z)):
+            return attitudes
+        ground = np.asarray(self.dem.sample(np.asarray(attitudes.x, float),
+                                            np.asarray(attitudes.y, float),
+                                            crs=getattr(attitudes, "crs", None)), float)
+        if z is None or len(z) != len(attitudes):
+            z = ground
+        else:
+            z = np.where(np.isfinite(z), z, ground)
+        off = int(np.count_nonzero(~np.isfinite(z)))
+        if off:
+            self.warn(f"attitudes: {off} of {len(attitudes)} lie off the DEM (no elevation)")
+        return dataclasses.replace(attitudes, z=z)
+
+    def _warm_dem(self, budget_bytes: int = 256 * 2**20) -> None:
+        """Decode the DEM blocks under the map once, so that moves within it read no file.
+
+        Skipped when those blocks would exceed ``budget_bytes``; the DEM's own
+        block cache then reads each new block once, the first time a line needs it.
+        """
+        bounds = self.map_data.units.total_bounds if len(self.map_data.units) else None
+        if bounds is None or not np.all(np.isfinite(bounds)):
+            return
+        px = float(self.dem.pixel_size)
+        bh, bw = getattr(self.dem, "block_shape", (256, 256))
+        left, bottom, right, top = bounds
+        n_px = ((right - left) / px + 2 * bw) * ((top - bottom) / px + 2 * bh)
+        if not np.isfinite(n_px) or n_px * 4 > budget_bytes:
+            return
+        # One sample per half block reaches every block under the map.
+        spacing = 0.5 * px * min(bh, bw)
+        gx = np.arange(left, right + spacing, spacing)
+        gy = np.arange(bottom, top + spacing, spacing)
+        xx, yy = np.meshgrid(gx, gy)
+        self.dem.sample(xx.ravel(), yy.ravel(), crs=self.map_data.crs)
+
+    @classmethod
+    def from_project(cls, project: Project, spec: SectionSpec | str,
+                     warn: Warn | None = None) -> SectionSession:
+        """Open the DEM, read the map and the attitudes of a project, for one section."""
+        from .attitudes import read_attitudes
+        from .dem import Dem
+
+        if isinstance(spec, str):
+            spec = project.section(spec)
+        warn = warn or _default_warn
+        map_data = read_map(project.map_path, project.units_layer, project.unit_field,
+                            project.faults_layer, project.fault_fields, crs=project.crs,
+                            warn=warn)
+        project.column.check_map_units(
+            map_data.unit_list, source=f"{project.map_path.name}: layer {project.units_layer!r}")
+        attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
+                                   layer=project.attitudes_layer, fields=project.attitude_fields,
+                                   crs=project.crs, warn=warn)
+        axis = None
+        if spec.projection == "plunge":
+            from .foldaxis import fold_axis
+
+            axis = fold_axis(np.asarray(attitudes.strike, float), np.asarray(attitudes.dip, float))
+        dem = Dem.open(project.dem_path)
+        try:
+            session = cls(dem, map_data, attitudes, spec.corridor, spec.projection, axis,
+                          warn=warn)
+        except BaseException:
+            dem.close()
+            raise
+        session.line = session._as_line(SectionLine(np.asarray(spec.line, float), project.crs,
+                                                    spec.name))
+        return session
+
+    def close(self) -> None:
+        self.dem.close()
+
+    def __enter__(self) -> SectionSession:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    # --- running --------------------------------------------------------------------------
+    def _as_line(self, line: SectionLine | np.ndarray | Sequence | None) -> SectionLine:
+        if line is None:
+            if self.line is None:
+                raise LineError("section session: no section line given yet")
+            return self.line
+        if isinstance(line, SectionLine):
+            if line.crs is not self.crs and (line.crs is None or same_crs(line.crs, self.crs)):
+                # The session's own CRS object: later CRS comparisons are identity checks.
+                return SectionLine(line.vertices, self.crs, line.name)
+            return line
+        vertices = np.asarray(line, float)
+        if self.line is not None:
+            return self.line.moved(vertices)
+        return SectionLine(vertices, self.crs)
+
+    def near(self, line: SectionLine) -> np.ndarray:
+        """Indices of the attitudes that may lie within the corridor of the line.
+
+        A cheap superset from the STRtree: the line is cut into pieces about one
+        corridor long and the envelope of each piece, widened by the corridor, is
+        queried (envelopes only, no distance test). The projection then applies the
+        exact corridor to these few points instead of to every attitude.
+        """
+        if not same_crs(line.crs, self.crs):
+            line = line.to_crs(self.crs)
+        c = self.corridor
+        d = line.densify(max(c, line.length / 2000.0))
+        x, y = line.point_at(d)
+        pad = c * (1 + 1e-9) + 1e-6
+        boxes = shapely.box(np.minimum(x[:-1], x[1:]) - pad, np.minimum(y[:-1], y[1:]) - pad,
+                            np.maximum(x[:-1], x[1:]) + pad, np.maximum(y[:-1], y[1:]) + pad)
+        hit = np.zeros(len(self._points), bool)
+        hit[self._tree.query(boxes)[1]] = True
+        return np.flatnonzero(hit)
+
+    def project_dips(self, line: SectionLine) -> ProjectedDips:
+        """The attitudes of the corridor projected into the section plane of ``line``."""
+        from .dips import project_attitudes
+
+        return project_attitudes(self.attitudes.subset(self.near(line)), line, self.corridor,
+                                 method=self.projection, axis=self.axis, warn=self.warn)
+
+    def run(self, line: SectionLine | np.ndarray | Sequence | None = None) -> SectionData:
+        """Profile, surface geology and projected dips along ``line`` (default: the current one)."""
+        from .profile import profile
+
+        line = self._as_line(line)
+        prof = profile(self.dem, line, self.step, warn=self.warn)
+        geology = surface_geology(self.map_data, line, prof, warn=self.warn)
+        dips = self.project_dips(line)
+        self.line = line
+        return SectionData(line, prof, geology, dips)
+
+    def move(self, new_line: SectionLine | np.ndarray | Sequence) -> SectionData:
+        """Re-run for a moved line (a SectionLine or its vertices); reads no file."""
+        return self.run(self._as_line(new_line))

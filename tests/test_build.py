@@ -1,0 +1,173 @@
+"""``mapsection build`` / ``demo``: folder layout, whole replacement, failure leaves the old build.
+
+Runs on the invented sample area (self-consistency); the file formats are checked
+with their own readers (pyogrio for GeoPackage, Pillow for PNG, the XML parser
+for SVG).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import pyogrio
+import pytest
+from click.testing import CliRunner
+from PIL import Image
+
+from mapsection.cli.main import cli
+from mapsection.errors import ConstructionError, ParameterError
+
+SAMPLE = Path(__file__).resolve().parents[1] / "sample_area" / "project.toml"
+needs_sample = pytest.mark.skipif(not SAMPLE.is_file(), reason="sample area not generated")
+FILES = {"section.gpkg", "section_3d.gpkg", "section.png", "section.svg", "section.pdf",
+         "build.log"}
+
+
+def _digest(folder: Path) -> dict[str, str]:
+    return {p.name: hashlib.sha256(p.read_bytes()).hexdigest() for p in sorted(folder.iterdir())}
+
+
+@pytest.fixture(scope="module")
+def built(tmp_path_factory):
+    from mapsection.build import build_project
+
+    out = tmp_path_factory.mktemp("build") / "out"
+    timings: dict[str, float] = {}
+    folders = build_project(SAMPLE, out, warn=lambda m: None, timings=timings)
+    return out, folders, timings
+
+
+@needs_sample
+def test_folder_layout(built):
+    from mapsection.project import load_project
+
+    out, folders, timings = built
+    names = [s.name for s in load_project(SAMPLE).sections]
+    assert [f.name for f in folders] == names
+    assert sorted(p.name for p in out.iterdir()) == sorted(names)  # no temporary leftovers
+    for folder in folders:
+        files = {p.name for p in folder.iterdir()}
+        assert FILES <= files
+        layers = dict(pyogrio.list_layers(folder / "section.gpkg"))
+        for layer in ("profile", "surface_geology", "dips", "horizons", "faults", "units"):
+            assert layer in layers
+        info = pyogrio.read_info(folder / "section.gpkg", layer="horizons")
+        assert {"top_of", "above_ground", "block"} <= set(info["fields"])
+        assert info["features"] > 0
+        info3 = pyogrio.read_info(folder / "section_3d.gpkg", layer="horizons")
+        assert info3["geometry_type"] == "LineString Z" and info3["crs"] == "EPSG:32611"
+        assert Image.open(folder / "section.png").size[0] > 1000
+        svg = ET.parse(folder / "section.svg").getroot()
+        n_h = sum(1 for el in svg.iter() if (el.get("id") or "").startswith("horizon-"))
+        assert n_h == info["features"]
+        log = (folder / "build.log").read_text(encoding="utf-8")
+        assert f"section {folder.name}" in log and "CAUTION" in log
+        if "checks.json" in files:
+            checks = json.loads((folder / "checks.json").read_text(encoding="utf-8"))
+            assert {"topography", "restoration", "area_balance", "kinematics"} <= set(checks)
+            assert (folder / "report.html").is_file()
+    assert set(timings) >= {"load", "section data", "construction", "figures", "geopackages"}
+
+
+@needs_sample
+def test_rebuild_replaces_the_folder_whole(built):
+    from mapsection.build import build_project
+
+    out, _, _ = built
+    stray = out / "A" / "left over.txt"
+    stray.write_text("from an older build", encoding="utf-8")
+    before_b = _digest(out / "B")
+    build_project(SAMPLE, out, section="A", warn=lambda m: None)
+    assert not stray.exists()
+    assert FILES <= {p.name for p in (out / "A").iterdir()}
+    assert _digest(out / "B") == before_b  # the other section is not touched
+    assert sorted(p.name for p in out.iterdir()) == ["A", "B"]
+
+
+@needs_sample
+def test_failed_build_keeps_the_previous_folder(built, monkeypatch):
+    import mapsection.construct
+
+    out, _, _ = built
+    before = _digest(out / "A")
+
+    def fail(*args, **kwargs):
+        raise ConstructionError("section A: contradictory contacts at 1200 m and 3400 m")
+
+    monkeypatch.setattr(mapsection.construct, "build_draft", fail)
+    result = CliRunner().invoke(cli, ["build", str(SAMPLE), "-o", str(out), "--section", "A"])
+    assert result.exit_code == 2
+    err = [ln for ln in result.output.splitlines() if ln.startswith("mapsection: error:")]
+    assert err == ["mapsection: error: section A: contradictory contacts at 1200 m and 3400 m"]
+    assert "Traceback" not in result.output
+    assert _digest(out / "A") == before
+    assert sorted(p.name for p in out.iterdir()) == ["A", "B"]  # no temporary folder left
+
+
+def test_unknown_method_is_refused(tmp_path):
+    result = CliRunner().invoke(cli, ["build", str(SAMPLE), "-o", str(tmp_path / "o"),
+                                      "--method", "spline"])
+    assert result.exit_code == 2
+    assert "spline" in result.output and "kink" in result.output
+    assert not (tmp_path / "o").exists()
+    from mapsection.build import build_project
+
+    with pytest.raises(ParameterError, match="method 'spline'"):
+        build_project(SAMPLE, tmp_path / "o", method="spline")
+    with pytest.raises(ParameterError, match="vertical exaggeration"):
+        build_project(SAMPLE, tmp_path / "o", ve=0.0)
+    assert not (tmp_path / "o").exists()
+
+
+def test_unknown_section_and_missing_project(tmp_path):
+    runner = CliRunner()
+    result = runner.invoke(cli, ["build", str(tmp_path / "nope.toml"), "-o", str(tmp_path)])
+    assert result.exit_code == 2 and "nope.toml" in result.output
+    if SAMPLE.is_file():
+        result = runner.invoke(cli, ["build", str(SAMPLE), "-o", str(tmp_path / "o"),
+                                     "--section", "Z"])
+        assert result.exit_code == 2 and "no section named 'Z'" in result.output
+
+
+def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
+    import mapsection.build
+    import mapsection.cli.demo as demo
+    import mapsection.sample
+
+    calls = []
+
+    def fake_build(project, outdir, **kw):
+        calls.append(Path(project))
+        assert Path(project).is_file()
+        return [Path(outdir) / "A"]
+
+    monkeypatch.setattr(mapsection.build, "build_project", fake_build)
+    runner = CliRunner()
+    if SAMPLE.is_file():
+        result = runner.invoke(cli, ["demo", "-o", str(tmp_path / "d")])
+        assert result.exit_code == 0, result.output
+        assert calls[-1] == SAMPLE
+        assert "CAUTION" in result.output and str(tmp_path / "d" / "A") in result.output
+
+    def fake_generate(folder):
+        p = Path(folder) / "project.toml"
+        p.write_text("# generated\n", encoding="utf-8")
+        return {"project.toml": p}
+
+    monkeypatch.setattr(demo, "sample_project", lambda: None)
+    monkeypatch.setattr(mapsection.sample, "generate", fake_generate)
+    result = runner.invoke(cli, ["demo", "-o", str(tmp_path / "d")])
+    assert result.exit_code == 0, result.output
+    assert calls[-1].name == "project.toml" and calls[-1].parent != SAMPLE.parent
+
+
+def test_help_carries_the_caution():
+    from mapsection import CAUTION
+
+    for name in ("build", "demo"):
+        result = CliRunner().invoke(cli, [name, "--help"])
+        assert result.exit_code == 0
+        assert " ".join(CAUTION.split()[:6]) in " ".join(result.output.split())

@@ -1,0 +1,168 @@
+"""`mapsection check` end to end on the sample area (self-consistency; invented data).
+
+The sample area is an invented structural model (mapsection.sample); its map, DEM and
+attitudes are generated from it, so a good construction must pass all four tests, and
+the flawed variant (one unit 40 % too thick) must miss the mapped contacts. The
+hand-thinned horizon is checked against the restored area, thickness x length
+(Epard & Groshong 1993, AAPG Bull. 77: area is conserved in plane strain).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import shutil
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import shapely
+from click.testing import CliRunner
+from shapely.geometry import LineString
+
+from mapsection.cli.main import cli
+from mapsection.project import load_project
+
+SAMPLE = Path(__file__).resolve().parents[1] / "sample_area"
+PROJECT = SAMPLE / "project.toml"
+FLAWED = SAMPLE / "project_flawed.toml"
+
+
+def _run(*args):
+    return CliRunner().invoke(cli, [str(a) for a in args])
+
+
+def _rows(output: str) -> dict[str, str]:
+    """test name -> PASS/FAIL from the printed table (last section printed wins)."""
+    out = {}
+    for line in output.splitlines():
+        parts = line.split()
+        if len(parts) >= 2 and parts[1] in ("PASS", "FAIL"):
+            out[parts[0]] = parts[1]
+    return out
+
+
+@pytest.fixture(scope="module")
+def built(tmp_path_factory):
+    out = tmp_path_factory.mktemp("build") / "out"
+    res = _run("build", PROJECT, "-o", out, "--section", "A")
+    assert res.exit_code in (0, 1), res.output
+    return out / "A"
+
+
+def test_sample_area_passes():
+    res = _run("check", PROJECT)
+    rows = _rows(res.stdout)
+    assert rows == dict.fromkeys(("topography", "restoration", "area_balance", "kinematics"),
+                                 "PASS"), res.output
+    assert res.stdout.count("PASS") == 8  # two sections, four tests each
+    assert res.exit_code == 0, res.output
+
+
+def test_flawed_variant_fails_topography():
+    # The Merrin Siltstone 40 % too thick: the horizons below it miss their contacts.
+    res = _run("check", FLAWED, "--section", "A")
+    assert res.exit_code == 1, res.output
+    assert _rows(res.stdout)["topography"] == "FAIL", res.output
+
+
+def test_unedited_file_passes_like_the_build(built):
+    res = _run("check", PROJECT, "--from", built / "section.gpkg")
+    assert res.exit_code == 0, res.output
+    assert "method edited" in res.stdout
+
+
+def _thin_one_unit(src: Path, dst: Path, unit: str, thickness: float, share: float = 0.25):
+    """Lower the top of ``unit`` by share x thickness (perpendicular) over the middle half of
+    its longest below-ground piece, as a geologist dragging vertices in a GIS would."""
+    shutil.copy(src, dst)
+    frames = {name: gpd.read_file(dst, layer=name) for name in ("horizons",)}
+    hz = frames["horizons"]
+    below = ~hz["above_ground"].astype(bool)
+    cand = hz[(hz["top_of"] == unit) & below]
+    i = cand.geometry.length.idxmax()
+    c = shapely.get_coordinates(hz.geometry[i]).copy()
+    x0, x1 = c[:, 0].min(), c[:, 0].max()
+    lo, hi = x0 + 0.25 * (x1 - x0), x0 + 0.75 * (x1 - x0)
+    # Densify first, so the stretch has vertices to move.
+    line = LineString(c).segmentize(20.0)
+    c = shapely.get_coordinates(line).copy()
+    slope = np.gradient(c[:, 1], c[:, 0])
+    move = (c[:, 0] >= lo) & (c[:, 0] <= hi)
+    # Perpendicular thinning t x share: vertical shift t x share / cos(dip) (plane geometry).
+    c[move, 1] -= share * thickness * np.sqrt(1.0 + slope[move] ** 2)
+    hz.loc[i, "geometry"] = LineString(c)
+    hz.to_file(dst, layer="horizons", driver="GPKG")
+    return hi - lo
+
+
+def test_hand_thinned_unit_fails_area_balance(built, tmp_path):
+    project = load_project(PROJECT)
+    # The deepest unit whose top and whose base (the next top) are both drawn below ground.
+    names = project.column.names
+    hz = gpd.read_file(built / "section.gpkg", layer="horizons")
+    tops = set(hz.loc[~hz["above_ground"].astype(bool), "top_of"])
+    unit = next(u for u, nxt in zip(names[-2::-1], names[:0:-1], strict=True)
+                if u in tops and nxt in tops)
+    edited = tmp_path / "A" / "section.gpkg"
+    edited.parent.mkdir()
+    stretch = _thin_one_unit(built / "section.gpkg", edited, unit,
+                             project.column.unit(unit).thickness)
+    assert stretch > 1000.0
+    before = hashlib.sha256(edited.read_bytes()).hexdigest()
+    res = _run("check", PROJECT, "--from", edited)
+    assert res.exit_code == 1, res.output
+    assert _rows(res.stdout)["area_balance"] == "FAIL", res.output
+    assert unit in res.stdout  # the table names the worst unit
+    # The check never modifies its input.
+    assert hashlib.sha256(edited.read_bytes()).hexdigest() == before
+
+
+def test_from_file_without_horizons(tmp_path):
+    bad = tmp_path / "A" / "section.gpkg"
+    bad.parent.mkdir()
+    gpd.GeoDataFrame({"name": ["x"]}, geometry=[LineString([(0, 0), (1, 1)])]).to_file(
+        bad, layer="profile", driver="GPKG")
+    res = _run("check", PROJECT, "--from", bad)
+    assert res.exit_code == 2
+    lines = [ln for ln in res.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1 and "horizons" in lines[0] and "section.gpkg" in lines[0], res.stderr
+
+
+def test_from_section_with_no_horizons(built, tmp_path):
+    empty = tmp_path / "A" / "section.gpkg"
+    empty.parent.mkdir()
+    shutil.copy(built / "section.gpkg", empty)
+    hz = gpd.read_file(empty, layer="horizons")
+    hz.iloc[0:0].to_file(empty, layer="horizons", driver="GPKG")
+    res = _run("check", PROJECT, "--from", empty)
+    assert res.exit_code == 2, res.output
+    lines = [ln for ln in res.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1 and "horizons" in lines[0], res.stderr
+
+
+def test_threshold_out_of_range(tmp_path):
+    # Paths made absolute so the copied project file still finds the sample data.
+    text = PROJECT.read_text("utf-8")
+    for name in ("dem.tif", "geology.gpkg", "attitudes.csv"):
+        text = text.replace(f'"{name}"', f'"{(SAMPLE / name).as_posix()}"')
+    bad = tmp_path / "project.toml"
+    bad.write_text(text + "\n[checks]\ndip_rms_deg = 120.0\n", "utf-8")
+    res = _run("check", bad, "--section", "A")
+    assert res.exit_code == 2
+    assert "dip_rms_deg" in res.stderr and len(res.stderr.strip().splitlines()) == 1
+
+
+def test_from_needs_a_section_when_ambiguous(built, tmp_path):
+    loose = tmp_path / "edited.gpkg"
+    shutil.copy(built / "section.gpkg", loose)
+    import pyogrio
+
+    # Without the file's own record of its section, the folder name is not a section.
+    layers = [r[0] for r in pyogrio.list_layers(loose)]
+    meta = pyogrio.read_info(loose, layer=layers[0]).get("dataset_metadata") or {}
+    if meta.get("mapsection_section"):
+        res = _run("check", PROJECT, "--from", loose)
+        assert res.exit_code == 0, res.output  # inferred from the file's record
+    res = _run("check", PROJECT, "--from", loose, "--section", "nosuch")
+    assert res.exit_code == 2 and "nosuch" in res.stderr

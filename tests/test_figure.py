@@ -1,0 +1,214 @@
+"""The section figure: not blank, countable in SVG, dips drawn with the section's VE.
+
+The draft used here is built by hand from the draft dataclasses (invented data,
+self-consistency) so that the figure is tested apart from the construction.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import xml.etree.ElementTree as ET
+
+import geopandas as gpd
+import numpy as np
+import pytest
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from PIL import Image
+from shapely.geometry import LineString, box
+
+from mapsection.colours import chart_colour, fault_kind, unit_colours
+from mapsection.dips import ProjectedDips
+from mapsection.draft import AxialSurface, Draft, FaultTrace, Horizon, UnitPolygon
+from mapsection.figure import draw_section, nice_length, section_figure, ve_text
+from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
+from mapsection.line import SectionLine
+from mapsection.profile import Profile
+from mapsection.stratigraphy import Column, Unit
+
+APPARENT = np.array([10.0, -20.0, 35.0, 0.0, 60.0, -75.0])
+
+
+def hand_draft(ve: float = 1.0) -> Draft:
+    """A small invented draft with a bend, a normal fault, 4 horizons and 6 dips."""
+    line = SectionLine(np.array([[1000.0, 2000.0], [4000.0, 6000.0], [8000.0, 6000.0]]),
+                       "EPSG:32611", "A")
+    d = line.densify(50.0)
+    x, y = line.point_at(d)
+    z = 800 + 60 * np.sin(d / 900.0)
+    prof = Profile(d, x, y, z, line, line.crs, 10.0)
+    col = Column((Unit("Tu", 150.0, age="Eocene", lithology="sandstone"),
+                  Unit("Km", 200.0, "#88cc44"), Unit("Jl", 300.0)))
+    length = line.length
+    slope = math.tan(math.radians(3.0))
+    hz = [Horizon(n, LineString([(0, top), (length, top - length * slope)]), False, 0)
+          for n, top in zip(col.names, [900.0, 750.0, 550.0], strict=True)]
+    hz.append(Horizon("Tu", LineString([(0, 1000), (2000, 950)]), True, 0))
+    units = [UnitPolygon("Tu", box(0, 600, length / 2, 800)),
+             UnitPolygon("Km", box(0, 300, length, 600)),
+             UnitPolygon("Jl", box(0, 0, length, 300), 1)]
+    n = len(APPARENT)
+    dd = np.linspace(500, length - 500, n)
+    dx, dy = line.point_at(dd)
+    dips = ProjectedDips(np.array([f"d{i}" for i in range(n)]), dx, dy, dd,
+                         np.linspace(-200, 200, n), prof.elevation_at(dd), np.full(n, 30.0),
+                         np.abs(APPARENT), APPARENT.copy(),
+                         np.arange(n) == 2, np.zeros(n, bool))
+    zc = float(prof.elevation_at(np.array([3000.0]))[0])
+    zf = float(prof.elevation_at(np.array([4000.0]))[0])
+    geo = SurfaceGeology((UnitInterval(0, 3000, "Tu"), UnitInterval(3000, length, "Km")),
+                         (Contact(3000.0, zc, "Tu", "Km"),),
+                         (FaultCrossing(4000.0, zf, 60.0, 90.0, 55.0, "normal", "Fa"),))
+    fault = FaultTrace("Fa", LineString([(4000, zf), (4700, -200)]), 60.0, 90.0, 55.0,
+                       "normal", {"Km": -120.0})
+    axial = AxialSurface(LineString([(2500, 900), (2600, 0)]), 2510.0, 5.0, 20.0)
+    return Draft("A", "kink", line, prof, geo, dips, col, hz, [fault], units, [], [axial], [],
+                 ve, 0.0, ["built by hand"])
+
+
+def hand_map(draft: Draft):
+    from mapsection.mapdata import MapData
+
+    v = draft.line.vertices
+    (x0, y0), (x1, y1) = v.min(0) - 2000, v.max(0) + 2000
+    xm = (x0 + x1) / 2
+    units = gpd.GeoDataFrame({"unit": ["Tu", "Km", "Jl"]},
+                             geometry=[box(x0, y0, xm, y1), box(xm, y0, x1, (y0 + y1) / 2),
+                                       box(xm, (y0 + y1) / 2, x1, y1)], crs=draft.line.crs)
+    faults = gpd.GeoDataFrame({"dip": [60.0, 30.0], "dip_direction": [90.0, 0.0],
+                               "sense": ["normal", "thrust"], "name": ["Fa", "Fb"]},
+                              geometry=[LineString([(5000, 1000), (5200, 9000)]),
+                                        LineString([(x0, 4500), (x1, 4800)])],
+                              crs=draft.line.crs)
+    return MapData(units, "unit", faults, {k: k for k in ("dip", "dip_direction", "sense",
+                                                          "name")})
+
+
+def _gids(svg_path, prefix: str) -> set[str]:
+    root = ET.parse(svg_path).getroot()
+    pat = re.compile(rf"^{prefix}-\d+$")
+    return {el.get("id") for el in root.iter() if pat.match(el.get("id") or "")}
+
+
+@pytest.fixture(scope="module")
+def written(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("fig")
+    draft = hand_draft(2.0)
+    paths = draw_section(draft, folder / "section", hand_map(draft))
+    return draft, paths
+
+
+def test_three_formats_written(written):
+    draft, paths = written
+    assert [p.suffix for p in paths] == [".png", ".svg", ".pdf"]
+    assert all(p.stat().st_size > 1000 for p in paths)
+    assert paths[2].read_bytes()[:5] == b"%PDF-"  # PDF magic number (ISO 32000)
+
+
+def test_png_is_not_blank(written):
+    _, paths = written
+    img = np.asarray(Image.open(paths[0]).convert("RGB"))
+    assert img.shape[0] > 500 and img.shape[1] > 1000
+    colours = np.unique(img.reshape(-1, 3), axis=0)
+    assert len(colours) > 50  # fills, lines, antialiased text
+    assert img.std() > 20
+    # Not white where the section is: the unit fills cover a real share of the page.
+    non_white = np.any(img < 235, axis=-1).mean()
+    assert non_white > 0.1
+
+
+def test_svg_counts_horizons_and_dip_ticks(written):
+    draft, paths = written
+    assert _gids(paths[1], "horizon") == {f"horizon-{i}" for i in range(len(draft.horizons))}
+    assert _gids(paths[1], "dip") == {f"dip-{i}" for i in range(len(draft.dips))}
+    assert _gids(paths[1], "fault") == {"fault-0"}
+
+
+def test_svg_states_ve_names_ends_and_caution(written):
+    _, paths = written
+    text = paths[1].read_text(encoding="utf-8")
+    assert "V.E. 2×" in text
+    assert "A′" in text and "bearing 036.9°" in text  # first segment (3000, 4000): atan2
+    assert "bearing 090.0°" in text
+    assert "qualified geologist" in text
+    assert "Location (geologic map)" in text
+
+
+@pytest.mark.parametrize("ve", [1.0, 2.0])
+def test_dip_ticks_drawn_at_exaggerated_angle(ve):
+    # Vertical exaggeration of a dip: tan(a') = VE * tan(a) (the standard relation,
+    # e.g. Ragan, Structural Geology: An Introduction to Geometrical Techniques).
+    draft = hand_draft(ve)
+    fig = section_figure(draft)
+    FigureCanvasAgg(fig).draw()  # applies the axes aspect
+    ax = fig.axes[0]
+    ticks = {ln.get_gid(): ln for ln in ax.get_lines() if (ln.get_gid() or "").startswith("dip-")}
+    assert len(ticks) == len(APPARENT)
+    for i, a in enumerate(APPARENT):
+        xy = ax.transData.transform(np.asarray(ticks[f"dip-{i}"].get_xydata()))
+        (x0, y0), (x1, y1) = xy
+        on_page = math.degrees(math.atan2(-(y1 - y0), x1 - x0))  # positive: down to the right
+        assert on_page == pytest.approx(math.degrees(math.atan(ve * math.tan(math.radians(a)))),
+                                        abs=0.05)
+    # The axes' box has the section's shape times VE: same screen scale for x and y/VE.
+    sx = ax.transData.transform([[1000.0, 0.0]])[0, 0] - ax.transData.transform([[0.0, 0.0]])[0, 0]
+    sy = ax.transData.transform([[0.0, 1000.0]])[0, 1] - ax.transData.transform([[0.0, 0.0]])[0, 1]
+    assert sy / sx == pytest.approx(ve, rel=1e-3)
+
+
+def test_ve_statement():
+    assert ve_text(1.0) == "Vertical exaggeration 1:1"
+    assert ve_text(2.0) == "V.E. 2×"
+    fig = section_figure(hand_draft(1.0))
+    texts = [t.get_text() for ax in fig.axes for t in ax.texts]
+    assert "Vertical exaggeration 1:1" in texts
+
+
+def test_scale_bar_length_is_round():
+    assert nice_length(9000.0) == 1000.0
+    assert nice_length(26000.0) == 5000.0
+    assert nice_length(1200.0) == 200.0
+
+
+def test_colours_project_then_chart_then_palette():
+    # CGMW/ICS International Chronostratigraphic Chart colours, values from memory:
+    # Jurassic RGB 52/178/201, Early Cretaceous 140/205/87, Eocene 253/180/108.
+    assert chart_colour("Jurassic") == "#34b2c9"
+    assert chart_colour("Early Cretaceous") == chart_colour("Lower Cretaceous") == "#8ccd57"
+    assert chart_colour("Palaeogene") == chart_colour("Paleogene")
+    assert chart_colour("Jurassic limestone") == "#34b2c9"
+    assert chart_colour("no such age") is None
+    col = Column((Unit("a", 1.0, "#123456", age="Jurassic"), Unit("b", 1.0, age="Eocene"),
+                  Unit("c", 1.0), Unit("d", 1.0)))
+    c = unit_colours(col, ["off-column"])
+    assert c["a"] == "#123456" and c["b"] == "#fdb46c"
+    assert len({c["c"], c["d"], c["off-column"]}) == 3
+
+
+def test_fault_kinds():
+    assert fault_kind("Thrust") == "thrust"
+    assert fault_kind("reverse") == "reverse"
+    assert fault_kind("normal") == "normal"
+    assert fault_kind("strike-slip") is None and fault_kind(None) is None
+
+
+def test_normal_fault_half_arrows_show_hanging_wall_down():
+    # Section-view sense (FGDC-STD-013-2006 style): the hanging-wall arrow points down the dip.
+    fig = section_figure(hand_draft(1.0))
+    ax = fig.axes[0]
+    arrows = [ln.get_xydata() for ln in ax.get_lines() if ln.get_gid() == "fault-0-motion"]
+    assert len(arrows) == 2
+    # Fault descends to +x, so its hanging wall lies on the +x side: the arrow on that
+    # side has its tip (point 1) lower than its tail (point 0).
+    hw = max(arrows, key=lambda a: a[:, 0].mean())
+    fw = min(arrows, key=lambda a: a[:, 0].mean())
+    assert hw[1, 1] < hw[0, 1]
+    assert fw[1, 1] > fw[0, 1]
+
+
+def test_bad_format_is_refused(tmp_path):
+    from mapsection.errors import ParameterError
+
+    with pytest.raises(ParameterError, match="tiff"):
+        draw_section(hand_draft(), tmp_path / "s", formats=("tiff",))
+    assert not list(tmp_path.iterdir())
