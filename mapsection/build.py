@@ -204,7 +204,6 @@ def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpe
         # While the checks package is incomplete, build without it (said in the log).
         if not (exc.name or "").startswith(("mapsection.checks", "mapsection.report")):
             raise
-        draft.log.append(f"checks not run: {exc}")
         (warn or _default_warn)(f"checks not run: {exc}")
         return []
     text = json.dumps(report.to_dict(), indent=2, allow_nan=False)

@@ -211,7 +211,8 @@ def _write_layers(path: Path, frames: dict[str, gpd.GeoDataFrame], types: dict[s
                     warnings.filterwarnings("ignore", message=".*crs.*not provided")
                     pyogrio.write_dataframe(
                         frame, tmp, layer=name, driver="GPKG", geometry_type=gtype,
-                        promote_to_multi=False, append=not first,
+                        promote_to_multi=bool(gtype and gtype.startswith("Multi")),
+                        append=not first,
                         dataset_metadata=metadata if first else None)
             except Exception as exc:  # disk full, bad path: one line naming the file
                 raise OutputError(f"{path}: cannot write layer {name!r} "

@@ -344,8 +344,9 @@ def _legend(fig: Figure, draft: Draft, palette: dict[str, str], fh: float) -> No
     lax.set_axis_off()
     handles = []
     for u in draft.column.units:  # youngest first = top of the legend
-        extra = ", ".join(x for x in (u.age, u.lithology) if x)
-        label = f"{u.name} ({extra})" if extra else u.name
+        label = f"{u.name} ({u.age})" if u.age else u.name
+        if len(label) > 38:
+            label = label[:37] + "…"
         handles.append(Patch(facecolor=palette[u.name], edgecolor="#333333", linewidth=0.4,
                              label=label))
     handles += [
@@ -448,8 +449,9 @@ def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str], fh: flo
     iax.set_yticks([])
     iax.set_title("Location (geologic map)", fontsize=8)
     # North arrow: grid north of the project CRS.
-    iax.annotate("N", xy=(0.93, 0.93), xytext=(0.93, 0.78), xycoords="axes fraction",
+    iax.annotate("N", xy=(0.93, 0.95), xytext=(0.93, 0.8), xycoords="axes fraction",
                  ha="center", va="center", fontsize=7,
+                 bbox={"boxstyle": "round,pad=0.1", "facecolor": "white", "linewidth": 0},
                  arrowprops={"arrowstyle": "-|>", "linewidth": 0.8, "color": "black"})
 
 
@@ -474,6 +476,8 @@ def draw_section(draft: Draft, path_stem: str | os.PathLike, map_data=None, *,
             meta = {"Date": None} if fmt in ("svg", "pdf") else None
             # Text stays text (editable in a vector editor, searchable in the SVG).
             with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}):
-                fig.savefig(tmp, format=fmt, dpi=PNG_DPI, metadata=meta)
+                fig.savefig(tmp, format=fmt, dpi=PNG_DPI, metadata=meta,
+                            # Lighter PNG compression: a little larger, much faster.
+                            **({"pil_kwargs": {"compress_level": 3}} if fmt == "png" else {}))
         out.append(path)
     return out

@@ -37,7 +37,8 @@ from shapely.geometry import LineString
 
 from .stratigraphy import Column, Unit
 
-__all__ = ["SampleModel", "SAMPLE_MODEL", "SECTIONS", "generate", "DEFAULT_SEED"]
+__all__ = ["SampleModel", "SAMPLE_MODEL", "SECTIONS", "generate", "DEFAULT_SEED", "bilinear",
+           "project_text", "model_summary"]
 
 DEFAULT_SEED = 20240611
 CRS = "EPSG:32611"
@@ -72,7 +73,8 @@ def _plane_attitude(normal: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     n = np.where(normal[..., 2:3] < 0, -normal, normal)  # upward normal
     n = n / np.linalg.norm(n, axis=-1, keepdims=True)
     dip = np.degrees(np.arccos(np.clip(n[..., 2], -1.0, 1.0)))
-    dipdir = np.degrees(np.arctan2(n[..., 0], n[..., 1])) % 360.0  # the upward normal leans down-dip
+    # The upward normal leans toward the dip direction.
+    dipdir = np.degrees(np.arctan2(n[..., 0], n[..., 1])) % 360.0
     return (dipdir - 90.0) % 360.0, dip
 
 
@@ -258,18 +260,54 @@ class SampleModel:
         names = np.array([None] + self.column.names + [self.basement], dtype=object)
         return names[idx + 1]
 
+    @functools.cached_property
+    def _family_grid(self) -> tuple[np.ndarray, np.ndarray] | None:
+        """The family as (ncurves, nvertices) arrays when every curve has the same
+        vertices (no dip domain vanishes within the column), else None."""
+        if len({len(fu) for fu, _ in self._family}) != 1:
+            return None
+        return (np.array([fu for fu, _ in self._family]),
+                np.array([fv for _, fv in self._family]))
+
     def profile_dip_at(self, x, y, z) -> np.ndarray:
         """Signed bedding dip in the profile plane (+: descends toward the foreland)."""
         u, v, _ = self._restored(x, y, z)
-        u = np.atleast_1d(u)
-        v = np.atleast_1d(v)
-        slope = np.full(u.shape, np.nan)
-        for fu, fv in self._family:  # top to bottom: the last curve above the point wins
-            above = np.interp(u, fu, fv) >= v
-            seg = np.clip(np.searchsorted(fu, u) - 1, 0, len(fu) - 2)
-            s = (fv[seg + 1] - fv[seg]) / (fu[seg + 1] - fu[seg])
-            slope = np.where(above, s, slope)
-        return -np.degrees(np.arctan(slope)).reshape(np.shape(x))
+        shape = np.shape(u)
+        u, v = np.ravel(u), np.ravel(v)
+        grid = self._family_grid
+        if grid is None:  # general case: one pass per curve of the family
+            slope = np.full(u.shape, np.nan)
+            for fu, fv in self._family:  # top to bottom: the last curve above wins
+                seg = np.clip(np.searchsorted(fu, u) - 1, 0, len(fu) - 2)
+                s = (fv[seg + 1] - fv[seg]) / (fu[seg + 1] - fu[seg])
+                slope = np.where(np.interp(u, fu, fv) >= v, s, slope)
+        else:
+            fu, fv = grid
+
+            def on_curve(j):
+                """(elevation, slope) of curve j (per point) at u."""
+                uj, vj = fu[j], fv[j]
+                seg = np.clip((uj <= u[:, None]).sum(axis=1) - 1, 0, fu.shape[1] - 2)
+                rows = np.arange(len(u))
+                u0, u1 = uj[rows, seg], uj[rows, seg + 1]
+                v0, v1 = vj[rows, seg], vj[rows, seg + 1]
+                s = (v1 - v0) / (u1 - u0)
+                return v0 + (u - u0) * s, s
+
+            # Curves are ordered top to bottom and never cross: bisect for the
+            # deepest curve at or above each point.
+            lo = np.zeros(len(u), int)
+            hi = np.full(len(u), len(fu) - 1)
+            top_ok = on_curve(lo)[0] >= v
+            while np.any(hi - lo > 1):
+                mid = (lo + hi) // 2
+                above = on_curve(mid)[0] >= v
+                lo = np.where(above, mid, lo)
+                hi = np.where(above, hi, mid)
+            last_ok = on_curve(hi)[0] >= v
+            j = np.where(last_ok, hi, lo)
+            slope = np.where(top_ok, on_curve(j)[1], np.nan)
+        return -np.degrees(np.arctan(slope)).reshape(shape)
 
     def bedding_at(self, x, y, z) -> tuple[np.ndarray, np.ndarray]:
         """True bedding (strike RHR, dip) at 3D points (vectorised)."""
@@ -277,6 +315,17 @@ class SampleModel:
         phi = -np.radians(self.profile_dip_at(x, y, z))[..., None]  # slope angle in (u, v)
         along = np.cos(phi) * uhat + np.sin(phi) * what
         return _plane_attitude(np.cross(axis, along))
+
+    def section_truth(self, vertices, distances) -> dict[str, dict[str, np.ndarray]]:
+        """True horizons under a section line: ``{top_of: {"hanging_wall": z,
+        "footwall": z}}`` at ``distances`` (metres along the polyline ``vertices``
+        in the map CRS), NaN where a block does not hold the horizon. The base of
+        the column is included under the basement's name."""
+        line = LineString(np.asarray(vertices, float))
+        pts = shapely.line_interpolate_point(line, np.asarray(distances, float))
+        x, y = shapely.get_x(pts), shapely.get_y(pts)
+        return {name: {b: self.horizon_elevation(name, x, y, block=b)
+                       for b in ("hanging_wall", "footwall")} for name in self.horizons}
 
     def hinge_u(self) -> list[tuple[str, float]]:
         """(block, u) of each axial surface at the top of the column (profile plane)."""
@@ -286,6 +335,7 @@ class SampleModel:
 
 
 SAMPLE_MODEL = SampleModel()
+
 
 # Section lines of the sample area, built from the model's frame so that they
 # run across the structure (hinterland to foreland).
@@ -314,8 +364,7 @@ _VALLEYS = ((-3_400.0, 330.0, 0.4), (-900.0, 300.0, 2.1), (1_700.0, 360.0, 4.0),
             (4_100.0, 280.0, 5.3))
 
 
-def dem_surface(model: SampleModel, x, y, rng: np.random.Generator | None = None,
-                noise: np.ndarray | None = None) -> np.ndarray:
+def dem_surface(model: SampleModel, x, y, noise: np.ndarray | None = None) -> np.ndarray:
     """Smooth analytic relief at map points: a range descending to the north-east and
     the foreland, cut by meandering transverse valleys (``noise`` is added as given)."""
     u, a = model.to_profile(x, y)

@@ -1,6 +1,6 @@
 """Benchmark: the profile of a ~100 km section line across a large tiled DEM.
 
-``python -m mapsection.bench profile [--size 16000] [--keep] [--repeat 3] [--dem PATH]``
+``python -m mapsection.bench profile [--size 16000] [--keep] [--repeat 5] [--dem PATH]``
 
 Builds a 256 x 256-tiled, deflate-compressed float32 GeoTIFF of SIZE x SIZE
 cells of 10 m (smooth synthetic terrain, written one row of tiles at a time)
@@ -17,16 +17,16 @@ method profits from another's GDAL block cache:
 
 Every timing includes opening the raster and excludes the Python imports.
 Memory is measured two ways per method, each in its own process: the rise of
-the process's peak resident set (``ru_maxrss`` minus the resident set just
-before the method; includes GDAL's own block cache) and the tracemalloc peak
-(numpy and Python allocations only).
+the process's peak resident set over the resident set just before the method
+(Linux ``VmHWM`` after resetting it; includes GDAL's own block cache and every
+library allocation) and the tracemalloc peak (numpy and Python allocations
+only).
 """
 
 from __future__ import annotations
 
 import argparse
 import json
-import resource
 import shutil
 import statistics
 import subprocess
@@ -116,12 +116,23 @@ def _bilinear_full(arr: np.ndarray, x: np.ndarray, y: np.ndarray) -> np.ndarray:
     return (z00 * (1 - fx) + z01 * fx) * (1 - fy) + (z10 * (1 - fx) + z11 * fx) * fy
 
 
-def _rss_kib() -> int:
+def _status_kib(key: str) -> int:
+    """A memory figure of this process from /proc/self/status (Linux), in KiB."""
     with open("/proc/self/status") as f:
         for line in f:
-            if line.startswith("VmRSS:"):
+            if line.startswith(key + ":"):
                 return int(line.split()[1])
     return 0
+
+
+def _reset_peak_rss() -> None:
+    # Reset the resident-set high-water mark to the current resident set (Linux >= 4.0), so
+    # that the peak seen afterwards belongs to the method alone.
+    try:
+        with open("/proc/self/clear_refs", "w") as f:
+            f.write("5")
+    except OSError:
+        pass
 
 
 def _run_method(method: str, dem: Path, data: dict) -> np.ndarray | None:
@@ -170,11 +181,14 @@ def worker(method: str, dem: Path, data_path: Path, trace: bool) -> dict:
         pyproj.CRS.from_wkt(ds.crs.to_wkt())
     if trace:
         tracemalloc.start()
-    rss0 = _rss_kib()
+    _reset_peak_rss()
+    rss0 = _status_kib("VmRSS")
     t0 = time.perf_counter()
     z = _run_method(method, dem, data)
     wall = time.perf_counter() - t0
-    peak_rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KiB on Linux
+    # VmHWM: this process image's peak resident set (unlike ru_maxrss, which Linux carries
+    # over from the parent across fork and exec).
+    peak_rss = _status_kib("VmHWM")
     out = {"method": method, "wall_s": wall, "rss_rise_mb": max(peak_rss - rss0, 0) / 1024}
     if trace:
         out["traced_peak_mb"] = tracemalloc.get_traced_memory()[1] / 2**20
@@ -199,7 +213,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--size", type=int, default=16000, help="raster side in cells (10 m)")
     ap.add_argument("--keep", action="store_true", help="keep the temporary folder and DEM")
     ap.add_argument("--dem", type=Path, help="reuse a DEM built by an earlier --keep run")
-    ap.add_argument("--repeat", type=int, default=3, help="timed runs per method (median)")
+    ap.add_argument("--repeat", type=int, default=5, help="timed runs per method (median)")
     ap.add_argument("--worker", choices=METHODS, help=argparse.SUPPRESS)
     ap.add_argument("--data", type=Path, help=argparse.SUPPRESS)
     ap.add_argument("--trace", action="store_true", help=argparse.SUPPRESS)
@@ -264,7 +278,8 @@ def _report(times, rss, traced, folder: Path, repeat: int) -> None:
     print(f"\n{'method':34s} {'wall s':>9s} {'peak RSS rise MB':>17s} {'traced peak MB':>15s}"
           f"   (median of {repeat}; each run in a fresh process)")
     for m in METHODS:
-        print(f"{LABELS[m]:34s} {t[m]:9.3f} {mem[m]:17.1f} {traced[m]:15.1f}")
+        print(f"{LABELS[m]:34s} {t[m]:9.3f} {mem[m]:17.1f} {traced[m]:15.1f}"
+              f"   (wall {min(times[m]):.3f}-{max(times[m]):.3f})")
     z_ours = np.load(folder / "z_mapsection.npy")
     z_whole = np.load(folder / "z_whole.npy")
     z_sample = np.load(folder / "z_sample.npy")

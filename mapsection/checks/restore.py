@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
-from shapely.geometry import LineString, Polygon
+from shapely.geometry import LineString, Point, Polygon
 
 from .. import CAUTION
 from .._atomic import atomic_file
@@ -142,7 +142,12 @@ def fault_blocks(draft: Draft) -> dict[str, FaultBlocks]:
     """
     joined = joined_horizons(draft)
     tol = _tol(draft)
-    ordered = sorted(draft.faults, key=lambda f: _xy(f.geometry)[np.argmax(_xy(f.geometry)[:, 1]), 0])
+
+    def ground_x(f) -> float:
+        c = _xy(f.geometry)
+        return float(c[np.argmax(c[:, 1]), 0])
+
+    ordered = sorted(draft.faults, key=ground_x)
     out = {}
     for rank, f in enumerate(ordered):
         c = _xy(f.geometry)
@@ -155,8 +160,6 @@ def fault_blocks(draft: Draft) -> dict[str, FaultBlocks]:
         for (top_of, block), line in joined.items():
             lc = _xy(line)
             for end, other in ((lc[0], lc[-1]), (lc[-1], lc[0])):
-                from shapely.geometry import Point
-
                 if f.geometry.distance(Point(end)) <= tol:
                     side = right if other[0] > end[0] else left
                     side[block] = side.get(block, 0) + 1
@@ -265,9 +268,8 @@ class Restoration:
 
     @property
     def restored_loose_line(self) -> LineString | None:
-        pts = sorted((h.restored_loose_x_m, h.restored_elevation_m)
-                     for h in self.horizons if h.reaches_loose)
-        pts.sort(key=lambda p: -p[1])
+        pts = sorted(((h.restored_loose_x_m, h.restored_elevation_m)
+                      for h in self.horizons if h.reaches_loose), key=lambda p: -p[1])
         return LineString(pts) if len(pts) >= 2 else None
 
     def to_dict(self) -> dict:
@@ -327,7 +329,7 @@ def _common_range(joined) -> tuple[float, float]:
     return float(lo), float(hi)
 
 
-def _default_lines(draft: Draft, joined, y_lo, y_hi) -> tuple[float, float, str]:
+def _default_lines(draft: Draft, joined, y_lo, y_hi) -> tuple[float, float, bool, str]:
     lo, hi = _common_range(joined)
     inset = 1e-6 * max(draft.line.length, 1.0)
     lo, hi = lo + inset, hi - inset
@@ -351,9 +353,7 @@ def _default_lines(draft: Draft, joined, y_lo, y_hi) -> tuple[float, float, str]
             x = (fx.max() if inward > 0 else fx.min()) + inward * 1.0
         return x
 
-    a, b = clear(lo, +1), clear(hi, -1)
-    pin, loose = (a, b) if at_start else (b, a)
-    return float(pin), float(loose), "default: " + why
+    return float(clear(lo, +1)), float(clear(hi, -1)), at_start, "default: " + why
 
 
 def _check_line(draft: Draft, what: str, x: float, y_lo: float, y_hi: float) -> None:
@@ -408,14 +408,16 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     for top_of, _ in joined:
         restored_elevation(draft.column, top_of)  # unknown names fail here, one line
     y_lo, y_hi = _y_range(draft, joined)
-    if pin is None or loose is None:
-        d_pin, d_loose, why = _default_lines(draft, joined, y_lo, y_hi)
-        pin = d_pin if pin is None else float(pin)
-        loose = d_loose if loose is None else float(loose)
-        if pin == d_pin and loose == d_loose:
-            source = why
-        else:
-            source = "given (partly default)"
+    if pin is None and loose is None:
+        a, b, at_start, source = _default_lines(draft, joined, y_lo, y_hi)
+        pin, loose = (a, b) if at_start else (b, a)
+    elif pin is None or loose is None:
+        # One line given: the other goes to the farther default end.
+        a, b, _, _ = _default_lines(draft, joined, y_lo, y_hi)
+        given = float(pin if pin is not None else loose)
+        other = a if abs(a - given) > abs(b - given) else b
+        pin, loose = (given, other) if pin is not None else (other, given)
+        source = "given pin, default loose line" if pin == given else "given loose, default pin"
     else:
         pin, loose, source = float(pin), float(loose), "given"
     _check_line(draft, "pin", pin, y_lo, y_hi)
@@ -545,7 +547,8 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
         spread = float(xs.max() - xs.min())
         if len(full) >= 2 and np.ptp(yv) > 0:
             slope, icpt = np.polyfit(yv, xs, 1)
-            angle = float(np.degrees(np.arctan(slope)))
+            # From the vertical; positive when the upper horizons restore longer.
+            angle = float(np.degrees(np.arctan(direction * slope)))
             departure = float(np.max(np.abs(xs - (icpt + slope * yv))))
         else:
             angle, departure = 0.0, 0.0
@@ -553,8 +556,9 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
         short_m = float(np.mean([h.shortening_m for h in full]))
         if mismatch > threshold_pct:
             worst = max(full, key=lambda h: abs(h.restored_length_m - lengths.mean()))
-            failures.append(f"restored line lengths spread {mismatch:.2f} % (> {threshold_pct:g} %);"
-                            f" farthest from the mean: top of {worst.top_of}, "
+            failures.append(f"restored line lengths spread {mismatch:.2f} % "
+                            f"(> {threshold_pct:g} %); farthest from the mean: "
+                            f"top of {worst.top_of}, "
                             f"{worst.restored_length_m:.0f} m against {lengths.mean():.0f} m")
     else:
         mismatch = spread = angle = departure = short_pct = short_m = float("nan")

@@ -77,7 +77,7 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
 
     \b
     Example:
-      mapsection dips sample_area/attitudes.csv "604888,5219147;612424,5213870" \\
+      mapsection dips sample_area/attitudes.csv "604658,5218819;612195,5213542" \\
           --dem sample_area/dem.tif --corridor 600 -o dips_A.csv
     """
     from ..errors import ParameterError

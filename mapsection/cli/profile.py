@@ -57,7 +57,7 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
 
     \b
     Example (the sample area's section A):
-      mapsection profile sample_area/dem.tif "2000,3000;9000,6500" -o profile_A.csv
+      mapsection profile sample_area/dem.tif "604658,5218819;612195,5213542" -o profile_A.csv
     \b
     Coordinates that start with a minus sign go after "--":
       mapsection profile dem.tif --crs EPSG:4326 -o p.csv -- "-84.30,36.55;-84.15,36.62"

@@ -118,7 +118,8 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
              f"contacts at the default dip {default_dip:g}°")
         log.append(f"no dips within the corridor: default dip {default_dip:g}° used throughout")
 
-    contacts = contact_constraints(geology, column, ground, log)
+    contacts = _drop_fault_contacts(contact_constraints(geology, column, ground, log), faults,
+                                    profile, log)
     if len(contacts) == 0 and not geology.intervals:
         raise ConstructionError(f"section {name or line.name}: the line crosses no mapped "
                                 "contact or unit: nothing positions the horizons")
@@ -193,6 +194,21 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
             log.append(f"fault {f.name or k + 1} at {f.distance_m:.0f} m (hanging wall on the "
                        f"{side}): separations along the fault {vals}")
     return draft
+
+
+def _drop_fault_contacts(cons: Constraints, faults, profile: Profile, log) -> Constraints:
+    """A contact where the line crosses a fault is the fault itself, not a stratigraphic
+    contact: it does not position the beds."""
+    if not faults or not len(cons):
+        return cons
+    px = float(profile.pixel_size) if np.isfinite(profile.pixel_size) else 0.0
+    tol = max(px, 10.0)  # one DEM pixel: the map's contact and fault traces meet there
+    fd = np.array([f.p0[0] for f in faults])
+    near = np.min(np.abs(cons.distance[:, None] - fd[None, :]), axis=1) <= tol
+    for i in np.flatnonzero(near):
+        log.append(f"contact {cons.before[i]}|{cons.after[i]} at {cons.distance[i]:.0f} m lies "
+                   f"on a fault (within {tol:.0f} m): taken as the fault, not as a bed contact")
+    return cons.subset(~near)
 
 
 def _check_options(method, ve, tol, depth, fault_depth, default_dip) -> None:

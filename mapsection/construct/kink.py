@@ -30,6 +30,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import least_squares
+from shapely.geometry import Point
 
 from ._common import Constraints, Domain, Frame, unit_vectors
 
@@ -169,9 +170,11 @@ class KinkModel:
             dl, dr = self.domains[i], self.domains[j]
             where = "at depth" if direction > 0 else "upward"
             p = self._meet(i, j, sz)[0]
-            self.log.append(f"axial surfaces meet {where} at {p[0]:.0f} m, elevation {p[1]:.0f} m: "
-                            f"one axial surface continues between dips {dl.dip:.1f}° and "
-                            f"{dr.dip:.1f}°")
+            if self.frame.box.covers(Point(p)):
+                self.log.append(f"axial surfaces meet {where} at {p[0]:.0f} m, elevation "
+                                f"{p[1]:.0f} m: one axial surface continues between dips "
+                                f"{dl.dip:.1f}° and "
+                                f"{dr.dip:.1f}°")
         return events
 
     def alive_at(self, s: float) -> tuple[int, ...]:

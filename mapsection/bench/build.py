@@ -1,0 +1,104 @@
+"""Benchmark: ``mapsection build`` of the whole sample area, with the share of each stage.
+
+    python -m mapsection.bench build [--repeat N] [--project PROJECT.toml]
+
+Measures, in the same run:
+
+- the wall time of the command ``mapsection build PROJECT -o TMP`` in a fresh
+  interpreter (what a user waits for, start-up and imports included), median of N;
+- a baseline: a fresh interpreter importing the libraries the build stands on
+  (numpy, shapely, pyproj, rasterio, geopandas, pyogrio, matplotlib, scipy), and the
+  ratio of the build to it;
+- the in-process build (``build_project`` with stage timings), median of N, and the
+  share of each stage: load (project, map, attitudes, DEM), section data (profile,
+  surface geology, dips), construction, checks, figures, GeoPackages.
+
+Target (issue 4): the whole sample area within 3 s wall.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+TARGET_S = 3.0
+IMPORTS = ("import numpy, shapely, pyproj, rasterio, geopandas, pyogrio, scipy, "
+           "matplotlib.figure")
+
+
+def _project(arg: str | None, tmp: Path) -> Path:
+    if arg:
+        return Path(arg)
+    from ..cli.demo import sample_project
+
+    found = sample_project()
+    if found is not None:
+        return found
+    from ..sample import generate
+
+    return generate(tmp / "sample_area")["project.toml"]
+
+
+def _run(cmd: list[str]) -> float:
+    t0 = time.perf_counter()
+    subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    return time.perf_counter() - t0
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(prog="python -m mapsection.bench build", description=__doc__,
+                                 formatter_class=argparse.RawDescriptionHelpFormatter)
+    ap.add_argument("--repeat", type=int, default=3, help="runs of each measurement [3]")
+    ap.add_argument("--project", help="project file [the sample area]")
+    args = ap.parse_args(argv)
+    from ..build import STAGES, build_project
+
+    with tempfile.TemporaryDirectory(prefix="mapsection-bench-") as tmpdir:
+        tmp = Path(tmpdir)
+        project = _project(args.project, tmp)
+        cli = [sys.executable, "-c", "from mapsection.cli.main import cli; cli()", "build",
+               str(project), "-o", str(tmp / "cli")]
+        base = [sys.executable, "-c", IMPORTS]
+        _run(base)  # warm the file cache once
+        walls, floors = [], []
+        for _ in range(args.repeat):
+            floors.append(_run(base))
+            walls.append(_run(cli))
+        runs: list[dict[str, float]] = []
+        totals = []
+        for i in range(args.repeat):
+            timings: dict[str, float] = {}
+            t0 = time.perf_counter()
+            folders = build_project(project, tmp / f"lib{i}", warn=lambda m: None,
+                                    timings=timings)
+            totals.append(time.perf_counter() - t0)
+            runs.append(timings)
+
+    wall = statistics.median(walls)
+    floor = statistics.median(floors)
+    total = statistics.median(totals)
+    print(f"mapsection build of {project.name} ({len(folders)} sections), "
+          f"median of {args.repeat} runs")
+    print(f"command wall time (fresh interpreter): {wall:.2f} s   target {TARGET_S:.1f} s   "
+          f"{'within' if wall <= TARGET_S else 'OVER'} target")
+    print(f"baseline, fresh interpreter importing the libraries: {floor:.2f} s   "
+          f"build / baseline = {wall / floor:.2f}")
+    print(f"in-process build_project: {total:.2f} s")
+    print()
+    print("| stage | seconds | share |")
+    print("|---|---:|---:|")
+    for stage in STAGES:
+        secs = statistics.median(r.get(stage, 0.0) for r in runs)
+        print(f"| {stage} | {secs:.3f} | {100 * secs / total:.0f} % |")
+    other = total - sum(statistics.median(r.get(s, 0.0) for r in runs) for s in STAGES)
+    print(f"| other (logs, folder swap) | {other:.3f} | {100 * other / total:.0f} % |")
+    return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

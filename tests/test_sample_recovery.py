@@ -1,0 +1,99 @@
+"""The sample area's known model is recovered by the construction (self-consistency;
+invented data: the sample area is generated from mapsection.sample.SAMPLE_MODEL)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+import shapely
+
+from mapsection.construct import BASE_PREFIX, build_draft
+
+ROOT = Path(__file__).resolve().parents[1]
+PROJECT = ROOT / "sample_area" / "project.toml"
+
+pytestmark = pytest.mark.skipif(not PROJECT.exists(), reason="sample area not generated")
+
+
+def _drafts():
+    from mapsection.project import load_project
+    from mapsection.session import SectionSession
+
+    project = load_project(PROJECT)
+    out = []
+    for spec in project.sections:
+        with SectionSession.from_project(project, spec) as session:
+            data = session.run()
+        out.append(build_draft(data.line, data.profile, data.geology, data.dips, project.column,
+                               name=spec.name, method=spec.method,
+                               dip_tolerance=spec.dip_tolerance, depth=spec.depth,
+                               fault_depth=spec.fault_depth, default_dip=spec.default_dip,
+                               warn=lambda m: None))
+    return project, out
+
+
+@pytest.fixture(scope="module")
+def drafts():
+    return _drafts()
+
+
+def recovery_errors(draft, model, step: float = 25.0, within: float = 1500.0) -> np.ndarray:
+    """Elevation errors of the below-ground horizons within ``within`` m below the ground,
+    sampled every ``step`` m, against the model's true surface in the same fault block."""
+    ground = draft.profile.elevation_at
+    hw_block = {}
+    for k, f in enumerate(draft.faults):
+        # The hanging wall lies on the side toward which the fault descends.
+        left, right = k, k + 1
+        hw_block[left], hw_block[right] = ((False, True) if f.apparent_dip > 0 else (True, False))
+    errs = []
+    for h in draft.horizons:
+        if h.above_ground:
+            continue
+        geom = h.geometry
+        n = max(int(geom.length // step), 1)
+        pts = shapely.get_coordinates(shapely.line_interpolate_point(
+            geom, np.linspace(0.0, geom.length, n + 1)))
+        d, z = pts[:, 0], pts[:, 1]
+        keep = ground(d) - z <= within
+        if not keep.any():
+            continue
+        x, y = draft.line.point_at(d[keep])
+        name = model.basement if h.top_of.startswith(BASE_PREFIX) else h.top_of
+        block = None
+        if draft.faults:
+            block = "hanging_wall" if hw_block.get(h.block, False) else "footwall"
+        true = model.horizon_elevation(name, x, y, block=block)
+        ok = np.isfinite(true)
+        errs.append(np.abs(z[keep][ok] - true[ok]))
+    return np.concatenate(errs)
+
+
+def test_sample_model_recovered_along_every_section(drafts):
+    from mapsection.sample import SAMPLE_MODEL
+
+    project, built = drafts
+    thinnest = float(project.column.thicknesses.min())
+    assert len(built) >= 2
+    for draft in built:
+        err = recovery_errors(draft, SAMPLE_MODEL)
+        assert len(err) > 200, draft.name
+        med, p90 = np.median(err), np.percentile(err, 90)
+        # Targets from the brief: median < 10 %, 90th percentile < 15 % of the thinnest unit.
+        assert med < 0.10 * thinnest, (draft.name, med, p90)
+        assert p90 < 0.15 * thinnest, (draft.name, med, p90)
+
+
+def test_sample_draft_is_complete(drafts):
+    project, built = drafts
+    for draft in built:
+        # Every horizon of the column is drawn (below ground or projected above it) ...
+        tops = {h.top_of for h in draft.horizons}
+        assert set(project.column.names[1:]) <= tops
+        assert draft.faults and all(f.separations for f in draft.faults)
+        # ... and every unit mapped along the line has its polygon in the section.
+        mapped = {iv.unit for iv in draft.geology.intervals if iv.unit}
+        assert {u.unit for u in draft.units} >= mapped
+        assert draft.residuals
