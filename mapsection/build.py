@@ -185,10 +185,13 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
 
 def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpec,
                   warn: Warn | None = None) -> list[Path]:
-    """CHECKS CALL POINT: run the balance checks and write checks.json and report.html.
+    """CHECKS CALL POINT: run the balance checks and write their outputs into ``folder``.
 
-    Skipped (with a note in the log) while :mod:`mapsection.checks` does not
-    provide ``run_checks``. A failed test is a result and is written like a pass.
+    Writes checks.json, the restored layers into section.gpkg (``restored_horizons``,
+    ``restored_units``), restored.png/.svg/.pdf, area_depth.png and report.html.
+    Skipped (said in the log) while :mod:`mapsection.checks` is incomplete. A failed
+    test is a result and is written like a pass; CheckError (a bad pin or loose
+    line) stops the build like any bad input.
     """
     try:
         from .checks import run_checks
@@ -210,12 +213,24 @@ def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpe
     checks = folder / "checks.json"
     with atomic_file(checks) as tmp:
         tmp.write_text(text + "\n", encoding="utf-8")
+    out = [checks]
     figures = {"section": folder / "section.png"}
-    for name in ("restored", "area_depth"):
-        if (folder / f"{name}.png").exists():
-            figures[name] = folder / f"{name}.png"
-    report_path = write_report(folder / "report.html", draft, report, figures)
-    return [checks, report_path]
+    restoration = getattr(report, "restoration", None)
+    if restoration is not None:
+        from .checks.restore import draw_restoration, restoration_frames
+        from .export import add_layers
+
+        add_layers(folder / "section.gpkg", restoration_frames(restoration))
+        out += draw_restoration(restoration, folder / "restored")
+        figures["restored"] = folder / "restored.png"
+    fit = getattr(getattr(report, "area_balance", None), "detachment", None)
+    if fit is not None and len(getattr(fit, "points", ())) >= 2:
+        from .checks.area import draw_area_depth
+
+        out.append(draw_area_depth(fit, folder / "area_depth.png"))
+        figures["area_depth"] = folder / "area_depth.png"
+    out.append(write_report(folder / "report.html", draft, report, figures))
+    return out
 
 
 def build_project(project_path: str | Path, outdir: str | Path, *, section: str | None = None,

@@ -87,6 +87,7 @@ class Dem:
         src = np.dtype(ds.dtypes[0])
         wide = src.itemsize > 4 or src in (np.dtype("int32"), np.dtype("uint32"))
         self._dtype = np.dtype("float64") if wide else np.dtype("float32")
+        self._same_dtype = src == self._dtype
         self._capacity = max(int(cache_bytes // (bh * bw * self._dtype.itemsize)), 1)
         self._pool = np.empty((0, bh, bw), self._dtype)  # decoded blocks, one per slot
         self._slots: OrderedDict[int, int] = OrderedDict()  # block id -> slot, LRU order
@@ -243,18 +244,19 @@ class Dem:
         bi, bj = divmod(block_id, self._nbcols)
         r0, c0 = bi * bh, bj * bw
         h, w = min(bh, self.height - r0), min(bw, self.width - c0)
-        data = self._ds.read(1, window=Window(c0, r0, w, h))
-        self.blocks_read += 1
+        window = Window(c0, r0, w, h)
         out = self._pool[slot]
-        out[:h, :w] = data
-        if h < bh or w < bw:
+        if h == bh and w == bw and self._same_dtype:
+            self._ds.read(1, window=window, out=out)  # decode straight into the cache
+        else:
+            out[:h, :w] = self._ds.read(1, window=window)
             out[h:, :] = np.nan
             out[:, w:] = np.nan
-        if self.nodata is not None:
-            if np.isnan(self.nodata):
-                pass  # NaN stays NaN
-            else:
-                out[:h, :w][data == self.nodata] = np.nan
+        self.blocks_read += 1
+        if self.nodata is not None and not np.isnan(self.nodata):
+            hole = out == self.nodata
+            if hole.any():
+                np.copyto(out, np.nan, where=hole)
         if self._scale != 1.0 or self._offset != 0.0:
-            out[:h, :w] *= self._scale
-            out[:h, :w] += self._offset
+            out *= self._scale
+            out += self._offset

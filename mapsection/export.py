@@ -253,6 +253,31 @@ def write_section_gpkg(draft: Draft, path: str | os.PathLike,
     return path
 
 
+def add_layers(path: str | os.PathLike, frames: dict[str, gpd.GeoDataFrame]) -> Path:
+    """Add layers to an existing section GeoPackage (no CRS: section space).
+
+    Not atomic on its own: meant for a file inside a build folder that is swapped in
+    whole (see :func:`mapsection._atomic.atomic_dir`).
+    """
+    path = Path(path)
+    have = {str(r[0]) for r in pyogrio.list_layers(path)}
+    for name, frame in frames.items():
+        if name in have:
+            raise OutputError(f"{path}: layer {name!r} is already there")
+        frame = frame.set_crs(None, allow_override=True) if frame.crs else frame
+        gtype = _geometry_type(frame)
+        try:
+            with warnings.catch_warnings():
+                warnings.filterwarnings("ignore", message=".*crs.*not provided")
+                pyogrio.write_dataframe(frame, path, layer=name, driver="GPKG",
+                                        geometry_type=gtype, append=True,
+                                        promote_to_multi=gtype.startswith("Multi"))
+        except Exception as exc:
+            raise OutputError(f"{path}: cannot write layer {name!r} "
+                              f"({str(exc).splitlines()[0] if str(exc) else exc})") from None
+    return path
+
+
 # --- 3D ---------------------------------------------------------------------------------
 def to_map_3d(line: SectionLine, geom) -> list[LineString]:
     """Section-space lines as LineString Z on the map: x, y of the line, z = elevation.

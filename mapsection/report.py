@@ -192,12 +192,18 @@ def render_report(draft, report, figures: dict[str, str | os.PathLike] | None = 
     key_figures = {
         "topography": ("contact_rms_m", "unit_agreement", "dip_rms_deg"),
         "restoration": ("shortening_pct", "line_length_mismatch_pct"),
-        "area_balance": ("max_mismatch_pct", "depth_to_detachment_m"),
+        "area_balance": (),
         "kinematics": ("n_issues",),
     }
     for k in tests:
         figs = "; ".join(f"{_label(f)} {format_value(f, rd[k].get(f))}"
                          for f in key_figures.get(k, ()) if f in rd[k])
+        if k == "area_balance":
+            from .checks import units_worst
+
+            unit, worst = units_worst(rd[k].get("units"))
+            if worst is not None:
+                figs = f"worst unit mismatch {worst:.2f} % ({unit})"
         summary_rows.append(f'<tr><td><a href="#{k}">{escape(k)}</a></td>'
                             f"<td>{_badge(bool(rd[k].get('passed')))}</td>"
                             f"<td>{escape(figs)}</td></tr>")

@@ -62,7 +62,10 @@ def test_folder_layout(built):
         assert Image.open(folder / "section.png").size[0] > 1000
         svg = ET.parse(folder / "section.svg").getroot()
         n_h = sum(1 for el in svg.iter() if (el.get("id") or "").startswith("horizon-"))
-        assert n_h == info["features"]
+        hz = pyogrio.read_dataframe(folder / "section.gpkg", layer="horizons")
+        assert n_h == int((~hz.geometry.is_empty & hz.geometry.notna()).sum())
+        n_d = sum(1 for el in svg.iter() if (el.get("id") or "").startswith("dip-"))
+        assert n_d == pyogrio.read_info(folder / "section.gpkg", layer="dips")["features"]
         log = (folder / "build.log").read_text(encoding="utf-8")
         assert f"section {folder.name}" in log and "CAUTION" in log
         if "checks.json" in files:
@@ -130,6 +133,11 @@ def test_unknown_section_and_missing_project(tmp_path):
         result = runner.invoke(cli, ["build", str(SAMPLE), "-o", str(tmp_path / "o"),
                                      "--section", "Z"])
         assert result.exit_code == 2 and "no section named 'Z'" in result.output
+        afile = tmp_path / "a_file"
+        afile.write_text("not a folder", encoding="utf-8")
+        result = runner.invoke(cli, ["build", str(SAMPLE), "-o", str(afile)])
+        assert result.exit_code == 2 and "a_file: exists and is not a folder" in result.output
+        assert afile.read_text(encoding="utf-8") == "not a folder"
 
 
 def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):

@@ -22,6 +22,9 @@ from mapsection.export import (
     write_section_gpkg,
 )
 
+# Section space has no CRS by design; the files written directly below say so too.
+pytestmark = pytest.mark.filterwarnings("ignore:'crs' was not provided")
+
 
 @pytest.fixture(scope="module")
 def written(tmp_path_factory):

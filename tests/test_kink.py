@@ -245,3 +245,74 @@ def test_projected_parts_above_ground_are_stored_apart():
     base = merged(draft, base_name(COLUMN))
     assert sum(u.geometry.area for u in draft.units) == pytest.approx(units.area, rel=1e-9)
     assert base.length > 0
+
+
+# --- bad input -------------------------------------------------------------------------
+def _no_dips() -> ProjectedDips:
+    e = np.zeros(0)
+    return ProjectedDips(e, e, e, e, e, e, e, e, e, np.zeros(0, bool), np.zeros(0, bool))
+
+
+def test_no_dips_and_no_default_is_refused():
+    from mapsection.errors import ConstructionError
+
+    line, geology, _, _ = symmetric_anticline()
+    with pytest.raises(ConstructionError, match="no dips within the corridor.*default_dip"):
+        build_draft(line, flat_profile(line), geology, _no_dips(), COLUMN)
+
+
+def test_no_dips_with_default_dip_warns_and_builds():
+    line, _, _, _ = symmetric_anticline()
+    # A homocline at 20° (descending toward +x): contacts from the analytic depth field.
+    sin = np.sin(np.radians(20.0))
+    x = np.linspace(0.0, L, 20001)
+    geology = SurfaceGeology((UnitInterval(0.0, L, "Alder"),),
+                             contacts_from_depth(lambda x: 1800.0 - x * sin, COLUMN, x), ())
+    msgs = []
+    draft = build_draft(line, flat_profile(line), geology, _no_dips(), COLUMN, default_dip=20.0,
+                        warn=msgs.append)
+    assert any("no dips within the corridor" in m and "20" in m for m in msgs)
+    assert [d.dip for d in draft.domains] == [pytest.approx(20.0)]
+    assert max(abs(r.residual_m) for r in draft.residuals) < 1e-6
+
+
+def test_contradictory_contacts_reported_with_both_distances():
+    line, _, _, _ = symmetric_anticline()
+    sin = np.sin(np.radians(20.0))
+    x = np.linspace(0.0, L, 20001)
+    good = contacts_from_depth(lambda x: 1800.0 - x * sin, COLUMN, x)
+    # The 20° dip gives older-before contacts (e.g. Dogwood|Cedar); one is reversed at 8500 m.
+    bad = Contact(8500.0, 0.0, "Cedar", "Dogwood")
+    geology = SurfaceGeology((UnitInterval(0.0, L, "Alder"),),
+                             tuple(sorted([*good, bad], key=lambda c: c.distance_m)), ())
+    msgs = []
+    draft = build_draft(line, flat_profile(line), geology, projected([1000, 5000, 9000],
+                                                                     [20, 20, 20]),
+                        COLUMN, warn=msgs.append)
+    hits = [m for m in msgs if "contradictory contacts" in m]
+    assert hits and "8500 m" in hits[0]
+    other = next(c for c in good if {c.unit_before, c.unit_after} == {"Cedar", "Dogwood"})
+    assert f"{other.distance_m:.0f} m" in hits[0]
+    assert any("contradictory" in m for m in draft.log)
+
+
+def test_unit_missing_from_the_column_is_listed():
+    from mapsection.errors import StratigraphyError
+
+    line, geology, dips, _ = symmetric_anticline()
+    geology = SurfaceGeology((UnitInterval(0.0, 5000.0, "Alder"), UnitInterval(5000, L, "Zelkova"),
+                              UnitInterval(6000, 7000, "Yew")), geology.contacts, ())
+    with pytest.raises(StratigraphyError, match="Yew, Zelkova"):
+        build_draft(line, flat_profile(line), geology, dips, COLUMN)
+
+
+def test_zero_thickness_and_unknown_method_rejected():
+    from mapsection.errors import ParameterError, StratigraphyError
+
+    with pytest.raises(StratigraphyError, match="thickness must be > 0"):
+        Column((Unit("Alder", 100.0), Unit("Birch", 0.0)))
+    with pytest.raises(StratigraphyError, match="thickness must be > 0"):
+        Column((Unit("Alder", -5.0),))
+    line, geology, dips, _ = symmetric_anticline()
+    with pytest.raises(ParameterError, match="unknown construction method 'spline'"):
+        build_draft(line, flat_profile(line), geology, dips, COLUMN, method="spline")

@@ -308,10 +308,10 @@ def _vertical_hits_fault(draft: Draft, x: float, lo_y: float, hi_y: float) -> st
 
 
 def _y_range(draft: Draft, joined) -> tuple[float, float]:
+    # The horizons' depth range: a detachment flat below every horizon does not count.
     ys = [(_xy(g)[:, 1].min(), _xy(g)[:, 1].max()) for g in joined.values()]
-    ys += [(_xy(f.geometry)[:, 1].min(), _xy(f.geometry)[:, 1].max()) for f in draft.faults]
-    lo = min(y[0] for y in ys) - 1.0
-    hi = max(y[1] for y in ys) + 1.0
+    lo = min(y[0] for y in ys)
+    hi = max(y[1] for y in ys)
     return float(lo), float(hi)
 
 

@@ -121,23 +121,27 @@ class TopographyCheck:
 # thresholds
 
 
+# key -> (lowest, highest, lowest allowed itself?)
 _RANGES = {
-    "contact_rms_m": (0.0, math.inf),
-    "contact_rms_pixels": (0.0, math.inf),
-    "unit_agreement": (0.0, 1.0),
-    "dip_rms_deg": (0.0, 90.0),
-    "area_mismatch_pct": (0.0, 100.0),
-    "line_length_spread_pct": (0.0, 100.0),
+    "contact_rms_m": (0.0, math.inf, True),
+    "contact_rms_pixels": (0.0, math.inf, True),
+    "unit_agreement": (0.0, 1.0, True),
+    "dip_rms_deg": (0.0, 90.0, True),
+    "area_mismatch_pct": (0.0, 100.0, False),
+    "line_length_spread_pct": (0.0, 100.0, False),
 }
 
 
 def validate_thresholds(thresholds: Thresholds) -> None:
     """Raise CheckError naming the [checks] key of a threshold out of range."""
-    for key, (lo, hi) in _RANGES.items():
+    for key, (lo, hi, lo_ok) in _RANGES.items():
         v = getattr(thresholds, key)
-        if not isinstance(v, int | float) or not math.isfinite(v) or not lo <= v <= hi:
-            hi_txt = "" if math.isinf(hi) else f" and {hi:g}"
-            raise CheckError(f"[checks] {key}: must be between {lo:g}{hi_txt}, got {v!r}")
+        ok = isinstance(v, int | float) and math.isfinite(v) and v <= hi
+        ok = ok and (v >= lo if lo_ok else v > lo)
+        if not ok:
+            rng = (f"{'>=' if lo_ok else '>'} {lo:g}" if math.isinf(hi)
+                   else f"{'from' if lo_ok else 'above'} {lo:g} to {hi:g}")
+            raise CheckError(f"[checks] {key}: must be {rng}, got {v!r}")
     if thresholds.contact_rms_m <= 0 and thresholds.contact_rms_pixels <= 0:
         raise CheckError("[checks] contact_rms_m and contact_rms_pixels: at least one must be > 0")
 

@@ -8,6 +8,7 @@ from pathlib import Path
 import click
 
 from .. import CAUTION
+from ..checks import units_worst
 from ..errors import CheckError
 from ._common import warn
 
@@ -16,25 +17,14 @@ def _num(v, fmt: str) -> str:
     return "-" if v is None or (isinstance(v, float) and not math.isfinite(v)) else format(v, fmt)
 
 
-def _units_worst(units) -> tuple[str, float | None]:
-    """The unit with the largest |mismatch_pct| in an area-balance ``units`` entry."""
-    items = units.items() if isinstance(units, dict) else (
-        (u.get("unit", u.get("name", "?")), u) for u in (units or []))
-    worst, value = "", None
-    for name, u in items:
-        m = u.get("mismatch_pct") if isinstance(u, dict) else None
-        if m is not None and math.isfinite(m) and (value is None or abs(m) > abs(value)):
-            worst, value = str(name), float(m)
-    return worst, value
-
-
 def summary_lines(report) -> list[str]:
     """One line per test: name, PASS/FAIL and its key figures against the thresholds."""
     d = report.to_dict()
     t = report.thresholds
     topo, rest, area, kin = (d[k] for k in ("topography", "restoration", "area_balance",
                                              "kinematics"))
-    unit, worst = _units_worst(area.get("units"))
+    unit, worst = units_worst(area.get("units"))
+    fit = area.get("detachment") or {}
     unpaired = (len(topo.get("unpaired_map_contacts") or [])
                 + len(topo.get("unpaired_section_contacts") or []))
     n_kin = kin.get("n_issues")
@@ -58,7 +48,7 @@ def summary_lines(report) -> list[str]:
         "area_balance": (
             f"worst unit mismatch {_num(worst, '.2f')} %{f' ({unit})' if unit else ''} "
             f"(<= {t.area_mismatch_pct:g}), depth to detachment "
-            f"{_num(area.get('depth_to_detachment_m'), '.0f')} m"
+            f"{_num(fit.get('depth_to_detachment_m'), '.0f')} m"
         ),
         "kinematics": f"{n_kin} issue(s)",
     }
