@@ -6,7 +6,10 @@ elevation in metres. That plane has no geographic CRS, so its layers are written
 without one (a GIS shows them as a plain metric drawing). Layers:
 
 - ``profile``: the ground line (one LineString per stretch with elevations),
-  fields ``section``, ``start_m``, ``end_m``;
+  fields ``section``, ``start_m``, ``end_m``, and the draft's ``method``, ``ve``,
+  ``base_elevation_m`` and the DEM's ``pixel_size_m`` (read back by
+  :func:`read_section_gpkg`; kept in a layer rather than as file metadata, which
+  GDAL would mirror into a side-car file on reading);
 - ``profile_points``: every profile sample, fields ``distance_m``, ``elevation_m``,
   ``x``, ``y`` (map coordinates in the project CRS);
 - ``surface_geology``: the unit at the ground, LineStrings along the ground, fields
@@ -116,10 +119,14 @@ def section_frames(draft: Draft) -> dict[str, gpd.GeoDataFrame]:
     prof, geo, dips = draft.profile, draft.geology, draft.dips
     frames: dict[str, gpd.GeoDataFrame] = {}
     pieces = _ground_pieces(prof)
+    n = len(pieces)
     frames["profile"] = _frame(
-        {"section": [draft.name] * len(pieces),
+        {"section": [draft.name] * n,
          "start_m": [float(prof.distance[r[0]]) for r in pieces],
-         "end_m": [float(prof.distance[r[-1]]) for r in pieces]},
+         "end_m": [float(prof.distance[r[-1]]) for r in pieces],
+         "method": [draft.method] * n, "ve": [float(draft.ve)] * n,
+         "base_elevation_m": [float(draft.base_elevation_m)] * n,
+         "pixel_size_m": [float(prof.pixel_size)] * n},
         [LineString(np.column_stack([prof.distance[r], prof.z[r]])) for r in pieces])
     okz = np.isfinite(prof.z)
     frames["profile_points"] = _frame(
@@ -186,19 +193,8 @@ def _points(x, y):
     return np.where(ok, pts, None)
 
 
-def _metadata(draft: Draft) -> dict[str, str]:
-    return {
-        "mapsection_section": draft.name,
-        "mapsection_method": draft.method,
-        "mapsection_ve": repr(float(draft.ve)),
-        "mapsection_base_elevation_m": repr(float(draft.base_elevation_m)),
-        "mapsection_pixel_size": repr(float(draft.profile.pixel_size)),
-        "mapsection_space": "section: x = distance along the line (m), y = elevation (m)",
-    }
-
-
-def _write_layers(path: Path, frames: dict[str, gpd.GeoDataFrame], types: dict[str, str],
-                  metadata: dict[str, str] | None = None) -> None:
+def _write_layers(path: Path, frames: dict[str, gpd.GeoDataFrame],
+                  types: dict[str, str | None]) -> None:
     """Write every frame as a layer of a new GeoPackage at ``path`` (atomically)."""
     with atomic_file(path) as tmp:
         tmp.unlink()  # the driver creates the file itself
@@ -212,8 +208,7 @@ def _write_layers(path: Path, frames: dict[str, gpd.GeoDataFrame], types: dict[s
                     pyogrio.write_dataframe(
                         frame, tmp, layer=name, driver="GPKG", geometry_type=gtype,
                         promote_to_multi=bool(gtype and gtype.startswith("Multi")),
-                        append=not first,
-                        dataset_metadata=metadata if first else None)
+                        append=not first)
             except Exception as exc:  # disk full, bad path: one line naming the file
                 raise OutputError(f"{path}: cannot write layer {name!r} "
                                   f"({str(exc).splitlines()[0] if str(exc) else exc})") from None
@@ -249,7 +244,7 @@ def write_section_gpkg(draft: Draft, path: str | os.PathLike,
             raise OutputError(f"{path}: extra layer {name!r} clashes with a section layer")
         frames[name] = frame.set_crs(None, allow_override=True) if frame.crs else frame
         types[name] = None
-    _write_layers(path, frames, types, _metadata(draft))
+    _write_layers(path, frames, types)
     return path
 
 
@@ -338,8 +333,7 @@ def write_section_3d(draft: Draft, path: str | os.PathLike) -> Path:
     """Write the ground, horizons and faults as LineString Z in the project CRS."""
     path = Path(path)
     frames = section_3d_frames(draft)
-    _write_layers(path, frames, {k: "LineString Z" for k in frames},
-                  {"mapsection_section": draft.name})
+    _write_layers(path, frames, {k: "LineString Z" for k in frames})
     return path
 
 
@@ -404,12 +398,11 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
         raise MapLayerError(f"{path}: no such section file")
     try:
         layers = {str(r[0]) for r in pyogrio.list_layers(path)}
-        first = next(iter(sorted(layers)), None)
-        meta = (pyogrio.read_info(path, layer=first).get("dataset_metadata") if first else {}) or {}
     except Exception as exc:
         raise MapLayerError(f"{path}: not a readable GeoPackage "
                             f"({str(exc).splitlines()[0] if str(exc) else exc})") from None
     known = set(column.names)
+    meta = _section_info(path, layers)
 
     hz_frame = _read_layer(path, "horizons", layers)
     horizons = []
@@ -463,14 +456,14 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
                                           _num(row.dip_right)))
 
     if profile is None:
-        profile = _read_profile(path, layers, line, meta)
+        profile = _read_profile(path, layers, line, meta.get("pixel_size_m"))
     if geology is None:
         geology = _read_geology(path, layers)
     if dips is None:
         dips = _read_dips(path, layers)
     base = min((g.geometry.bounds[1] for g in units), default=float("nan"))
     return Draft(
-        name=name or meta.get("mapsection_section", "") or line.name,
+        name=name or meta.get("section") or line.name,
         method="edited",
         line=line,
         profile=profile,
@@ -481,18 +474,30 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
         faults=faults,
         units=units,
         axial_surfaces=axial,
-        ve=_num(meta.get("mapsection_ve"), 1.0),
-        base_elevation_m=_num(meta.get("mapsection_base_elevation_m"), base),
+        ve=_num(meta.get("ve"), 1.0),
+        base_elevation_m=_num(meta.get("base_elevation_m"), base),
         log=[f"read from {path.name} (edited section: horizons, faults and units as in the file)"],
     )
 
 
-def _read_profile(path: Path, layers: set[str], line: SectionLine, meta: dict) -> Profile:
+def _section_info(path: Path, layers: set[str]) -> dict:
+    """Section name, method, VE, base and pixel size from the ``profile`` layer, if any."""
+    if "profile" not in layers:
+        return {}
+    frame = pyogrio.read_dataframe(path, layer="profile", read_geometry=False, max_features=1)
+    if not len(frame):
+        return {}
+    row = frame.iloc[0]
+    return {k: row[k] for k in ("section", "method", "ve", "base_elevation_m", "pixel_size_m")
+            if k in frame.columns and _text(row[k]) is not None}
+
+
+def _read_profile(path: Path, layers: set[str], line: SectionLine, pixel_size) -> Profile:
     pts = _read_layer(path, "profile_points", layers)
     order = np.argsort(pts["distance_m"].to_numpy(float), kind="stable")
     col = {k: pts[k].to_numpy(float)[order] for k in ("distance_m", "elevation_m", "x", "y")}
     return Profile(col["distance_m"], col["x"], col["y"], col["elevation_m"], line, line.crs,
-                   _num(meta.get("mapsection_pixel_size")))
+                   _num(pixel_size))
 
 
 def _read_geology(path: Path, layers: set[str]) -> SurfaceGeology:

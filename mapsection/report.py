@@ -193,7 +193,7 @@ def render_report(draft, report, figures: dict[str, str | os.PathLike] | None = 
         "topography": ("contact_rms_m", "unit_agreement", "dip_rms_deg"),
         "restoration": ("shortening_pct", "line_length_mismatch_pct"),
         "area_balance": (),
-        "kinematics": ("n_issues",),
+        "kinematics": ("transport_direction",),
     }
     for k in tests:
         figs = "; ".join(f"{_label(f)} {format_value(f, rd[k].get(f))}"

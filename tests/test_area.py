@@ -8,8 +8,8 @@ from shapely.geometry import LineString, Polygon
 
 from mapsection.checks.area import area_balance, depth_to_detachment, draw_area_depth
 from mapsection.checks.restore import restore_section
-from mapsection.draft import Draft, Horizon
 from mapsection.dips import ProjectedDips
+from mapsection.draft import Draft, Horizon
 from mapsection.errors import CheckError
 from mapsection.geology import SurfaceGeology
 from mapsection.line import SectionLine

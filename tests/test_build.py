@@ -51,6 +51,7 @@ def test_folder_layout(built):
     for folder in folders:
         files = {p.name for p in folder.iterdir()}
         assert FILES <= files
+        assert not [f for f in files if f.endswith(".aux.xml") or f.startswith(".")]
         layers = dict(pyogrio.list_layers(folder / "section.gpkg"))
         for layer in ("profile", "surface_geology", "dips", "horizons", "faults", "units"):
             assert layer in layers

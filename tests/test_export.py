@@ -68,6 +68,8 @@ def test_round_trip(written):
     np.testing.assert_array_equal(back.dips.id, draft.dips.id)
     assert back.geology == draft.geology
     assert len(back.axial_surfaces) == 1
+    # Reading leaves the (possibly hand-edited) file alone: no side-car files appear.
+    assert [p.name for p in path.parent.iterdir()] == ["section.gpkg"]
 
 
 def test_surface_geology_follows_the_ground(written):

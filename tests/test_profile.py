@@ -373,3 +373,35 @@ def test_cli_bad_input(tmp_path, bad_inputs, case, culprit):
     assert "Traceback" not in res.output
     assert not out.exists()
     assert sorted(p.name for p in tmp_path.iterdir()) == before  # no temp file left behind
+
+
+def test_cli_nodata_gives_empty_elevation_and_keeps_old_output_on_error(tmp_path):
+    arr = np.full((50, 50), 250.0, dtype="float32")
+    arr[:, 20:30] = -32768.0  # a nodata band across the line
+    dem = write_tif(tmp_path / "nd.tif", arr, from_origin(X0, Y_TOP, CELL, CELL), UTM11,
+                    nodata=-32768.0)
+    out = tmp_path / "p.csv"
+    res = run([str(dem), f"{X0 + 5},{Y_TOP - 250};{X0 + 495},{Y_TOP - 250}", "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    body = read_csv(out)[1:]
+    dist = np.array([float(r[0]) for r in body])
+    empty = np.array([r[3] == "" for r in body])
+    # pixels 20-29 span x0+200..x0+300; with the 2 x 2 stencil, samples between the centres
+    # of pixels 19 and 30 (x0+195..x0+305) touch nodata: distance 190..300 from x0+5
+    assert empty[(dist > 190) & (dist < 300)].all()
+    assert not empty[(dist < 189) | (dist > 301)].any()
+    assert "nodata" in res.output
+    # a failed run leaves an existing output untouched
+    before = out.read_bytes()
+    res = run([str(dem), "1,1;2,2", "-o", str(out)])
+    assert res.exit_code == 2
+    assert out.read_bytes() == before
+
+
+def test_bench_dispatcher_finds_modules():
+    from mapsection.bench import available, load
+    from mapsection.bench.__main__ import main
+
+    assert "profile" in available()
+    assert callable(load("profile").main)
+    assert main(["no-such-benchmark"]) == 2

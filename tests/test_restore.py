@@ -7,8 +7,8 @@ import pytest
 from shapely.geometry import LineString, Polygon
 
 from mapsection.checks.restore import restoration_frames, restore_section
-from mapsection.draft import DipDomain, Draft, FaultTrace, Horizon
 from mapsection.dips import ProjectedDips
+from mapsection.draft import DipDomain, Draft, FaultTrace, Horizon
 from mapsection.errors import CheckError
 from mapsection.geology import SurfaceGeology
 from mapsection.line import SectionLine
@@ -68,8 +68,8 @@ def kink_anticline(thin_b=False):
 
 
 def analytic_bed_length(chord):
-    # Kink bands bounded by parallel bisecting axial surfaces keep the same bed length
-    # for every horizon (Dahlstrom 1969; analytic): two limbs of horizontal width 1000 m at 30 degrees.
+    # Kink bands bounded by parallel bisecting axial surfaces keep the same bed length for
+    # every horizon (Dahlstrom 1969; analytic): two limbs 1000 m wide at 30 degrees.
     return chord - 2000.0 + 2000.0 / np.cos(np.radians(30.0))
 
 
@@ -148,8 +148,8 @@ def thrust_draft(slip=1000.0, shorten_deepest=0.0):
         y_hw = -t + slip * s
         hz.append(Horizon(name, LineString([(0.0, y_hw), (cut_hw, y_hw)]), block=0))
         hz.append(Horizon(name, LineString([(xf - t / TAN30, -t), (10000.0, -t)]), block=1))
-    fault = FaultTrace("F1", LineString([(xf + 1500 / TAN30, 1500.0), (xf - 2500 / TAN30, -2500.0)]),
-                       30.0, 270.0, -30.0, "thrust", {n: slip for n in DEPTHS})
+    trace = LineString([(xf + 1500 / TAN30, 1500.0), (xf - 2500 / TAN30, -2500.0)])
+    fault = FaultTrace("F1", trace, 30.0, 270.0, -30.0, "thrust", {n: slip for n in DEPTHS})
     return make_draft(hz, faults=[fault])
 
 
@@ -207,7 +207,7 @@ def test_draw_restoration(tmp_path):
 @pytest.mark.parametrize("pin,loose,msg", [(-5.0, 9000.0, "outside the section"),
                                            (500.0, 12000.0, "outside the section"),
                                            (5000.0, 9500.0, "crosses fault F1"),
-                                           (500.0, 7000.0, "crosses fault F1")])
+                                           (500.0, 6500.0, "crosses fault F1")])
 def test_bad_pin_or_loose_line(pin, loose, msg):
     with pytest.raises(CheckError, match=msg) as e:
         restore_section(thrust_draft(), pin=pin, loose=loose)

@@ -88,7 +88,7 @@ def _straight_tops(column, shift=0.0, dip=DIP, ground=100.0):
     for i, name in enumerate(column.names[1:], start=1):
         depth = float(column.depth_to_top[i] - column.depth_to_top[1])  # below the top of B
         x0 = TOP_B + shift - depth / math.cos(math.radians(dip)) / t
-        xs = np.array([-1000.0, LENGTH + 1000.0])
+        xs = np.array([0.0, LENGTH])
         tops[name] = LineString(np.column_stack([xs, ground - t * (xs - x0)]))
     return tops
 
@@ -317,3 +317,28 @@ def test_sample_model_true_section_passes():
     assert r.n_map_contacts >= 5 and not r.unpaired_map_contacts
     assert r.contact_rms_m < 2 * data.profile.pixel_size
     assert r.unit_agreement > 0.99
+
+
+def _bump(draft, half_width):
+    # A piece of the top of C peaking 10 m above the flat ground (100 m) at 6000 m with
+    # flanks of slope 10 / half_width: it meets the ground at 6000 -/+ half_width (analytic).
+    run = 1.5 * half_width  # the flanks end 15 m below the peak
+    piece = LineString([(6000.0 - run, 95.0), (6000.0, 110.0), (6000.0 + run, 95.0)])
+    ground = LineString([(0.0, 100.0), (LENGTH, 100.0)])
+    for part in shapely.get_parts(piece.difference(ground)):
+        draft.horizons.append(Horizon("C", part, part.centroid.y > 100.0))
+    return draft
+
+
+def test_sliver_outcrop_narrower_than_the_limit():
+    # A 40 m wide outcrop of C the map does not show (a horizon grazing the ground) counts
+    # as two misfits of half its width, 20 m each (mapsection's rule, documented).
+    r = check_topography(_bump(_draft(), 20.0), Thresholds())
+    slivers = sorted(m.misfit_m for m in r.contact_misfits if m.kind == "sliver")
+    assert slivers == pytest.approx([-20.0, 20.0], abs=0.01)
+    assert r.contact_rms_m == pytest.approx(math.sqrt(2 * 20.0**2 / 4), abs=0.01)
+    assert not r.unpaired_section_contacts and r.passed
+    # 120 m wide: wider than the 50 m limit, so two contacts the map lacks: the test fails.
+    r = check_topography(_bump(_draft(), 60.0), Thresholds())
+    assert [round(c.distance_m) for c in r.unpaired_section_contacts] == [5940, 6060]
+    assert not r.passed

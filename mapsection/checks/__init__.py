@@ -205,6 +205,58 @@ def run_checks(
     return report
 
 
+def restoration_layers(report: CheckReport) -> dict:
+    """``restored_horizons`` and ``restored_units`` GeoDataFrames for section.gpkg."""
+    from .restore import restoration_frames
+
+    return restoration_frames(report.restoration)
+
+
+def write_check_figures(report: CheckReport, draft: Draft, folder: str | os.PathLike,
+                        n_steps: int = 8) -> dict[str, Path]:
+    """Draw the checks' figures into ``folder``; returns name -> PNG path for the report.
+
+    Writes ``restored.png/.svg/.pdf``, ``area_depth.png`` (when the excess-area
+    fit has at least two horizons) and the incremental sequence
+    ``sequence_01.png`` ... with ``sequence.gif`` (``n_steps`` steps, at least 8).
+    """
+    from .area import draw_area_depth
+    from .restore import draw_restoration
+    from .sequence import incremental_sequence, write_sequence
+
+    folder = Path(folder)
+    figures: dict[str, Path] = {}
+    for p in draw_restoration(report.restoration, folder / "restored"):
+        if p.suffix == ".png":
+            figures["restored"] = p
+    fit = getattr(report.area_balance, "detachment", None)
+    if fit is not None and len(fit.points) >= 2:
+        figures["area_depth"] = draw_area_depth(fit, folder / "area_depth.png")
+    frames = incremental_sequence(draft, report.restoration, max(8, int(n_steps)))
+    pngs = [p for p in write_sequence(frames, folder, column=draft.column,
+                                      title=f"section {draft.name}") if p.suffix == ".png"]
+    if pngs:
+        figures["sequence_first"], figures["sequence_last"] = pngs[0], pngs[-1]
+    return figures
+
+
+def write_check_outputs(report: CheckReport, draft: Draft, folder: str | os.PathLike,
+                        figures: dict[str, str | os.PathLike] | None = None) -> list[Path]:
+    """checks.json, the checks' figures and report.html in ``folder`` (a section folder).
+
+    ``figures`` adds figures drawn elsewhere (e.g. ``{"section": "section.png"}``).
+    """
+    from ..report import write_report
+
+    folder = Path(folder)
+    figs: dict[str, str | os.PathLike] = dict(figures or {})
+    if "section" not in figs and (folder / "section.png").is_file():
+        figs["section"] = folder / "section.png"
+    figs.update(write_check_figures(report, draft, folder))
+    return [write_checks_json(report, folder / "checks.json"),
+            write_report(folder / "report.html", draft, report, figs)]
+
+
 def write_checks_json(report: CheckReport, path: str | os.PathLike) -> Path:
     """Write ``report.to_dict()`` as JSON, all-or-nothing."""
     path = Path(path)
@@ -220,7 +272,10 @@ __all__ = [
     "TopographyCheck",
     "check_topography",
     "jsonable",
+    "restoration_layers",
     "run_checks",
     "units_worst",
+    "write_check_figures",
+    "write_check_outputs",
     "write_checks_json",
 ]

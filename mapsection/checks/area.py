@@ -27,7 +27,7 @@ from shapely.geometry import Polygon
 from .._atomic import atomic_file
 from ..draft import Draft
 from ..errors import CheckError
-from .restore import Restoration, _unit_pairs, _xy, clip_x, joined_horizons, y_at
+from .restore import Restoration, _xy, clip_x, joined_horizons, y_at
 
 __all__ = [
     "UnitArea",

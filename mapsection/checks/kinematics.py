@@ -198,8 +198,8 @@ def _run_fbf(draft, fault, fb, seps, transport) -> dict:
     depths = {}
     for t, g in hw.items():
         gc = _xy(g)
-        # the regional level: the horizon's end away from the fault, behind the fold
-        far = gc[0] if abs(gc[0, 0] - bottom[0]) > abs(gc[-1, 0] - bottom[0]) else gc[-1]
+        # the regional level: the horizon's hinterland end, behind the fold
+        far = gc[0] if transport > 0 else gc[-1]
         if far[1] - flat > 0:
             depths[t] = float(far[1] - flat)
     try:

@@ -9,7 +9,9 @@ metres, y = elevation in metres, vertical exaggeration 1):
   lower in the column). Predicted and mapped contacts of the same horizon are
   paired one-to-one, nearest first (an optimal assignment), within a pairing
   radius of the larger of 500 m and 10 DEM pixels. The misfit is
-  section distance minus map distance, in metres along the line.
+  section distance minus map distance, in metres along the line. A sliver
+  outcrop narrower than the contact limit that only one side shows (a horizon
+  grazing the ground) counts as two misfits of half its width.
 * **Unit agreement.** The share of the line's length where the unit just below
   the ground in the section is the unit the map shows there. Only length where
   both the map and the section have a unit counts (map gaps and DEM gaps are
@@ -51,6 +53,7 @@ class ContactMisfit:
     section_distance_m: float
     misfit_m: float  # section minus map, metres along the line
     elevation_m: float  # ground elevation at the map contact
+    kind: str = "paired"  # or "sliver": half of a narrow outcrop only one side shows
 
 
 @dataclass(frozen=True)
@@ -358,7 +361,24 @@ def section_unit_at_ground(draft: Draft, d: np.ndarray, z: np.ndarray) -> tuple[
 # the three measures
 
 
-def _contacts(draft: Draft, ground: MultiLineString, pixel: float) -> dict:
+def _slivers(xs: np.ndarray, unpaired: set[int], limit: float) -> list[tuple[int, int]]:
+    """Neighbouring unpaired contacts of one horizon closer than ``limit``: a sliver outcrop.
+
+    ``xs`` are sorted; two consecutive entries both unpaired and at most ``limit``
+    apart bound an outcrop narrower than the contact limit that the other side
+    does not show.
+    """
+    out, i = [], 0
+    while i + 1 < len(xs):
+        if i in unpaired and i + 1 in unpaired and xs[i + 1] - xs[i] <= limit:
+            out.append((i, i + 1))
+            i += 2
+        else:
+            i += 1
+    return out
+
+
+def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float) -> dict:
     radius = max(PAIRING_RADIUS_M, PAIRING_RADIUS_PIXELS * pixel if math.isfinite(pixel) else 0.0)
     fault_tol = max(FAULT_TOLERANCE_M, 2.0 * pixel if math.isfinite(pixel) else 0.0)
     faults_x = _fault_ground_distances(draft, ground)
@@ -391,13 +411,29 @@ def _contacts(draft: Draft, ground: MultiLineString, pixel: float) -> dict:
         in_gap = _map_unit_at(draft, p_x) == None  # noqa: E711
         for x in p_x[in_gap & ~at_fault]:
             unverified.append(UnpairedContact(float(x), top, z_at(x)))
-        p_x = p_x[~at_fault & ~in_gap]
+        p_x = np.sort(p_x[~at_fault & ~in_gap])
         pairs = _pair(p_x, m_x, radius)
         for r, c in pairs:
             misfits.append(ContactMisfit(top, float(m_x[c]), float(p_x[r]),
                                          float(p_x[r] - m_x[c]), m_items[c].elevation_m))
         used_p = {r for r, _ in pairs}
         used_m = {c for _, c in pairs}
+        # A sliver outcrop narrower than the contact limit shown by one side only: as if
+        # both its contacts missed their meeting point (its middle) by half its width.
+        for a, b in _slivers(p_x, set(range(len(p_x))) - used_p, limit):
+            mid, half = 0.5 * (p_x[a] + p_x[b]), 0.5 * (p_x[b] - p_x[a])
+            misfits += [ContactMisfit(top, float(mid), float(p_x[a]), float(-half),
+                                      z_at(mid), "sliver"),
+                        ContactMisfit(top, float(mid), float(p_x[b]), float(half),
+                                      z_at(mid), "sliver")]
+            used_p |= {a, b}
+        for a, b in _slivers(m_x, set(range(len(m_x))) - used_m, limit):
+            mid, half = 0.5 * (m_x[a] + m_x[b]), 0.5 * (m_x[b] - m_x[a])
+            misfits += [ContactMisfit(top, float(m_x[a]), float(mid), float(half),
+                                      m_items[a].elevation_m, "sliver"),
+                        ContactMisfit(top, float(m_x[b]), float(mid), float(-half),
+                                      m_items[b].elevation_m, "sliver")]
+            used_m |= {a, b}
         un_map += [m_items[i] for i in range(len(m_items)) if i not in used_m]
         un_sec += [UnpairedContact(float(p_x[i]), top, z_at(p_x[i]))
                    for i in range(len(p_x)) if i not in used_p]
@@ -498,7 +534,7 @@ def check_topography(draft: Draft, thresholds: Thresholds | None = None) -> Topo
     pixel = float(draft.profile.pixel_size)
     limit = contact_threshold_m(thresholds, pixel)
 
-    c = _contacts(draft, ground, pixel)
+    c = _contacts(draft, ground, pixel, limit)
     mis = np.array([m.misfit_m for m in c["misfits"]], float)
     worst = int(np.argmax(np.abs(mis))) if len(mis) else -1
     ua = _unit_agreement(draft)

@@ -27,9 +27,7 @@ def summary_lines(report) -> list[str]:
     fit = area.get("detachment") or {}
     unpaired = (len(topo.get("unpaired_map_contacts") or [])
                 + len(topo.get("unpaired_section_contacts") or []))
-    n_kin = kin.get("n_issues")
-    if n_kin is None:
-        n_kin = len(kin.get("issues") or [])
+    n_kin = len(kin.get("failures") or [])
     figures = {
         "topography": (
             f"contact RMS {_num(topo.get('contact_rms_m'), '.1f')} m "
@@ -50,7 +48,9 @@ def summary_lines(report) -> list[str]:
             f"(<= {t.area_mismatch_pct:g}), depth to detachment "
             f"{_num(fit.get('depth_to_detachment_m'), '.0f')} m"
         ),
-        "kinematics": f"{n_kin} issue(s)",
+        "kinematics": (f"{n_kin} inconsistenc{'y' if n_kin == 1 else 'ies'}, transport "
+                       f"{kin.get('transport_direction') or '-'}, "
+                       f"{len(kin.get('fault_bend_folds') or [])} fault-bend fold(s) compared"),
     }
     lines = [f"section {d['section']} (method {d['method']}, VE {report.ve:g})"]
     for k, text in figures.items():
