@@ -93,6 +93,7 @@ class Dem:
         self._slots: OrderedDict[int, int] = OrderedDict()  # block id -> slot, LRU order
         self.blocks_read = 0  # decoded blocks, for tests and benchmarks
         self.pixel_size = self._pixel_size_m()
+        self._last_crs: tuple[object, pyproj.Transformer | None] = (None, None)
 
     @classmethod
     def open(cls, path: str | os.PathLike, **kwargs) -> Dem:
@@ -159,8 +160,12 @@ class Dem:
     def _pixel_coords(self, x, y, crs) -> tuple[np.ndarray, np.ndarray]:
         x = np.asarray(x, dtype=float)
         y = np.asarray(y, dtype=float)
-        if crs is not None:
-            tr = _transformer(_crs_key(crs), self._crs_wkt)
+        if crs is not None and crs is not self.crs:
+            if crs is self._last_crs[0]:  # the same CRS object as last time: skip the lookup
+                tr = self._last_crs[1]
+            else:
+                tr = _transformer(_crs_key(crs), self._crs_wkt)
+                self._last_crs = (crs, tr)
             if tr is not None:
                 x, y = tr.transform(x, y)
                 x, y = np.asarray(x, float), np.asarray(y, float)

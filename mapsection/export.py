@@ -176,13 +176,21 @@ def section_frames(draft: Draft) -> dict[str, gpd.GeoDataFrame]:
     us = draft.units
     frames["units"] = _frame(
         {"unit": [u.unit for u in us], "block": np.array([u.block for u in us], dtype=np.int32)},
-        [u.geometry for u in us])
+        [_polygonal(u.geometry) for u in us])
     ax = draft.axial_surfaces
     frames["axial_surfaces"] = _frame(
         {"ground_distance_m": [a.ground_distance_m for a in ax],
          "dip_left": [a.dip_left for a in ax], "dip_right": [a.dip_right for a in ax]},
         [a.geometry for a in ax])
     return frames
+
+
+def _polygonal(geom):
+    """Only the polygons of a geometry (a clipped unit can carry stray lines or points)."""
+    if geom is None or geom.geom_type in ("Polygon", "MultiPolygon"):
+        return geom
+    polys = [p for p in shapely.get_parts(geom) if p.geom_type == "Polygon" and not p.is_empty]
+    return MultiPolygon(polys) if len(polys) != 1 else polys[0]
 
 
 def _points(x, y):
@@ -235,10 +243,11 @@ def write_section_gpkg(draft: Draft, path: str | os.PathLike,
     """
     path = Path(path)
     frames = section_frames(draft)
-    types = {k: v[0] for k, v in LAYERS.items()}
-    # Unit polygons may be multipart; declare the layer so either kind fits.
-    types["units"] = "MultiPolygon" if any(isinstance(u.geometry, MultiPolygon)
-                                           for u in draft.units) else "Polygon"
+    types: dict[str, str | None] = {}
+    for name, (gtype, _fields) in LAYERS.items():
+        # A layer holding any multipart geometry is declared multipart (parts promoted).
+        multi = frames[name].geometry.dropna().geom_type.str.startswith("Multi").any()
+        types[name] = f"Multi{gtype}" if multi and gtype != "Point" else gtype
     for name, frame in (extra_layers or {}).items():
         if name in frames:
             raise OutputError(f"{path}: extra layer {name!r} clashes with a section layer")

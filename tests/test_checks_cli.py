@@ -10,6 +10,7 @@ hand-thinned horizon is checked against the restored area, thickness x length
 from __future__ import annotations
 
 import hashlib
+import json
 import shutil
 from pathlib import Path
 
@@ -72,50 +73,66 @@ def test_unedited_file_passes_like_the_build(built):
     assert "method edited" in res.stdout
 
 
-def _thin_one_unit(src: Path, dst: Path, unit: str, thickness: float, share: float = 0.25):
-    """Lower the top of ``unit`` by share x thickness (perpendicular) over the middle half of
-    its longest below-ground piece, as a geologist dragging vertices in a GIS would."""
+def _below_older(names: list[str], unit: str) -> str:
+    """The horizon closing ``unit`` below: the next older top, or the column's base."""
+    i = names.index(unit)
+    return names[i + 1] if i + 1 < len(names) else f"base of {unit}"
+
+
+def _thin_one_unit(src: Path, dst: Path, names: list[str], thicknesses: dict[str, float],
+                   share: float = 0.25):
+    """Lower the top of one unit by share x its thickness (perpendicular to bedding) over the
+    middle 80 % of its longest below-ground piece, as a geologist dragging vertices in a GIS
+    would. Returns the unit, the stretch (m) and the area taken from it (m2)."""
     shutil.copy(src, dst)
-    frames = {name: gpd.read_file(dst, layer=name) for name in ("horizons",)}
-    hz = frames["horizons"]
+    hz = gpd.read_file(dst, layer="horizons")
     below = ~hz["above_ground"].astype(bool)
-    cand = hz[(hz["top_of"] == unit) & below]
-    i = cand.geometry.length.idxmax()
-    c = shapely.get_coordinates(hz.geometry[i]).copy()
-    x0, x1 = c[:, 0].min(), c[:, 0].max()
-    lo, hi = x0 + 0.25 * (x1 - x0), x0 + 0.75 * (x1 - x0)
-    # Densify first, so the stretch has vertices to move.
-    line = LineString(c).segmentize(20.0)
+    present = set(zip(hz["top_of"], hz["block"], strict=True))
+    ok = [below[i] and t in thicknesses and t != names[0]
+          and (_below_older(names, t), b) in present
+          for i, (t, b) in enumerate(zip(hz["top_of"], hz["block"], strict=True))]
+    i = hz[ok].geometry.length.idxmax()
+    unit = hz.loc[i, "top_of"]
+    line = hz.geometry[i].segmentize(20.0)  # vertices to drag
     c = shapely.get_coordinates(line).copy()
+    x0, x1 = c[:, 0].min(), c[:, 0].max()
+    lo, hi = x0 + 0.1 * (x1 - x0), x0 + 0.9 * (x1 - x0)
     slope = np.gradient(c[:, 1], c[:, 0])
     move = (c[:, 0] >= lo) & (c[:, 0] <= hi)
-    # Perpendicular thinning t x share: vertical shift t x share / cos(dip) (plane geometry).
-    c[move, 1] -= share * thickness * np.sqrt(1.0 + slope[move] ** 2)
-    hz.loc[i, "geometry"] = LineString(c)
+    # Perpendicular thinning t x share is a vertical shift t x share / cos(dip).
+    c[move, 1] -= share * thicknesses[unit] * np.sqrt(1.0 + slope[move] ** 2)
+    moved = LineString(c)
+    # Area between the old and the new line, by shapely (reference library).
+    taken = shapely.Polygon(np.vstack([shapely.get_coordinates(line),
+                                       c[::-1]])).buffer(0).area
+    hz.loc[i, "geometry"] = moved
     hz.to_file(dst, layer="horizons", driver="GPKG")
-    return hi - lo
+    return unit, hi - lo, taken
 
 
 def test_hand_thinned_unit_fails_area_balance(built, tmp_path):
     project = load_project(PROJECT)
-    # The deepest unit whose top and whose base (the next top) are both drawn below ground.
     names = project.column.names
-    hz = gpd.read_file(built / "section.gpkg", layer="horizons")
-    tops = set(hz.loc[~hz["above_ground"].astype(bool), "top_of"])
-    unit = next(u for u, nxt in zip(names[-2::-1], names[:0:-1], strict=True)
-                if u in tops and nxt in tops)
+    thick = {u.name: u.thickness for u in project.column.units}
     edited = tmp_path / "A" / "section.gpkg"
     edited.parent.mkdir()
-    stretch = _thin_one_unit(built / "section.gpkg", edited, unit,
-                             project.column.unit(unit).thickness)
+    unit, stretch, taken = _thin_one_unit(built / "section.gpkg", edited, names, thick)
     assert stretch > 1000.0
     before = hashlib.sha256(edited.read_bytes()).hexdigest()
-    res = _run("check", PROJECT, "--from", edited)
+    out = tmp_path / "checks.json"
+    res = _run("check", PROJECT, "--from", edited, "--json", out)
     assert res.exit_code == 1, res.output
     assert _rows(res.stdout)["area_balance"] == "FAIL", res.output
-    assert unit in res.stdout  # the table names the worst unit
-    # The check never modifies its input.
-    assert hashlib.sha256(edited.read_bytes()).hexdigest() == before
+    assert hashlib.sha256(edited.read_bytes()).hexdigest() == before  # input left alone
+    # The thinned unit lost the area between the old and the moved horizon (shapely),
+    # against the build's own checks.json of the unedited section.
+    old = {u["unit"]: u for u in json.loads((built / "checks.json").read_text())
+           ["area_balance"]["units"]}
+    new = {u["unit"]: u for u in json.loads(out.read_text())["area_balance"]["units"]}
+    lost = old[unit]["deformed_area_m2"] - new[unit]["deformed_area_m2"]
+    assert lost == pytest.approx(taken, rel=0.02)
+    assert new[unit]["mismatch_pct"] < -project.thresholds.area_mismatch_pct
+    assert not new[unit]["passed"]
 
 
 def test_from_file_without_horizons(tmp_path):

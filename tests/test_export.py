@@ -159,3 +159,23 @@ def test_edited_unknown_unit_is_named(tmp_path, written):
 def test_output_folder_missing(tmp_path):
     with pytest.raises(OutputError, match="does not exist"):
         write_section_gpkg(hand_draft(), tmp_path / "nowhere" / "s.gpkg")
+
+
+def test_empty_layers_round_trip(tmp_path):
+    # self-consistency: a draft with no faults, no axial surfaces and no dips still writes
+    # every layer (empty) and reads back empty.
+    import dataclasses
+
+    draft = hand_draft()
+    none = np.zeros(0, bool)
+    empty = np.zeros(0)
+    dips = type(draft.dips)(np.zeros(0, str), empty, empty, empty, empty, empty, empty, empty,
+                            empty, none, none)
+    draft = dataclasses.replace(draft, faults=[], axial_surfaces=[], dips=dips)
+    path = write_section_gpkg(draft, tmp_path / "section.gpkg")
+    layers = dict(pyogrio.list_layers(path))
+    assert set(LAYERS) <= set(layers)
+    back = read_section_gpkg(path, draft.column, draft.line)
+    assert back.faults == [] and back.axial_surfaces == [] and len(back.dips) == 0
+    assert len(back.horizons) == len(draft.horizons)
+    write_section_3d(draft, tmp_path / "section_3d.gpkg")

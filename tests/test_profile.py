@@ -405,3 +405,12 @@ def test_bench_dispatcher_finds_modules():
     assert "profile" in available()
     assert callable(load("profile").main)
     assert main(["no-such-benchmark"]) == 2
+
+
+def test_package_level_profile_is_callable(tmp_path):
+    import mapsection
+    import mapsection.profile  # noqa: F401  (binds the package attribute to the module)
+
+    path = plane_dem(tmp_path / "plane.tif")
+    prof = mapsection.profile(path, f"{X0 + 100},{Y_TOP - 100};{X0 + 900},{Y_TOP - 100}")
+    np.testing.assert_allclose(prof.z, plane_value(prof.x, prof.y), atol=1e-9)  # analytic

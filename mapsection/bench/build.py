@@ -115,7 +115,8 @@ def main(argv: list[str] | None = None) -> int:
     for stage in STAGES:
         secs = statistics.median(r.get(stage, 0.0) for r in runs)
         print(f"| {stage} | {secs:.3f} | {100 * secs / total:.0f} % |")
-    other = total - sum(statistics.median(r.get(s, 0.0) for r in runs) for s in STAGES)
+    other = statistics.median(t - sum(r.get(s, 0.0) for s in STAGES)
+                              for t, r in zip(totals, runs, strict=True))
     print(f"| other (logs, folder swap) | {other:.3f} | {100 * other / total:.0f} % |")
     return 0
 

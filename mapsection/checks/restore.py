@@ -640,12 +640,14 @@ def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> 
         x, y = loose.xy
         ax.plot(x, y, color="#0050b0", linewidth=1.4)
         ax.annotate("restored loose line", (x[0], y[0]), textcoords="offset points",
-                    xytext=(3, 6), color="#0050b0", fontsize=9, ha="right")
-    for u in names:
-        ax.plot([], [], color=cols.get(u, "#dddddd"), linewidth=6, label=u)
+                    xytext=(3, 6), color="#0050b0", fontsize=9, ha="left")
+    units_drawn = {u.unit for u in r.units}
+    for u in (r.column.names if r.column is not None else names):
+        if u in units_drawn:
+            ax.plot([], [], color=cols.get(u, "#dddddd"), linewidth=6, label=u)
     ax.legend(loc="lower left", fontsize=7, ncol=min(len(names), 6), frameon=False)
     ax.set_xlabel("restored distance from the section start (m)")
-    ax.set_ylabel("depth below the top of the column (m)")
+    ax.set_ylabel("restored level: m below the top of the column")
     mm = r.line_length_mismatch_pct
     ax.set_title(f"{r.section}: flexural-slip restoration (Dahlstrom 1969) - shortening "
                  f"{r.shortening_pct:.1f} %, line-length spread {mm:.1f} %", fontsize=10)
