@@ -24,6 +24,8 @@ from shapely.geometry import LineString
 from mapsection.cli.main import cli
 from mapsection.project import load_project
 
+pytestmark = pytest.mark.filterwarnings("ignore:.crs. was not provided")
+
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_area"
 PROJECT = SAMPLE / "project.toml"
 FLAWED = SAMPLE / "project_flawed.toml"
