@@ -24,10 +24,6 @@ CAUTION = (
 
 def __getattr__(name: str):
     # Lazy top-level API so that `import mapsection` stays fast for the CLI.
-    if name == "profile":
-        from .profile import profile
-
-        return profile
     if name in ("load_project", "Project"):
         from . import project
 
@@ -37,3 +33,11 @@ def __getattr__(name: str):
 
         return getattr(line, name)
     raise AttributeError(f"module 'mapsection' has no attribute {name!r}")
+
+
+# Bound eagerly: importing the submodule would otherwise shadow the function with the module.
+from .profile import profile  # noqa: E402
+
+__all__ = [
+    "CAUTION", "__version__", "load_project", "profile", "read_line", "Project", "SectionLine",
+]

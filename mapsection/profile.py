@@ -8,8 +8,6 @@ pixel centres, reading only the DEM blocks the line passes through.
 from __future__ import annotations
 
 import os
-import sys
-import types
 import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -161,17 +159,3 @@ def _gap_length(distance: np.ndarray, gap: np.ndarray) -> float:
     """Length of line covered by flagged samples (each sample stands for half its two spacings)."""
     spacing = np.gradient(distance) if len(distance) > 1 else np.ones(1)
     return float(np.sum(spacing[gap]))
-
-
-class _CallableModule(types.ModuleType):
-    """Makes ``mapsection.profile(dem, line)`` work however the package attribute resolves.
-
-    Importing this submodule binds ``mapsection.profile`` to the module, shadowing the
-    package's lazy ``profile`` function; calling the module calls :func:`profile`.
-    """
-
-    def __call__(self, *args, **kwargs) -> Profile:
-        return profile(*args, **kwargs)
-
-
-sys.modules[__name__].__class__ = _CallableModule

@@ -122,6 +122,21 @@ def check_section(project, spec, from_path: Path | None = None, warn_fn=warn):
     return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
 
 
+def _write_html(path: Path, draft, report) -> Path:
+    """report.html with its figures drawn in a scratch folder and embedded."""
+    import tempfile
+
+    from ..checks import write_check_figures
+    from ..figure import draw_section
+    from ..report import write_report
+
+    with tempfile.TemporaryDirectory(prefix="mapsection-check-") as tmp:
+        drawn = draw_section(draft, Path(tmp) / "section", formats=("png",))
+        figures = {"section": Path(drawn[0])}
+        figures.update(write_check_figures(report, draft, tmp))
+        return write_report(path, draft, report, figures)
+
+
 @click.command(
     "check",
     epilog=f"CAUTION: {CAUTION}",
@@ -137,7 +152,7 @@ def check_section(project, spec, from_path: Path | None = None, warn_fn=warn):
 @click.option("--json", "json_path", metavar="FILE", type=click.Path(path_type=Path),
               help="Also write the results as JSON (one section only).")
 @click.option("--html", "html_path", metavar="FILE", type=click.Path(path_type=Path),
-              help="Also write a self-contained HTML report (one section only).")
+              help="Also write a self-contained HTML report with its figures (one section only).")
 def command(project_file: str, section_name: str | None, from_path: Path | None,
             json_path: Path | None, html_path: Path | None) -> None:
     """Run the topography, restoration, area-balance and kinematics tests and print a table.
@@ -183,8 +198,6 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
         if json_path is not None:
             write_checks_json(report, json_path)
         if html_path is not None:
-            from ..report import write_report
-
-            write_report(html_path, draft, report, {})
+            _write_html(html_path, draft, report)
     click.echo("all tests pass" if all_passed else "some tests FAIL")
     click.get_current_context().exit(0 if all_passed else 1)
