@@ -123,10 +123,11 @@ class SectionLine:
 
     def densify(self, step: float) -> np.ndarray:
         """Distances from 0 to the length at ``step``, always including every vertex."""
-        n = max(int(np.ceil(self.length / step)), 1)
-        d = np.linspace(0.0, self.length, n + 1) if np.isclose(n * step, self.length) else np.arange(0.0, self.length, step)
-        d = np.union1d(np.append(d, self.length), self.cumulative)
-        return d
+        grid = np.arange(0.0, self.length, step)
+        # Drop grid points that would nearly duplicate a vertex (float round-off).
+        tol = 1e-6 * step
+        near = np.abs(grid[:, None] - self.cumulative[None, :]).min(axis=1) <= tol
+        return np.union1d(grid[~near], self.cumulative)
 
     def moved(self, vertices: np.ndarray) -> SectionLine:
         return SectionLine(np.asarray(vertices, float), self.crs, self.name)

@@ -62,11 +62,17 @@ def test_sample_area_passes():
     assert res.exit_code == 0, res.output
 
 
-def test_flawed_variant_fails_topography():
+def test_flawed_variant_fails_topography(tmp_path):
     # The Merrin Siltstone 40 % too thick: the horizons below it miss their contacts.
-    res = _run("check", FLAWED, "--section", "A")
+    res = _run("check", FLAWED, "--section", "A", "--json", tmp_path / "c.json",
+               "--html", tmp_path / "r.html")
     assert res.exit_code == 1, res.output
     assert _rows(res.stdout)["topography"] == "FAIL", res.output
+    topo = json.loads((tmp_path / "c.json").read_text())["topography"]
+    assert topo["passed"] is False
+    assert topo["contact_rms_m"] > topo["contact_threshold_m"] or topo["unpaired_map_contacts"]
+    html = (tmp_path / "r.html").read_text("utf-8")
+    assert html.count('src="data:image/png;base64,') >= 3  # section, restored, sequence
 
 
 def test_unedited_file_passes_like_the_build(built):
