@@ -9,7 +9,8 @@ folder ``OUTDIR/<section name>/`` holding
 - ``section.png``, ``section.svg``, ``section.pdf`` -- the figure
   (see :mod:`mapsection.figure`);
 - ``build.log`` -- what the construction did and every warning it gave;
-- ``checks.json`` and ``report.html`` -- the balance checks, when available.
+- ``checks.json`` and ``report.html`` -- the balance checks; ``restored.png/.svg/.pdf``,
+  ``area_depth.png`` and ``sequence/`` (frames and an animated GIF) -- their figures.
 
 Each folder is written into a temporary sibling and replaces a previous build
 only once every file of the new one is complete: a failed build leaves the
@@ -44,7 +45,8 @@ from .line import SectionLine
 from .project import METHODS, Project, SectionSpec, load_project
 
 Warn = Callable[[str], None]
-STAGES = ("load", "section data", "construction", "checks", "figures", "geopackages")
+STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
+          "geopackages")
 
 
 def _default_warn(message: str) -> None:
@@ -184,36 +186,36 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
 
 
 def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpec,
-                  warn: Warn | None = None) -> list[Path]:
+                  warn: Warn | None = None, timings: dict[str, float] | None = None
+                  ) -> list[Path]:
     """CHECKS CALL POINT: run the balance checks and write their outputs into ``folder``.
 
     Writes checks.json, the restored layers into section.gpkg (``restored_horizons``,
-    ``restored_units``), restored.png/.svg/.pdf, area_depth.png and report.html.
-    Skipped (said in the log) while :mod:`mapsection.checks` is incomplete. A failed
-    test is a result and is written like a pass; CheckError (a bad pin or loose
-    line) stops the build like any bad input.
+    ``restored_units``), restored.png/.svg/.pdf, area_depth.png, the incremental
+    sequence (sequence/sequence_01.png ... and sequence.gif) and report.html.
+    A failed test is a result and is written like a pass; CheckError (a bad pin or
+    loose line) stops the build like any bad input.
     """
-    try:
-        from .checks import run_checks
-        from .report import write_report
-    except ImportError as exc:
-        draft.log.append(f"checks not run: {exc}")
-        return []
     import json
 
-    try:
-        report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
-    except ModuleNotFoundError as exc:
-        # While the checks package is incomplete, build without it (said in the log).
-        if not (exc.name or "").startswith(("mapsection.checks", "mapsection.report")):
-            raise
-        (warn or _default_warn)(f"checks not run: {exc}")
-        return []
-    text = json.dumps(report.to_dict(), indent=2, allow_nan=False)
-    checks = folder / "checks.json"
-    with atomic_file(checks) as tmp:
-        tmp.write_text(text + "\n", encoding="utf-8")
-    out = [checks]
+    from .checks import run_checks
+
+    with _stage(timings, "checks"):
+        report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
+                            warn=warn)
+        text = json.dumps(report.to_dict(), indent=2, allow_nan=False)
+        checks = folder / "checks.json"
+        with atomic_file(checks) as tmp:
+            tmp.write_text(text + "\n", encoding="utf-8")
+    with _stage(timings, "check figures"):
+        return [checks, *_write_check_outputs(folder, draft, report)]
+
+
+def _write_check_outputs(folder: Path, draft: Draft, report: Any) -> list[Path]:
+    """The checks' figures, restored layers and report.html (see :func:`_write_checks`)."""
+    from .report import write_report
+
+    out: list[Path] = []
     figures = {"section": folder / "section.png"}
     restoration = getattr(report, "restoration", None)
     if restoration is not None:
@@ -223,6 +225,20 @@ def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpe
         add_layers(folder / "section.gpkg", restoration_frames(restoration))
         out += draw_restoration(restoration, folder / "restored")
         figures["restored"] = folder / "restored.png"
+        from .checks.sequence import incremental_sequence, write_sequence
+
+        # The structure forming step by step: sequence/sequence_01.png ... and a GIF.
+        seq = folder / "sequence"
+        seq.mkdir()
+        frames = incremental_sequence(draft, restoration)
+        written = write_sequence(frames, seq, column=draft.column, title=draft.name)
+        out += written
+        pngs = [p for p in written if p.suffix == ".png"]
+        if pngs:
+            figures["sequence_first"], figures["sequence_last"] = pngs[0], pngs[-1]
+        gifs = [p for p in written if p.suffix == ".gif"]
+        if gifs:
+            figures["sequence"] = gifs[0]
     fit = getattr(getattr(report, "area_balance", None), "detachment", None)
     if fit is not None and len(getattr(fit, "points", ())) >= 2:
         from .checks.area import draw_area_depth
@@ -262,7 +278,8 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
 
             def section_warn(message: str, _said=said, _name=spec.name) -> None:
                 _said.append(message)
-                warn(f"section {_name}: {message}")
+                named = message.startswith(f"section {_name}")
+                warn(message if named else f"section {_name}: {message}")
 
             target = outdir / _folder_name(spec.name)
             with atomic_dir(target) as tmp:
@@ -270,9 +287,8 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                                       inputs=inputs, timings=timings)
                 write_section_outputs(draft, tmp, inputs.map_data, warnings=said,
                                       timings=timings)
-                # --- checks: checks.json and report.html (integration point) ---
-                with _stage(timings, "checks"):
-                    _write_checks(tmp, draft, project, spec, section_warn)
+                # --- checks: checks.json, their figures and report.html (call point) ---
+                _write_checks(tmp, draft, project, spec, section_warn, timings)
                 write_build_log(draft, tmp / "build.log", said)  # again, with the checks' notes
             folders.append(target)
     finally:

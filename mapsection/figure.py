@@ -469,15 +469,15 @@ def draw_section(draft: Draft, path_stem: str | os.PathLike, map_data=None, *,
     fig = section_figure(draft, map_data)
     stem = Path(path_stem)
     out = []
-    for fmt in formats:
-        path = stem.with_name(f"{stem.name}.{fmt}")
-        with atomic_file(path) as tmp:
-            # No creation date: rebuilding the same draft gives the same files.
-            meta = {"Date": None} if fmt in ("svg", "pdf") else None
-            # Text stays text (editable in a vector editor, searchable in the SVG).
-            with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}):
-                fig.savefig(tmp, format=fmt, dpi=PNG_DPI, metadata=meta,
+    # No creation dates: rebuilding the same draft gives byte-identical files.
+    meta = {"png": None, "svg": {"Date": None}, "pdf": {"CreationDate": None}}
+    # Text stays text in the SVG (editable in a vector editor, searchable).
+    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}):
+        for fmt in formats:
+            path = stem.with_name(f"{stem.name}.{fmt}")
+            with atomic_file(path) as tmp:
+                fig.savefig(tmp, format=fmt, dpi=PNG_DPI, metadata=meta[fmt],
                             # Lighter PNG compression: a little larger, much faster.
                             **({"pil_kwargs": {"compress_level": 3}} if fmt == "png" else {}))
-        out.append(path)
+            out.append(path)
     return out

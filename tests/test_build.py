@@ -27,7 +27,8 @@ FILES = {"section.gpkg", "section_3d.gpkg", "section.png", "section.svg", "secti
 
 
 def _digest(folder: Path) -> dict[str, str]:
-    return {p.name: hashlib.sha256(p.read_bytes()).hexdigest() for p in sorted(folder.iterdir())}
+    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
 @pytest.fixture(scope="module")
@@ -69,10 +70,13 @@ def test_folder_layout(built):
         assert n_d == pyogrio.read_info(folder / "section.gpkg", layer="dips")["features"]
         log = (folder / "build.log").read_text(encoding="utf-8")
         assert f"section {folder.name}" in log and "CAUTION" in log
-        if "checks.json" in files:
-            checks = json.loads((folder / "checks.json").read_text(encoding="utf-8"))
-            assert {"topography", "restoration", "area_balance", "kinematics"} <= set(checks)
-            assert (folder / "report.html").is_file()
+        # The checks' outputs (issue 5): checks.json, report, restored state, sequence.
+        checks = json.loads((folder / "checks.json").read_text(encoding="utf-8"))
+        for test in ("topography", "restoration", "area_balance", "kinematics"):
+            assert isinstance(checks[test]["passed"], bool)
+        assert {"report.html", "restored.png", "restored.svg", "restored.pdf"} <= files
+        assert {"restored_horizons", "restored_units"} <= set(layers)
+        assert (folder / "sequence" / "sequence.gif").is_file()
     assert set(timings) >= {"load", "section data", "construction", "figures", "geopackages"}
 
 

@@ -212,3 +212,11 @@ def test_bad_format_is_refused(tmp_path):
     with pytest.raises(ParameterError, match="tiff"):
         draw_section(hand_draft(), tmp_path / "s", formats=("tiff",))
     assert not list(tmp_path.iterdir())
+
+
+def test_rebuild_gives_identical_files(tmp_path, written):
+    # self-consistency: no dates or random ids in the files, so rebuilds are comparable.
+    draft, paths = written
+    again = draw_section(draft, tmp_path / "section", hand_map(draft))
+    for a, b in zip(paths, again, strict=True):
+        assert a.read_bytes() == b.read_bytes(), a.suffix

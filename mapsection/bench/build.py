@@ -8,8 +8,8 @@ Measures, in the same run:
   interpreter (what a user waits for, start-up and imports included), median of N,
   and its CPU time (on a shared machine wall time also holds waiting for a core);
 - a baseline: a fresh interpreter importing the libraries the build stands on
-  (numpy, shapely, pyproj, rasterio, geopandas, pyogrio, matplotlib, scipy), and the
-  ratio of the build to it;
+  (numpy, shapely, pyproj, rasterio, geopandas, pyogrio, scipy.optimize, matplotlib),
+  and the ratio of the build to it;
 - the in-process build (``build_project`` with stage timings) after one warm-up
   run, median of N, and the share of each stage: load (project, map, attitudes,
   DEM), section data (profile, surface geology, dips), construction, checks (with
@@ -30,8 +30,8 @@ import time
 from pathlib import Path
 
 TARGET_S = 3.0
-IMPORTS = ("import numpy, shapely, pyproj, rasterio, geopandas, pyogrio, scipy, "
-           "matplotlib.figure")
+IMPORTS = ("import numpy, shapely, pyproj, rasterio, geopandas, pyogrio, scipy.optimize, "
+           "matplotlib.figure, matplotlib.pyplot")
 
 
 def _project(arg: str | None, tmp: Path) -> Path:

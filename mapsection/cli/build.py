@@ -31,7 +31,8 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
     and OUTDIR/<section name>/ receives: section.gpkg (the section in section space:
     x = distance along the line, y = elevation, in metres), section_3d.gpkg (the
     same horizons and faults as 3D lines in the project CRS), section.png/.svg/.pdf
-    (the figure), build.log, and checks.json with report.html (the balance checks).
+    (the figure), build.log, and the balance checks: checks.json, report.html,
+    restored.png/.svg/.pdf, area_depth.png and sequence/ (frames and a GIF).
     A previous build of a section is replaced only once the new one is complete.
 
     \b

@@ -52,9 +52,10 @@ def summary_lines(report) -> list[str]:
                        f"{kin.get('transport_direction') or '-'}, "
                        f"{len(kin.get('fault_bend_folds') or [])} fault-bend fold(s) compared"),
     }
-    lines = [f"section {d['section']} (method {d['method']}, VE {report.ve:g})"]
+    lines = [f"section {d['section']} (method {d['method']}, VE {report.ve:g})",
+             f"  {'test':<13} {'result':<6} figures (thresholds)"]
     for k, text in figures.items():
-        lines.append(f"  {k:<13} {'PASS' if d[k]['passed'] else 'FAIL'}  {text}")
+        lines.append(f"  {k:<13} {'PASS' if d[k]['passed'] else 'FAIL':<6} {text}")
     return lines
 
 
@@ -101,7 +102,10 @@ def edited_draft(project, spec, path: Path, warn_fn=warn):
     from ..export import read_section_gpkg
     from ..session import SectionSession
 
-    _gpkg_layers_and_section(path)
+    _, recorded = _gpkg_layers_and_section(path)
+    if recorded and recorded != spec.name:
+        warn_fn(f"{path}: was built for section {recorded!r}; checking it as section "
+                f"{spec.name!r} as asked")
     with SectionSession.from_project(project, spec, warn=warn_fn) as session:
         data = session.run()
     draft = read_section_gpkg(path, project.column, data.line, spec.name, profile=data.profile,
