@@ -410,7 +410,10 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
     except Exception as exc:
         raise MapLayerError(f"{path}: not a readable GeoPackage "
                             f"({str(exc).splitlines()[0] if str(exc) else exc})") from None
-    known = set(column.names)
+    from .construct import base_name
+
+    # The base of the oldest unit is a horizon too (named by the construction).
+    known = set(column.names) | {base_name(column)}
     meta = _section_info(path, layers)
 
     hz_frame = _read_layer(path, "horizons", layers)
@@ -451,7 +454,7 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
             raise MapLayerError(f"{path}: layer 'units' row {i}: holds a {g.geom_type}; "
                                 f"expected polygons")
         unit = _text(unit)
-        if unit not in known:
+        if unit not in column.names:
             raise MapLayerError(f"{path}: layer 'units' row {i}: unit {unit!r} is not in the "
                                 f"column")
         units.append(UnitPolygon(unit, shapely.force_2d(g), int(_num(block, 0.0))))
