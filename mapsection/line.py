@@ -22,7 +22,9 @@ from shapely.geometry import LineString, MultiLineString
 from .errors import LineError
 
 _NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
-_TEXT_LINE = re.compile(rf"^\s*{_NUMBER}\s*,\s*{_NUMBER}\s*(;\s*{_NUMBER}\s*,\s*{_NUMBER}\s*)+;?\s*$")
+_TEXT_LINE = re.compile(
+    rf"^\s*{_NUMBER}\s*,\s*{_NUMBER}\s*(;\s*{_NUMBER}\s*,\s*{_NUMBER}\s*)+;?\s*$"
+)
 
 
 @dataclass(frozen=True)
@@ -47,7 +49,9 @@ class SectionLine:
     def __post_init__(self) -> None:
         v = np.asarray(self.vertices, dtype=float)
         if v.ndim != 2 or v.shape[1] != 2 or len(v) < 2:
-            raise LineError(f"section line {self.name or ''}: needs at least two vertices".replace(" :", ":"))
+            raise LineError(
+                f"section line {self.name or ''}: needs at least two vertices".replace(" :", ":")
+            )
         if not np.all(np.isfinite(v)):
             raise LineError(f"section line {self.name}: vertices must be finite numbers")
         seg = np.hypot(*np.diff(v, axis=0).T)
@@ -57,7 +61,9 @@ class SectionLine:
         if len(v) < 2:
             raise LineError(f"section line {self.name}: has zero length".replace(" :", ":"))
         object.__setattr__(self, "vertices", v)
-        object.__setattr__(self, "cumulative", np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(v, axis=0).T))]))
+        object.__setattr__(
+            self, "cumulative", np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(v, axis=0).T))])
+        )
 
     # --- basic measures -------------------------------------------------
     @property
@@ -155,7 +161,10 @@ def projected_line(line: SectionLine, warn=None) -> SectionLine:
         return line
     lon, lat = line.vertices.mean(axis=0)
     utm = utm_crs_for(float(lon), float(lat))
-    msg = f"section line is in a geographic CRS; measuring in metres in {utm.name} (EPSG:{utm.to_epsg()})"
+    msg = (
+        "section line is in a geographic CRS; "
+        f"measuring in metres in {utm.name} (EPSG:{utm.to_epsg()})"
+    )
     (warn or (lambda m: print(f"mapsection: note: {m}", file=sys.stderr)))(msg)
     geod = pyproj.Geod(ellps="WGS84")
     pts = [line.vertices[0]]
@@ -177,7 +186,9 @@ def parse_line_text(text: str, crs: pyproj.CRS | None = None, name: str = "") ->
     return SectionLine(np.asarray(pts), crs, name)
 
 
-def read_line(spec: str | os.PathLike, crs: str | pyproj.CRS | None = None, name: str = "") -> SectionLine:
+def read_line(
+    spec: str | os.PathLike, crs: str | pyproj.CRS | None = None, name: str = ""
+) -> SectionLine:
     """Read a section line from a vector file (one LineString) or ``"x1,y1;x2,y2"`` text.
 
     ``crs`` is the CRS of text coordinates; for a file it overrides a missing CRS.
@@ -193,7 +204,9 @@ def read_line(spec: str | os.PathLike, crs: str | pyproj.CRS | None = None, name
     try:
         df = pyogrio.read_dataframe(text)
     except Exception as exc:  # pyogrio raises several kinds for unreadable files
-        raise LineError(f"{text}: not a readable vector file ({str(exc).splitlines()[0]})") from None
+        raise LineError(
+            f"{text}: not a readable vector file ({str(exc).splitlines()[0]})"
+        ) from None
     geoms = [g for g in df.geometry if g is not None and not g.is_empty]
     lines = []
     for g in geoms:
@@ -207,4 +220,6 @@ def read_line(spec: str | os.PathLike, crs: str | pyproj.CRS | None = None, name
         raise LineError(f"{text}: holds {len(lines)} lines; expected exactly one LineString")
     file_crs = df.crs if df.crs is not None else crs_obj
     coords = shapely.get_coordinates(lines[0])
-    return SectionLine(coords, pyproj.CRS(file_crs) if file_crs is not None else None, name or Path(text).stem)
+    return SectionLine(
+        coords, pyproj.CRS(file_crs) if file_crs is not None else None, name or Path(text).stem
+    )

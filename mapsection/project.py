@@ -101,7 +101,9 @@ class _Reader:
             raise self.fail(key, "must be a table")
         return _Reader(self.fname, val, f"{self._key(key)}.")
 
-    def get(self, key: str, kind: type | tuple, default: Any = ..., *, choices=None, positive=False):
+    def get(
+        self, key: str, kind: type | tuple, default: Any = ..., *, choices=None, positive=False
+    ):
         if key not in self.table:
             if default is ...:
                 raise self.fail(key, "missing key")
@@ -157,12 +159,37 @@ def load_project(path: str | os.PathLike) -> Project:
     dem = top.sub("dem")
     _unknown(dem, {"path"})
     mp = top.sub("map")
-    _unknown(mp, {"path", "units_layer", "unit_field", "faults_layer", "fault_dip_field",
-                  "fault_dip_direction_field", "fault_sense_field", "fault_name_field"})
+    _unknown(
+        mp,
+        {
+            "path",
+            "units_layer",
+            "unit_field",
+            "faults_layer",
+            "fault_dip_field",
+            "fault_dip_direction_field",
+            "fault_sense_field",
+            "fault_name_field",
+        },
+    )
     att = top.sub("attitudes")
-    _unknown(att, {"path", "layer", "convention", "x_field", "y_field", "strike_field",
-                   "dip_field", "dip_direction_field", "id_field", "overturned_field",
-                   "attitude_field", "z_field"})
+    _unknown(
+        att,
+        {
+            "path",
+            "layer",
+            "convention",
+            "x_field",
+            "y_field",
+            "strike_field",
+            "dip_field",
+            "dip_direction_field",
+            "id_field",
+            "overturned_field",
+            "attitude_field",
+            "z_field",
+        },
+    )
 
     fault_fields = {
         k: mp.get(f"fault_{k}_field", str, k) for k in ("dip", "dip_direction", "sense", "name")
@@ -187,8 +214,15 @@ def load_project(path: str | os.PathLike) -> Project:
         thickness = r.get("thickness", float)
         if thickness <= 0:
             raise r.fail("thickness", f"must be > 0 m, got {thickness}")
-        units.append(Unit(r.get("unit", str), thickness, colour, r.get("age", str, None),
-                          r.get("lithology", str, None)))
+        units.append(
+            Unit(
+                r.get("unit", str),
+                thickness,
+                colour,
+                r.get("age", str, None),
+                r.get("lithology", str, None),
+            )
+        )
     try:
         column = Column(tuple(units))
     except Exception as exc:
@@ -202,8 +236,23 @@ def load_project(path: str | os.PathLike) -> Project:
         if not isinstance(entry, dict):
             raise ProjectFileError(f"{fname}: section[{i}]: must be a table")
         r = _Reader(fname, entry, f"section[{i}].")
-        _unknown(r, {"name", "line", "corridor", "method", "projection", "ve", "dip_tolerance",
-                     "depth", "fault_depth", "default_dip", "pin", "loose"})
+        _unknown(
+            r,
+            {
+                "name",
+                "line",
+                "corridor",
+                "method",
+                "projection",
+                "ve",
+                "dip_tolerance",
+                "depth",
+                "fault_depth",
+                "default_dip",
+                "pin",
+                "loose",
+            },
+        )
         sections.append(_section(r))
     names = [s.name for s in sections]
     if len(set(names)) != len(names):
@@ -247,8 +296,11 @@ def _section(r: _Reader) -> SectionSpec:
         raise r.fail("line", "needs at least two vertices [[x1, y1], [x2, y2]]")
     pts = []
     for j, p in enumerate(line):
-        ok = (isinstance(p, list) and len(p) == 2
-              and all(isinstance(c, int | float) and not isinstance(c, bool) for c in p))
+        ok = (
+            isinstance(p, list)
+            and len(p) == 2
+            and all(isinstance(c, int | float) and not isinstance(c, bool) for c in p)
+        )
         if not ok:
             raise r.fail(f"line[{j}]", f"must be [x, y] numbers, got {p!r}")
         pts.append((float(p[0]), float(p[1])))
@@ -280,4 +332,6 @@ def _section(r: _Reader) -> SectionSpec:
 
 
 def _is_hex_colour(text: str) -> bool:
-    return len(text) == 7 and text[0] == "#" and all(c in "0123456789abcdefABCDEF" for c in text[1:])
+    return (
+        len(text) == 7 and text[0] == "#" and all(c in "0123456789abcdefABCDEF" for c in text[1:])
+    )

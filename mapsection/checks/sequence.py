@@ -117,13 +117,24 @@ def incremental_sequence(draft: Draft, restoration: Restoration, n_steps: int = 
     return frames
 
 
+# Frames are for watching: small, legible, quick to write.
+FRAME_DPI = 80
+FRAME_SIZE_IN = (6.4, 3.0)
+
+
 def write_sequence(frames: list[Frame], folder: str | os.PathLike, *, column=None,
                    title: str = "", duration_ms: int = 450) -> list[Path]:
-    """Save ``sequence_01.png`` ... and ``sequence.gif``; returns the paths (GIF last)."""
-    import matplotlib
+    """Save ``sequence_01.png`` ... and ``sequence.gif``; returns the paths (GIF last).
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    One figure is drawn once (axes, ticks, labels, caution); each frame then only
+    redraws the lines that move and the title onto a copy of that background, and
+    the frame's pixels go straight to Pillow for both its PNG and the GIF.
+    """
+    import textwrap
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.collections import LineCollection
+    from matplotlib.figure import Figure
     from PIL import Image
 
     folder = Path(folder)
@@ -136,34 +147,46 @@ def write_sequence(frames: list[Frame], folder: str | os.PathLike, *, column=Non
     pad_x, pad_y = 0.03 * (x1 - x0 + 1.0), 0.1 * (y1 - y0 + 1.0)
     names = sorted({h.top_of for fr in frames for h in fr.horizons})
     cols = _colours(column, names)
-    paths = []
     n = len(frames) - 1
+
+    fig = Figure(figsize=FRAME_SIZE_IN, dpi=FRAME_DPI)
+    canvas = FigureCanvasAgg(fig)
+    fig.subplots_adjust(bottom=0.25)
+    ax = fig.add_subplot()
+    ax.set_xlim(x0 - pad_x, x1 + pad_x)
+    ax.set_ylim(y0 - pad_y, y1 + pad_y)
+    ax.set_xlabel("distance (m)", fontsize=8)
+    ax.set_ylabel("elevation (m)", fontsize=8)
+    ax.tick_params(labelsize=7)
+    # Pre-wrapped: matplotlib's own wrapping measures the text word by word on every draw.
+    fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 185)), fontsize=4.5,
+             color="#555555")
+    beds = LineCollection([], linewidths=1.6, animated=True)
+    faults = LineCollection([], colors="black", linewidths=1.8, animated=True)
+    ax.add_collection(beds)
+    ax.add_collection(faults)
+    head = ax.set_title(" ", fontsize=9)
+    head.set_animated(True)
+    canvas.draw()  # the static background, once
+    background = canvas.copy_from_bbox(fig.bbox)
+    renderer = canvas.get_renderer()
+
+    paths, images = [], []
     for fr in frames:
-        fig, ax = plt.subplots(figsize=(6.4, 3.0))
-        for h in fr.horizons:
-            x, y = h.geometry.xy
-            ax.plot(x, y, color=cols.get(h.top_of, "black"), linewidth=1.6)
-        for g in fr.faults:
-            x, y = g.xy
-            ax.plot(x, y, color="black", linewidth=1.8)
-        ax.set_xlim(x0 - pad_x, x1 + pad_x)
-        ax.set_ylim(y0 - pad_y, y1 + pad_y)
-        ax.set_title(f"{title + ': ' if title else ''}step {fr.step} of {n} "
-                     f"({100 * fr.fraction:.0f} % of the deformation)", fontsize=9)
-        ax.set_xlabel("distance (m)", fontsize=8)
-        ax.set_ylabel("elevation (m)", fontsize=8)
-        ax.tick_params(labelsize=7)
-        fig.text(0.01, 0.01, CAUTION, fontsize=4.5, wrap=True, color="#555555")
-        fig.subplots_adjust(bottom=0.25)
+        canvas.restore_region(background)
+        beds.set_segments([_xy(h.geometry) for h in fr.horizons])
+        beds.set_color([cols.get(h.top_of, "black") for h in fr.horizons])
+        faults.set_segments([_xy(g) for g in fr.faults])
+        head.set_text(f"{title + ': ' if title else ''}step {fr.step} of {n} "
+                      f"({100 * fr.fraction:.0f} % of the deformation)")
+        for artist in (beds, faults, head):
+            artist.draw(renderer)
+        rgb = Image.fromarray(np.asarray(canvas.buffer_rgba())[..., :3].copy(), "RGB")
         path = folder / f"sequence_{fr.step + 1:02d}.png"
         with atomic_file(path) as tmp:
-            fig.savefig(tmp, format="png", dpi=80)
-        plt.close(fig)
+            rgb.save(tmp, format="PNG", compress_level=6)
         paths.append(path)
-    images = []
-    for p in paths:
-        with Image.open(p) as im:
-            images.append(im.convert("RGB").convert("P", palette=Image.Palette.ADAPTIVE))
+        images.append(rgb.convert("P", palette=Image.Palette.ADAPTIVE))
     gif = folder / "sequence.gif"
     durations = [duration_ms] * (len(images) - 1) + [duration_ms * 3]
     with atomic_file(gif) as tmp:
