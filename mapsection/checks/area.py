@@ -228,15 +228,17 @@ def depth_to_detachment(depths, excess_areas) -> DetachmentFit:
 
 def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike) -> Path:
     """A small PNG: excess area against depth with the fitted line (for the report)."""
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
 
     path = Path(path)
     z = np.array([p.depth_m for p in fit.points])
     s = np.array([p.excess_area_m2 for p in fit.points]) / 1e6
-    fig, ax = plt.subplots(figsize=(4.2, 3.4))
+    fig = Figure(figsize=(4.2, 3.4))
+    FigureCanvasAgg(fig)
+    # Fixed margins instead of tight_layout (which draws the figure once more to measure it).
+    fig.subplots_adjust(left=0.19, right=0.96, bottom=0.14, top=0.91)
+    ax = fig.add_subplot()
     ax.plot(s, z, "o", color="#1a1a8c")
     for p in fit.points:
         if p.top_of:
@@ -253,8 +255,6 @@ def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike) -> Path:
     ax.invert_yaxis()
     ax.set_xlabel("excess area (km$^2$)")
     ax.set_ylabel("depth below elevation 0 (m)")
-    fig.tight_layout()
     with atomic_file(path) as tmp:
-        fig.savefig(tmp, format="png", dpi=110)
-    plt.close(fig)
+        fig.savefig(tmp, format="png", dpi=110, pil_kwargs={"compress_level": 3})
     return path
