@@ -722,3 +722,9 @@ def model_summary(model: SampleModel, seed: int = DEFAULT_SEED) -> dict:
         "basement": model.basement,
         "sections": {k: [list(p) for p in v] for k, v in SECTIONS.items()},
     }
+
+
+def sample_project() -> Path | None:
+    """The committed sample area's project file in a source checkout, or None when absent."""
+    path = Path(__file__).resolve().parents[1] / "sample_area" / "project.toml"
+    return path if path.is_file() else None

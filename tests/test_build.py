@@ -147,7 +147,6 @@ def test_unknown_section_and_missing_project(tmp_path):
 
 def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
     import mapsection.build
-    import mapsection.cli.demo as demo
     import mapsection.sample
 
     calls = []
@@ -155,22 +154,29 @@ def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
     def fake_build(project, outdir, **kw):
         calls.append(Path(project))
         assert Path(project).is_file()
-        return [Path(outdir) / "A"]
+        folder = Path(outdir) / "A"
+        folder.mkdir(parents=True, exist_ok=True)
+        passed = "flawed" not in Path(project).name
+        tests = ("topography", "restoration", "area_balance", "kinematics")
+        (folder / "checks.json").write_text(json.dumps({k: {"passed": passed} for k in tests}))
+        return [folder]
 
     monkeypatch.setattr(mapsection.build, "build_project", fake_build)
     runner = CliRunner()
     if SAMPLE.is_file():
         result = runner.invoke(cli, ["demo", "-o", str(tmp_path / "d")])
         assert result.exit_code == 0, result.output
-        assert calls[-1] == SAMPLE
+        # the sample area, then its flawed variant, each with its one-line summary
+        assert calls == [SAMPLE, SAMPLE.with_name("project_flawed.toml")]
         assert "CAUTION" in result.output and str(tmp_path / "d" / "A") in result.output
+        assert "topography PASS" in result.output and "topography FAIL" in result.output
 
     def fake_generate(folder):
         p = Path(folder) / "project.toml"
         p.write_text("# generated\n", encoding="utf-8")
         return {"project.toml": p}
 
-    monkeypatch.setattr(demo, "sample_project", lambda: None)
+    monkeypatch.setattr(mapsection.sample, "sample_project", lambda: None)
     monkeypatch.setattr(mapsection.sample, "generate", fake_generate)
     result = runner.invoke(cli, ["demo", "-o", str(tmp_path / "d")])
     assert result.exit_code == 0, result.output

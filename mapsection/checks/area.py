@@ -237,7 +237,7 @@ def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike) -> Path:
     fig = Figure(figsize=(4.2, 3.4))
     FigureCanvasAgg(fig)
     # Fixed margins instead of tight_layout (which draws the figure once more to measure it).
-    fig.subplots_adjust(left=0.19, right=0.96, bottom=0.14, top=0.91)
+    fig.subplots_adjust(left=0.19, right=0.8, bottom=0.14, top=0.91)  # room for labels
     ax = fig.add_subplot()
     ax.plot(s, z, "o", color="#1a1a8c")
     for p in fit.points:

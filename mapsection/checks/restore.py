@@ -668,7 +668,7 @@ def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> 
                  f"{r.shortening_pct:.1f} %, line-length spread {mm:.1f} %", fontsize=10)
     ax.set_aspect("equal", adjustable="datalim")
     # Pre-wrapped: matplotlib's own wrapping measures the text word by word on every draw.
-    fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 200)), fontsize=6, color="#444444")
+    fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 225)), fontsize=6, color="#444444")
     out = []
     # Text stays text in the SVG (searchable, and no glyph outlines to write).
     with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}):

@@ -11,14 +11,6 @@ from .. import CAUTION
 from ._common import note, warn
 
 
-def sample_project() -> Path | None:
-    """The sample area's project file of a repository checkout, if there is one."""
-    import mapsection
-
-    path = Path(mapsection.__file__).resolve().parents[1] / "sample_area" / "project.toml"
-    return path if path.is_file() else None
-
-
 @click.command(
     "demo",
     epilog=f"CAUTION: {CAUTION}",
@@ -27,27 +19,40 @@ def sample_project() -> Path | None:
 @click.option("-o", "--output", "outdir", required=True, metavar="OUTDIR",
               help="Folder receiving one sub-folder per section (created if missing).")
 def command(outdir: str) -> None:
-    """Build every section of the sample area (invented data) into OUTDIR.
+    """Build every section of the sample area (invented data) into OUTDIR, and its flawed variant.
 
     Uses sample_area/project.toml of the source tree; when mapsection is installed
     without it, the sample area is generated afresh into a temporary folder first.
     Each OUTDIR/<section>/ holds section.gpkg, section_3d.gpkg, section.png/.svg/.pdf,
-    build.log, checks.json and report.html, as 'mapsection build' writes them.
+    restored.png/.svg/.pdf, the incremental sequence, build.log, checks.json and
+    report.html, as 'mapsection build' writes them. OUTDIR/flawed/ holds the same for
+    sample_area/project_flawed.toml, whose column has one unit 40 % too thick: its
+    sections fail the topography test, as they should. The summary lines say which
+    tests each section passes.
 
     \b
     Example:
       mapsection demo -o demo_out
     """
     from ..build import build_project
+    from ..checking import summary_from_json
+    from ..sample import sample_project
 
-    project = sample_project()
+    out = Path(outdir)
     with tempfile.TemporaryDirectory(prefix="mapsection-sample-") as tmp:
+        project = sample_project()
         if project is None:
             from ..sample import generate
 
             note("sample_area/ not found beside the package: generating it")
             project = generate(tmp)["project.toml"]
-        folders = build_project(project, outdir, warn=warn)
-    for folder in folders:
-        click.echo(str(folder))
+        flawed = project.with_name("project_flawed.toml")
+        runs = [("sample area", project, out)]
+        if flawed.is_file():
+            runs.append(("flawed variant (one unit 40 % too thick)", flawed, out / "flawed"))
+        for title, proj, dest in runs:
+            folders = build_project(proj, dest, warn=warn)
+            click.echo(f"{title}: {proj.name}")
+            for folder in folders:
+                click.echo(f"  {folder}: {summary_from_json(Path(folder) / 'checks.json')}")
     click.echo(f"CAUTION: {CAUTION}")
