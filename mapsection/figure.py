@@ -37,7 +37,7 @@ import shapely
 from matplotlib.collections import LineCollection, PatchCollection
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
-from matplotlib.patches import Patch, PathPatch, Rectangle
+from matplotlib.patches import PathPatch, Rectangle
 from matplotlib.patches import Polygon as MplPolygon
 from matplotlib.path import Path as MplPath
 from matplotlib.transforms import blended_transform_factory
@@ -94,6 +94,9 @@ def tick_segment(d, z, apparent_dip, ve: float, half_length: float):
 
 def _polygon_path(geom) -> MplPath | None:
     """One matplotlib compound path (exteriors and holes) for a Polygon/MultiPolygon."""
+    # Fills use the nonzero winding rule: holes must wind against their exterior,
+    # whatever the source (clipping and simplification do not keep ring orientation).
+    geom = shapely.orient_polygons(geom)
     polys = [p for p in shapely.get_parts(geom) if not p.is_empty and p.geom_type == "Polygon"]
     if not polys:
         return None
@@ -311,7 +314,7 @@ def section_figure(draft: Draft, map_data=None) -> Figure:
     method = {"kink": "kink-band (dip-domain)", "arc": "arc (Busk)"}.get(draft.method,
                                                                          draft.method)
     ax.set_title(f"Draft section {left}–{right}  ·  {method} construction", fontsize=10,
-                 pad=26)
+                 pad=26, y=1.0)  # y given: no tick-label measuring to place the title
 
     # VE statement and scale bar below the axes (x in data, y in axes fraction).
     tr = blended_transform_factory(ax.transData, fig.transFigure)
@@ -340,26 +343,45 @@ def section_figure(draft: Draft, map_data=None) -> Figure:
 
 
 def _legend(fig: Figure, draft: Draft, palette: dict[str, str], fh: float) -> None:
-    lax = fig.add_axes((0.745, 0.3 / fh, 0.25, (fh - 3.3) / fh))
-    lax.set_axis_off()
-    handles = []
+    """The legend: one swatch per unit of the column (youngest at top), then the symbols.
+
+    Laid out by hand in inches from the page's corner (rows of fixed pitch): the same
+    look as a matplotlib legend, without its box layout, which measured every label
+    again for each of the three formats.
+    """
+    fs, em = 7.0, 7.0 / 72.0  # label font size (pt) and its em in inches
+    tr = fig.dpi_scale_trans  # inches from the page's lower left corner
+    x = 0.745 * fig.get_figwidth() + 0.9 * em  # axes pad + border pad of a legend
+    y = fh - 3.0 - 0.9 * em
+    fig.text(x, y, "Units, youngest at top", transform=tr, fontsize=8, va="top", ha="left")
+    y -= 8.0 / 72.0 * 1.3
+    pitch = 1.5 * em  # one text line plus the legend's label spacing
+    rows: list[tuple[str, object]] = []
     for u in draft.column.units:  # youngest first = top of the legend
         label = f"{u.name} ({u.age})" if u.age else u.name
         if len(label) > 38:
             label = label[:37] + "…"
-        handles.append(Patch(facecolor=palette[u.name], edgecolor="#333333", linewidth=0.4,
-                             label=label))
-    handles += [
-        Line2D([], [], label="Ground (DEM profile)", **C.GROUND.kwargs()),
-        Line2D([], [], label="Horizon (top of unit)", **C.CONTACT.kwargs()),
-        Line2D([], [], label="Horizon projected above ground", **C.CONTACT_PROJECTED.kwargs()),
-        Line2D([], [], label="Fault, half-arrows: relative motion", **C.FAULT.kwargs()),
-        Line2D([], [], label="Projected bedding dip", **C.DIP_TICK.kwargs()),
+        rows.append((label, palette[u.name]))
+    rows += [
+        ("Ground (DEM profile)", C.GROUND),
+        ("Horizon (top of unit)", C.CONTACT),
+        ("Horizon projected above ground", C.CONTACT_PROJECTED),
+        ("Fault, half-arrows: relative motion", C.FAULT),
+        ("Projected bedding dip", C.DIP_TICK),
     ]
     if draft.axial_surfaces:
-        handles.append(Line2D([], [], label="Axial surface", **C.AXIAL_SURFACE.kwargs()))
-    lax.legend(handles=handles, loc="upper left", frameon=False, fontsize=7,
-               title="Units, youngest at top", title_fontsize=8, alignment="left")
+        rows.append(("Axial surface", C.AXIAL_SURFACE))
+    for k, (label, sym) in enumerate(rows):
+        yc = y - (k + 0.5) * pitch
+        if isinstance(sym, str):  # a unit's colour swatch
+            art = Rectangle((x, yc - 0.35 * em), 2.0 * em, 0.7 * em, transform=tr,
+                            facecolor=sym, edgecolor="#333333", linewidth=0.4)
+        else:
+            art = Line2D([x, x + 2.0 * em], [yc, yc], transform=tr, **sym.kwargs())
+        art.set_gid(f"legend-{k}")
+        fig.add_artist(art)
+        fig.text(x + 2.8 * em, yc, label, transform=tr, fontsize=fs, va="center_baseline",
+                 ha="left")
 
 
 def _column(frame, name: str) -> np.ndarray:
@@ -397,7 +419,14 @@ def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str], fh: flo
         idx = tree.query(box) if tree is not None else np.flatnonzero(
             shapely.intersects(geoms, box))
         idx = np.sort(idx)
-        clipped = shapely.intersection(geoms[idx], box)
+        # The map's polygons are often traced on a fine grid (tens of thousands of
+        # vertices); at the inset's scale a quarter of a 150-dpi pixel is ~1/1500 of
+        # its width, so simplifying to that loses nothing visible and draws far less.
+        # (Plain Douglas-Peucker and a rectangle clip: 20x faster than the topology-
+        # preserving forms, and drawing needs no valid geometry.)
+        tol = (xmax - xmin) / 1500.0
+        clipped = shapely.clip_by_rect(shapely.simplify(geoms[idx], tol, preserve_topology=False),
+                                       xmin, ymin, xmax, ymax)
         patches, faces = [], []
         for g, nm in zip(clipped, names[idx], strict=True):
             path = _polygon_path(g)
@@ -447,7 +476,7 @@ def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str], fh: flo
     iax.set_aspect("equal", adjustable="box")
     iax.set_xticks([])
     iax.set_yticks([])
-    iax.set_title("Location (geologic map)", fontsize=8)
+    iax.set_title("Location (geologic map)", fontsize=8, y=1.0)
     # North arrow: grid north of the project CRS.
     iax.annotate("N", xy=(0.93, 0.95), xytext=(0.93, 0.8), xycoords="axes fraction",
                  ha="center", va="center", fontsize=7,

@@ -37,12 +37,11 @@ IMPORTS = ("import numpy, shapely, pyproj, rasterio, geopandas, pyogrio, scipy.o
 def _project(arg: str | None, tmp: Path) -> Path:
     if arg:
         return Path(arg)
-    from ..cli.demo import sample_project
+    from ..sample import generate, sample_project
 
     found = sample_project()
     if found is not None:
         return found
-    from ..sample import generate
 
     return generate(tmp / "sample_area")["project.toml"]
 

@@ -250,10 +250,11 @@ def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike) -> Path:
                 color="#b00000", linewidth=1)
         ax.axhline(fit.depth_to_detachment_m, color="#b00000", linewidth=0.6, linestyle=":")
         ax.set_title(f"detachment {fit.depth_to_detachment_m:.0f} m deep, D = "
-                     f"{fit.displacement_m:.0f} m, R$^2$ = {fit.r_squared:.3f}", fontsize=8)
+                     f"{fit.displacement_m:.0f} m, R² = {fit.r_squared:.3f}", fontsize=8,
+                     y=1.0)
     ax.axvline(0.0, color="#777777", linewidth=0.5)
     ax.invert_yaxis()
-    ax.set_xlabel("excess area (km$^2$)")
+    ax.set_xlabel("excess area (km²)")
     ax.set_ylabel("depth below elevation 0 (m)")
     with atomic_file(path) as tmp:
         fig.savefig(tmp, format="png", dpi=110, pil_kwargs={"compress_level": 3})

@@ -665,7 +665,8 @@ def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> 
     ax.set_ylabel("restored level: m below the top of the column")
     mm = r.line_length_mismatch_pct
     ax.set_title(f"{r.section}: flexural-slip restoration (Dahlstrom 1969) - shortening "
-                 f"{r.shortening_pct:.1f} %, line-length spread {mm:.1f} %", fontsize=10)
+                 f"{r.shortening_pct:.1f} %, line-length spread {mm:.1f} %", fontsize=10,
+                 y=1.0)
     ax.set_aspect("equal", adjustable="datalim")
     # Pre-wrapped: matplotlib's own wrapping measures the text word by word on every draw.
     fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 225)), fontsize=6, color="#444444")

@@ -165,7 +165,7 @@ def write_sequence(frames: list[Frame], folder: str | os.PathLike, *, column=Non
     faults = LineCollection([], colors="black", linewidths=1.8, animated=True)
     ax.add_collection(beds)
     ax.add_collection(faults)
-    head = ax.set_title(" ", fontsize=9)
+    head = ax.set_title(" ", fontsize=9, y=1.0)
     head.set_animated(True)
     canvas.draw()  # the static background, once
     background = canvas.copy_from_bbox(fig.bbox)

@@ -152,7 +152,8 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
             warn(msg)
             log.append(msg)
             blk["cons"] = cons
-        models[b] = _build_block(method, blk, frame, ground, scale, levels, names, log)
+        models[b] = _build_block(method, blk, frame, ground, scale, levels, names, log,
+                                 dip_tolerance)
 
     draft = Draft(name=name or line.name, method=method, line=line, profile=profile,
                   geology=geology, dips=dips, column=column, ve=float(ve),
@@ -281,17 +282,19 @@ def _neighbour_constraint(b, blocks, models, faults) -> Constraints:
                             "the horizons")
 
 
-def _build_block(method, blk, frame, ground, scale, levels, names, log):
+def _build_block(method, blk, frame, ground, scale, levels, names, log, dip_tolerance):
     cons = blk["cons"]
     b = blk["index"]
     if method == "kink":
         model = fit_kink(blk["domains"], cons, ground, frame, scale, log)
         _log_kink(model, cons, b, log)
         return model
-    # Busk: every dip on its own (dips at one distance averaged).
+    # Busk: dips grouped into domains as for the kink method (dips at one distance averaged);
+    # straight beds within a domain, one arc tangent to both limbs between domains.
     dd, zz, pp = _merge_close(blk["d"], blk["z"], blk["phi"], blk["w"])
     zz = np.where(np.isfinite(zz), zz, ground(dd))
-    return ArcModel(dd, zz, pp, cons, frame, levels, names, log)
+    return ArcModel(dd, zz, pp, cons, frame, levels, names, log, tolerance=dip_tolerance,
+                    ground=ground)
 
 
 def _merge_close(d, z, phi, w, tol=1.0):

@@ -1,17 +1,30 @@
-"""Arc construction (Busk 1929, Earth Flexures; also given in Ragan, Structural Geology:
-An Introduction to Geometrical Techniques).
+"""Arc construction (Busk 1929, Earth Flexures; the construction is also given in Ragan,
+Structural Geology: An Introduction to Geometrical Techniques).
 
 Each dip is drawn with its normal (the line through the dip's position, perpendicular
-to the bedding there). Between two adjacent dips the beds are circular arcs centred
+to the bedding there). Between two adjacent normals the beds are circular arcs centred
 where the two normals meet; where the two dips are parallel the beds are straight.
-Successive arcs share the normal between them, so a horizon is continuous, with a
+Successive sectors share the normal between them, so a horizon is continuous, with a
 continuous tangent, from sector to sector, and every horizon is concentric with the
 others: bed thickness is kept. A horizon whose radius shrinks to nothing reaches the
-centre of curvature: it cannot be carried further, so it ends there, and the
-construction says so (horizons deeper than the radius beneath an anticlinal centre,
-or higher than it above a synclinal one).
+centre of curvature: Busk's construction cannot carry it round the hinge, so it ends
+there (its two limbs are drawn to where they meet, on the line through the centre)
+and the construction says so (horizons deeper than the radius beneath an anticlinal
+centre, or higher than it above a synclinal one).
 
-On dip ``i``'s normal the reference horizon (top of the column) lies at
+On real data (several noisy dips per limb) the dips are first grouped into dip
+domains exactly as the kink method groups them (same ``dip_tolerance``): within a
+domain the beds are straight and parallel (Busk: straight where adjacent dips are
+parallel) and one circular arc joins two successive domains across the gap between
+the last dip of one and the first dip of the next. The arc's two tangent points on
+the ground (where its bounding normals leave the ground) are unknowns kept inside
+that gap, found with the stack's offset by least squares over the block's map
+contacts, starting from the kink solution's hinges (Suppe 1985) and, where the data
+leave them free, opening the arc to span the whole gap. Where adjacent dips differ by
+more than the tolerance every dip is its own domain and the construction is the
+classic dip-by-dip Busk chain.
+
+On normal ``i`` (through ``Q_i``) the reference horizon (top of the column) lies at
 ``Q_i + lambda_i n_i``; crossing sector ``i`` keeps the radius, which gives
 ``lambda_{i+1} = lambda_i - mu_i + nu_i`` (``O_i = Q_i + mu_i n_i = Q_{i+1} + nu_i n_{i+1}``).
 One offset per block is left, fixed by least squares over the block's contacts.
@@ -19,57 +32,53 @@ One offset per block is left, fixed by least squares over the block's contacts.
 
 from __future__ import annotations
 
-import numpy as np
+from collections.abc import Callable
 
-from ._common import Constraints, Frame, unit_vectors, wrap180
+import numpy as np
+from scipy.optimize import least_squares
+
+from ._common import Constraints, Domain, Frame, group_domains, unit_vectors, wrap180
 
 _STRAIGHT_DEG = 0.05  # adjacent dips closer than this are drawn as straight, parallel beds
+_MIN_SPAN = 0.02  # narrowest arc, as a fraction of its gap (a sharper hinge is a kink)
 
 
-class ArcModel:
-    """A block's Busk construction from its dips (sorted by distance)."""
+class _Chain:
+    """Busk's sectors between successive normals (points ``q`` sorted by distance)."""
 
-    def __init__(self, distance, elevation, phi, cons: Constraints, frame: Frame,
-                 column_depths: np.ndarray, names: list[str], log: list[str]) -> None:
-        self.q = np.column_stack([distance, elevation]).astype(float)
+    def __init__(self, q: np.ndarray, phi: np.ndarray) -> None:
+        self.q = np.asarray(q, float).reshape(-1, 2)
         self.phi = np.asarray(phi, float)
         self.t, self.n = unit_vectors(self.phi)
-        self.frame, self.log = frame, log
         m = len(self.q)
+        k = max(m - 1, 0)
         self.kind: list[str] = []
-        self.centre = np.full((max(m - 1, 0), 2), np.nan)
-        self.mu = np.zeros(max(m - 1, 0))
-        self.nu = np.zeros(max(m - 1, 0))
-        self.e = np.ones(max(m - 1, 0))
-        self.e2 = np.ones(max(m - 1, 0))
+        self.centre = np.full((k, 2), np.nan)
+        self.mu, self.nu = np.zeros(k), np.zeros(k)
+        self.e, self.e2 = np.ones(k), np.ones(k)
+        self.nbar = np.zeros((k, 2))
         lam = np.zeros(m)
-        for i in range(m - 1):  # a chain: each sector starts where the last one ended
+        for i in range(k):  # a chain: each sector starts where the last one ended
             dphi = float(wrap180(self.phi[i + 1] - self.phi[i]))
-            a = np.column_stack([self.n[i], -self.n[i + 1]])
             dq = self.q[i + 1] - self.q[i]
             straight = abs(dphi) < _STRAIGHT_DEG
             if not straight:
+                a = np.column_stack([self.n[i], -self.n[i + 1]])
                 mu, nu = np.linalg.solve(a, dq)
                 straight = np.sign(mu) != np.sign(nu) or mu == 0
+            nbar = self.n[i] + self.n[i + 1]
+            self.nbar[i] = nbar / np.hypot(*nbar)
             if straight:
-                nbar = self.n[i] + self.n[i + 1]
-                nbar /= np.hypot(*nbar)
                 self.kind.append("straight")
-                lam[i + 1] = lam[i] - nbar @ dq
+                lam[i + 1] = lam[i] - self.nbar[i] @ dq
                 continue
             self.kind.append("arc")
             self.mu[i], self.nu[i] = mu, nu
             self.centre[i] = self.q[i] + mu * self.n[i]
             self.e[i], self.e2[i] = np.sign(-mu), np.sign(-nu)
             lam[i + 1] = lam[i] - mu + nu
+        self.is_arc = np.array([kd == "arc" for kd in self.kind], bool)
         self.lam = lam
-        if len(cons):
-            b = self.depth_at(cons.distance, cons.elevation)
-            shift = float(np.sum(cons.weight * (cons.depth - b)) / np.sum(cons.weight))
-        else:
-            shift = 0.0
-        self.lam = lam + shift
-        self._log_centres(column_depths, names)
 
     # --- depth field ---------------------------------------------------
     def sector_of(self, distance) -> np.ndarray:
@@ -82,20 +91,55 @@ class ArcModel:
         m = len(self.q)
         sec = self.sector_of(d)
         out = np.empty(len(d))
-        # straight ends, at the end dips
-        for mask, k in ((sec < 0, 0), (sec >= m - 1, m - 1)):
+        for mask, k in ((sec < 0, 0), (sec >= m - 1, m - 1)):  # straight beyond the ends
             out[mask] = self.lam[k] - (p[mask] - self.q[k]) @ self.n[k]
         inner = (sec >= 0) & (sec < m - 1)
         i = sec[inner]
-        is_arc = np.array([self.kind[j] == "arc" for j in i], bool)
         pi = p[inner]
         r = np.hypot(*(pi - np.nan_to_num(self.centre[i])).T)
         arc_s = self.lam[i] - self.mu[i] - self.e[i] * r
-        nbar = self.n[i] + self.n[np.minimum(i + 1, m - 1)]
-        nbar /= np.hypot(*nbar.T)[:, None]
-        straight_s = self.lam[i] - np.einsum("ij,ij->i", pi - self.q[i], nbar)
-        out[inner] = np.where(is_arc, arc_s, straight_s)
+        straight_s = self.lam[i] - np.einsum("ij,ij->i", pi - self.q[i], self.nbar[i])
+        out[inner] = np.where(self.is_arc[i], arc_s, straight_s)
         return out
+
+
+class ArcModel(_Chain):
+    """A block's Busk construction.
+
+    Called with a block's dips (sorted by distance). With a dip tolerance (``tolerance``,
+    the section's ``dip_tolerance`` when called by the build) the dips are grouped into
+    dip domains and the arcs fitted to the contacts (:func:`fit_busk`); without one,
+    every dip is its own sector boundary (the classic construction through the dips).
+    ``ground``: the ground elevation at distances (default: interpolated between the
+    contacts, which lie on the ground).
+    """
+
+    def __init__(self, distance, elevation, phi, cons: Constraints, frame: Frame,
+                 column_depths: np.ndarray, names: list[str], log: list[str], *,
+                 tolerance: float | None = None, ground: Callable | None = None) -> None:
+        d = np.asarray(distance, float)
+        z = np.asarray(elevation, float)
+        phi = np.asarray(phi, float)
+        self.domains: list[Domain] | None = None
+        if tolerance is not None and len(d) > 1:
+            ground = ground or _ground_estimate(cons, d, z)
+            depths = np.asarray(column_depths, float)
+            scale = float(np.min(np.diff(depths))) if len(depths) > 1 else 100.0
+            self.domains = group_domains(d, phi, np.ones(len(d)), tolerance)
+            q, ph = fit_busk(self.domains, cons, ground, frame, scale)
+        else:
+            q, ph = np.column_stack([d, z]), phi
+        super().__init__(q, ph)
+        self.frame, self.log = frame, log
+        if len(cons):
+            b = self.depth_at(cons.distance, cons.elevation)
+            shift = float(np.sum(cons.weight * (cons.depth - b)) / np.sum(cons.weight))
+        else:
+            shift = 0.0
+        self.lam = self.lam + shift
+        self._cache: dict[float, tuple[list[np.ndarray], np.ndarray]] = {}
+        self._log_arcs()
+        self._log_centres(np.asarray(column_depths, float), names)
 
     def radius(self, i: int, s: float) -> float:
         """Radius of horizon level ``s`` in arc sector ``i`` (<= 0: beyond the centre)."""
@@ -106,6 +150,8 @@ class ArcModel:
         return self.q[i] + (self.lam[i] - s) * self.n[i]
 
     def _arc_points(self, i: int, s: float) -> np.ndarray:
+        """The arc of level ``s`` in sector ``i``; beyond the centre (radius < 0) the
+        mirrored arc, which makes a loop trimmed away in :meth:`_walk`."""
         r = self.radius(i, s)
         u0, u1 = self.e[i] * self.n[i], self.e2[i] * self.n[i + 1]
         ang = np.arctan2(u0[0] * u1[1] - u0[1] * u1[0], u0 @ u1)
@@ -117,42 +163,53 @@ class ArcModel:
         return pts
 
     def _walk(self, s: float) -> tuple[list[np.ndarray], np.ndarray]:
+        s = float(s)
+        if s in self._cache:
+            return self._cache[s]
         m = len(self.q)
         reach = self.frame.size + float(np.max(np.hypot(*(self.q - self.frame.centre).T)))
         reach += abs(float(self.lam.max() - s)) + abs(float(self.lam.min() - s))
-        start = self._on_normal(0, s)
-        pieces: list[list[np.ndarray]] = [[np.array([start - reach * self.t[0], start])]]
-        path: list[np.ndarray] = [pieces[0][0]]
-        open_piece = True
+        start, end = self._on_normal(0, s), self._on_normal(m - 1, s)
+        parts = [np.array([start - reach * self.t[0], start])]
         for i in range(m - 1):
             if self.kind[i] == "straight":
-                seg = np.array([self._on_normal(i, s), self._on_normal(i + 1, s)])
-            elif self.radius(i, s) > 0:
-                seg = self._arc_points(i, s)
-            else:  # the horizon has reached this sector's centre: it stops here
-                path.append(self.centre[i][None, :])
-                open_piece = False
-                continue
-            if not open_piece:
-                pieces.append([])
-                open_piece = True
-            pieces[-1].append(seg)
-            path.append(seg)
-        end = self._on_normal(m - 1, s)
-        tail = np.array([end, end + reach * self.t[m - 1]])
-        if not open_piece:
-            pieces.append([])
-        pieces[-1].append(tail)
-        path.append(tail)
-        return [_dedupe(np.vstack(p)) for p in pieces if p], _dedupe(np.vstack(path))
+                parts.append(np.array([self._on_normal(i, s), self._on_normal(i + 1, s)]))
+            else:
+                parts.append(self._arc_points(i, s))
+        parts.append(np.array([end, end + reach * self.t[m - 1]]))
+        path, cusps = _trim_loops(_dedupe(np.vstack(parts)))
+        # A horizon beyond a centre of curvature ends there: its limbs stop where they meet.
+        cuts = [0, *cusps, len(path) - 1]
+        pieces = [path[a:b + 1] for a, b in zip(cuts[:-1], cuts[1:], strict=True) if b > a]
+        self._cache[s] = (pieces, path)
+        return pieces, path
 
     def horizon_pieces(self, s: float) -> list[np.ndarray]:
         return [p for p in self._walk(s)[0] if len(p) >= 2]
 
     def horizon_path(self, s: float) -> np.ndarray:
-        """A closed-off path for polygons: where a horizon stops at a centre it runs along
-        the two bounding normals through that centre (no area beyond the centre)."""
+        """The whole horizon for polygons: where it stops at a centre its two limbs meet
+        at a point (no area beyond the centre)."""
         return self._walk(s)[1]
+
+    def _log_arcs(self) -> None:
+        """One line per hinge of the fitted construction: where its arc sits in its gap."""
+        if not self.domains or len(self.domains) < 2:
+            return
+        for k, (left, right) in enumerate(zip(self.domains[:-1], self.domains[1:],
+                                              strict=True)):
+            i = 2 * k  # sector 2k is the arc between domains k and k+1
+            a, b = self.q[i, 0], self.q[i + 1, 0]
+            if self.kind[i] == "arc":
+                cx, cz = self.centre[i]
+                shape = (f"centre of curvature at {cx:.0f} m, elevation {cz:.0f} m, radius of "
+                         f"the top of the column {abs(self.radius(i, 0.0)):.0f} m")
+            else:
+                shape = "normals do not meet on the beds' side: drawn straight"
+            self.log.append(f"arc between dip domains {left.dip:.1f}° and {right.dip:.1f}°: "
+                            f"tangent points at {a:.0f} and {b:.0f} m on the ground (gap "
+                            f"{left.end:.0f}-{right.start:.0f} m, placed by the contacts); "
+                            f"{shape}")
 
     def _log_centres(self, depths: np.ndarray, names: list[str]) -> None:
         box = self.frame.box.bounds
@@ -167,9 +224,114 @@ class ArcModel:
                 continue
             where = "below" if self.e[i] > 0 else "above"
             self.log.append(
-                f"arc between dips at {self.q[i, 0]:.0f} and {self.q[i + 1, 0]:.0f} m: centre of "
-                f"curvature at {cx:.0f} m, elevation {cz:.0f} m ({where} the beds); the "
-                f"construction stops at the centre: {', '.join(cut)} end there")
+                f"arc between normals at {self.q[i, 0]:.0f} and {self.q[i + 1, 0]:.0f} m: centre "
+                f"of curvature at {cx:.0f} m, elevation {cz:.0f} m ({where} the beds); the "
+                f"construction stops at the centre: {', '.join(cut)} end there (limbs drawn "
+                "to where they meet)")
+
+
+def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: Frame,
+             scale: float) -> tuple[np.ndarray, np.ndarray]:
+    """Busk arcs between successive dip domains, fitted to the contacts.
+
+    Returns the normals' ground points (distance, elevation) and travel angles: for each
+    domain the normals at its two ends share its dip (a straight sector), and the arc
+    between domains ``k`` and ``k+1`` runs between the normal of ``k`` at ground distance
+    ``a_k`` and that of ``k+1`` at ``b_k``, ``end_k <= a_k < b_k <= start_{k+1}``. Unknowns
+    per hinge: the arc's middle ``c`` in the gap and its half-width fraction ``f``
+    (``a = c - f (c - lo)``, ``b = c + f (hi - c)``), solved by least squares over the
+    contacts jointly with the offset (eliminated in closed form). Starts from the kink
+    solution's hinges (Suppe 1985); small pulls toward the kink hinge and toward an arc
+    spanning its gap (the classic Busk arc through the bounding dips) only break ties
+    where the contacts leave a hinge free.
+    """
+    from .kink import fit_kink
+
+    k_all = len(domains)
+    phis = np.array([dm.phi for dm in domains])
+    if k_all == 1:
+        mid = 0.5 * (domains[0].start + domains[0].end)
+        return np.array([[mid, float(ground(mid))]]), phis
+    lo = np.array([domains[k].end for k in range(k_all - 1)])
+    hi = np.array([domains[k + 1].start for k in range(k_all - 1)])
+    hi = np.maximum(hi, lo + 1e-3)
+    width = hi - lo
+    ph = np.repeat(phis, 2)[1:-1]  # phi_0, phi_1, phi_1, phi_2, ...
+    w, sw = cons.weight, np.sqrt(cons.weight)
+    eps = 0.01 * scale  # metres: breaks ties only where the data leave a hinge free
+
+    def points(x):
+        c, f = x[:k_all - 1], x[k_all - 1:]
+        a, b = c - f * (c - lo), c + f * (hi - c)
+        dist = np.column_stack([a, b]).ravel()
+        return np.column_stack([dist, ground(dist)])
+
+    if not len(cons):
+        return points(np.concatenate([0.5 * (lo + hi), np.ones(k_all - 1)])), ph
+    h = fit_kink(domains, cons, ground, frame, scale, []).hinges
+
+    def resid(x):
+        r0 = _Chain(points(x), ph).depth_at(cons.distance, cons.elevation) - cons.depth
+        r = sw * (r0 - np.sum(w * r0) / np.sum(w))
+        c, f = x[:k_all - 1], x[k_all - 1:]
+        return np.concatenate([r, eps * (c - h) / width, eps * (1.0 - f)])
+
+    lb = np.concatenate([lo, np.full(k_all - 1, _MIN_SPAN)])
+    ub = np.concatenate([hi, np.ones(k_all - 1)])
+    best = None
+    for f0 in (1.0, 0.6, 0.3, 0.1):
+        x0 = np.clip(np.concatenate([h, np.full(k_all - 1, f0)]), lb, ub)
+        sol = least_squares(resid, x0, bounds=(lb, ub), method="trf",
+                            x_scale=np.concatenate([width, np.ones(k_all - 1)]), diff_step=1e-6)
+        if best is None or sol.cost < best.cost - 1e-9:
+            best = sol
+    return points(best.x), ph
+
+
+def _ground_estimate(cons: Constraints, d: np.ndarray, z: np.ndarray) -> Callable:
+    """Ground elevation between the contacts (they lie on the ground); the dips'
+    measurement elevations only where fewer than two contacts exist."""
+    if len(cons) >= 2:
+        gd, gz = cons.distance, cons.elevation
+    else:
+        gd, gz = np.concatenate([cons.distance, d]), np.concatenate([cons.elevation, z])
+    ok = np.isfinite(gd) & np.isfinite(gz)
+    order = np.argsort(gd[ok])
+    gd, gz = gd[ok][order], gz[ok][order]
+
+    def ground(x):
+        return np.interp(np.asarray(x, float), gd, gz)
+
+    return ground
+
+
+def _trim_loops(p: np.ndarray) -> tuple[np.ndarray, list[int]]:
+    """Cut the loops out of a horizon path (where it passes beyond a centre of curvature
+    the raw concentric path folds back on itself): each loop is replaced by the point
+    where the path crosses itself. Returns the path and the indices of those points."""
+    cusps: list[int] = []
+    for _ in range(len(p)):
+        a, v = p[:-1], np.diff(p, axis=0)
+        n = len(a)
+        if n < 3:
+            break
+        den = v[:, None, 0] * v[None, :, 1] - v[:, None, 1] * v[None, :, 0]
+        dx = a[None, :, :] - a[:, None, :]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = (dx[..., 0] * v[None, :, 1] - dx[..., 1] * v[None, :, 0]) / den
+            u = (dx[..., 0] * v[:, None, 1] - dx[..., 1] * v[:, None, 0]) / den
+        eps = 1e-9
+        hit = (np.abs(den) > 1e-12) & (t > eps) & (t < 1 - eps) & (u > eps) & (u < 1 - eps)
+        hit &= np.triu(np.ones((n, n), bool), 2)
+        if not hit.any():
+            break
+        i = int(np.flatnonzero(hit.any(axis=1))[0])
+        j = int(np.flatnonzero(hit[i])[-1])
+        x = a[i] + t[i, j] * v[i]
+        p = np.vstack([p[:i + 1], x[None, :], p[j + 1:]])
+        cusps = [c if c <= i else c - (j - i - 1) for c in cusps if c <= i or c > j]
+        cusps.append(i + 1)
+    return p, sorted(cusps)
 
 
 def _dedupe(p: np.ndarray) -> np.ndarray:
