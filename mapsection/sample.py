@@ -658,12 +658,13 @@ def project_text(model: SampleModel, flawed: bool = False) -> str:
         if u.colour:
             out.append(f'colour = "{u.colour}"')
         out += [f'age = "{u.age}"', f'lithology = "{u.lithology}"', ""]
-    notes = {"A": "straight, across the fold axis (hinterland to foreland)",
-             "B": "with a bend, crossing the range further north-east"}
+    notes = {"A": "straight, across the fold axis (hinterland to foreland); kink-band method",
+             "B": "with a bend, crossing the range further north-east; arc (Busk) method"}
+    methods = {"A": "kink", "B": "arc"}
     for name, verts in SECTIONS.items():
         pts = ", ".join(f"[{x:.0f}, {y:.0f}]" for x, y in verts)
         out += [f"# Section {name}: {notes[name]}.", "[[section]]", f'name = "{name}"',
-                f"line = [{pts}]", "corridor = 600.0", 'method = "kink"', ""]
+                f"line = [{pts}]", "corridor = 600.0", f'method = "{methods[name]}"', ""]
     return "\n".join(out)
 
 
