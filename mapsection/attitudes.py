@@ -271,11 +271,13 @@ def _read_vector(path: Path, layer: str | None) -> _Table:
     import pyogrio
     import shapely
 
+    from .mapdata import first_line
+
     try:
         layers = [str(r[0]) for r in pyogrio.list_layers(path)]
     except Exception as exc:
         raise AttitudeError(
-            f"{path}: not a CSV or a readable vector file ({str(exc).splitlines()[0]})"
+            f"{path}: not a CSV or a readable vector file ({first_line(exc)})"
         ) from None
     if layer is not None and layer not in layers:
         raise AttitudeError(f"{path}: no layer {layer!r} (layers: {', '.join(layers)})")
@@ -284,7 +286,7 @@ def _read_vector(path: Path, layer: str | None) -> _Table:
     try:
         df = pyogrio.read_dataframe(path, layer=layer)
     except Exception as exc:
-        raise AttitudeError(f"{path}: cannot be read ({str(exc).splitlines()[0]})") from None
+        raise AttitudeError(f"{path}: cannot be read ({first_line(exc)})") from None
     geom = np.asarray(df.geometry.values, dtype=object) if "geometry" in df else None
     if geom is None:
         raise AttitudeError(f"{path}: has no point geometry")

@@ -31,7 +31,7 @@ class ProjectedDips:
     y: np.ndarray
     distance_m: np.ndarray  # projected position along the line
     offset_m: np.ndarray  # signed offset of the measurement from the line (right positive)
-    elevation_m: np.ndarray  # elevation at the projected position (shifted for plunge projection)
+    elevation_m: np.ndarray  # the measurement's elevation (attitudes.z), shifted for plunge
     strike: np.ndarray  # right-hand-rule strike, degrees
     dip: np.ndarray  # true dip, degrees
     apparent_dip: np.ndarray

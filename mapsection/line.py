@@ -11,6 +11,7 @@ from __future__ import annotations
 import os
 import re
 import sys
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -47,19 +48,21 @@ class SectionLine:
     cumulative: np.ndarray = field(init=False, repr=False)  # distance at each vertex
 
     def __post_init__(self) -> None:
-        v = np.asarray(self.vertices, dtype=float)
+        label = f"section line {self.name}".rstrip()
+        try:
+            v = np.asarray(self.vertices, dtype=float)
+        except (TypeError, ValueError):
+            raise LineError(f"{label}: vertices must be pairs of numbers") from None
         if v.ndim != 2 or v.shape[1] != 2 or len(v) < 2:
-            raise LineError(
-                f"section line {self.name or ''}: needs at least two vertices".replace(" :", ":")
-            )
+            raise LineError(f"{label}: needs at least two vertices")
         if not np.all(np.isfinite(v)):
-            raise LineError(f"section line {self.name}: vertices must be finite numbers")
+            raise LineError(f"{label}: vertices must be finite numbers")
         seg = np.hypot(*np.diff(v, axis=0).T)
         # Repeated vertices give zero-length segments with no azimuth: drop them.
         keep = np.concatenate([[True], seg > 0])
         v = v[keep]
         if len(v) < 2:
-            raise LineError(f"section line {self.name}: has zero length".replace(" :", ":"))
+            raise LineError(f"{label}: has zero length")
         object.__setattr__(self, "vertices", v)
         object.__setattr__(
             self, "cumulative", np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(v, axis=0).T))])
@@ -152,7 +155,7 @@ def utm_crs_for(lon: float, lat: float) -> pyproj.CRS:
     return pyproj.CRS.from_epsg((32600 if lat >= 0 else 32700) + zone)
 
 
-def projected_line(line: SectionLine, warn=None) -> SectionLine:
+def projected_line(line: SectionLine, warn: Callable[[str], None] | None = None) -> SectionLine:
     """Return ``line`` in a projected CRS; a geographic line goes to its local UTM zone.
 
     Densifies first so that the projected polyline follows the geodesic closely.
@@ -204,9 +207,9 @@ def read_line(
     try:
         df = pyogrio.read_dataframe(text)
     except Exception as exc:  # pyogrio raises several kinds for unreadable files
-        raise LineError(
-            f"{text}: not a readable vector file ({str(exc).splitlines()[0]})"
-        ) from None
+        from .mapdata import first_line
+
+        raise LineError(f"{text}: not a readable vector file ({first_line(exc)})") from None
     geoms = [g for g in df.geometry if g is not None and not g.is_empty]
     lines = []
     for g in geoms:

@@ -129,7 +129,7 @@ def read_map(
     try:
         layers = [str(name) for name in pyogrio.list_layers(path)[:, 0]]
     except Exception as exc:  # the vector driver raises several kinds for unreadable files
-        raise MapLayerError(f"{path}: not a readable map file ({_first_line(exc)})") from None
+        raise MapLayerError(f"{path}: not a readable map file ({first_line(exc)})") from None
 
     def read(layer: str, fields: list[str], role: str) -> gpd.GeoDataFrame:
         if layer not in layers:
@@ -138,7 +138,7 @@ def read_map(
             info = pyogrio.read_info(path, layer=layer)
             existing = [str(f) for f in info["fields"]]
         except Exception as exc:
-            raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({_first_line(exc)})") \
+            raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({first_line(exc)})") \
                 from None
         for f in fields:
             if f not in existing:
@@ -149,7 +149,7 @@ def read_map(
         try:
             return pyogrio.read_dataframe(path, layer=layer)
         except Exception as exc:
-            raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({_first_line(exc)})") \
+            raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({first_line(exc)})") \
                 from None
 
     units = read(units_layer, [unit_field], "unit")
@@ -239,6 +239,7 @@ def _crs_name(crs) -> str:
     return f"EPSG:{epsg}" if epsg else crs.name
 
 
-def _first_line(exc: Exception) -> str:
+def first_line(exc: Exception) -> str:
+    """The first line of an exception's message (its type name when it has none)."""
     text = str(exc).strip()
     return text.splitlines()[0] if text else type(exc).__name__

@@ -17,12 +17,26 @@ from typing import Any
 
 import pyproj
 
-from .errors import ProjectFileError
+from .errors import ProjectFileError, StratigraphyError
 from .stratigraphy import Column, Unit
 
 METHODS = ("kink", "arc")
 PROJECTIONS = ("perpendicular", "strike", "plunge")
 CONVENTIONS = ("rhr", "dip-direction", "quadrant")
+
+# Every key each table accepts (anything else is reported as an unknown key).
+TOP_KEYS = frozenset({"crs", "title", "dem", "map", "attitudes", "stratigraphy", "section",
+                      "checks"})
+DEM_KEYS = frozenset({"path"})
+FAULT_ROLES = ("dip", "dip_direction", "sense", "name")
+MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer",
+                      *(f"fault_{r}_field" for r in FAULT_ROLES)})
+ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
+                  "attitude")
+ATTITUDE_KEYS = frozenset({"path", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
+UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology"})
+SECTION_KEYS = frozenset({"name", "line", "corridor", "method", "projection", "ve",
+                          "dip_tolerance", "depth", "fault_depth", "default_dip", "pin", "loose"})
 
 
 @dataclass(frozen=True)
@@ -35,6 +49,9 @@ class Thresholds:
     dip_rms_deg: float = 5.0
     area_mismatch_pct: float = 5.0
     line_length_spread_pct: float = 5.0
+
+
+CHECK_KEYS = frozenset(Thresholds.__dataclass_fields__)
 
 
 @dataclass(frozen=True)
@@ -126,10 +143,28 @@ class _Reader:
         return p if p.is_absolute() else (base / p)
 
 
-def _unknown(reader: _Reader, allowed: set[str]) -> None:
+def _unknown(reader: _Reader, allowed: frozenset[str]) -> None:
     extra = sorted(set(reader.table) - allowed)
     if extra:
         raise reader.fail(extra[0], f"unknown key (known keys: {', '.join(sorted(allowed))})")
+
+
+def _array_of_tables(fname: str, raw: dict[str, Any], key: str, what: str,
+                     allowed: frozenset[str]) -> list[_Reader]:
+    """Readers over a ``[[key]]`` array of tables; at least one table is required."""
+    entries = raw.get(key)
+    if entries is None or isinstance(entries, list) and not entries:
+        raise ProjectFileError(f"{fname}: {key}: missing [[{key}]] {what}")
+    if not isinstance(entries, list):
+        raise ProjectFileError(f"{fname}: {key}: must be a [[{key}]] {what}")
+    readers = []
+    for i, entry in enumerate(entries):
+        if not isinstance(entry, dict):
+            raise ProjectFileError(f"{fname}: {key}[{i}]: must be a table")
+        r = _Reader(fname, entry, f"{key}[{i}].")
+        _unknown(r, allowed)
+        readers.append(r)
+    return readers
 
 
 def load_project(path: str | os.PathLike) -> Project:
@@ -146,68 +181,29 @@ def load_project(path: str | os.PathLike) -> Project:
         raise ProjectFileError(f"{fname}: not valid TOML ({exc})") from None
     base = path.resolve().parent
     top = _Reader(fname, raw)
-    _unknown(top, {"crs", "dem", "map", "attitudes", "stratigraphy", "section", "checks", "title"})
+    _unknown(top, TOP_KEYS)
 
     crs_text = top.get("crs", str)
     try:
         crs = pyproj.CRS(crs_text)
     except pyproj.exceptions.CRSError:
         raise top.fail("crs", f"unknown CRS {crs_text!r}") from None
-    if not crs.is_projected:
+    axis_units = {a.unit_name.lower() for a in crs.axis_info[:2]}
+    if not crs.is_projected or not axis_units <= {"metre", "meter"}:
         raise top.fail("crs", f"{crs_text} is not a projected CRS in metres")
 
     dem = top.sub("dem")
-    _unknown(dem, {"path"})
+    _unknown(dem, DEM_KEYS)
     mp = top.sub("map")
-    _unknown(
-        mp,
-        {
-            "path",
-            "units_layer",
-            "unit_field",
-            "faults_layer",
-            "fault_dip_field",
-            "fault_dip_direction_field",
-            "fault_sense_field",
-            "fault_name_field",
-        },
-    )
+    _unknown(mp, MAP_KEYS)
     att = top.sub("attitudes")
-    _unknown(
-        att,
-        {
-            "path",
-            "layer",
-            "convention",
-            "x_field",
-            "y_field",
-            "strike_field",
-            "dip_field",
-            "dip_direction_field",
-            "id_field",
-            "overturned_field",
-            "attitude_field",
-            "z_field",
-        },
-    )
+    _unknown(att, ATTITUDE_KEYS)
 
-    fault_fields = {
-        k: mp.get(f"fault_{k}_field", str, k) for k in ("dip", "dip_direction", "sense", "name")
-    }
-    attitude_fields = {
-        k: att.get(f"{k}_field", str, k)
-        for k in ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
-    }
+    fault_fields = {k: mp.get(f"fault_{k}_field", str, k) for k in FAULT_ROLES}
+    attitude_fields = {k: att.get(f"{k}_field", str, k) for k in ATTITUDE_ROLES}
 
-    strat = raw.get("stratigraphy")
-    if not isinstance(strat, list) or not strat:
-        raise ProjectFileError(f"{fname}: stratigraphy: missing [[stratigraphy]] list of units")
     units = []
-    for i, entry in enumerate(strat):
-        if not isinstance(entry, dict):
-            raise ProjectFileError(f"{fname}: stratigraphy[{i}]: must be a table")
-        r = _Reader(fname, entry, f"stratigraphy[{i}].")
-        _unknown(r, {"unit", "thickness", "colour", "color", "age", "lithology"})
+    for r in _array_of_tables(fname, raw, "stratigraphy", "list of units", UNIT_KEYS):
         colour = r.get("colour", str, None) or r.get("color", str, None)
         if colour is not None and not _is_hex_colour(colour):
             raise r.fail("colour", f"must be '#rrggbb', got {colour!r}")
@@ -225,43 +221,20 @@ def load_project(path: str | os.PathLike) -> Project:
         )
     try:
         column = Column(tuple(units))
-    except Exception as exc:
+    except StratigraphyError as exc:
         raise ProjectFileError(f"{fname}: {exc}") from None
 
-    secs = raw.get("section")
-    if not isinstance(secs, list) or not secs:
-        raise ProjectFileError(f"{fname}: section: missing [[section]] list")
-    sections = []
-    for i, entry in enumerate(secs):
-        if not isinstance(entry, dict):
-            raise ProjectFileError(f"{fname}: section[{i}]: must be a table")
-        r = _Reader(fname, entry, f"section[{i}].")
-        _unknown(
-            r,
-            {
-                "name",
-                "line",
-                "corridor",
-                "method",
-                "projection",
-                "ve",
-                "dip_tolerance",
-                "depth",
-                "fault_depth",
-                "default_dip",
-                "pin",
-                "loose",
-            },
-        )
-        sections.append(_section(r))
+    sections = [_section(r) for r in _array_of_tables(fname, raw, "section",
+                                                      "list of section lines", SECTION_KEYS)]
     names = [s.name for s in sections]
-    if len(set(names)) != len(names):
-        raise ProjectFileError(f"{fname}: section: two sections share a name")
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise ProjectFileError(f"{fname}: section: two sections share the name {dup[0]!r}")
 
     checks = top.sub("checks", required=False)
     thresholds = Thresholds()
     if checks is not None:
-        _unknown(checks, set(Thresholds.__dataclass_fields__))
+        _unknown(checks, CHECK_KEYS)
         vals = {}
         for k, dflt in Thresholds().__dict__.items():
             v = checks.get(k, float, dflt)

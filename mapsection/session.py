@@ -23,7 +23,7 @@ import os
 import sys
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pyproj
@@ -40,6 +40,7 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
     from .attitudes import Attitudes
     from .dem import Dem
     from .dips import ProjectedDips
+    from .foldaxis import FoldAxis
     from .project import Project, SectionSpec
 
 Warn = Callable[[str], None]
@@ -72,8 +73,9 @@ class SectionSession:
     """
 
     def __init__(self, dem: Dem | str | os.PathLike, map_data: MapData, attitudes: Attitudes,
-                 corridor: float, projection: str = "perpendicular", axis: Any = None,
-                 step: float | None = None, warn: Warn | None = None):
+                 corridor: float, projection: str = "perpendicular",
+                 axis: FoldAxis | None = None, step: float | None = None,
+                 warn: Warn | None = None) -> None:
         from .dem import Dem
 
         if not (isinstance(corridor, int | float) and np.isfinite(corridor) and corridor > 0):
@@ -95,6 +97,11 @@ class SectionSession:
         crs = map_data.crs if map_data.crs is not None else getattr(attitudes, "crs", None)
         self.crs = pyproj.CRS(crs) if crs is not None and not isinstance(crs, pyproj.CRS) else crs
         self.line: SectionLine | None = None
+        self._said_line_crs = False
+        if self.crs is not None and not same_crs(getattr(attitudes, "crs", None), self.crs):
+            from .attitudes import reproject_attitudes
+
+            attitudes = reproject_attitudes(attitudes, self.crs, warn=self.warn)
         self.attitudes = self._with_elevations(attitudes)
         # Index of the attitude points: a move only looks at the points near the new line.
         self._points = shapely.points(np.asarray(self.attitudes.x, float),
@@ -165,6 +172,8 @@ class SectionSession:
             from .foldaxis import fold_axis
 
             axis = fold_axis(np.asarray(attitudes.strike, float), np.asarray(attitudes.dip, float))
+            for why in axis.cylindrical_problems():
+                warn(f"section {spec.name}: down-plunge projection may mislead: {why}")
         dem = Dem.open(project.dem_path)
         try:
             session = cls(dem, map_data, attitudes, spec.corridor, spec.projection, axis,
@@ -192,10 +201,17 @@ class SectionSession:
                 raise LineError("section session: no section line given yet")
             return self.line
         if isinstance(line, SectionLine):
-            if line.crs is not self.crs and (line.crs is None or same_crs(line.crs, self.crs)):
+            if line.crs is self.crs or self.crs is None:
+                return line
+            if line.crs is None or same_crs(line.crs, self.crs):
                 # The session's own CRS object: later CRS comparisons are identity checks.
                 return SectionLine(line.vertices, self.crs, line.name)
-            return line
+            # The map and attitudes are in the session's CRS: bring the line there (said once).
+            if not self._said_line_crs:
+                self.warn(f"section line {line.name}: reprojected from {line.crs.name} to "
+                          f"{self.crs.name}, the CRS of the map and attitudes".replace(" :", ":"))
+                self._said_line_crs = True
+            return line.to_crs(self.crs)
         vertices = np.asarray(line, float)
         if self.line is not None:
             return self.line.moved(vertices)

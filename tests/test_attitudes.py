@@ -199,7 +199,7 @@ def test_unknown_convention_and_missing_file(tmp_path):
 
 
 def test_vector_file_reprojected_once(tmp_path):
-    gpd = pytest.importorskip("geopandas")
+    import geopandas as gpd
     from shapely.geometry import Point
 
     lon = np.array([-115.6, -115.5, -115.4])

@@ -17,7 +17,7 @@ from mapsection.line import SectionLine
 def test_apparent_dip_against_mplstereonet():
     # Reference library: mplstereonet.plane_intersection gives the plunge and bearing of
     # the line where the bedding meets the vertical section plane (strike = azimuth, dip 90).
-    mpl = pytest.importorskip("mplstereonet")
+    import mplstereonet as mpl  # in the test extra: a missing reference must fail, not skip
     rng = np.random.default_rng(42)
     n = 300
     strike = rng.uniform(0.0, 360.0, n)
@@ -167,7 +167,7 @@ def test_empty_corridor():
 @pytest.fixture()
 def dem(tmp_path):
     """A planar DEM z = 100 + 0.01·x over 0-2000 m (EPSG:32611), 10 m pixels."""
-    rasterio = pytest.importorskip("rasterio")
+    import rasterio
     from rasterio.transform import from_origin
 
     xs = np.arange(200) * 10.0 + 5.0
@@ -294,7 +294,7 @@ def test_cli_axis(tmp_path):
 
 
 def test_cli_axis_within(tmp_path):
-    gpd = pytest.importorskip("geopandas")
+    import geopandas as gpd
     from shapely.geometry import box
 
     att = _csv(tmp_path, "x,y,strike,dip\n5,5,90,30\n6,6,270,40\n7,7,90,60\n50,50,0,10\n")
@@ -315,3 +315,26 @@ def test_help_carries_caution():
     for name in ("dips", "axis"):
         r = _run(name, "--help")
         assert r.exit_code == 0 and CAUTION[:40] in " ".join(r.output.split())
+
+
+def test_cli_dips_line_in_another_crs(tmp_path, dem):
+    # outside reference: pyproj gives the line's vertices in longitude/latitude
+    import csv
+
+    import pyproj
+
+    att = _csv(tmp_path, "id,x,y,strike,dip\nA,500,1100,0,30\nB,800,900,180,40\n")
+    tr = pyproj.Transformer.from_crs("EPSG:32611", "EPSG:4326", always_xy=True)
+    lon, lat = tr.transform([100.0, 1900.0], [1000.0, 1000.0])
+    text = f"{lon[0]:.9f},{lat[0]:.9f};{lon[1]:.9f},{lat[1]:.9f}"
+    out_ll, out_m = tmp_path / "ll.csv", tmp_path / "m.csv"
+    r = _run("dips", att, "--dem", dem, "--corridor", 200, "-o", out_ll, "--crs", "EPSG:4326",
+             "--", text)
+    assert r.exit_code == 0, r.output
+    assert r.output.count("reprojected") == 1
+    assert _run("dips", att, LINE, "--dem", dem, "--corridor", 200, "-o", out_m).exit_code == 0
+    ll, m = (list(csv.DictReader(open(p))) for p in (out_ll, out_m))
+    assert [row["id"] for row in ll] == [row["id"] for row in m] == ["A", "B"]
+    for a, b in zip(ll, m, strict=True):
+        assert float(a["distance_m"]) == pytest.approx(float(b["distance_m"]), abs=0.01)
+        assert float(a["apparent_dip"]) == pytest.approx(float(b["apparent_dip"]), abs=1e-3)

@@ -340,6 +340,7 @@ def bad_inputs(tmp_path):
         ("step_negative", "step -5"),
         ("step_text", "--step 'ten'"),
         ("missing_folder", "no_such_folder"),
+        ("output_is_folder", "is a folder"),
         ("wholly_off", "wholly outside"),
         ("bad_crs", "EPSG:99999999"),
     ],
@@ -359,11 +360,15 @@ def test_cli_bad_input(tmp_path, bad_inputs, case, culprit):
         "step_negative": [b["dem"], b["good"], "--step", "-5"],
         "step_text": [b["dem"], b["good"], "--step", "ten"],
         "missing_folder": [b["dem"], b["good"]],
+        "output_is_folder": [b["dem"], b["good"]],
         "wholly_off": [b["dem"], "100,100;200,200"],
         "bad_crs": [b["dem"], b["good"], "--crs", "EPSG:99999999"],
     }[case]
     if case == "missing_folder":
         out = tmp_path / "no_such_folder" / "out.csv"
+    if case == "output_is_folder":
+        out = tmp_path / "a_folder"
+        out.mkdir()
     before = sorted(p.name for p in tmp_path.iterdir())
     res = run([*args, "-o", str(out)])
     assert res.exit_code == 2, res.output
@@ -371,7 +376,7 @@ def test_cli_bad_input(tmp_path, bad_inputs, case, culprit):
     assert len(lines) == 1 and lines[0].startswith("mapsection: error: "), res.output
     assert culprit in lines[0]
     assert "Traceback" not in res.output
-    assert not out.exists()
+    assert not out.exists() or (case == "output_is_folder" and not any(out.iterdir()))
     assert sorted(p.name for p in tmp_path.iterdir()) == before  # no temp file left behind
 
 
@@ -409,7 +414,7 @@ def test_bench_dispatcher_finds_modules():
 
 def test_package_level_profile_is_callable(tmp_path):
     import mapsection
-    import mapsection.profile  # noqa: F401  (binds the package attribute to the module)
+    import mapsection.profile  # noqa: F401  (importing the submodule must not shadow the function)
 
     path = plane_dem(tmp_path / "plane.tif")
     prof = mapsection.profile(path, f"{X0 + 100},{Y_TOP - 100};{X0 + 900},{Y_TOP - 100}")

@@ -65,6 +65,10 @@ def test_keys_as_written(tmp_path):
     [
         ('crs = "EPSG:32611"', 'crs = "EPSG:4326"', "crs"),
         ('crs = "EPSG:32611"', 'crs = "EPSG:999999"', "crs"),
+        ('crs = "EPSG:32611"', 'crs = "EPSG:2227"', "crs"),  # projected, but in US feet
+        ('[dem]\npath = "dem.tif"\n', "", "dem"),
+        ('unit = "Upper"', 'unti = "Upper"', "stratigraphy[0].unti"),
+        ("corridor = 500.0", "coridor = 500.0", "section[0].coridor"),
         ('units_layer = "units"', "", "map.units_layer"),
         ("corridor = 500.0", "corridor = -5.0", "section[0].corridor"),
         ('method = "kink"', 'method = "zigzag"', "section[0].method"),
@@ -83,6 +87,17 @@ def test_bad_key_named(tmp_path, old, new, key):
     assert msg.startswith("project.toml: ") and key in msg and "\n" not in msg
 
 
+def test_stratigraphy_and_sections_must_be_lists(tmp_path):
+    import re
+
+    no_strat = re.sub(r"\[\[stratigraphy\]\][^\[]*", "", GOOD)
+    for text, key in ((no_strat, "stratigraphy: missing"),
+                      ('stratigraphy = "Upper, Lower"\n' + no_strat, "stratigraphy: must be"),
+                      (GOOD.split("[[section]]")[0], "section: missing")):
+        with pytest.raises(ProjectFileError, match=f"^project.toml: {key}"):
+            load_project(write(tmp_path, text))
+
+
 def test_missing_and_invalid_file(tmp_path):
     with pytest.raises(ProjectFileError, match="no such project file"):
         load_project(tmp_path / "nope.toml")
@@ -95,3 +110,50 @@ def test_thresholds_out_of_range(tmp_path):
         load_project(write(tmp_path, GOOD + "\n[checks]\nunit_agreement = 1.5\n"))
     proj = load_project(write(tmp_path, GOOD + "\n[checks]\ndip_rms_deg = 3\n"))
     assert proj.thresholds.dip_rms_deg == 3.0
+
+
+def test_cli_reports_project_key_through_console_script(tmp_path):
+    # The real console script: one line naming the file and the key path, exit code 2.
+    import subprocess
+
+    bad = write(tmp_path, GOOD.replace("corridor = 500.0", "corridor = -5.0", 1))
+    res = subprocess.run(["mapsection", "build", str(bad), "-o", str(tmp_path / "out")],
+                         capture_output=True, text=True, timeout=120)
+    assert res.returncode == 2, res.stderr
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and "Traceback" not in res.stderr
+    assert lines[0].startswith("mapsection: error: project.toml: section[0].corridor")
+    assert not (tmp_path / "out").exists()
+
+
+def _documented_keys() -> dict[str, set[str]]:
+    """Keys of each table in the project-file block of docs/index.md (comments included)."""
+    import re
+
+    doc = (Path(__file__).resolve().parents[1] / "docs" / "index.md").read_text("utf-8")
+    block = doc.split("## The project file", 1)[1].split("```toml", 1)[1].split("```", 1)[0]
+    keys: dict[str, set[str]] = {"": set()}
+    table = ""
+    for line in block.splitlines():
+        head = re.match(r"^\[\[?(\w+)\]\]?", line)
+        if head:
+            table = head.group(1)
+            keys[""].add(table)
+            keys.setdefault(table, set())
+            continue
+        keys[table] |= set(re.findall(r"\b([a-z_]+)\s*=", line))
+        keys[table] |= set(re.findall(r"\b([a-z_]+_field)\b", line))
+    return keys
+
+
+def test_documented_keys_are_exactly_the_accepted_keys():
+    # self-consistency: the user guide's project-file block against what load_project accepts
+    from mapsection import project as pj
+
+    accepted = {"": pj.TOP_KEYS, "dem": pj.DEM_KEYS, "map": pj.MAP_KEYS,
+                "attitudes": pj.ATTITUDE_KEYS, "stratigraphy": pj.UNIT_KEYS,
+                "section": pj.SECTION_KEYS, "checks": pj.CHECK_KEYS}
+    documented = _documented_keys()
+    assert set(documented) == set(accepted)
+    for table, keys in accepted.items():
+        assert documented[table] == set(keys), table

@@ -186,3 +186,52 @@ def test_plunge_projection_uses_the_fold_axis(project):
         assert s.axis is not None and 0.0 <= s.axis.trend <= 360.0
         data = s.run()
         assert isinstance(data, SectionData)
+
+
+def test_line_in_another_crs_is_reprojected_and_said_once(project):
+    # outside reference: pyproj moves the vertices to the project CRS independently
+    import pyproj
+
+    spec = project.sections[0]
+    said: list[str] = []
+    with SectionSession.from_project(project, spec, warn=said.append) as s:
+        base = s.run()
+        lonlat = pyproj.Transformer.from_crs(project.crs, "EPSG:4326", always_xy=True)
+        lon, lat = lonlat.transform(base.line.vertices[:, 0], base.line.vertices[:, 1])
+        geographic = SectionLine(np.column_stack([lon, lat]), pyproj.CRS("EPSG:4326"), spec.name)
+        said.clear()
+        got = s.move(geographic)
+        s.move(geographic)
+    assert got.line.crs == project.crs
+    np.testing.assert_allclose(got.line.vertices, base.line.vertices, atol=1e-3)
+    np.testing.assert_array_equal(got.dips.id, base.dips.id)
+    assert sum("reprojected" in m for m in said) == 1, said
+
+
+def test_attitudes_in_another_crs_are_reprojected(project):
+    # outside reference: pyproj transforms the points; strikes get the grid convergence
+    import dataclasses
+
+    import pyproj
+
+    from mapsection.attitudes import read_attitudes
+    from mapsection.mapdata import read_map
+
+    spec = project.sections[0]
+    m = read_map(project.map_path, project.units_layer, project.unit_field,
+                 project.faults_layer, project.fault_fields, crs=project.crs, warn=_quiet)
+    att = read_attitudes(project.attitudes_path, crs=project.crs, warn=_quiet)
+    tr = pyproj.Transformer.from_crs(project.crs, "EPSG:4326", always_xy=True)
+    lon, lat = tr.transform(att.x, att.y)
+    geo = dataclasses.replace(att, x=np.asarray(lon), y=np.asarray(lat),
+                              crs=pyproj.CRS("EPSG:4326"))
+    said: list[str] = []
+    line = SectionLine(np.asarray(spec.line, float), project.crs, spec.name)
+    with SectionSession(project.dem_path, m, geo, spec.corridor, warn=said.append) as s:
+        np.testing.assert_allclose(s.attitudes.x, att.x, atol=1e-3)
+        np.testing.assert_allclose(s.attitudes.y, att.y, atol=1e-3)
+        got = s.run(line)
+    with SectionSession(project.dem_path, m, att, spec.corridor, warn=_quiet) as s:
+        ref = s.run(line)
+    np.testing.assert_array_equal(got.dips.id, ref.dips.id)
+    assert sum("reprojected" in msg for msg in said) == 1, said

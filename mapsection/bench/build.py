@@ -8,8 +8,11 @@ Measures, in the same run:
   interpreter (what a user waits for, start-up and imports included), median of N,
   and its CPU time (on a shared machine wall time also holds waiting for a core);
 - a baseline: a fresh interpreter importing the libraries the build stands on
-  (numpy, shapely, pyproj, rasterio, geopandas, pyogrio, scipy.optimize, matplotlib),
-  and the ratio of the build to it;
+  (numpy, shapely, pyproj, rasterio, geopandas, pyogrio, scipy.optimize,
+  matplotlib.figure), and the ratio of the build to it;
+- optionally (``--previous TREE``) the same command run from another source tree of
+  mapsection (a folder holding an earlier ``mapsection/`` package, put first on
+  PYTHONPATH), interleaved with the others, and the ratio of the build to it;
 - the in-process build (``build_project`` with stage timings) after one warm-up
   run, median of N, and the share of each stage: load (project, map, attitudes,
   DEM), section data (profile, surface geology, dips), construction, checks (with
@@ -21,6 +24,7 @@ Target (issue 4): the whole sample area within 3 s wall.
 from __future__ import annotations
 
 import argparse
+import os
 import resource
 import statistics
 import subprocess
@@ -31,7 +35,7 @@ from pathlib import Path
 
 TARGET_S = 3.0
 IMPORTS = ("import numpy, shapely, pyproj, rasterio, geopandas, pyogrio, scipy.optimize, "
-           "matplotlib.figure, matplotlib.pyplot")
+           "matplotlib.figure")
 
 
 def _project(arg: str | None, tmp: Path) -> Path:
@@ -46,11 +50,16 @@ def _project(arg: str | None, tmp: Path) -> Path:
     return generate(tmp / "sample_area")["project.toml"]
 
 
-def _run(cmd: list[str]) -> tuple[float, float]:
-    """Wall time and CPU time (user + system) of a child process."""
+def _run(cmd: list[str], cwd: Path, env: dict[str, str] | None = None) -> tuple[float, float]:
+    """Wall time and CPU time (user + system) of a child process.
+
+    Run in a neutral folder: ``python -c`` puts the working folder first on sys.path,
+    which would shadow the tree given with ``--previous``.
+    """
     r0 = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
-    subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                   cwd=cwd, env=env)
     wall = time.perf_counter() - t0
     r1 = resource.getrusage(resource.RUSAGE_CHILDREN)
     return wall, (r1.ru_utime - r0.ru_utime) + (r1.ru_stime - r0.ru_stime)
@@ -61,24 +70,40 @@ def main(argv: list[str] | None = None) -> int:
                                  formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--repeat", type=int, default=3, help="runs of each measurement [3]")
     ap.add_argument("--project", help="project file [the sample area]")
+    ap.add_argument("--previous", metavar="TREE",
+                    help="also time the command from this source tree (the folder holding "
+                         "an earlier mapsection/ package)")
     args = ap.parse_args(argv)
     from ..build import STAGES, build_project
 
     with tempfile.TemporaryDirectory(prefix="mapsection-bench-") as tmpdir:
         tmp = Path(tmpdir)
-        project = _project(args.project, tmp)
+        project = _project(args.project, tmp).resolve()
         cli = [sys.executable, "-c", "from mapsection.cli.main import cli; cli()", "build",
                str(project), "-o", str(tmp / "cli")]
         base = [sys.executable, "-c", IMPORTS]
-        _run(base)  # warm the file cache once
-        walls, floors, cpus, floor_cpus = [], [], [], []
+        prev_env = None
+        if args.previous:
+            tree = Path(args.previous).resolve()
+            if not (tree / "mapsection" / "__init__.py").is_file():
+                ap.error(f"--previous {args.previous}: no mapsection/ package in that folder")
+            prev_env = {**os.environ,
+                        "PYTHONPATH": os.pathsep.join([str(tree),
+                                                       os.environ.get("PYTHONPATH", "")])}
+            prev_cli = [*cli[:-1], str(tmp / "prev")]
+        _run(base, tmp)  # warm the file cache once
+        walls, floors, cpus, floor_cpus, prevs, prev_cpus = [], [], [], [], [], []
         for _ in range(args.repeat):
-            w, c = _run(base)
+            w, c = _run(base, tmp)
             floors.append(w)
             floor_cpus.append(c)
-            w, c = _run(cli)
+            w, c = _run(cli, tmp)
             walls.append(w)
             cpus.append(c)
+            if prev_env is not None:
+                w, c = _run(prev_cli, tmp, prev_env)
+                prevs.append(w)
+                prev_cpus.append(c)
         runs: list[dict[str, float]] = []
         totals = []
         # One warm-up run in this process: the stage shares below are of warm runs, and
@@ -106,6 +131,10 @@ def main(argv: list[str] | None = None) -> int:
     print(f"baseline, fresh interpreter importing the libraries: {floor:.2f} s wall, "
           f"{floor_cpu:.2f} s CPU   build / baseline = {wall / floor:.2f} (wall), "
           f"{cpu / floor_cpu:.2f} (CPU)")
+    if prevs:
+        pw, pc = statistics.median(prevs), statistics.median(prev_cpus)
+        print(f"previous version ({args.previous}): {pw:.2f} s wall, {pc:.2f} s CPU   "
+              f"build / previous = {wall / pw:.2f} (wall), {cpu / pc:.2f} (CPU)")
     print(f"in-process build_project, warm: {total:.2f} s   so interpreter start-up and "
           f"imports take about {max(wall - total, 0.0):.2f} s of the command's wall time")
     print()

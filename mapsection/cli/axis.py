@@ -6,13 +6,13 @@ import click
 import numpy as np
 
 from .. import CAUTION
-from ..attitudes import CONVENTIONS, read_attitudes
+from ..attitudes import CONVENTIONS, Attitudes, read_attitudes
 from ..errors import AttitudeError, MapLayerError
 from ..foldaxis import MIN_CYLINDRICITY, fold_axis, recommended_azimuth
 from ._common import warn
 
 
-def _within(att, polygon_file: str):
+def _within(att: Attitudes, polygon_file: str) -> np.ndarray:
     """Mask of attitudes inside the polygons of a vector file."""
     from pathlib import Path
 
@@ -24,9 +24,11 @@ def _within(att, polygon_file: str):
         raise MapLayerError(f"{polygon_file}: no such polygon file")
     try:
         df = pyogrio.read_dataframe(polygon_file)
-    except Exception as exc:
+    except Exception as exc:  # the vector driver raises several kinds for unreadable files
+        from ..mapdata import first_line
+
         raise MapLayerError(
-            f"{polygon_file}: not a readable vector file ({str(exc).splitlines()[0]})"
+            f"{polygon_file}: not a readable vector file ({first_line(exc)})"
         ) from None
     geoms = np.asarray(df.geometry.values, dtype=object)
     geoms = geoms[~shapely.is_missing(geoms)]

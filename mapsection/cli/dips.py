@@ -4,14 +4,18 @@ from __future__ import annotations
 
 import csv
 import dataclasses
+from pathlib import Path
 
 import click
 import numpy as np
+import pyproj
 
 from .. import CAUTION
+from .._atomic import atomic_file
 from ..attitudes import CONVENTIONS, read_attitudes, reproject_attitudes
 from ..dem import Dem
 from ..dips import METHODS, in_corridor, project_attitudes
+from ..errors import OutputError, ParameterError
 from ..foldaxis import fold_axis, recommended_azimuth
 from ..line import projected_line, read_line
 from ._common import note, warn
@@ -33,8 +37,6 @@ def _cell(name: str, value) -> str:
 
 def write_dips_csv(dips, path) -> None:
     """Write projected dips as CSV, all-or-nothing."""
-    from .._atomic import atomic_file
-
     with atomic_file(path) as tmp, open(tmp, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow(COLUMNS)
@@ -61,12 +63,17 @@ def write_dips_csv(dips, path) -> None:
 @click.option("--convention", type=click.Choice(CONVENTIONS), default="rhr", show_default=True,
               help="Attitude convention: right-hand-rule strike, dip direction, or quadrant.")
 @click.option("--layer", default=None, help="Layer of a multi-layer vector attitudes file.")
-def command(attitudes, line, dem_path, corridor, output, projection, convention, layer):
+@click.option("--crs", default=None, metavar="CRS",
+              help="CRS of LINE when it has none [default: the DEM's].")
+def command(attitudes, line, dem_path, corridor, output, projection, convention, layer, crs):
     """Project the bedding attitudes within a corridor into the section plane.
 
     ATTITUDES is a CSV (x, y, strike, dip; or dip_direction/dip; or quadrant
     text in 'attitude') or a point vector file. LINE is a vector file holding one
-    line or 'x1,y1;x2,y2[;...]' in the DEM's CRS. The elevation of each attitude
+    line or 'x1,y1;x2,y2[;...]' (as for 'mapsection profile'; text in --crs,
+    default the DEM's CRS). CSV attitude coordinates are in the DEM's CRS; a
+    line or vector attitudes file in another CRS is reprojected to it, and that
+    is said once. The elevation of each attitude
     is its z column where given, otherwise the DEM at the attitude. For
     --projection plunge the fold axis is computed from the attitudes in the
     corridor (pi-axis, Woodcock 1977) and reported.
@@ -80,14 +87,18 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
       mapsection dips sample_area/attitudes.csv "604658,5218819;612195,5213542" \\
           --dem sample_area/dem.tif --corridor 600 -o dips_A.csv
     """
-    from ..errors import ParameterError
-
     if not np.isfinite(corridor) or corridor <= 0:
         raise ParameterError(f"--corridor {corridor:g} must be a distance in metres > 0")
+    if Path(output).is_dir():
+        raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     with Dem.open(dem_path) as dem:
-        sl = read_line(line, crs=dem.crs)
+        try:
+            given = pyproj.CRS(crs) if crs is not None else dem.crs
+        except pyproj.exceptions.CRSError:
+            raise ParameterError(f"--crs {crs!r}: not a known CRS (give e.g. EPSG:32611)") from None
+        sl = read_line(line, crs=given)
         if sl.crs is not None and not sl.crs.equals(dem.crs):
-            note(f"section line reprojected to the DEM's CRS ({dem.crs.name})")
+            note(f"section line reprojected from {sl.crs.name} to the DEM's CRS ({dem.crs.name})")
             sl = sl.to_crs(dem.crs)
         sl = projected_line(sl, note)  # a geographic DEM: measure in local UTM
         # CSV coordinates are in the DEM's CRS; vector files are reprojected to it.

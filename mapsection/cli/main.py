@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import importlib
 import sys
+import textwrap
 
 import click
 
@@ -28,7 +29,7 @@ HELP = f"""Draft geological cross-sections from a geologic map, a DEM and strike
 and the checks that show whether a section balances.
 
 \b
-CAUTION: {CAUTION}
+{textwrap.fill("CAUTION: " + CAUTION, 78)}
 
 Run 'mapsection COMMAND --help' for each command; the user guide is in docs/.
 """
@@ -57,6 +58,14 @@ class _LazyGroup(click.Group):
                 raise
             click.echo(f"mapsection: error: {exc}", err=True)
             ctx.exit(2)
+        except click.exceptions.NoArgsIsHelpError:
+            raise
+        except click.UsageError as exc:
+            # A mistyped command line is bad input too: one line, exit code 2.
+            path = exc.ctx.command_path if exc.ctx is not None else "mapsection"
+            why = exc.format_message().rstrip(".")
+            click.echo(f"mapsection: error: {path}: {why} (see '{path} --help')", err=True)
+            ctx.exit(2)
         except (KeyboardInterrupt, click.exceptions.Exit, click.ClickException, click.Abort):
             raise
         except Exception as exc:  # an unexpected failure: still one line unless --debug
@@ -70,7 +79,12 @@ class _LazyGroup(click.Group):
             ctx.exit(3)
 
 
-@click.group(cls=_LazyGroup, help=HELP, context_settings={"help_option_names": ["-h", "--help"]})
+@click.group(
+    "mapsection",
+    cls=_LazyGroup,
+    help=HELP,
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
 @click.version_option(__version__, prog_name="mapsection")
 @click.option("--debug", is_flag=True, help="Show full tracebacks on errors.")
 @click.pass_context

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import click
 import numpy as np
 import pyproj
@@ -9,7 +11,7 @@ import pyproj
 from .. import CAUTION
 from .._atomic import atomic_file
 from ..dem import Dem
-from ..errors import ParameterError
+from ..errors import OutputError, ParameterError
 from ..line import projected_line
 from ..profile import profile, resolve_line
 from ._common import note, warn
@@ -59,10 +61,14 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
     Example (the sample area's section A):
       mapsection profile sample_area/dem.tif "604658,5218819;612195,5213542" -o profile_A.csv
     \b
-    Coordinates that start with a minus sign go after "--":
-      mapsection profile dem.tif --crs EPSG:4326 -o p.csv -- "-84.30,36.55;-84.15,36.62"
+    The same line in longitude, latitude (coordinates that start with a minus
+    sign go after "--"):
+      mapsection profile sample_area/dem.tif --crs EPSG:4326 -o profile_A_lonlat.csv \\
+          -- "-115.6204,47.1146;-115.5224,47.0659"
     """
     step_m = _step(step)
+    if Path(output).is_dir():
+        raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     with atomic_file(output) as tmp, Dem.open(dem) as d:
         given = resolve_line(line, crs, d)
         prof = profile(d, projected_line(given, warn=note), step_m, warn=warn)
