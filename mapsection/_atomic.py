@@ -18,6 +18,24 @@ def _check_parent(path: Path) -> None:
         raise OutputError(f"{path}: output folder {parent} does not exist")
 
 
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+def _publish_tree(folder: Path) -> None:
+    """Give a finished temporary folder and its files the permissions new ones get."""
+    mask = _umask()
+    os.chmod(folder, 0o777 & ~mask)
+    for root, dirs, files in os.walk(folder):
+        for d in dirs:
+            os.chmod(os.path.join(root, d), 0o777 & ~mask)
+        for f in files:
+            p = os.path.join(root, f)
+            os.chmod(p, (os.stat(p).st_mode | 0o644) & 0o777 & ~mask)
+
+
 @contextlib.contextmanager
 def atomic_file(path: str | os.PathLike) -> Iterator[Path]:
     """Yield a temporary path beside ``path``; rename it onto ``path`` on success.
@@ -26,11 +44,15 @@ def atomic_file(path: str | os.PathLike) -> Iterator[Path]:
     """
     path = Path(path)
     _check_parent(path)
+    if path.is_dir():
+        raise OutputError(f"{path}: is a folder; give a file name for the output")
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=path.parent)
     os.close(fd)
     tmp_path = Path(tmp)
     try:
         yield tmp_path
+        # mkstemp makes the file private (0600); give it the permissions a new file gets.
+        os.chmod(tmp_path, 0o666 & ~_umask())
         os.replace(tmp_path, path)
     except BaseException:
         tmp_path.unlink(missing_ok=True)
@@ -49,6 +71,7 @@ def atomic_dir(path: str | os.PathLike) -> Iterator[Path]:
     tmp = Path(tempfile.mkdtemp(prefix=f".{path.name}.", dir=path.parent))
     try:
         yield tmp
+        _publish_tree(tmp)
         if path.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{path.name}.old.", dir=path.parent))
             os.replace(path, old / "prev")

@@ -17,8 +17,6 @@ import csv
 import dataclasses
 import os
 import re
-import sys
-import warnings
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -26,6 +24,7 @@ from pathlib import Path
 import numpy as np
 import pyproj
 
+from ._messages import default_warn as _default_warn
 from .errors import AttitudeError
 
 Warn = Callable[[str], None]
@@ -216,11 +215,6 @@ def format_quadrant(strike, dip):
 
 
 # --- reading ---------------------------------------------------------------------------
-def _default_warn(message: str) -> None:
-    if sys.stderr is not None:
-        print(f"mapsection: warning: {message}", file=sys.stderr)
-    else:  # pragma: no cover
-        warnings.warn(message, stacklevel=3)
 
 
 @dataclass
@@ -271,7 +265,7 @@ def _read_vector(path: Path, layer: str | None) -> _Table:
     import pyogrio
     import shapely
 
-    from .mapdata import first_line
+    from ._messages import first_line
 
     try:
         layers = [str(r[0]) for r in pyogrio.list_layers(path)]

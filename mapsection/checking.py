@@ -18,14 +18,9 @@ import math
 from collections.abc import Callable
 from pathlib import Path
 
+from ._messages import default_warn as _default_warn
 from .checks import TESTS, units_worst
 from .errors import CheckError
-
-
-def _default_warn(message: str) -> None:
-    import sys
-
-    print(f"mapsection: warning: {message}", file=sys.stderr)
 
 
 def _num(v, fmt: str) -> str:

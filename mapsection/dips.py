@@ -6,12 +6,12 @@ perpendicular (nearest point), along strike, and down-plunge along a fold axis.
 
 from __future__ import annotations
 
-import sys
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
+from ._messages import default_warn as _default_warn
 from .attitudes import Attitudes
 from .errors import ParameterError
 from .foldaxis import FoldAxis
@@ -79,8 +79,6 @@ STRIKE_SKIP_DEG = 10.0  # along-strike / down-plunge projection skipped at or be
 POORLY_CONSTRAINED_DEG = 15.0  # strike this close to the section azimuth: flagged
 
 
-def _default_warn(message: str) -> None:
-    print(f"mapsection: warning: {message}", file=sys.stderr)
 
 
 def in_corridor(x, y, line: SectionLine, corridor: float) -> tuple[np.ndarray, LinePosition]:

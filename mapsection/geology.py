@@ -9,7 +9,6 @@ GeoDataFrames for the map.
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -21,6 +20,7 @@ import shapely
 from shapely import STRtree
 from shapely.geometry import LineString
 
+from ._messages import default_warn as _default_warn
 from .line import SectionLine
 from .mapdata import MapData
 from .profile import Profile
@@ -74,8 +74,6 @@ class SurfaceGeology:
 _TOL = 1e-6  # metres: breakpoints closer than this are one point; pieces shorter are dropped
 
 
-def _default_warn(message: str) -> None:
-    warnings.warn(message, stacklevel=3)
 
 
 def same_crs(a, b) -> bool:

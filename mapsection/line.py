@@ -207,7 +207,7 @@ def read_line(
     try:
         df = pyogrio.read_dataframe(text)
     except Exception as exc:  # pyogrio raises several kinds for unreadable files
-        from .mapdata import first_line
+        from ._messages import first_line
 
         raise LineError(f"{text}: not a readable vector file ({first_line(exc)})") from None
     geoms = [g for g in df.geometry if g is not None and not g.is_empty]

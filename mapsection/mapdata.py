@@ -9,7 +9,6 @@ later query along a section line touches only the features near it.
 from __future__ import annotations
 
 import os
-import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -21,6 +20,8 @@ import pyproj
 import shapely
 from shapely import STRtree
 
+from ._messages import default_warn as _default_warn
+from ._messages import first_line
 from .errors import MapLayerError
 
 Warn = Callable[[str], None]
@@ -31,8 +32,6 @@ _POLYGONS = ("Polygon", "MultiPolygon")
 _LINES = ("LineString", "MultiLineString")
 
 
-def _default_warn(message: str) -> None:
-    warnings.warn(message, stacklevel=3)
 
 
 @dataclass(frozen=True, eq=False)
@@ -239,7 +238,3 @@ def _crs_name(crs) -> str:
     return f"EPSG:{epsg}" if epsg else crs.name
 
 
-def first_line(exc: Exception) -> str:
-    """The first line of an exception's message (its type name when it has none)."""
-    text = str(exc).strip()
-    return text.splitlines()[0] if text else type(exc).__name__

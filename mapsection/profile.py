@@ -8,7 +8,6 @@ pixel centres, reading only the DEM blocks the line passes through.
 from __future__ import annotations
 
 import os
-import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -17,6 +16,7 @@ import pyproj
 import shapely
 from shapely.geometry import LineString
 
+from ._messages import default_warn as _default_warn
 from .dem import Dem
 from .errors import DEMError, LineError, ParameterError
 from .line import SectionLine, projected_line, read_line
@@ -52,8 +52,6 @@ class Profile:
         return np.where(gap, np.nan, z)
 
 
-def _default_warn(message: str) -> None:
-    warnings.warn(message, UserWarning, stacklevel=3)
 
 
 def resolve_line(line, crs, dem: Dem) -> SectionLine:

@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import dataclasses
 import os
-import sys
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
@@ -30,6 +29,7 @@ import pyproj
 import shapely
 from shapely import STRtree
 
+from ._messages import default_warn as _default_warn
 from .errors import LineError, ParameterError
 from .geology import SurfaceGeology, same_crs, surface_geology
 from .line import SectionLine
@@ -47,8 +47,6 @@ Warn = Callable[[str], None]
 PROJECTIONS = ("perpendicular", "strike", "plunge")
 
 
-def _default_warn(message: str) -> None:
-    print(f"mapsection: warning: {message}", file=sys.stderr)
 
 
 @dataclass(frozen=True, eq=False)

@@ -25,7 +25,7 @@ def _within(att: Attitudes, polygon_file: str) -> np.ndarray:
     try:
         df = pyogrio.read_dataframe(polygon_file)
     except Exception as exc:  # the vector driver raises several kinds for unreadable files
-        from ..mapdata import first_line
+        from .._messages import first_line
 
         raise MapLayerError(
             f"{polygon_file}: not a readable vector file ({first_line(exc)})"

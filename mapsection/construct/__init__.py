@@ -18,13 +18,13 @@ the horizon ``top_of = "base of <oldest unit>"``.
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Callable
 
 import numpy as np
 import shapely
 from shapely.geometry import LineString
 
+from .._messages import default_warn as _default_warn
 from ..dips import ProjectedDips
 from ..draft import (
     AxialSurface,
@@ -69,8 +69,6 @@ def base_name(column: Column) -> str:
     return f"{BASE_PREFIX}{column.names[-1]}"
 
 
-def _default_warn(msg: str) -> None:
-    warnings.warn(msg, UserWarning, stacklevel=3)
 
 
 def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
