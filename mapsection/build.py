@@ -251,11 +251,16 @@ def _write_check_outputs(folder: Path, draft: Draft, report: Any) -> list[Path]:
 
 def build_project(project_path: str | Path, outdir: str | Path, *, section: str | None = None,
                   method: str | None = None, ve: float | None = None, warn: Warn | None = None,
-                  timings: dict[str, float] | None = None) -> list[Path]:
+                  timings: dict[str, float] | None = None,
+                  workers: int | None = None) -> list[Path]:
     """Build every section of a project (or the one named) into ``outdir/<name>/``.
 
     Returns the section folders written. ``timings``, when given, receives the wall
-    time of each stage (see ``STAGES``).
+    time of each stage (see ``STAGES``). The drafts are constructed one after the
+    other; their outputs (figures, GeoPackages, checks) are written in up to
+    ``workers`` processes at once (default: one per CPU core, where the system can
+    fork). All or nothing: the section folders replace earlier builds only once
+    every section has been written, so a failure leaves OUTDIR as it was.
     """
     _check_options(method, ve)
     warn = warn or _default_warn
@@ -265,35 +270,112 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
         outdir = Path(outdir)
         if outdir.exists() and not outdir.is_dir():
             raise OutputError(f"{outdir}: exists and is not a folder")
+        created = not outdir.exists()
         try:
             outdir.mkdir(parents=True, exist_ok=True)
         except OSError as exc:
             raise OutputError(f"{outdir}: cannot create the output folder ({exc.strerror})") \
                 from None
-        inputs = load_inputs(project, warn)
-    folders = []
     try:
-        for spec in specs:
-            said: list[str] = []
+        with contextlib.ExitStack() as folders_in_progress:
+            with _stage(timings, "load"):
+                inputs = load_inputs(project, warn)
+            jobs = []
+            try:
+                for spec in specs:
+                    said: list[str] = []
+                    draft = build_section(project, spec, method=method, ve=ve,
+                                          warn=_section_warn(warn, spec.name, said),
+                                          inputs=inputs, timings=timings)
+                    target = outdir / _folder_name(spec.name)
+                    tmp = folders_in_progress.enter_context(atomic_dir(target))
+                    jobs.append(_Job(tmp, draft, project, spec, said, target))
+            finally:
+                # Closed before any fork: no GDAL file handle is shared with a worker.
+                inputs.close()
+            for job, said, job_timings in _run_jobs(jobs, inputs.map_data, workers):
+                for message in said[len(job.said):]:  # the checks' warnings, said in a worker
+                    warn(_named(message, job.spec.name))
+                if timings is not None:
+                    for k, v in job_timings.items():
+                        timings[k] = timings.get(k, 0.0) + v
+    except BaseException:
+        if created:
+            with contextlib.suppress(OSError):
+                outdir.rmdir()  # only if still empty
+        raise
+    return [job.target for job in jobs]
 
-            def section_warn(message: str, _said=said, _name=spec.name) -> None:
-                _said.append(message)
-                named = message.startswith(f"section {_name}")
-                warn(message if named else f"section {_name}: {message}")
 
-            target = outdir / _folder_name(spec.name)
-            with atomic_dir(target) as tmp:
-                draft = build_section(project, spec, method=method, ve=ve, warn=section_warn,
-                                      inputs=inputs, timings=timings)
-                write_section_outputs(draft, tmp, inputs.map_data, warnings=said,
-                                      timings=timings)
-                # --- checks: checks.json, their figures and report.html (call point) ---
-                _write_checks(tmp, draft, project, spec, section_warn, timings)
-                write_build_log(draft, tmp / "build.log", said)  # again, with the checks' notes
-            folders.append(target)
+@dataclass(eq=False)
+class _Job:
+    """One section's outputs to write: its draft and the temporary folder they go in."""
+
+    folder: Path
+    draft: Draft
+    project: Project
+    spec: SectionSpec
+    said: list[str]
+    target: Path
+
+
+def _named(message: str, name: str) -> str:
+    return message if message.startswith(f"section {name}") else f"section {name}: {message}"
+
+
+def _section_warn(warn: Warn, name: str, said: list[str]) -> Warn:
+    """Warn with the section's name, and remember what was said for build.log."""
+
+    def section_warn(message: str) -> None:
+        said.append(message)
+        warn(_named(message, name))
+
+    return section_warn
+
+
+def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float]]:
+    """Write one section's folder; returns everything said and the stage timings."""
+    said = list(job.said)
+    timings: dict[str, float] = {}
+    write_section_outputs(job.draft, job.folder, map_data, warnings=said, timings=timings)
+    _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings)
+    write_build_log(job.draft, job.folder / "build.log", said)  # again, with the checks' notes
+    return said, timings
+
+
+# The jobs of the build in progress, read by forked workers (nothing is pickled but an index).
+_JOBS: list[tuple[_Job, Any]] = []
+
+
+def _write_job_at(index: int) -> tuple[list[str], dict[str, float]]:
+    job, map_data = _JOBS[index]
+    return _write_job(job, map_data)
+
+
+def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None):
+    """Yield (job, said, timings) for each job, writing them in parallel where that pays."""
+    import multiprocessing
+    import os
+
+    n = min(len(jobs), workers or os.cpu_count() or 1)
+    if n < 2 or "fork" not in multiprocessing.get_all_start_methods():
+        for job in jobs:
+            yield (job, *_write_job(job, map_data))
+        return
+    from concurrent.futures import ProcessPoolExecutor
+
+    # Import the drawing and writing code once, here, so that workers inherit it.
+    from . import export, figure, report  # noqa: F401
+    from .checks import area, restore, sequence  # noqa: F401
+
+    _JOBS[:] = [(job, map_data) for job in jobs]
+    try:
+        with ProcessPoolExecutor(n, mp_context=multiprocessing.get_context("fork")) as pool:
+            results = list(pool.map(_write_job_at, range(len(jobs))))
     finally:
-        inputs.close()
-    return folders
+        _JOBS.clear()
+    for job, (said, timings) in zip(jobs, results, strict=True):
+        yield job, said, timings
 
 
 def _folder_name(name: str) -> str:

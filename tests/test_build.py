@@ -21,7 +21,6 @@ from mapsection.cli.main import cli
 from mapsection.errors import ConstructionError, ParameterError
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_area" / "project.toml"
-needs_sample = pytest.mark.skipif(not SAMPLE.is_file(), reason="sample area not generated")
 FILES = {"section.gpkg", "section_3d.gpkg", "section.png", "section.svg", "section.pdf",
          "build.log"}
 
@@ -41,7 +40,6 @@ def built(tmp_path_factory):
     return out, folders, timings
 
 
-@needs_sample
 def test_folder_layout(built):
     from mapsection.project import load_project
 
@@ -80,7 +78,6 @@ def test_folder_layout(built):
     assert set(timings) >= {"load", "section data", "construction", "figures", "geopackages"}
 
 
-@needs_sample
 def test_rebuild_replaces_the_folder_whole(built):
     from mapsection.build import build_project
 
@@ -95,7 +92,6 @@ def test_rebuild_replaces_the_folder_whole(built):
     assert sorted(p.name for p in out.iterdir()) == ["A", "B"]
 
 
-@needs_sample
 def test_failed_build_keeps_the_previous_folder(built, monkeypatch):
     import mapsection.construct
 
@@ -190,3 +186,52 @@ def test_help_carries_the_caution():
         result = CliRunner().invoke(cli, [name, "--help"])
         assert result.exit_code == 0
         assert " ".join(CAUTION.split()[:6]) in " ".join(result.output.split())
+
+
+def test_parallel_writing_gives_the_same_outputs(built, tmp_path):
+    # self-consistency: writing the sections' outputs in worker processes changes nothing
+    from mapsection.build import build_project
+
+    out, _, _ = built
+    serial = tmp_path / "serial"
+    build_project(SAMPLE, serial, warn=lambda m: None, workers=1)
+    for name in ("A", "B"):
+        a = json.loads((serial / name / "checks.json").read_text())
+        b = json.loads((out / name / "checks.json").read_text())
+        assert a == b
+        assert {p.relative_to(serial / name) for p in (serial / name).rglob("*")} == \
+            {p.relative_to(out / name) for p in (out / name).rglob("*")}
+
+
+def test_a_failing_section_leaves_every_folder_as_it_was(built, monkeypatch):
+    import mapsection.build
+    from mapsection.errors import CheckError
+
+    out, _, _ = built
+    before = {name: _digest(out / name) for name in ("A", "B")}
+    real = mapsection.build._write_checks
+
+    def fail_on_b(folder, draft, *args, **kwargs):
+        if draft.name == "B":
+            raise CheckError("section B: pin line at 0.0 m runs through the Kelmby Thrust")
+        return real(folder, draft, *args, **kwargs)
+
+    monkeypatch.setattr(mapsection.build, "_write_checks", fail_on_b)
+    result = CliRunner().invoke(cli, ["build", str(SAMPLE), "-o", str(out)])
+    assert result.exit_code == 2, result.output
+    assert "section B: pin line" in result.output and "Traceback" not in result.output
+    # A was written in its own worker, but is not swapped in when B fails
+    assert {name: _digest(out / name) for name in ("A", "B")} == before
+    assert sorted(p.name for p in out.iterdir()) == ["A", "B"]
+
+
+def test_failed_first_build_leaves_no_folder(tmp_path, monkeypatch):
+    import mapsection.construct
+
+    def fail(*args, **kwargs):
+        raise ConstructionError("section A: no dips within the corridor and no default_dip")
+
+    monkeypatch.setattr(mapsection.construct, "build_draft", fail)
+    result = CliRunner().invoke(cli, ["build", str(SAMPLE), "-o", str(tmp_path / "new")])
+    assert result.exit_code == 2
+    assert not (tmp_path / "new").exists()
