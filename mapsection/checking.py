@@ -27,6 +27,19 @@ def _num(v, fmt: str) -> str:
     return "-" if v is None or (isinstance(v, float) and not math.isfinite(v)) else format(v, fmt)
 
 
+def _detachment_text(fit: dict) -> str:
+    """The area-depth result for the table: a depth only when the fit can be trusted."""
+    if not fit:
+        return "depth to detachment not measured (fewer than 2 horizons)"
+    r2 = _num(fit.get("r_squared"), ".3f")
+    if not fit.get("reliable"):
+        why = "; ".join(str(i).split(":")[0] for i in fit.get("issues") or [])
+        return f"depth to detachment not determined ({why}; R² {r2})"
+    return (f"detachment at elevation {_num(fit.get('detachment_elevation_m'), '.0f')} m, "
+            f"{_num(fit.get('depth_to_detachment_m'), '.0f')} m below {fit.get('datum')} "
+            f"(R² {r2})")
+
+
 def summary_lines(report) -> list[str]:
     """One line per test: name, PASS/FAIL and its key figures against the thresholds."""
     d = report.to_dict()
@@ -55,8 +68,7 @@ def summary_lines(report) -> list[str]:
         ),
         "area_balance": (
             f"worst unit mismatch {_num(worst, '.2f')} %{f' ({unit})' if unit else ''} "
-            f"(<= {t.area_mismatch_pct:g}), depth to detachment "
-            f"{_num(fit.get('depth_to_detachment_m'), '.0f')} m"
+            f"(<= {t.area_mismatch_pct:g}), {_detachment_text(fit)}"
         ),
         "kinematics": (f"{n_kin} inconsistenc{'y' if n_kin == 1 else 'ies'}, transport "
                        f"{kin.get('transport_direction') or '-'}, "
@@ -127,7 +139,12 @@ def check_section(project, spec, from_path: Path | None = None,
                   warn_fn: Callable[[str], None] = _default_warn):
     """Build (or read back) one section and run the four tests on it."""
     from .checks import run_checks
+    from .checks.topography import validate_thresholds
 
+    try:  # before any building: a bad threshold is a one-line error naming the project file
+        validate_thresholds(project.thresholds)
+    except CheckError as exc:
+        raise CheckError(f"{project.path}: {exc}") from None
     if from_path is None:
         from .build import build_section
 

@@ -29,6 +29,7 @@ from __future__ import annotations
 import math
 import os
 import textwrap
+from dataclasses import dataclass
 from pathlib import Path
 
 import matplotlib
@@ -73,6 +74,90 @@ def nice_length(span: float) -> float:
         if m * p <= target:
             return m * p
     return p
+
+
+# --- page layout (inches) ------------------------------------------------------------
+_LEGEND_FONT = 7.0  # points
+_EM = _LEGEND_FONT / 72.0  # the legend font's em, inches
+LEGEND_PITCH = 1.5 * _EM  # one text line plus the label spacing of a legend
+LEGEND_TITLE = 0.17  # the legend's title line
+LEGEND_COLUMN_WIDTH = 2.45  # a swatch and a 38-character label
+INSET_SIZE = 2.5  # the location inset is square
+_MARGIN_LEFT, _MARGIN_RIGHT, _MARGIN_TOP = 0.8, 0.25, 0.8  # tick labels; end names, title
+_GAP = 0.5  # between the section and the inset column
+_XLABEL = 0.48  # tick labels and the axis label under the section
+_ROW = 0.3  # the VE statement and the scale bar
+_CAUTION = 0.32  # the caution (two lines) at the foot of the page
+_PAGE_WIDTH = 11.2
+_SECTION_HEIGHT = (1.0, 5.5)  # the section's box, least and most
+
+
+@dataclass(frozen=True)
+class PageLayout:
+    """Where everything goes on the page, in inches from its lower left corner.
+
+    ``axes`` (left, bottom, width, height) is the section's box, whose shape is the
+    section's exaggerated shape; ``yspan`` its elevation range in metres (at least the
+    one asked, more where a very long, flat section would be thinner than the least
+    height); ``below`` the height of the VE / scale-bar row, just under the section;
+    ``legend`` the top left corner of the legend, with ``legend_rows`` rows a column
+    (the symbols start a column of their own when the legend is under the section);
+    ``inset`` (left, bottom, size) of the location inset, beside the section.
+    """
+
+    width: float
+    height: float
+    axes: tuple[float, float, float, float]
+    yspan: float
+    below: float
+    legend: tuple[float, float]
+    legend_rows: int
+    inset: tuple[float, float, float]
+
+
+def page_layout(xspan: float, yspan: float, ve: float, legend_rows: tuple[int, int],
+                with_inset: bool = True) -> PageLayout:
+    """Size the page to the section: its box ``xspan`` wide and ``yspan * ve`` high at one
+    scale; the inset beside it (top-aligned) and the legend (``legend_rows``: the number of
+    unit rows and of symbol rows) beside it under the inset where that fits within the
+    section's height, else under the section in columns, units apart from symbols."""
+    side = _GAP + INSET_SIZE if with_inset else 0.0
+    wa = _PAGE_WIDTH - _MARGIN_LEFT - _MARGIN_RIGHT - side
+    ha = wa * yspan * ve / xspan
+    lo, hi = _SECTION_HEIGHT
+    if ha > hi:  # a tall section: narrower page, same scale both ways times VE
+        wa, ha = wa * hi / ha, hi
+    elif ha < lo:  # a long, flat one: more air above the ground keeps the scale exact
+        yspan, ha = yspan * lo / ha, lo
+    block = _MARGIN_TOP + ha + _XLABEL + _ROW  # the section with its labels and scale row
+    n_units, n_symbols = legend_rows
+    inset_top = _MARGIN_TOP + (INSET_SIZE + 0.35 if with_inset else 0.0)  # and a gap
+    one_column = LEGEND_TITLE + (n_units + n_symbols) * LEGEND_PITCH
+    beside = with_inset and inset_top + one_column <= block
+    if beside:
+        per_column, left_h, right_h = n_units + n_symbols, block, inset_top + one_column
+    else:
+        # The fewest rows that put the units, then the symbols, in their own columns.
+        columns = max(2, int((wa + 0.5 * _MARGIN_LEFT) // LEGEND_COLUMN_WIDTH))
+        per_column = max(n_units, n_symbols)
+        for rows in range(1, per_column + 1):
+            if -(-n_units // rows) + -(-n_symbols // rows) <= columns:
+                per_column = rows
+                break
+        left_h = block + 0.15 + LEGEND_TITLE + per_column * LEGEND_PITCH
+        right_h = inset_top
+    # Beside a flat section a smaller inset keeps the page from growing below it.
+    size = INSET_SIZE if beside else float(np.clip(left_h - _MARGIN_TOP, 1.6, INSET_SIZE))
+    right_h -= INSET_SIZE - size
+    height = max(left_h, right_h) + _CAUTION
+    width = _MARGIN_LEFT + wa + side + _MARGIN_RIGHT
+    ax_bottom = height - _MARGIN_TOP - ha
+    right_x = _MARGIN_LEFT + wa + _GAP
+    legend = ((right_x, height - inset_top) if beside
+              else (_MARGIN_LEFT, height - block - 0.15))
+    return PageLayout(width, height, (_MARGIN_LEFT, ax_bottom, wa, ha), yspan,
+                      ax_bottom - _XLABEL - _ROW / 2, legend, per_column,
+                      (right_x, height - _MARGIN_TOP - size, size))
 
 
 def tick_segment(d, z, apparent_dip, ve: float, half_length: float):
@@ -213,15 +298,15 @@ def section_figure(draft: Draft, map_data=None) -> Figure:
     zspan = max(ztop - zbot, 1.0)
     ylim = (zbot, ztop + 0.18 * zspan)
 
-    # Page layout in inches: the section's box follows its exaggerated shape.
-    wa = 7.2
-    ha = float(np.clip(wa * (ylim[1] - ylim[0]) * ve / xspan, 1.2, 5.5))
-    top_m, below = 0.8, 1.45
-    fw, fh = 11.2, max(ha + top_m + below, 5.8)
-    fig = Figure(figsize=(fw, fh))
-    ax_bottom = fh - top_m - ha
-    ax = fig.add_axes((0.8 / fw, ax_bottom / fh, wa / fw, ha / fh))
-    below_y = (ax_bottom - 0.72) / fh  # figure fraction of the VE / scale-bar row
+    # Page layout in inches: the page is sized to the section's exaggerated shape.
+    legend_rows = _legend_rows(draft, palette)
+    page = page_layout(xspan, ylim[1] - ylim[0], ve, tuple(map(len, legend_rows)),
+                       map_data is not None)
+    ylim = (ylim[0], ylim[0] + page.yspan)
+    fig = Figure(figsize=(page.width, page.height))
+    fh = page.height
+    ax = fig.add_axes(tuple(v / d for v, d in zip(page.axes, (page.width, fh) * 2, strict=True)))
+    below_y = page.below / fh  # figure fraction of the VE / scale-bar row
 
     # Units.
     patches, faces = [], []
@@ -274,7 +359,9 @@ def section_figure(draft: Draft, map_data=None) -> Figure:
         if f.name and parts:
             top = parts[0][np.argmax(parts[0][:, 1])]
             ax.text(top[0], top[1] + 0.03 * zspan, f.name, fontsize=7, ha="center",
-                    va="bottom", style="italic", zorder=8)
+                    va="bottom", style="italic", zorder=8,
+                    bbox={"boxstyle": "round,pad=0.1", "facecolor": "white", "alpha": 0.7,
+                          "linewidth": 0})
 
     # Projected dips: short ticks at their apparent dip, with the section's VE.
     dips = draft.dips
@@ -314,7 +401,7 @@ def section_figure(draft: Draft, map_data=None) -> Figure:
     method = {"kink": "kink-band (dip-domain)", "arc": "arc (Busk)"}.get(draft.method,
                                                                          draft.method)
     ax.set_title(f"Draft section {left}–{right}  ·  {method} construction", fontsize=10,
-                 pad=26, y=1.0)  # y given: no tick-label measuring to place the title
+                 pad=34, y=1.0)  # y given: no tick-label measuring to place the title
 
     # VE statement and scale bar below the axes (x in data, y in axes fraction).
     tr = blended_transform_factory(ax.transData, fig.transFigure)
@@ -332,9 +419,9 @@ def section_figure(draft: Draft, map_data=None) -> Figure:
         ax.text(x0 + 0.4 * xspan + xx, below_y - bh, lab, transform=tr, ha="center", va="top",
                 fontsize=7)
 
-    _legend(fig, draft, palette, fh)
+    _legend(fig, legend_rows, page)
     if map_data is not None:
-        _inset(fig, draft, map_data, palette, fh)
+        _inset(fig, draft, map_data, palette, page)
 
     caution = "Caution: " + CAUTION
     fig.text(0.01, 0.012, "\n".join(textwrap.wrap(caution, 150)), fontsize=6, color="#444444",
@@ -342,27 +429,17 @@ def section_figure(draft: Draft, map_data=None) -> Figure:
     return fig
 
 
-def _legend(fig: Figure, draft: Draft, palette: dict[str, str], fh: float) -> None:
-    """The legend: one swatch per unit of the column (youngest at top), then the symbols.
-
-    Laid out by hand in inches from the page's corner (rows of fixed pitch): the same
-    look as a matplotlib legend, without its box layout, which measured every label
-    again for each of the three formats.
-    """
-    fs, em = 7.0, 7.0 / 72.0  # label font size (pt) and its em in inches
-    tr = fig.dpi_scale_trans  # inches from the page's lower left corner
-    x = 0.745 * fig.get_figwidth() + 0.9 * em  # axes pad + border pad of a legend
-    y = fh - 3.0 - 0.9 * em
-    fig.text(x, y, "Units, youngest at top", transform=tr, fontsize=8, va="top", ha="left")
-    y -= 8.0 / 72.0 * 1.3
-    pitch = 1.5 * em  # one text line plus the legend's label spacing
+def _legend_rows(draft: Draft, palette: dict[str, str]
+                 ) -> tuple[list[tuple[str, object]], list[tuple[str, object]]]:
+    """The legend's rows: one swatch per unit of the column (youngest first), and the
+    line symbols drawn on the page."""
     rows: list[tuple[str, object]] = []
     for u in draft.column.units:  # youngest first = top of the legend
         label = f"{u.name} ({u.age})" if u.age else u.name
         if len(label) > 38:
             label = label[:37] + "…"
         rows.append((label, palette[u.name]))
-    rows += [
+    symbols: list[tuple[str, object]] = [
         ("Ground (DEM profile)", C.GROUND),
         ("Horizon (top of unit)", C.CONTACT),
         ("Horizon projected above ground", C.CONTACT_PROJECTED),
@@ -370,18 +447,39 @@ def _legend(fig: Figure, draft: Draft, palette: dict[str, str], fh: float) -> No
         ("Projected bedding dip", C.DIP_TICK),
     ]
     if draft.axial_surfaces:
-        rows.append(("Axial surface", C.AXIAL_SURFACE))
-    for k, (label, sym) in enumerate(rows):
-        yc = y - (k + 0.5) * pitch
+        symbols.append(("Axial surface", C.AXIAL_SURFACE))
+    return rows, symbols
+
+
+def _legend(fig: Figure, rows: tuple[list[tuple[str, object]], list[tuple[str, object]]],
+            page: PageLayout) -> None:
+    """The legend: the units (youngest at top), then the symbols, in columns of
+    ``page.legend_rows`` rows; under the section the symbols start a new column.
+
+    Laid out by hand in inches from the page's corner (rows of fixed pitch): the same
+    look as a matplotlib legend, without its box layout, which measured every label
+    again for each of the three formats.
+    """
+    tr = fig.dpi_scale_trans  # inches from the page's lower left corner
+    x0, y0 = page.legend
+    fig.text(x0, y0, "Units, youngest at top", transform=tr, fontsize=8, va="top", ha="left")
+    units, symbols = rows
+    per = page.legend_rows
+    # In columns, empty slots close the units' last column; in one column none are needed.
+    gap = 0 if per >= len(units) + len(symbols) else -len(units) % per
+    for k, (label, sym) in enumerate([*units, *symbols]):
+        slot = k if k < len(units) else k + gap
+        x = x0 + (slot // per) * LEGEND_COLUMN_WIDTH
+        yc = y0 - LEGEND_TITLE - (slot % per + 0.5) * LEGEND_PITCH
         if isinstance(sym, str):  # a unit's colour swatch
-            art = Rectangle((x, yc - 0.35 * em), 2.0 * em, 0.7 * em, transform=tr,
+            art = Rectangle((x, yc - 0.35 * _EM), 2.0 * _EM, 0.7 * _EM, transform=tr,
                             facecolor=sym, edgecolor="#333333", linewidth=0.4)
         else:
-            art = Line2D([x, x + 2.0 * em], [yc, yc], transform=tr, **sym.kwargs())
+            art = Line2D([x, x + 2.0 * _EM], [yc, yc], transform=tr, **sym.kwargs())
         art.set_gid(f"legend-{k}")
         fig.add_artist(art)
-        fig.text(x + 2.8 * em, yc, label, transform=tr, fontsize=fs, va="center_baseline",
-                 ha="left")
+        fig.text(x + 2.8 * _EM, yc, label, transform=tr, fontsize=_LEGEND_FONT,
+                 va="center_baseline", ha="left")
 
 
 def _column(frame, name: str) -> np.ndarray:
@@ -402,9 +500,12 @@ def _map_units(map_data) -> tuple[np.ndarray, np.ndarray]:
     return np.asarray(units.geometry.values, dtype=object), names
 
 
-def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str], fh: float) -> None:
+def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str],
+           page: PageLayout) -> None:
     """Location inset: the geologic map around the line, the line, its ends named."""
-    iax = fig.add_axes((0.755, (fh - 2.9) / fh, 0.225, 2.5 / fh))
+    left, bottom, size = page.inset
+    iax = fig.add_axes((left / page.width, bottom / page.height, size / page.width,
+                        size / page.height))
     line = draft.line
     v = line.vertices
     # A square extent (the inset box is square) around the line, with a margin.

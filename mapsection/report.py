@@ -164,6 +164,12 @@ def _test_section(name: str, d: dict) -> str:
     if fails:
         parts.append("<h3>Why it fails</h3><ul>"
                      + "".join(f"<li>{escape(str(f))}</li>" for f in fails) + "</ul>")
+    det = d.get("detachment")
+    if isinstance(det, dict) and det.get("summary"):
+        # The area-depth verdict in plain words, before its table of numbers.
+        cav = "".join(f"<li>{escape(str(c))}</li>" for c in det.get("caveats") or [])
+        parts.append(f'<div class="note"><b>Depth to detachment:</b> {escape(det["summary"])}'
+                     + (f"<ul>{cav}</ul>" if cav else "") + "</div>")
     parts.append("<h3>Figures</h3>" + _kv_table(scalars))
     if isinstance(d.get("thresholds"), dict):
         parts.append("<h3>Pass thresholds</h3>" + _kv_table(d["thresholds"]))
@@ -204,6 +210,9 @@ def render_report(draft, report, figures: dict[str, str | os.PathLike] | None = 
             unit, worst = units_worst(rd[k].get("units"))
             if worst is not None:
                 figs = f"worst unit mismatch {worst:.2f} % ({unit})"
+            det = rd[k].get("detachment") or {}
+            if det.get("summary"):
+                figs += f"; {det['summary']}"
         summary_rows.append(f'<tr><td><a href="#{k}">{escape(k)}</a></td>'
                             f"<td>{_badge(bool(rd[k].get('passed')))}</td>"
                             f"<td>{escape(figs)}</td></tr>")

@@ -211,8 +211,7 @@ def test_sample_sections_with_arc_pass_topography_and_recover_the_model():
 
     root = Path(__file__).resolve().parents[1]
     path = root / "sample_area" / "project.toml"
-    if not path.exists():
-        pytest.skip("sample area not generated")
+    assert path.is_file(), f"{path} missing: run sample_area/generate.py"  # never a skip
     from test_sample_recovery import recovery_errors
 
     from mapsection.build import build_section
@@ -229,8 +228,8 @@ def test_sample_sections_with_arc_pass_topography_and_recover_the_model():
         assert report.passed, (spec.name, report)
         err = recovery_errors(draft, SAMPLE_MODEL)
         assert len(err) > 200
-        # Targets from the brief: median < 10 %, 90th percentile < 20 % of the thinnest
-        # unit (a circular-arc hinge cannot reproduce the model's sharp kinks exactly).
+        # Targets of issue 4, the same for both methods: median < 10 %, 90th percentile
+        # < 15 % of the thinnest unit.
         assert np.median(err) < 0.10 * thinnest, spec.name
-        assert np.percentile(err, 90) < 0.20 * thinnest, spec.name
+        assert np.percentile(err, 90) < 0.15 * thinnest, spec.name
         assert all(h.geometry.is_simple for h in draft.horizons)

@@ -5,40 +5,13 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from shapely.geometry import LineString, Polygon
+from test_restore import TAN30, make_draft, parallel
 
 from mapsection.checks.area import area_balance, depth_to_detachment, draw_area_depth
 from mapsection.checks.restore import restore_section
-from mapsection.dips import ProjectedDips
-from mapsection.draft import Draft, Horizon
+from mapsection.draft import Horizon
 from mapsection.errors import CheckError
-from mapsection.geology import SurfaceGeology
-from mapsection.line import SectionLine
-from mapsection.profile import Profile
 from mapsection.stratigraphy import Column, Unit
-
-TAN30 = np.tan(np.radians(30.0))
-
-
-def make_draft(horizons, column, length=10000.0) -> Draft:
-    line = SectionLine(np.array([[0.0, 0.0], [length, 0.0]]), name="T")
-    d = np.linspace(0.0, length, 101)
-    profile = Profile(d, d, np.zeros_like(d), np.full_like(d, 2000.0), line)
-    e = np.array([])
-    dips = ProjectedDips(e, e, e, e, e, e, e, e, e, e.astype(bool), e.astype(bool))
-    return Draft("T", "edited", line, profile, SurfaceGeology((), (), ()), dips, column,
-                 horizons=list(horizons))
-
-
-def parallel(ref, t):
-    """Exact parallel of a kinked line at perpendicular distance t below it (mitre joins)."""
-    p = np.asarray(ref, float)
-    d = np.diff(p, axis=0)
-    d /= np.hypot(d[:, 0], d[:, 1])[:, None]
-    n = np.column_stack([d[:, 1], -d[:, 0]])
-    m = np.vstack([n[:1], (n[:-1] + n[1:]) / (1.0 + np.sum(n[:-1] * n[1:], axis=1))[:, None],
-                   n[-1:]])
-    return p + t * m
-
 
 KINK = Column((Unit("A", 300.0), Unit("B", 400.0), Unit("C", 500.0), Unit("D", 800.0)))
 ANTICLINE = [(0.0, 0.0), (3000.0, 0.0), (4000.0, 1000.0 * TAN30), (6000.0, 1000.0 * TAN30),
@@ -54,7 +27,7 @@ def kink_anticline(depths):
             hz.append(Horizon(name, LineString(pts[pts[:, 0] >= 4000.0]), above_ground=True))
         else:
             hz.append(Horizon(name, LineString(pts)))
-    return make_draft(hz, KINK)
+    return make_draft(hz, column=KINK, ground=2000.0, method="edited")
 
 
 def test_constant_thickness_kink_fold_balances():
@@ -107,14 +80,24 @@ def test_area_depth_line_recovers_detachment_and_displacement():
     zd, disp = 3000.0, 600.0
     depths = {"A": 0.0, "B": 500.0, "C": 1000.0, "D": 1800.0}
     col = Column((Unit("A", 500.0), Unit("B", 500.0), Unit("C", 800.0), Unit("D", 600.0)))
-    d = make_draft(detachment_fold(zd, disp, depths), col)
+    d = make_draft(detachment_fold(zd, disp, depths), column=col, ground=2000.0,
+                   method="edited")
     r = restore_section(d, pin=500.0, loose=9500.0)
     ab = area_balance(d, r, 5.0)
     fit = ab.detachment
-    # Epard & Groshong 1993: within 2 %
-    assert fit.depth_to_detachment_m == pytest.approx(zd, rel=0.02)
+    # Epard & Groshong 1993: both within 2 %; the datum is the ground at the pin line,
+    # 2000 m above the top horizon's regional level at elevation 0 (make_draft's profile).
+    assert fit.datum_elevation_m == pytest.approx(2000.0)
+    assert fit.detachment_elevation_m == pytest.approx(-zd, rel=0.02)
+    assert fit.depth_to_detachment_m == pytest.approx(2000.0 + zd, rel=0.02)
     assert fit.displacement_m == pytest.approx(disp, rel=0.02)
     assert fit.r_squared == pytest.approx(1.0, abs=1e-9)
+    assert fit.reliable and fit.issues == []
+    # This fold keeps area, not bed length (its beds lengthen upward), and the fit says so.
+    assert [c.split(" (")[0] for c in fit.caveats] == ["the displacement"]
+    assert "elevation -3000 m" in fit.summary and "R² 1.000" in fit.summary
+    # Each 10 m of error in the regional levels moves the detachment by 10 x width / D.
+    assert fit.shift_per_10m_regional_m == pytest.approx(10.0 * 9000.0 / disp, rel=0.02)
     for p in fit.points:
         # excess areas against the shapely polygon between the horizon and its regional level
         # (reference library)
@@ -122,7 +105,48 @@ def test_area_depth_line_recovers_detachment_and_displacement():
         c = np.asarray(line.coords)
         poly = Polygon(np.vstack([c, [[10000.0, -depths[p.top_of]], [0.0, -depths[p.top_of]]]]))
         assert p.excess_area_m2 == pytest.approx(poly.area, rel=1e-9)
-        assert p.depth_m == pytest.approx(depths[p.top_of])
+        assert p.regional_elevation_m == pytest.approx(-depths[p.top_of])
+        assert p.depth_m == pytest.approx(2000.0 + depths[p.top_of])
+
+
+def test_detachment_with_no_undeformed_ground_is_not_determined():
+    # The same fold on a regional slope of 1 % (self-consistency): each horizon ends 90 m
+    # above its regional level (its elevation at the pin), which moves the fitted level by
+    # about 90 x 9000 / 600 = 1350 m: the depth must be withheld, the figures still given.
+    depths = {"A": 0.0, "B": 500.0, "C": 1000.0, "D": 1800.0}
+    col = Column((Unit("A", 500.0), Unit("B", 500.0), Unit("C", 800.0), Unit("D", 600.0)))
+    tilted = [Horizon(h.top_of, LineString(np.asarray(h.geometry.coords)
+                                           + np.array([0.0, 1.0]) * (10000.0 - np.asarray(
+                                               h.geometry.coords)[:, :1]) * 0.01))
+              for h in detachment_fold(3000.0, 600.0, depths)]
+    d = make_draft(tilted, column=col, ground=2000.0, method="edited")
+    r = restore_section(d, pin=9500.0, loose=500.0)
+    fit = area_balance(d, r, 5.0).detachment
+    assert fit.r_squared > 0.99  # a good line, yet the depth is not determined
+    assert not fit.reliable
+    assert fit.issues[0].startswith("regional level uncertain: ")
+    assert "+90 m" in fit.issues[0]
+    assert fit.summary.startswith("detachment not determined")
+    out = fit.to_dict()
+    assert out["reliable"] is False and out["depth_to_detachment_m"] is not None
+
+
+def test_depth_to_detachment_says_when_the_fit_is_poor():
+    # S = D (z_d - z) (Epard & Groshong 1993), made to break each premise in turn.
+    z = np.array([0.0, 500.0, 1000.0, 1500.0])
+    assert depth_to_detachment(z, 600.0 * (3000.0 - z)).reliable
+    two = depth_to_detachment(z[:2], 600.0 * (3000.0 - z[:2]))
+    assert not two.reliable and two.issues[0].startswith("only 2 horizons")
+    scatter = depth_to_detachment(z, [1e6, -1e6, 1e6, -0.9e6])
+    assert any(i.startswith("poor fit") for i in scatter.issues)
+    growing = depth_to_detachment(z, 600.0 * z)  # excess area grows with depth
+    assert any(i.startswith("no detachment below") for i in growing.issues)
+    # A level at 700 m with horizons at 1000 and 1500 m below it (negative excess areas).
+    shallow = depth_to_detachment(z, 600.0 * (700.0 - z))
+    assert shallow.depth_to_detachment_m == pytest.approx(700.0)
+    assert shallow.issues == ["level above 2 folded horizons: the fitted level lies above "
+                              "horizons that are folded too, so this is not a fold above one "
+                              "detachment"]
 
 
 def test_depth_to_detachment_noisy_fit_and_figure(tmp_path):
@@ -141,4 +165,5 @@ def test_depth_to_detachment_noisy_fit_and_figure(tmp_path):
     with pytest.raises(CheckError):
         depth_to_detachment([100.0], [5.0])
     d = fit.to_dict()
-    assert set(d) >= {"displacement_m", "depth_to_detachment_m", "r_squared", "points"}
+    assert set(d) >= {"displacement_m", "depth_to_detachment_m", "detachment_elevation_m",
+                      "datum", "r_squared", "reliable", "issues", "summary", "points"}

@@ -130,15 +130,14 @@ def test_unknown_section_and_missing_project(tmp_path):
     runner = CliRunner()
     result = runner.invoke(cli, ["build", str(tmp_path / "nope.toml"), "-o", str(tmp_path)])
     assert result.exit_code == 2 and "nope.toml" in result.output
-    if SAMPLE.is_file():
-        result = runner.invoke(cli, ["build", str(SAMPLE), "-o", str(tmp_path / "o"),
-                                     "--section", "Z"])
-        assert result.exit_code == 2 and "no section named 'Z'" in result.output
-        afile = tmp_path / "a_file"
-        afile.write_text("not a folder", encoding="utf-8")
-        result = runner.invoke(cli, ["build", str(SAMPLE), "-o", str(afile)])
-        assert result.exit_code == 2 and "a_file: exists and is not a folder" in result.output
-        assert afile.read_text(encoding="utf-8") == "not a folder"
+    result = runner.invoke(cli, ["build", str(SAMPLE), "-o", str(tmp_path / "o"),
+                                 "--section", "Z"])
+    assert result.exit_code == 2 and "no section named 'Z'" in result.output
+    afile = tmp_path / "a_file"
+    afile.write_text("not a folder", encoding="utf-8")
+    result = runner.invoke(cli, ["build", str(SAMPLE), "-o", str(afile)])
+    assert result.exit_code == 2 and "a_file: exists and is not a folder" in result.output
+    assert afile.read_text(encoding="utf-8") == "not a folder"
 
 
 def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
@@ -159,13 +158,12 @@ def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
 
     monkeypatch.setattr(mapsection.build, "build_project", fake_build)
     runner = CliRunner()
-    if SAMPLE.is_file():
-        result = runner.invoke(cli, ["demo", "-o", str(tmp_path / "d")])
-        assert result.exit_code == 0, result.output
-        # the sample area, then its flawed variant, each with its one-line summary
-        assert calls == [SAMPLE, SAMPLE.with_name("project_flawed.toml")]
-        assert "CAUTION" in result.output and str(tmp_path / "d" / "A") in result.output
-        assert "topography PASS" in result.output and "topography FAIL" in result.output
+    result = runner.invoke(cli, ["demo", "-o", str(tmp_path / "d")])
+    assert result.exit_code == 0, result.output
+    # the sample area, then its flawed variant, each with its one-line summary
+    assert calls == [SAMPLE, SAMPLE.with_name("project_flawed.toml")]
+    assert "CAUTION" in result.output and str(tmp_path / "d" / "A") in result.output
+    assert "topography PASS" in result.output and "topography FAIL" in result.output
 
     def fake_generate(folder):
         p = Path(folder) / "project.toml"

@@ -20,7 +20,7 @@ from shapely.geometry import LineString, box
 from mapsection.colours import chart_colour, fault_kind, unit_colours
 from mapsection.dips import ProjectedDips
 from mapsection.draft import AxialSurface, Draft, FaultTrace, Horizon, UnitPolygon
-from mapsection.figure import draw_section, nice_length, section_figure, ve_text
+from mapsection.figure import draw_section, nice_length, page_layout, section_figure, ve_text
 from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
 from mapsection.profile import Profile
@@ -220,3 +220,50 @@ def test_rebuild_gives_identical_files(tmp_path, written):
     again = draw_section(draft, tmp_path / "section", hand_map(draft))
     for a, b in zip(paths, again, strict=True):
         assert a.read_bytes() == b.read_bytes(), a.suffix
+
+
+@pytest.mark.parametrize("ve", [1.0, 2.0, 6.0])
+def test_page_is_used_and_nothing_overlaps_the_section(ve):
+    # self-consistency: the page is sized to the section; the VE statement and the scale
+    # bar sit just under it, the inset and legend beside or under it, none on top of it.
+    draft = hand_draft(ve)
+    fig = section_figure(draft, hand_map(draft))
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    r = canvas.get_renderer()
+    ax, inset = fig.axes
+    box = ax.get_window_extent(r)
+    # No empty band across the page: every horizontal strip of it holds something.
+    filled = [ax.get_tightbbox(r), inset.get_tightbbox(r),
+              *[t.get_window_extent(r) for t in fig.texts]]
+    spans = sorted((bb.y0, bb.y1) for bb in filled)
+    top = 0.0
+    for y0, y1 in spans:
+        assert (y0 - top) / fig.dpi < 0.4  # inches of nothing
+        top = max(top, y1)
+    assert (fig.get_figheight() * fig.dpi - top) / fig.dpi < 0.4
+    ve_label = next(t for t in ax.texts if t.get_text() == ve_text(ve))
+    gap = (box.y0 - ve_label.get_window_extent(r).y1) / fig.dpi
+    assert 0.2 < gap < 0.9  # inches: under the tick labels and the axis label
+    others = [inset.get_window_extent(r), *[t.get_window_extent(r) for t in fig.texts],
+              *[a.get_window_extent(r) for a in fig.artists]]
+    for bb in others:
+        assert not bb.overlaps(box)
+        assert bb.x1 <= fig.get_figwidth() * fig.dpi + 1 and bb.y0 >= -1
+    # The box keeps the section's exaggerated shape.
+    ylo, yhi = ax.get_ylim()
+    assert (box.height / box.width) == pytest.approx(ve * (yhi - ylo) / draft.line.length,
+                                                     rel=1e-3)
+
+
+def test_page_layout_tall_and_flat_sections():
+    # self-consistency: a tall section narrows the page at one scale; a flat one gets
+    # more elevation range instead of a distorted box; units and symbols keep apart.
+    tall = page_layout(1000.0, 3000.0, 1.0, (6, 6))
+    left, bottom, width, height = tall.axes
+    assert height == pytest.approx(5.5) and width == pytest.approx(5.5 / 3.0)
+    assert tall.legend_rows == 12  # one column, beside the section under the inset
+    flat = page_layout(50000.0, 500.0, 1.0, (6, 6))
+    assert flat.axes[3] == pytest.approx(1.0)
+    assert flat.yspan / 50000.0 == pytest.approx(flat.axes[3] / flat.axes[2])
+    assert flat.legend_rows == 6  # the units in one column, the symbols in the next

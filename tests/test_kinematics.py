@@ -6,31 +6,18 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from shapely.geometry import LineString
+from test_restore import COLUMN, DEPTHS, TAN30
+from test_restore import make_draft as restore_draft
 
 from mapsection.checks.fbf import compare_with_draft, fault_bend_fold
 from mapsection.checks.kinematics import check_kinematics, horizon_crossings
 from mapsection.checks.restore import restore_section
 from mapsection.checks.sequence import incremental_sequence, write_sequence
-from mapsection.dips import ProjectedDips
 from mapsection.draft import Draft, FaultTrace, Horizon
-from mapsection.geology import SurfaceGeology
-from mapsection.line import SectionLine
-from mapsection.profile import Profile
-from mapsection.stratigraphy import Column, Unit
-
-COLUMN = Column((Unit("A", 300.0), Unit("B", 400.0), Unit("C", 500.0), Unit("D", 800.0)))
-DEPTHS = {"A": 0.0, "B": 300.0, "C": 700.0, "D": 1200.0}
-TAN30 = np.tan(np.radians(30.0))
 
 
 def make_draft(horizons, faults=(), length=10000.0, column=COLUMN) -> Draft:
-    line = SectionLine(np.array([[0.0, 0.0], [length, 0.0]]), name="K")
-    d = np.linspace(0.0, length, 101)
-    profile = Profile(d, d, np.zeros_like(d), np.full_like(d, 1500.0), line)
-    e = np.array([])
-    dips = ProjectedDips(e, e, e, e, e, e, e, e, e, e.astype(bool), e.astype(bool))
-    return Draft("K", "edited", line, profile, SurfaceGeology((), (), ()), dips, column,
-                 horizons=list(horizons), faults=list(faults))
+    return restore_draft(horizons, faults, length=length, column=column, method="edited")
 
 
 def thrust(xf=6000.0, slip=1000.0, toward=-1, name="F1", sense="thrust", hw_dip=0.0,

@@ -72,6 +72,10 @@ def test_report_lists_tests_misfits_and_caution(checked, tmp_path):
         assert f"{m.section_distance_m:.1f}" in html
         assert f"{m.misfit_m:.1f}" in html
     assert "vertical exaggeration 1" in html
+    # The area-depth verdict in plain words (a depth, or why there is none), R² beside it.
+    fit = report.area_balance.detachment
+    assert fit is not None and "R²" in fit.summary
+    assert escape(fit.summary) in html
     # Log text is escaped, never markup.
     assert "<script>alert" not in html
     assert escape("<script>alert('x')</script> & more") in html

@@ -20,13 +20,16 @@ DEPTHS = {"A": 0.0, "B": 300.0, "C": 700.0, "D": 1200.0}
 TAN30 = np.tan(np.radians(30.0))
 
 
-def make_draft(horizons, faults=(), domains=(), length=10000.0, column=COLUMN) -> Draft:
+def make_draft(horizons, faults=(), domains=(), length=10000.0, column=COLUMN, *,
+               ground=1500.0, method="kink") -> Draft:
+    """A straight east-west draft over flat ground at ``ground`` m (also used by
+    test_area and test_kinematics)."""
     line = SectionLine(np.array([[0.0, 0.0], [length, 0.0]]), name="T")
     d = np.linspace(0.0, length, 101)
-    profile = Profile(d, d, np.zeros_like(d), np.full_like(d, 1500.0), line)
+    profile = Profile(d, d, np.zeros_like(d), np.full_like(d, ground), line)
     e = np.array([])
     dips = ProjectedDips(e, e, e, e, e, e, e, e, e, e.astype(bool), e.astype(bool))
-    return Draft("T", "kink", line, profile, SurfaceGeology((), (), ()), dips, column,
+    return Draft("T", method, line, profile, SurfaceGeology((), (), ()), dips, column,
                  horizons=list(horizons), faults=list(faults), domains=list(domains))
 
 

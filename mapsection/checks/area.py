@@ -12,7 +12,12 @@
   area uplifted above its regional level between the pin and loose lines) is
   linear in the horizon's depth z: S = D (z_d - z). The least-squares line
   through (z, S) gives the displacement D (minus its slope) and the depth z_d of
-  the detachment (where S = 0).
+  the detachment (where S = 0), measured below the ground at the pin line and
+  also given as an elevation. The regional level is each horizon's elevation at
+  the pin line, horizontal; z_d moves by (pin-to-loose width) / D for every
+  metre that level is wrong, so the fit says plainly when z_d is not determined
+  (fewer than 3 horizons, R² below 0.9, a level above folded horizons, no
+  undeformed ground at both ends) instead of printing a confident number.
 """
 
 from __future__ import annotations
@@ -22,7 +27,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
-from shapely.geometry import Polygon
+from shapely.geometry import Polygon, box
 
 from .._atomic import atomic_file
 from ..draft import Draft
@@ -34,6 +39,7 @@ __all__ = [
     "AreaBalance",
     "ExcessAreaPoint",
     "DetachmentFit",
+    "MIN_R_SQUARED",
     "area_balance",
     "excess_area_points",
     "depth_to_detachment",
@@ -66,31 +72,74 @@ class UnitArea:
 class ExcessAreaPoint:
     top_of: str
     regional_elevation_m: float  # the horizon's elevation at the pin line
-    depth_m: float  # = -regional elevation (depth below elevation 0)
+    depth_m: float  # depth of the regional level below the fit's datum (positive down)
     excess_area_m2: float
 
     def to_dict(self) -> dict:
         return dict(self.__dict__)
 
 
+# Below this R squared the area-depth line is not taken as a detachment (a choice made
+# here, not a published value).
+MIN_R_SQUARED = 0.9
+# A regional level uncertain enough to move the detachment by more than this share of
+# its depth below the datum leaves the depth undetermined (a choice made here).
+MAX_REGIONAL_SHIFT_SHARE = 0.1
+
+
 @dataclass
 class DetachmentFit:
-    """The least-squares line of excess area against depth (Epard & Groshong 1993)."""
+    """The least-squares line of excess area against depth (Epard & Groshong 1993).
+
+    Depths are measured below ``datum`` (at elevation ``datum_elevation_m``),
+    positive down. ``issues`` (each "short reason: explanation") lists why the
+    fitted depth is not to be trusted (too few horizons, a poor fit, a level
+    above folded horizons, an uncertain regional level); ``caveats`` what to
+    bear in mind even when it is.
+    """
 
     points: list[ExcessAreaPoint]
     displacement_m: float
-    depth_to_detachment_m: float  # depth below elevation 0
+    depth_to_detachment_m: float  # below the datum
     r_squared: float
+    datum_elevation_m: float = 0.0
+    datum: str = "elevation 0"
+    issues: list[str] = field(default_factory=list)
+    caveats: list[str] = field(default_factory=list)
+    # How far the detachment moves per 10 m of error in every horizon's regional level.
+    shift_per_10m_regional_m: float = float("nan")
 
     @property
     def detachment_elevation_m(self) -> float:
-        return -self.depth_to_detachment_m
+        return self.datum_elevation_m - self.depth_to_detachment_m
+
+    @property
+    def reliable(self) -> bool:
+        return not self.issues
+
+    @property
+    def summary(self) -> str:
+        """One plain sentence: the detachment with its datum and R², or why there is none."""
+        fit = f"R² {self.r_squared:.3f}, {len(self.points)} horizons"
+        if not self.reliable:
+            return f"detachment not determined ({fit}): " + "; ".join(self.issues)
+        return (f"detachment at elevation {self.detachment_elevation_m:.0f} m, "
+                f"{self.depth_to_detachment_m:.0f} m below {self.datum} ({fit}), "
+                f"displacement {self.displacement_m:.0f} m")
 
     def to_dict(self) -> dict:
-        return {"displacement_m": _nan_none(self.displacement_m),
-                "depth_to_detachment_m": _nan_none(self.depth_to_detachment_m),
+        return {"summary": self.summary,
+                "reliable": self.reliable,
+                "displacement_m": _nan_none(self.displacement_m),
                 "detachment_elevation_m": _nan_none(self.detachment_elevation_m),
+                "depth_to_detachment_m": _nan_none(self.depth_to_detachment_m),
+                "datum": self.datum,
+                "datum_elevation_m": _nan_none(self.datum_elevation_m),
                 "r_squared": _nan_none(self.r_squared),
+                "n_horizons": len(self.points),
+                "shift_per_10m_regional_m": _nan_none(self.shift_per_10m_regional_m),
+                "issues": list(self.issues),
+                "caveats": list(self.caveats),
                 "points": [p.to_dict() for p in self.points]}
 
 
@@ -162,22 +211,74 @@ def area_balance(draft: Draft, restoration: Restoration, threshold_pct: float = 
     if not units:
         failures.append("no unit has both its top and its base horizon between the pin and "
                         "loose lines")
-    pts = excess_area_points(draft, restoration)
-    fit = None
-    if len(pts) >= 2:
-        fit = depth_to_detachment([p.depth_m for p in pts], [p.excess_area_m2 for p in pts])
-        fit.points = pts
+    fit = _detachment_fit(draft, restoration)
     passed = bool(units) and all(u.passed for u in units)
     return AreaBalance(passed, float(threshold_pct), units, fit, failures)
 
 
-def excess_area_points(draft: Draft, restoration: Restoration) -> list[ExcessAreaPoint]:
+def _detachment_fit(draft: Draft, restoration: Restoration) -> DetachmentFit | None:
+    """The area-depth line of the section, its datum the ground at the pin line, judged."""
+    datum_z = float(draft.profile.elevation_at(restoration.pin_m)) if draft.profile else np.nan
+    datum = "the ground at the pin line"
+    if not np.isfinite(datum_z):
+        datum_z, datum = 0.0, "elevation 0"
+    pts = excess_area_points(draft, restoration, datum_z)
+    if len(pts) < 2:
+        return None
+    fit = depth_to_detachment([p.depth_m for p in pts], [p.excess_area_m2 for p in pts],
+                              datum_elevation_m=datum_z, datum=datum)
+    fit.points = pts
+    width = abs(restoration.loose_m - restoration.pin_m)
+    disp = fit.displacement_m
+    if disp > 0:
+        # Every regional level raised by dr takes width * dr from every excess area, which
+        # moves the level where the line reaches zero by width * dr / D.
+        fit.shift_per_10m_regional_m = 10.0 * width / disp
+        off = _loose_end_offset(draft, restoration, pts)
+        shift = abs(off) * width / disp
+        if np.isfinite(off) and shift > MAX_REGIONAL_SHIFT_SHARE * abs(fit.depth_to_detachment_m):
+            fit.issues.append(
+                f"regional level uncertain: at the loose line the horizons lie {off:+.0f} m "
+                f"on average from their regional level (their elevation at the pin line): the "
+                f"section has no undeformed ground at both ends, and that uncertainty in the "
+                f"regional level moves the detachment by about {shift:.0f} m")
+        short = restoration.shortening_m
+        if np.isfinite(short) and short > 0 and abs(disp - short) > 0.1 * short:
+            fit.caveats.append(f"the displacement ({disp:.0f} m) differs from the shortening "
+                               f"measured on the line lengths ({short:.0f} m) by "
+                               f"{100 * (disp - short) / short:+.0f} %")
+    lo, hi = sorted((restoration.pin_m, restoration.loose_m))
+    band = box(lo, -1e6, hi, 1e6)
+    faults = [f.name for f in draft.faults
+              if f.geometry is not None and not f.geometry.is_empty and f.geometry.intersects(band)]
+    if faults:
+        fit.caveats.append(
+            f"faults between the pin and loose lines ({', '.join(faults)}): the area-depth line "
+            "describes a fold above one detachment (Epard & Groshong 1993); in a fault-related "
+            "fold the fitted level is a detachment only where the fault flattens into it")
+    return fit
+
+
+def _loose_end_offset(draft: Draft, restoration: Restoration,
+                      points: list[ExcessAreaPoint]) -> float:
+    """Mean elevation of the horizons at the loose line minus their regional level (m)."""
+    joined = joined_horizons(draft)
+    regional = {p.top_of: p.regional_elevation_m for p in points}
+    offsets = [float(y_at(g, restoration.loose_m)) - regional[t]
+               for (t, _), g in joined.items() if t in regional]
+    offsets = [o for o in offsets if np.isfinite(o)]
+    return float(np.mean(offsets)) if offsets else float("nan")
+
+
+def excess_area_points(draft: Draft, restoration: Restoration,
+                       datum_elevation_m: float = 0.0) -> list[ExcessAreaPoint]:
     """Each horizon's excess area between the pin and loose lines (Epard & Groshong 1993).
 
-    The regional level of a horizon is its elevation at the pin line (the pin
-    sits in the least-dipping, least-deformed part of the section by default);
-    the excess area is the signed area between the horizon and that level
-    (above positive), summed over the fault blocks' pieces. Horizons that do
+    The regional level of a horizon is its elevation at the pin line, taken as
+    horizontal (the pin sits in the least-dipping, least-deformed part of the
+    section by default); the excess area is the signed area between the horizon
+    and that level (above positive), summed over the fault blocks' pieces. Depths
+    are those of the regional levels below ``datum_elevation_m``. Horizons that do
     not cross the pin line are left out.
     """
     joined = joined_horizons(draft)
@@ -199,16 +300,20 @@ def excess_area_points(draft: Draft, restoration: Restoration) -> list[ExcessAre
                 continue
             c = _xy(piece)
             area += float(np.trapezoid(c[:, 1] - regional, c[:, 0]))
-        out.append(ExcessAreaPoint(top_of, regional, -regional, area))
+        out.append(ExcessAreaPoint(top_of, regional, datum_elevation_m - regional, area))
     return out
 
 
-def depth_to_detachment(depths, excess_areas) -> DetachmentFit:
+def depth_to_detachment(depths, excess_areas, *, datum_elevation_m: float = 0.0,
+                        datum: str = "elevation 0") -> DetachmentFit:
     """Least-squares line of excess area against depth (Chamberlin 1910; Epard & Groshong 1993).
 
-    ``depths`` are the horizons' depths (metres below a datum, positive down)
+    ``depths`` are the horizons' depths (metres below the datum, positive down)
     and ``excess_areas`` their excess areas (m2). With S = D (z_d - z):
-    displacement D = -slope, depth to detachment z_d = where S = 0.
+    displacement D = -slope, depth to detachment z_d = where S = 0. The fit's
+    ``issues`` say when z_d is not to be trusted: fewer than 3 horizons, R² below
+    MIN_R_SQUARED, excess area not decreasing with depth, or z_d above some of
+    the horizons (which a fold above one detachment cannot have).
     """
     z = np.asarray(depths, float)
     s = np.asarray(excess_areas, float)
@@ -222,8 +327,21 @@ def depth_to_detachment(depths, excess_areas) -> DetachmentFit:
     r2 = 1.0 - float(np.sum((s - pred) ** 2)) / ss_tot if ss_tot > 0 else float("nan")
     disp = -float(slope)
     zd = -float(icpt) / float(slope) if abs(slope) > 1e-12 else float("nan")
-    pts = [ExcessAreaPoint("", -float(a), float(a), float(b)) for a, b in zip(z, s, strict=True)]
-    return DetachmentFit(pts, disp, zd, r2)
+    issues = []
+    if len(z) < 3:
+        issues.append(f"only {len(z)} horizons: a line through fewer than 3 says nothing")
+    if not r2 >= MIN_R_SQUARED:
+        issues.append(f"poor fit: the points do not lie on a line "
+                      f"(R² {r2:.2f} < {MIN_R_SQUARED:g})")
+    if not disp > 0:
+        issues.append("no detachment below: excess area does not decrease with depth")
+    elif (below := int(np.sum(z > zd + 0.02 * np.ptp(z)))) > 0:
+        issues.append(f"level above {below} folded horizons: the fitted level lies above "
+                      f"horizons that are folded too, so this is not a fold above one "
+                      f"detachment")
+    pts = [ExcessAreaPoint("", datum_elevation_m - float(a), float(a), float(b))
+           for a, b in zip(z, s, strict=True)]
+    return DetachmentFit(pts, disp, zd, r2, float(datum_elevation_m), datum, issues)
 
 
 def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike) -> Path:
@@ -237,25 +355,34 @@ def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike) -> Path:
     fig = Figure(figsize=(4.2, 3.4))
     FigureCanvasAgg(fig)
     # Fixed margins instead of tight_layout (which draws the figure once more to measure it).
-    fig.subplots_adjust(left=0.19, right=0.8, bottom=0.14, top=0.91)  # room for labels
+    fig.subplots_adjust(left=0.19, right=0.8, bottom=0.14, top=0.87)  # room for labels
     ax = fig.add_subplot()
     ax.plot(s, z, "o", color="#1a1a8c")
     for p in fit.points:
         if p.top_of:
             ax.annotate(p.top_of, (p.excess_area_m2 / 1e6, p.depth_m), fontsize=7,
                         textcoords="offset points", xytext=(4, 2))
-    if np.isfinite(fit.depth_to_detachment_m):
-        zz = np.linspace(min(z.min(), fit.depth_to_detachment_m), z.max(), 2)
-        ax.plot(fit.displacement_m * (fit.depth_to_detachment_m - zz) / 1e6, zz, "-",
+    if np.isfinite(fit.depth_to_detachment_m) and np.isfinite(fit.displacement_m):
+        # A trusted line is drawn down to the detachment; a doubtful one only across the data.
+        zd = fit.depth_to_detachment_m if fit.reliable else z.mean()
+        zz = np.array([min(z.min(), zd), max(z.max(), zd)])
+        style = "-" if fit.reliable else "--"
+        ax.plot(fit.displacement_m * (fit.depth_to_detachment_m - zz) / 1e6, zz, style,
                 color="#b00000", linewidth=1)
-        ax.axhline(fit.depth_to_detachment_m, color="#b00000", linewidth=0.6, linestyle=":")
-        ax.set_title(f"detachment {fit.depth_to_detachment_m:.0f} m deep, D = "
-                     f"{fit.displacement_m:.0f} m, R² = {fit.r_squared:.3f}", fontsize=8,
-                     y=1.0)
+        if fit.reliable:
+            ax.axhline(fit.depth_to_detachment_m, color="#b00000", linewidth=0.6, linestyle=":")
+    if fit.reliable:
+        title = (f"detachment {fit.depth_to_detachment_m:.0f} m deep (elevation "
+                 f"{fit.detachment_elevation_m:.0f} m)\nD = {fit.displacement_m:.0f} m, "
+                 f"R² = {fit.r_squared:.3f}")
+    else:
+        title = f"detachment not determined\n(R² = {fit.r_squared:.3f}; see the report)"
+    ax.set_title(title, fontsize=8, y=1.0)
     ax.axvline(0.0, color="#777777", linewidth=0.5)
+    ax.axhline(0.0, color="#777777", linewidth=0.5)
     ax.invert_yaxis()
     ax.set_xlabel("excess area (km²)")
-    ax.set_ylabel("depth below elevation 0 (m)")
+    ax.set_ylabel(f"depth below {fit.datum} (m)", fontsize=8)
     with atomic_file(path) as tmp:
         fig.savefig(tmp, format="png", dpi=110, pil_kwargs={"compress_level": 3})
     return path

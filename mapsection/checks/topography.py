@@ -143,7 +143,7 @@ def validate_thresholds(thresholds: Thresholds) -> None:
         ok = ok and (v >= lo if lo_ok else v > lo)
         if not ok:
             rng = (f"{'>=' if lo_ok else '>'} {lo:g}" if math.isinf(hi)
-                   else f"{'from' if lo_ok else 'above'} {lo:g} to {hi:g}")
+                   else f"from {lo:g} to {hi:g}" if lo_ok else f"above {lo:g} and at most {hi:g}")
             raise CheckError(f"[checks] {key}: must be {rng}, got {v!r}")
     if thresholds.contact_rms_m <= 0 and thresholds.contact_rms_pixels <= 0:
         raise CheckError("[checks] contact_rms_m and contact_rms_pixels: at least one must be > 0")
