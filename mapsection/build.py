@@ -28,7 +28,6 @@ Example::
 from __future__ import annotations
 
 import contextlib
-import sys
 import time
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
@@ -39,6 +38,7 @@ import numpy as np
 
 from . import CAUTION, __version__
 from ._atomic import atomic_dir, atomic_file
+from ._messages import default_warn as _default_warn
 from .draft import Draft
 from .errors import OutputError, ParameterError
 from .line import SectionLine
@@ -47,10 +47,6 @@ from .project import METHODS, Project, SectionSpec, load_project
 Warn = Callable[[str], None]
 STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
           "geopackages")
-
-
-def _default_warn(message: str) -> None:
-    print(f"mapsection: warning: {message}", file=sys.stderr)
 
 
 @contextlib.contextmanager

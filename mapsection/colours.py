@@ -179,15 +179,9 @@ GROUND = LineStyle(1.4, "#3b2a1a")
 CONTACT = LineStyle(0.8, "black")
 CONTACT_PROJECTED = LineStyle(0.7, "#555555", (4.0, 2.5))
 FAULT = LineStyle(2.0, "black")
-FAULT_APPROXIMATE = LineStyle(2.0, "black", (8.0, 3.0))
 AXIAL_SURFACE = LineStyle(0.5, "#7a7a7a", (1.0, 2.0))
 DIP_TICK = LineStyle(1.3, "#1a1a8c")
 SECTION_LINE = LineStyle(1.6, "#d00000")
-
-# Fault senses grouped by the symbol they carry.
-CONTRACTIONAL = ("thrust", "reverse")
-EXTENSIONAL = ("normal", "detachment", "low-angle normal")
-
 
 def fault_kind(sense: str | None) -> str | None:
     """``"thrust"``, ``"reverse"``, ``"normal"`` or ``None`` (no sense symbol)."""

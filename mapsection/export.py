@@ -59,6 +59,7 @@ import shapely
 from shapely.geometry import LineString, MultiPolygon, Polygon
 
 from ._atomic import atomic_file
+from ._messages import first_line
 from .dips import ProjectedDips
 from .draft import AxialSurface, Draft, FaultTrace, Horizon, UnitPolygon
 from .errors import MapLayerError, OutputError
@@ -239,7 +240,7 @@ def _write_layers(path: Path, frames: dict[str, gpd.GeoDataFrame],
                         append=not first)
             except Exception as exc:  # disk full, bad path: one line naming the file
                 raise OutputError(f"{path}: cannot write layer {name!r} "
-                                  f"({str(exc).splitlines()[0] if str(exc) else exc})") from None
+                                  f"({first_line(exc)})") from None
             first = False
 
 
@@ -304,7 +305,7 @@ def _append_layers(path: Path, frames: dict[str, gpd.GeoDataFrame], have: set[st
                                         promote_to_multi=gtype.startswith("Multi"))
         except Exception as exc:
             raise OutputError(f"{path}: cannot write layer {name!r} "
-                              f"({str(exc).splitlines()[0] if str(exc) else exc})") from None
+                              f"({first_line(exc)})") from None
 
 
 # --- 3D ---------------------------------------------------------------------------------
@@ -434,7 +435,7 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
         layers = {str(r[0]) for r in pyogrio.list_layers(path)}
     except Exception as exc:
         raise MapLayerError(f"{path}: not a readable GeoPackage "
-                            f"({str(exc).splitlines()[0] if str(exc) else exc})") from None
+                            f"({first_line(exc)})") from None
     from .construct import base_name
 
     # The base of the oldest unit is a horizon too (named by the construction).

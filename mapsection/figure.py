@@ -47,6 +47,8 @@ from . import CAUTION
 from . import colours as C
 from ._atomic import atomic_file
 from .draft import Draft
+from .errors import ParameterError
+from .mapdata import MapData
 
 matplotlib.use("Agg")  # headless: figures are only ever written to files
 
@@ -273,7 +275,7 @@ def _map_fault_marks(xy: np.ndarray, kind: str, dip_direction: float, size: floa
 
 
 # --- the figure -------------------------------------------------------------------
-def section_figure(draft: Draft, map_data=None) -> Figure:
+def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
     """Build the section page as a matplotlib Figure (not saved)."""
     ve = float(draft.ve or 1.0)
     prof = draft.profile
@@ -488,19 +490,7 @@ def _column(frame, name: str) -> np.ndarray:
     return np.full(len(frame), None, dtype=object)
 
 
-def _map_units(map_data) -> tuple[np.ndarray, np.ndarray]:
-    """Unit polygons and their names from a MapData (or anything with .units/.unit_field)."""
-    if hasattr(map_data, "unit_geoms") and hasattr(map_data, "unit_names"):
-        return np.asarray(map_data.unit_geoms, dtype=object), np.asarray(map_data.unit_names)
-    units = getattr(map_data, "units", None)
-    if units is None or not len(units):
-        return np.empty(0, dtype=object), np.empty(0, dtype=object)
-    field = getattr(map_data, "unit_field", "unit")
-    names = _column(units, field).astype(object)
-    return np.asarray(units.geometry.values, dtype=object), names
-
-
-def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str],
+def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str],
            page: PageLayout) -> None:
     """Location inset: the geologic map around the line, the line, its ends named."""
     left, bottom, size = page.inset
@@ -514,12 +504,9 @@ def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str],
     xmin, ymin = centre - half
     xmax, ymax = centre + half
     box = shapely.box(xmin, ymin, xmax, ymax)
-    geoms, names = _map_units(map_data)
+    geoms, names = map_data.unit_geoms, map_data.unit_names
     if len(geoms):
-        tree = getattr(map_data, "unit_tree", None)
-        idx = tree.query(box) if tree is not None else np.flatnonzero(
-            shapely.intersects(geoms, box))
-        idx = np.sort(idx)
+        idx = np.sort(map_data.unit_tree.query(box))
         # The map's polygons are often traced on a fine grid (tens of thousands of
         # vertices); at the inset's scale a quarter of a 150-dpi pixel is ~1/1500 of
         # its width, so simplifying to that loses nothing visible and draws far less.
@@ -537,9 +524,9 @@ def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str],
         if patches:
             iax.add_collection(PatchCollection(patches, facecolors=faces, edgecolors="#666666",
                                                linewidths=0.2))
-    faults = getattr(map_data, "faults", None)
+    faults = map_data.faults
     if faults is not None and len(faults):
-        ff = dict(getattr(map_data, "fault_fields", {}) or {})
+        ff = dict(map_data.fault_fields or {})
         sense = _column(faults, ff.get("sense", "sense"))
         ddir = _column(faults, ff.get("dip_direction", "dip_direction"))
         size = 0.02 * max(xmax - xmin, ymax - ymin)
@@ -585,7 +572,7 @@ def _inset(fig: Figure, draft: Draft, map_data, palette: dict[str, str],
                  arrowprops={"arrowstyle": "-|>", "linewidth": 0.8, "color": "black"})
 
 
-def draw_section(draft: Draft, path_stem: str | os.PathLike, map_data=None, *,
+def draw_section(draft: Draft, path_stem: str | os.PathLike, map_data: MapData | None = None, *,
                  formats: tuple[str, ...] = FORMATS) -> list[Path]:
     """Write the section figure to ``path_stem.png``, ``.svg`` and ``.pdf`` (atomically).
 
@@ -593,8 +580,6 @@ def draw_section(draft: Draft, path_stem: str | os.PathLike, map_data=None, *,
     """
     bad = [f for f in formats if f not in FORMATS]
     if bad:
-        from .errors import ParameterError
-
         raise ParameterError(f"figure format {bad[0]!r}: must be one of {', '.join(FORMATS)}")
     fig = section_figure(draft, map_data)
     stem = Path(path_stem)

@@ -327,12 +327,12 @@ def test_symmetric_kink_syncline_axial_surfaces_meet_above_ground():
     sin = np.sin(np.radians(30.0))
 
     def depth(x):
-        return 1500.0 + sin * np.maximum(4500.0 - x, 0.0) + sin * np.maximum(x - 5500.0, 0.0)
+        return 300.0 + sin * np.maximum(4500.0 - x, 0.0) + sin * np.maximum(x - 5500.0, 0.0)
 
     x = np.linspace(0.0, L, 20001)
-    geology = SurfaceGeology((UnitInterval(0.0, L, "Dogwood"),),
+    geology = SurfaceGeology((UnitInterval(0.0, L, "Birch"),),
                              contacts_from_depth(depth, COLUMN, x), ())
-    dips = projected([500, 1500, 2500, 3500, 4300, 4600, 5400, 5700, 6500, 7500, 8500, 9500],
+    dips = projected([500, 1500, 2500, 3500, 4300, 4700, 5300, 5700, 6500, 7500, 8500, 9500],
                      [30] * 5 + [0, 0] + [-30] * 5)
     draft = build_draft(line, flat_profile(line), geology, dips, COLUMN, depth=2000.0)
     assert [round(d.dip, 6) for d in draft.domains] == [30.0, 0.0, -30.0]

@@ -187,6 +187,20 @@ def test_restored_gaps_and_overlaps_reported_as_areas():
     assert gap_c.base_gap_m == pytest.approx(short * (1 - 1 / n))
 
 
+def test_imbalance_across_a_fault_fails_through_gaps_and_overlaps():
+    # The line-length spread cannot see a mismatch between fault blocks laid end to end;
+    # the gaps and overlaps it leaves do (self-consistency on the analytic thrust above).
+    good = restore_section(thrust_draft(1000.0), pin=500.0, loose=9500.0)
+    assert good.passed and good.gap_overlap_pct == pytest.approx(0.0, abs=1e-9)
+    bad = restore_section(thrust_draft(1000.0, shorten_deepest=3000.0), pin=500.0,
+                          loose=9500.0)
+    area = sum(u.area_m2 for u in bad.units)
+    expected = 100 * sum(g.gap_area_m2 + g.overlap_area_m2 for g in bad.gaps) / area
+    assert bad.gap_overlap_pct == pytest.approx(expected) and bad.gap_overlap_pct > 5.0
+    assert not bad.passed
+    assert any("gaps and overlaps" in f for f in bad.failures)
+
+
 def test_frames_for_the_gpkg():
     r = restore_section(kink_anticline(), pin=500.0, loose=9500.0)
     frames = restoration_frames(r)

@@ -267,6 +267,13 @@ class Restoration:
     datum_elevation_m: float = 0.0
 
     @property
+    def gap_overlap_pct(self) -> float:
+        """Gaps plus overlaps between fault blocks, % of the restored units' area."""
+        area = sum(u.area_m2 for u in self.units)
+        gaps = sum(g.gap_area_m2 + g.overlap_area_m2 for g in self.gaps)
+        return float(100.0 * gaps / area) if area > 0 else 0.0
+
+    @property
     def restored_loose_line(self) -> LineString | None:
         pts = sorted(((h.restored_loose_x_m, h.restored_elevation_m)
                       for h in self.horizons if h.reaches_loose), key=lambda p: -p[1])
@@ -290,6 +297,7 @@ class Restoration:
             "gaps": [g.to_dict() for g in self.gaps],
             "gap_area_m2": float(sum(g.gap_area_m2 for g in self.gaps)),
             "overlap_area_m2": float(sum(g.overlap_area_m2 for g in self.gaps)),
+            "gap_overlap_pct": self.gap_overlap_pct,
             "restored_units": [{"unit": u.unit, "block": u.block, "area_m2": u.area_m2}
                                for u in self.units],
             "failures": list(self.failures),
@@ -567,7 +575,14 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     if missing and full:
         failures.append("horizons ending before the loose line (not in the balance): "
                         + ", ".join(missing))
-    passed = bool(full) and mismatch <= threshold_pct
+    # Across faults the blocks are laid end to end, so a bed-length mismatch between
+    # blocks shows as gaps and overlaps rather than as spread: they count too.
+    area = float(sum(u.area_m2 for u in units))
+    gap_pct = 100.0 * sum(g.gap_area_m2 + g.overlap_area_m2 for g in gaps) / area if area else 0.0
+    if gap_pct > threshold_pct:
+        failures.append(f"gaps and overlaps between fault blocks in the restored state: "
+                        f"{gap_pct:.2f} % of the restored area (> {threshold_pct:g} %)")
+    passed = bool(full) and mismatch <= threshold_pct and gap_pct <= threshold_pct
     return Restoration(name, float(pin), float(loose), source, direction, float(threshold_pct),
                        pieces, balances, units, gaps, mismatch, spread, angle, departure,
                        short_pct, short_m, passed, failures, draft.column)

@@ -69,8 +69,6 @@ def base_name(column: Column) -> str:
     return f"{BASE_PREFIX}{column.names[-1]}"
 
 
-
-
 def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                 dips: ProjectedDips, column: Column, *, name: str = "", method: str = "kink",
                 ve: float = 1.0, dip_tolerance: float = 5.0, depth: float | None = None,

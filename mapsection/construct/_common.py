@@ -19,6 +19,7 @@ import shapely
 from shapely.geometry import LineString, Polygon
 
 from ..dips import ProjectedDips
+from ..errors import ConstructionError
 from ..geology import SurfaceGeology
 from ..profile import Profile
 from ..stratigraphy import Column
@@ -238,8 +239,6 @@ def ground_function(profile: Profile) -> Callable:
     z = np.asarray(profile.z, float)
     ok = np.isfinite(z) & np.isfinite(d)
     if not ok.any():
-        from ..errors import ConstructionError
-
         raise ConstructionError("profile: the DEM gives no elevation anywhere along the line")
     dd, zz = d[ok], z[ok]
 

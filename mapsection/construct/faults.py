@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import shapely
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import LineString, Polygon
 
 from ..geology import FaultCrossing
 from ._common import Frame
@@ -141,4 +141,4 @@ def ground_ranges(faults: list[FaultLine], length: float) -> list[tuple[float, f
     return list(zip(cuts[:-1], cuts[1:], strict=True))
 
 
-__all__ = ["FaultLine", "block_polygons", "fault_lines", "ground_ranges", "separations", "Point"]
+__all__ = ["FaultLine", "block_polygons", "fault_lines", "ground_ranges", "separations"]
