@@ -28,6 +28,9 @@ without one (a GIS shows them as a plain metric drawing). Layers:
 - ``units``: polygons, fields ``unit``, ``block``;
 - ``axial_surfaces``: LineStrings, fields ``ground_distance_m``, ``dip_left``,
   ``dip_right``;
+- ``dip_domains``: the ground over each dip domain, LineStrings, fields ``start_m``,
+  ``end_m``, ``dip``, ``n_dips``, ``block`` (read back so that the checks choose the same
+  default pin line for an edited file as for the build);
 - any ``extra_layers`` given (the checks add ``restored_horizons``, ``restored_units``).
 
 ``section_3d.gpkg`` (:func:`write_section_3d`) holds the ground, the horizons and
@@ -61,7 +64,7 @@ from shapely.geometry import LineString, MultiPolygon, Polygon
 from ._atomic import atomic_file
 from ._messages import first_line
 from .dips import ProjectedDips
-from .draft import AxialSurface, Draft, FaultTrace, Horizon, UnitPolygon
+from .draft import AxialSurface, DipDomain, Draft, FaultTrace, Horizon, UnitPolygon
 from .errors import MapLayerError, OutputError
 from .geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from .line import SectionLine
@@ -83,6 +86,7 @@ LAYERS: dict[str, tuple[str, tuple[str, ...]]] = {
                               "separations")),
     "units": ("Polygon", ("unit", "block")),
     "axial_surfaces": ("LineString", ("ground_distance_m", "dip_left", "dip_right")),
+    "dip_domains": ("LineString", ("start_m", "end_m", "dip", "n_dips", "block")),
 }
 
 
@@ -185,6 +189,12 @@ def section_frames(draft: Draft) -> dict[str, gpd.GeoDataFrame]:
         {"ground_distance_m": [a.ground_distance_m for a in ax],
          "dip_left": [a.dip_left for a in ax], "dip_right": [a.dip_right for a in ax]},
         [a.geometry for a in ax])
+    dd = draft.domains
+    frames["dip_domains"] = _frame(
+        {"start_m": [d.start_m for d in dd], "end_m": [d.end_m for d in dd],
+         "dip": [d.dip for d in dd], "n_dips": np.array([d.n_dips for d in dd], dtype=np.int32),
+         "block": np.array([d.block for d in dd], dtype=np.int32)},
+        _along_ground(prof, [d.start_m for d in dd], [d.end_m for d in dd]))
     return frames
 
 
@@ -493,6 +503,13 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
                 axial.append(AxialSurface(ls, _num(row.ground_distance_m), _num(row.dip_left),
                                           _num(row.dip_right)))
 
+    domains = []
+    d_frame = _read_layer(path, "dip_domains", layers, required=False)
+    if d_frame is not None:
+        domains = [DipDomain(_num(r.start_m), _num(r.end_m), _num(r.dip),
+                             int(_num(r.n_dips, 0.0)), int(_num(r.block, 0.0)))
+                   for r in d_frame.itertuples(index=False)]
+
     if profile is None:
         profile = _read_profile(path, layers, line, meta.get("pixel_size_m"))
     if geology is None:
@@ -512,6 +529,7 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
         faults=faults,
         units=units,
         axial_surfaces=axial,
+        domains=domains,
         ve=_num(meta.get("ve"), 1.0),
         base_elevation_m=_num(meta.get("base_elevation_m"), base),
         log=[f"read from {path.name} (edited section: horizons, faults and units as in the file)"],

@@ -63,7 +63,7 @@ def test_sample_area_passes():
 
 
 def test_flawed_variant_fails_topography(tmp_path):
-    # The Merrin Siltstone 40 % too thick: the horizons below it miss their contacts.
+    # The Talvo Limestone 40 % too thick: the horizons below it miss their contacts.
     res = _run("check", FLAWED, "--section", "A", "--json", tmp_path / "c.json",
                "--html", tmp_path / "r.html")
     assert res.exit_code == 1, res.output
@@ -75,10 +75,15 @@ def test_flawed_variant_fails_topography(tmp_path):
     assert html.count('src="data:image/png;base64,') >= 3  # section, restored, sequence
 
 
-def test_unedited_file_passes_like_the_build(built):
-    res = _run("check", PROJECT, "--from", built / "section.gpkg")
+def test_unedited_file_passes_like_the_build(built, tmp_path):
+    res = _run("check", PROJECT, "--from", built / "section.gpkg", "--json", tmp_path / "c.json")
     assert res.exit_code == 0, res.output
     assert "method edited" in res.stdout
+    # read back, the same draft gives the build's figures (same default pin and loose lines)
+    again = json.loads((tmp_path / "c.json").read_text())["restoration"]
+    first = json.loads((built / "checks.json").read_text())["restoration"]
+    for key in ("pin_m", "loose_m", "shortening_pct", "line_length_mismatch_pct"):
+        assert again[key] == pytest.approx(first[key], rel=1e-6, abs=1e-6), key
 
 
 def _below_older(names: list[str], unit: str) -> str:
