@@ -54,6 +54,31 @@ class Thresholds:
 CHECK_KEYS = frozenset(Thresholds.__dataclass_fields__)
 
 
+# [checks] key -> (lowest, highest, lowest allowed itself)
+THRESHOLD_RANGES = {
+    "contact_rms_m": (0.0, math.inf, True),
+    "contact_rms_pixels": (0.0, math.inf, True),
+    "unit_agreement": (0.0, 1.0, True),
+    "dip_rms_deg": (0.0, 90.0, True),
+    "area_mismatch_pct": (0.0, 100.0, False),
+    "line_length_spread_pct": (0.0, 100.0, False),
+}
+
+
+def threshold_problem(thresholds: Thresholds) -> tuple[str, str] | None:
+    """The first threshold out of its range, as (key, what is wrong); None when all are fine."""
+    for key, (lo, hi, lo_ok) in THRESHOLD_RANGES.items():
+        v = getattr(thresholds, key)
+        ok = isinstance(v, int | float) and math.isfinite(v) and v <= hi
+        if not (ok and (v >= lo if lo_ok else v > lo)):
+            rng = (f"{'>=' if lo_ok else '>'} {lo:g}" if math.isinf(hi)
+                   else f"from {lo:g} to {hi:g}" if lo_ok else f"above {lo:g} and at most {hi:g}")
+            return key, f"must be {rng}, got {v!r}"
+    if thresholds.contact_rms_m <= 0 and thresholds.contact_rms_pixels <= 0:
+        return "contact_rms_m", "at least one of it and contact_rms_pixels must be > 0"
+    return None
+
+
 @dataclass(frozen=True)
 class SectionSpec:
     name: str
@@ -235,13 +260,11 @@ def load_project(path: str | os.PathLike) -> Project:
     thresholds = Thresholds()
     if checks is not None:
         _unknown(checks, CHECK_KEYS)
-        vals = {}
-        for k, dflt in Thresholds().__dict__.items():
-            v = checks.get(k, float, dflt)
-            if v < 0 or (k == "unit_agreement" and v > 1):
-                raise checks.fail(k, f"out of range: {v}")
-            vals[k] = v
+        vals = {k: checks.get(k, float, dflt) for k, dflt in Thresholds().__dict__.items()}
         thresholds = Thresholds(**vals)
+        problem = threshold_problem(thresholds)
+        if problem is not None:
+            raise checks.fail(*problem)
 
     return Project(
         path=path,

@@ -108,6 +108,10 @@ def test_missing_and_invalid_file(tmp_path):
 def test_thresholds_out_of_range(tmp_path):
     with pytest.raises(ProjectFileError, match="checks.unit_agreement"):
         load_project(write(tmp_path, GOOD + "\n[checks]\nunit_agreement = 1.5\n"))
+    with pytest.raises(ProjectFileError, match=r"project.toml: checks.dip_rms_deg: must be from 0"):
+        load_project(write(tmp_path, GOOD + "\n[checks]\ndip_rms_deg = 120\n"))
+    with pytest.raises(ProjectFileError, match="checks.area_mismatch_pct"):
+        load_project(write(tmp_path, GOOD + "\n[checks]\narea_mismatch_pct = 0\n"))
     proj = load_project(write(tmp_path, GOOD + "\n[checks]\ndip_rms_deg = 3\n"))
     assert proj.thresholds.dip_rms_deg == 3.0
 

@@ -37,7 +37,7 @@ from shapely.geometry import MultiLineString
 
 from ..draft import Draft
 from ..errors import CheckError
-from ..project import Thresholds
+from ..project import Thresholds, threshold_problem
 
 PAIRING_RADIUS_M = 500.0  # the pairing radius is the larger of this ...
 PAIRING_RADIUS_PIXELS = 10.0  # ... and this many DEM pixels
@@ -125,28 +125,11 @@ class TopographyCheck:
 
 
 # key -> (lowest, highest, lowest allowed itself?)
-_RANGES = {
-    "contact_rms_m": (0.0, math.inf, True),
-    "contact_rms_pixels": (0.0, math.inf, True),
-    "unit_agreement": (0.0, 1.0, True),
-    "dip_rms_deg": (0.0, 90.0, True),
-    "area_mismatch_pct": (0.0, 100.0, False),
-    "line_length_spread_pct": (0.0, 100.0, False),
-}
-
-
 def validate_thresholds(thresholds: Thresholds) -> None:
     """Raise CheckError naming the [checks] key of a threshold out of range."""
-    for key, (lo, hi, lo_ok) in _RANGES.items():
-        v = getattr(thresholds, key)
-        ok = isinstance(v, int | float) and math.isfinite(v) and v <= hi
-        ok = ok and (v >= lo if lo_ok else v > lo)
-        if not ok:
-            rng = (f"{'>=' if lo_ok else '>'} {lo:g}" if math.isinf(hi)
-                   else f"from {lo:g} to {hi:g}" if lo_ok else f"above {lo:g} and at most {hi:g}")
-            raise CheckError(f"[checks] {key}: must be {rng}, got {v!r}")
-    if thresholds.contact_rms_m <= 0 and thresholds.contact_rms_pixels <= 0:
-        raise CheckError("[checks] contact_rms_m and contact_rms_pixels: at least one must be > 0")
+    problem = threshold_problem(thresholds)
+    if problem is not None:
+        raise CheckError(f"[checks] {problem[0]}: {problem[1]}")
 
 
 def contact_threshold_m(thresholds: Thresholds, pixel_size: float) -> float:
