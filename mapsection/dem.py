@@ -9,6 +9,7 @@ reads few or none again.
 
 from __future__ import annotations
 
+import contextlib
 import os
 from collections import OrderedDict
 from functools import lru_cache
@@ -26,6 +27,8 @@ from .errors import DEMError
 # line crossing a strip-organised raster keeps only the parts it needs.
 _MAX_BLOCK_WIDTH = 1024
 _PIECE_WIDTH = 512
+# Rasters with at most this many cache blocks keep a block -> slot lookup array (4 bytes each).
+_MAX_LOOKUP = 1 << 22
 
 
 @lru_cache(maxsize=64)
@@ -35,10 +38,6 @@ def _transformer(src_wkt: str, dst_wkt: str) -> pyproj.Transformer | None:
     if src == dst:
         return None
     return pyproj.Transformer.from_crs(src, dst, always_xy=True)
-
-
-def _crs_key(crs: pyproj.CRS | str) -> str:
-    return pyproj.CRS(crs).to_wkt()
 
 
 class Dem:
@@ -71,7 +70,6 @@ class Dem:
             raise
         self._ds = ds
         self.crs = pyproj.CRS.from_wkt(ds.crs.to_wkt())
-        self._crs_wkt = self.crs.to_wkt()
         self.transform = ds.transform
         self._inverse = ~ds.transform
         self.nodata = ds.nodata
@@ -84,6 +82,9 @@ class Dem:
             bw = _PIECE_WIDTH  # a strip: cache it in pieces (GDAL decodes the strip once)
         self.block_shape = (int(bh), int(bw))
         self._nbcols = -(-self.width // self.block_shape[1])
+        self._nblocks = -(-self.height // self.block_shape[0]) * self._nbcols
+        # GDAL's block cache is redundant where cache blocks are the file's own tiles.
+        self._gdal_cache_needed = (ds.driver != "GTiff" or (bh, bw) != self.block_shape)
         src = np.dtype(ds.dtypes[0])
         wide = src.itemsize > 4 or src in (np.dtype("int32"), np.dtype("uint32"))
         self._dtype = np.dtype("float64") if wide else np.dtype("float32")
@@ -91,8 +92,17 @@ class Dem:
         self._capacity = max(int(cache_bytes // (bh * bw * self._dtype.itemsize)), 1)
         self._pool = np.empty((0, bh, bw), self._dtype)  # decoded blocks, one per slot
         self._slots: OrderedDict[int, int] = OrderedDict()  # block id -> slot, LRU order
+        # Block id -> slot (-1: not cached) as an array, for one vectorised lookup per call;
+        # rasters of very many blocks (e.g. one-row strips) look slots up in ``_slots``.
+        self._slot_of = (np.full(self._nblocks, -1, np.int32)
+                         if self._nblocks <= _MAX_LOOKUP else None)
         self.blocks_read = 0  # decoded blocks, for tests and benchmarks
         self.pixel_size = self._pixel_size_m()
+        # The nodata value as the cache stores it (rounded to float32 like the pixels), or None.
+        self._nodata_stored: float | None = None
+        if self.nodata is not None and not np.isnan(self.nodata):
+            with np.errstate(over="ignore"):
+                self._nodata_stored = float(self._dtype.type(self.nodata))
         self._last_crs: tuple[object, pyproj.Transformer | None] = (None, None)
 
     @classmethod
@@ -157,19 +167,27 @@ class Dem:
         col, row = self._pixel_coords(x, y, crs)
         return self._inside(col, row)
 
+    def _to_dem_crs(self, crs) -> pyproj.Transformer | None:
+        """The transformer from ``crs`` to the DEM's CRS; None when they are the same CRS."""
+        if crs is self._last_crs[0]:  # the same CRS object as last time: skip the lookup
+            return self._last_crs[1]
+        crs_obj = crs if isinstance(crs, pyproj.CRS) else pyproj.CRS(crs)
+        # The same CRS (the usual case) needs no transformer: even an identity one costs.
+        tr = None if crs_obj == self.crs else _transformer(crs_obj.to_wkt(), self.crs.to_wkt())
+        self._last_crs = (crs, tr)
+        return tr
+
     def _pixel_coords(self, x, y, crs) -> tuple[np.ndarray, np.ndarray]:
         x = np.asarray(x, dtype=float)
         y = np.asarray(y, dtype=float)
         if crs is not None and crs is not self.crs:
-            if crs is self._last_crs[0]:  # the same CRS object as last time: skip the lookup
-                tr = self._last_crs[1]
-            else:
-                tr = _transformer(_crs_key(crs), self._crs_wkt)
-                self._last_crs = (crs, tr)
+            tr = self._to_dem_crs(crs)
             if tr is not None:
                 x, y = tr.transform(x, y)
                 x, y = np.asarray(x, float), np.asarray(y, float)
         inv = self._inverse
+        if inv.b == 0.0 and inv.d == 0.0:  # north-up raster: one multiply-add per axis
+            return inv.a * x + inv.c, inv.e * y + inv.f
         col = inv.a * x + inv.b * y + inv.c
         row = inv.d * x + inv.e * y + inv.f
         return col, row
@@ -183,9 +201,12 @@ class Dem:
         shape = col.shape
         col, row = col.ravel(), row.ravel()
         inside = self._inside(col, row)
-        z = np.full(col.shape, np.nan)
-        if inside.any():
-            z[inside] = self._bilinear(col[inside], row[inside])
+        if inside.all():
+            z = self._bilinear(col, row)
+        else:
+            z = np.full(col.shape, np.nan)
+            if inside.any():
+                z[inside] = self._bilinear(col[inside], row[inside])
         return z.reshape(shape), inside.reshape(shape)
 
     def _bilinear(self, col: np.ndarray, row: np.ndarray) -> np.ndarray:
@@ -193,48 +214,81 @@ class Dem:
         c, r = col - 0.5, row - 0.5
         c0f, r0f = np.floor(c), np.floor(r)
         fx, fy = c - c0f, r - r0f
-        c0 = np.clip(c0f.astype(np.int64), 0, self.width - 1)
-        r0 = np.clip(r0f.astype(np.int64), 0, self.height - 1)
-        c1 = np.clip(c0f.astype(np.int64) + 1, 0, self.width - 1)
-        r1 = np.clip(r0f.astype(np.int64) + 1, 0, self.height - 1)
-        rows = np.stack([r0, r0, r1, r1])
-        cols = np.stack([c0, c1, c0, c1])
-        vals = self._values(rows, cols)
-        top = vals[0] * (1 - fx) + vals[1] * fx
-        bottom = vals[2] * (1 - fx) + vals[3] * fx
-        return top * (1 - fy) + bottom * fy
+        ci, ri = c0f.astype(np.intp), r0f.astype(np.intp)
+        last_c, last_r = self.width - 1, self.height - 1
+        c0, c1 = np.clip(ci, 0, last_c), np.clip(ci + 1, 0, last_c)
+        r0, r1 = np.clip(ri, 0, last_r), np.clip(ri + 1, 0, last_r)
+        v00, v01, v10, v11 = self._values((r0, r0, r1, r1), (c0, c1, c0, c1))
+        top = v00 * (1 - fx) + v01 * fx
+        bottom = v10 * (1 - fx) + v11 * fx
+        z = top * (1 - fy) + bottom * fy
+        nd = self._nodata_stored
+        if nd is not None:
+            # Blocks are cached as stored: nodata is found among the few values taken.
+            z[(v00 == nd) | (v01 == nd) | (v10 == nd) | (v11 == nd)] = np.nan
+        if self._scale != 1.0 or self._offset != 0.0:
+            z *= self._scale
+            z += self._offset
+        return z
 
-    def _values(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
-        """Pixel values (NaN for nodata) at integer pixel indices, decoding blocks as needed."""
+    def _values(self, rows: tuple, cols: tuple) -> list[np.ndarray]:
+        """Stored pixel values (float64) at each pair of integer index arrays.
+
+        Decodes the blocks not cached yet, then takes each array's values in one
+        gather from the cache's flat storage.
+        """
         bh, bw = self.block_shape
-        bid = (rows // bh) * self._nbcols + cols // bw
-        # Sorted distinct block ids (np.unique would do, at the cost of more work per call).
-        s = np.sort(bid, axis=None)
-        needed = s[np.concatenate([[True], s[1:] != s[:-1]])]
-        slots = self._ensure(needed)
-        where = np.searchsorted(needed, bid)
-        return self._pool[slots[where], rows % bh, cols % bw].astype(float)
+        nb = self._nbcols
+        brow = {id(r): r // bh for r in rows}  # block row / column of each distinct array
+        bcol = {id(c): c // bw for c in cols}
+        bids = [brow[id(r)] * nb + bcol[id(c)] for r, c in zip(rows, cols, strict=True)]
+        slots = self._ensure(bids)
+        flat = self._pool.reshape(-1)
+        out = []
+        for r, c, s in zip(rows, cols, slots, strict=True):
+            # slot, then row and column within the block
+            idx = (s * bh + (r - brow[id(r)] * bh)) * bw + (c - bcol[id(c)] * bw)
+            out.append(flat[idx].astype(float))
+        return out
 
-    def _ensure(self, needed: np.ndarray) -> np.ndarray:
-        """Slots of the blocks ``needed`` (sorted ids), decoding those not cached."""
-        missing = [int(b) for b in needed if int(b) not in self._slots]
-        for b in needed:  # mark as recently used
-            if int(b) in self._slots:
-                self._slots.move_to_end(int(b))
+    def _ensure(self, bids: list[np.ndarray]) -> list[np.ndarray]:
+        """Cache slots of the blocks in each array of ids, decoding the blocks not cached."""
+        needed = _distinct(bids, self._nblocks)
+        slots = self._slots
+        for b in needed.tolist():  # mark as recently used
+            if b in slots:
+                slots.move_to_end(b)
+        lut = self._slot_of
+        if lut is not None:
+            missing = needed[lut[needed] < 0].tolist()
+        else:
+            missing = [b for b in needed.tolist() if b not in slots]
         if missing:
             free = self._free_slots(len(missing), keep=len(needed) - len(missing))
-            for b, slot in zip(missing, free, strict=True):
-                self._decode(b, slot)
-                self._slots[b] = slot
-        return np.fromiter((self._slots[int(b)] for b in needed), np.int64, len(needed))
+            with self._decode_env():
+                for b, slot in zip(missing, free, strict=True):
+                    self._decode(b, slot)
+                    slots[b] = slot
+            if lut is not None:
+                lut[missing] = free
+        if lut is not None:
+            return [lut[b] for b in bids]
+        slot_of_needed = np.fromiter((slots[b] for b in needed.tolist()), np.intp, len(needed))
+        return [slot_of_needed[np.searchsorted(needed, b)] for b in bids]
 
     def _free_slots(self, n: int, keep: int) -> list[int]:
         """``n`` slots for new blocks: evict least recently used, grow the pool if needed."""
         used = len(self._slots)
         n_evict = max(0, min(used - keep, used + n - self._capacity))
-        free = [self._slots.popitem(last=False)[1] for _ in range(n_evict)]
-        in_use = set(self._slots.values()) | set(free)
-        free += [s for s in range(len(self._pool)) if s not in in_use][: n - len(free)]
+        free = []
+        for _ in range(n_evict):
+            b, slot = self._slots.popitem(last=False)
+            if self._slot_of is not None:
+                self._slot_of[b] = -1
+            free.append(slot)
+        if len(free) < n and len(self._slots) + len(free) < len(self._pool):
+            in_use = set(self._slots.values()) | set(free)
+            free += [s for s in range(len(self._pool)) if s not in in_use][: n - len(free)]
         short = n - len(free)
         if short > 0:
             start = len(self._pool)
@@ -243,6 +297,18 @@ class Dem:
             self._pool = np.concatenate([self._pool, extra]) if start else extra
             free += list(range(start, start + short))
         return free
+
+    def _decode_env(self):
+        """GDAL settings while decoding blocks into the cache.
+
+        The cache holds every decoded block already, so for a tiled GeoTIFF
+        (cache blocks = the file's blocks) GDAL's own block cache would only keep
+        a second copy of each, in fresh memory: it is switched off while reading.
+        Strips read in pieces keep it, so that GDAL decodes each strip once.
+        """
+        if self._gdal_cache_needed:
+            return contextlib.nullcontext()
+        return rasterio.Env(GDAL_CACHEMAX=0)
 
     def _decode(self, block_id: int, slot: int) -> None:
         bh, bw = self.block_shape
@@ -258,10 +324,15 @@ class Dem:
             out[h:, :] = np.nan
             out[:, w:] = np.nan
         self.blocks_read += 1
-        if self.nodata is not None and not np.isnan(self.nodata):
-            hole = out == self.nodata
-            if hole.any():
-                np.copyto(out, np.nan, where=hole)
-        if self._scale != 1.0 or self._offset != 0.0:
-            out *= self._scale
-            out += self._offset
+
+
+def _distinct(ids: list[np.ndarray], n: int) -> np.ndarray:
+    """Sorted distinct values of arrays of non-negative integers below ``n``."""
+    size = sum(i.size for i in ids)
+    if size * 8 < n:  # few ids among very many blocks: sort them
+        s = np.sort(np.concatenate([i.ravel() for i in ids]))
+        return s[np.concatenate([[True], s[1:] != s[:-1]])]
+    seen = np.zeros(n, bool)
+    for i in ids:
+        seen[i] = True
+    return np.flatnonzero(seen)
