@@ -132,11 +132,16 @@ class SectionLine:
 
     def densify(self, step: float) -> np.ndarray:
         """Distances from 0 to the length at ``step``, always including every vertex."""
+        cum = self.cumulative
         grid = np.arange(0.0, self.length, step)
-        # Drop grid points that would nearly duplicate a vertex (float round-off).
-        tol = 1e-6 * step
-        near = np.abs(grid[:, None] - self.cumulative[None, :]).min(axis=1) <= tol
-        return np.union1d(grid[~near], self.cumulative)
+        # Drop grid points within round-off of a vertex; only the grid points next to a
+        # vertex can be that close, so only those are compared.
+        k = np.rint(cum / step).astype(np.intp)
+        near = np.unique(np.clip(np.concatenate([k - 1, k, k + 1]), 0, len(grid) - 1))
+        close = np.abs(grid[near][:, None] - cum[None, :]).min(axis=1) <= 1e-6 * step
+        if close.any():
+            grid = np.delete(grid, near[close])
+        return np.insert(grid, np.searchsorted(grid, cum), cum)
 
     def moved(self, vertices: np.ndarray) -> SectionLine:
         return SectionLine(np.asarray(vertices, float), self.crs, self.name)

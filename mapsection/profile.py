@@ -153,22 +153,10 @@ def profile(
 
 
 def _layout(sl: SectionLine, step: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Sample distances and map points along ``sl``: the same as ``sl.densify(step)`` and
-    ``sl.point_at`` (to float round-off), in a few passes over the samples rather than many.
-    """
-    cum = sl.cumulative
-    grid = np.arange(0.0, sl.length, step)
-    # As densify: drop grid points within round-off of a vertex. Only the grid points
-    # next to a vertex can be that close, so only those are compared.
-    k = np.rint(cum / step).astype(np.intp)
-    near = np.unique(np.clip(np.concatenate([k - 1, k, k + 1]), 0, len(grid) - 1))
-    close = np.abs(grid[near][:, None] - cum[None, :]).min(axis=1) <= 1e-6 * step
-    if close.any():
-        grid = np.delete(grid, near[close])
-    distance = np.insert(grid, np.searchsorted(grid, cum), cum)
-    # Piecewise linear between vertices, distance strictly increasing along them.
-    x = np.interp(distance, cum, sl.vertices[:, 0])
-    y = np.interp(distance, cum, sl.vertices[:, 1])
+    """Sample distances (``sl.densify(step)``) and their map points, linear between vertices."""
+    distance = sl.densify(step)
+    x = np.interp(distance, sl.cumulative, sl.vertices[:, 0])
+    y = np.interp(distance, sl.cumulative, sl.vertices[:, 1])
     return distance, x, y
 
 
