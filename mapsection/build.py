@@ -43,6 +43,7 @@ from .draft import Draft
 from .errors import OutputError, ParameterError
 from .line import SectionLine
 from .project import METHODS, Project, SectionSpec, load_project
+from .session import ProjectInputs, SectionSession, load_inputs
 
 Warn = Callable[[str], None]
 STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
@@ -58,45 +59,6 @@ def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
     finally:
         if timings is not None:
             timings[name] = timings.get(name, 0.0) + time.perf_counter() - t0
-
-
-@dataclass(eq=False)
-class ProjectInputs:
-    """The project's map, attitudes and open DEM, read once for all its sections."""
-
-    map_data: Any
-    attitudes: Any
-    dem: Any
-    _axis: Any = None
-
-    def axis(self) -> Any:
-        """The fold axis of all attitudes (Woodcock 1977), for plunge projection."""
-        if self._axis is None:
-            from .foldaxis import fold_axis
-
-            self._axis = fold_axis(np.asarray(self.attitudes.strike, float),
-                                   np.asarray(self.attitudes.dip, float))
-        return self._axis
-
-    def close(self) -> None:
-        self.dem.close()
-
-
-def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
-    """Read the map and the attitudes and open the DEM of a project (once)."""
-    from .attitudes import read_attitudes
-    from .dem import Dem
-    from .mapdata import read_map
-
-    warn = warn or _default_warn
-    map_data = read_map(project.map_path, project.units_layer, project.unit_field,
-                        project.faults_layer, project.fault_fields, crs=project.crs, warn=warn)
-    project.column.check_map_units(
-        map_data.unit_list, source=f"{project.map_path.name}: layer {project.units_layer!r}")
-    attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
-                               layer=project.attitudes_layer, fields=project.attitude_fields,
-                               crs=project.crs, warn=warn)
-    return ProjectInputs(map_data, attitudes, Dem.open(project.dem_path))
 
 
 def _check_options(method: str | None, ve: float | None) -> None:
@@ -117,7 +79,6 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     between sections; without them they are read for this section alone.
     """
     from .construct import build_draft
-    from .session import SectionSession
 
     _check_options(method, ve)
     if isinstance(spec, str):
@@ -128,9 +89,7 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
         if inputs is None:
             session = SectionSession.from_project(project, spec, warn)
         else:
-            axis = inputs.axis() if spec.projection == "plunge" else None
-            session = SectionSession(inputs.dem, inputs.map_data, inputs.attitudes,
-                                     spec.corridor, spec.projection, axis, warn=warn)
+            session = SectionSession.from_inputs(inputs, project, spec, warn)
         try:
             data = session.run(line)
         finally:
@@ -164,8 +123,9 @@ def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:
 
 def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None, *,
                           extra_layers: dict | None = None, warnings: list[str] = (),
-                          timings: dict[str, float] | None = None) -> list[Path]:
-    """Write section.gpkg, section_3d.gpkg, section.png/.svg/.pdf and build.log in ``folder``."""
+                          timings: dict[str, float] | None = None,
+                          log: bool = True) -> list[Path]:
+    """Write section.gpkg, section_3d.gpkg, section.png/.svg/.pdf and (``log``) build.log."""
     from .export import write_section_3d, write_section_gpkg
     from .figure import draw_section
 
@@ -177,7 +137,8 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
                write_section_3d(draft, folder / "section_3d.gpkg")]
     with _stage(timings, "figures"):
         out += draw_section(draft, folder / "section", map_data)
-    out.append(write_build_log(draft, folder / "build.log", list(warnings)))
+    if log:
+        out.append(write_build_log(draft, folder / "build.log", list(warnings)))
     return out
 
 
@@ -333,9 +294,9 @@ def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float]]:
     """Write one section's folder; returns everything said and the stage timings."""
     said = list(job.said)
     timings: dict[str, float] = {}
-    write_section_outputs(job.draft, job.folder, map_data, warnings=said, timings=timings)
+    write_section_outputs(job.draft, job.folder, map_data, timings=timings, log=False)
     _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings)
-    write_build_log(job.draft, job.folder / "build.log", said)  # again, with the checks' notes
+    write_build_log(job.draft, job.folder / "build.log", said)  # with the checks' notes too
     return said, timings
 
 

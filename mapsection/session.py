@@ -59,6 +59,47 @@ class SectionData:
     dips: ProjectedDips
 
 
+@dataclass(eq=False)
+class ProjectInputs:
+    """A project's map, attitudes and open DEM, read once and shared by its sections."""
+
+    map_data: MapData
+    attitudes: Attitudes
+    dem: Dem
+    _axis: FoldAxis | None = None
+
+    def axis(self) -> FoldAxis:
+        """The fold axis of all attitudes (Woodcock 1977), for down-plunge projection."""
+        if self._axis is None:
+            from .foldaxis import fold_axis
+
+            self._axis = fold_axis(np.asarray(self.attitudes.strike, float),
+                                   np.asarray(self.attitudes.dip, float))
+        return self._axis
+
+    def close(self) -> None:
+        self.dem.close()
+
+
+def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
+    """Read the map and the attitudes and open the DEM of a project (once).
+
+    Every map unit must be in the project's column.
+    """
+    from .attitudes import read_attitudes
+    from .dem import Dem
+
+    warn = warn or _default_warn
+    map_data = read_map(project.map_path, project.units_layer, project.unit_field,
+                        project.faults_layer, project.fault_fields, crs=project.crs, warn=warn)
+    project.column.check_map_units(
+        map_data.unit_list, source=f"{project.map_path.name}: layer {project.units_layer!r}")
+    attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
+                               layer=project.attitudes_layer, fields=project.attitude_fields,
+                               crs=project.crs, warn=warn)
+    return ProjectInputs(map_data, attitudes, Dem.open(project.dem_path))
+
+
 class SectionSession:
     """Loaded inputs of one section, ready to be re-run for any line.
 
@@ -148,40 +189,33 @@ class SectionSession:
         self.dem.sample(xx.ravel(), yy.ravel(), crs=self.map_data.crs)
 
     @classmethod
-    def from_project(cls, project: Project, spec: SectionSpec | str,
-                     warn: Warn | None = None) -> SectionSession:
-        """Open the DEM, read the map and the attitudes of a project, for one section."""
-        from .attitudes import read_attitudes
-        from .dem import Dem
-
-        if isinstance(spec, str):
-            spec = project.section(spec)
+    def from_inputs(cls, inputs: ProjectInputs, project: Project, spec: SectionSpec,
+                    warn: Warn | None = None) -> SectionSession:
+        """A session for one section over inputs already loaded (shared, not owned)."""
         warn = warn or _default_warn
-        map_data = read_map(project.map_path, project.units_layer, project.unit_field,
-                            project.faults_layer, project.fault_fields, crs=project.crs,
-                            warn=warn)
-        project.column.check_map_units(
-            map_data.unit_list, source=f"{project.map_path.name}: layer {project.units_layer!r}")
-        attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
-                                   layer=project.attitudes_layer, fields=project.attitude_fields,
-                                   crs=project.crs, warn=warn)
         axis = None
         if spec.projection == "plunge":
-            from .foldaxis import fold_axis
-
-            axis = fold_axis(np.asarray(attitudes.strike, float), np.asarray(attitudes.dip, float))
+            axis = inputs.axis()
             for why in axis.cylindrical_problems():
                 warn(f"section {spec.name}: down-plunge projection may mislead: {why}")
-        dem = Dem.open(project.dem_path)
-        try:
-            session = cls(dem, map_data, attitudes, spec.corridor, spec.projection, axis,
-                          warn=warn)
-        except BaseException:
-            dem.close()
-            raise
+        session = cls(inputs.dem, inputs.map_data, inputs.attitudes, spec.corridor,
+                      spec.projection, axis, warn=warn)
         session.line = session._as_line(SectionLine(np.asarray(spec.line, float), project.crs,
                                                     spec.name))
         return session
+
+    @classmethod
+    def from_project(cls, project: Project, spec: SectionSpec | str,
+                     warn: Warn | None = None) -> SectionSession:
+        """Open the DEM, read the map and the attitudes of a project, for one section."""
+        if isinstance(spec, str):
+            spec = project.section(spec)
+        inputs = load_inputs(project, warn)
+        try:
+            return cls.from_inputs(inputs, project, spec, warn)
+        except BaseException:
+            inputs.close()
+            raise
 
     def close(self) -> None:
         self.dem.close()
