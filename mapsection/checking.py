@@ -87,16 +87,18 @@ def gpkg_layers_and_section(path: Path) -> tuple[list[str], str]:
 
     if not path.is_file():
         raise CheckError(f"{path}: no such section file")
+    from ._messages import first_line
+    from .export import section_info
+
     try:
         layers = [str(row[0]) for row in pyogrio.list_layers(path)]
-        meta = (pyogrio.read_info(path, layer=layers[0]).get("dataset_metadata")
-                if layers else None) or {}
+        # 'build' records the section's name in the profile layer (see mapsection.export).
+        recorded = section_info(path, set(layers)).get("section") or ""
     except Exception as exc:  # pyogrio raises several kinds for unreadable files
-        first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-        raise CheckError(f"{path}: not a readable GeoPackage ({first})") from None
+        raise CheckError(f"{path}: not a readable GeoPackage ({first_line(exc)})") from None
     if "horizons" not in layers:
         raise CheckError(f"{path}: has no layer 'horizons' (layers: {', '.join(layers) or 'none'})")
-    return layers, str(meta.get("mapsection_section", "") or "")
+    return layers, str(recorded)
 
 
 def infer_section(project, path: Path):

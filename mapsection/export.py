@@ -450,7 +450,7 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
 
     # The base of the oldest unit is a horizon too (named by the construction).
     known = set(column.names) | {base_name(column)}
-    meta = _section_info(path, layers)
+    meta = section_info(path, layers)
 
     hz_frame = _read_layer(path, "horizons", layers)
     horizons = []
@@ -536,7 +536,7 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
     )
 
 
-def _section_info(path: Path, layers: set[str]) -> dict:
+def section_info(path: Path, layers: set[str]) -> dict:
     """Section name, method, VE, base and pixel size from the ``profile`` layer, if any."""
     if "profile" not in layers:
         return {}

@@ -196,3 +196,12 @@ def test_from_needs_a_section_when_ambiguous(built, tmp_path):
         assert res.exit_code == 0, res.output  # inferred from the file's record
     res = _run("check", PROJECT, "--from", loose, "--section", "nosuch")
     assert res.exit_code == 2 and "nosuch" in res.stderr
+
+
+def test_from_finds_the_section_recorded_in_the_file(built, tmp_path):
+    # self-consistency: a copied file outside its build folder is still known as section A
+    copy = tmp_path / "edited.gpkg"
+    shutil.copy(built / "section.gpkg", copy)
+    res = _run("check", PROJECT, "--from", copy)
+    assert res.exit_code == 0, res.output
+    assert res.stdout.startswith("section A (method edited")

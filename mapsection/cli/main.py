@@ -68,6 +68,9 @@ class _LazyGroup(click.Group):
             ctx.exit(2)
         except (KeyboardInterrupt, click.exceptions.Exit, click.ClickException, click.Abort):
             raise
+        except BrokenPipeError:  # output piped into e.g. `head`, which stopped reading
+            sys.stderr.close()
+            ctx.exit(1)
         except Exception as exc:  # an unexpected failure: still one line unless --debug
             if ctx.obj and ctx.obj.get("debug"):
                 raise
