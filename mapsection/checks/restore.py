@@ -18,17 +18,14 @@ the other end; both at the first/last distance where every horizon exists.
 
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import LineString, Polygon
 
-from .. import CAUTION
-from .._atomic import atomic_file
 from ..draft import Draft
 from ..errors import CheckError
+from .geometry import clip_x, joined_horizons, line_xy, snap_tolerance
 
 __all__ = [
     "Restoration",
@@ -36,72 +33,12 @@ __all__ = [
     "HorizonBalance",
     "RestoredUnit",
     "RestoredGap",
-    "FaultBlocks",
     "restore_section",
-    "restoration_frames",
-    "draw_restoration",
-    "joined_horizons",
-    "fault_blocks",
-    "clip_x",
     "restored_elevation",
 ]
 
 
-# --- geometry helpers shared by the checks ------------------------------------
-
-
-def _xy(line: LineString) -> np.ndarray:
-    return np.asarray(line.coords, float)[:, :2]
-
-
-def joined_horizons(draft: Draft) -> dict[tuple[str, int], LineString]:
-    """Each horizon's below- and above-ground pieces joined, per (top_of, block).
-
-    Pieces are ordered by distance and oriented toward increasing distance;
-    repeated vertices where pieces meet are dropped.
-    """
-    groups: dict[tuple[str, int], list[np.ndarray]] = {}
-    for h in draft.horizons:
-        g = h.geometry
-        if g is None or g.is_empty:
-            continue
-        parts = list(g.geoms) if hasattr(g, "geoms") else [g]
-        for p in parts:
-            c = _xy(p)
-            if len(c) < 2:
-                continue
-            if c[-1, 0] < c[0, 0]:
-                c = c[::-1]
-            groups.setdefault((h.top_of, int(h.block)), []).append(c)
-    out = {}
-    for key, pieces in groups.items():
-        pieces.sort(key=lambda c: (c[0, 0], c[-1, 0]))
-        c = np.concatenate(pieces)
-        keep = np.concatenate([[True], np.any(np.abs(np.diff(c, axis=0)) > 1e-9, axis=1)])
-        c = c[keep]
-        if len(c) >= 2:
-            out[key] = LineString(c)
-    return out
-
-
-def clip_x(line: LineString, x0: float, x1: float) -> LineString | None:
-    """The part of an x-ordered line between distances x0 <= x1 (exact end points)."""
-    c = _xy(line)
-    x = c[:, 0]
-    lo, hi = max(x0, x[0]), min(x1, x[-1])
-    if hi - lo <= 1e-9:
-        return None
-    inner = c[(x > lo) & (x < hi)]
-    ya = np.interp(lo, x, c[:, 1])
-    yb = np.interp(hi, x, c[:, 1])
-    pts = np.vstack([[lo, ya], inner, [hi, yb]])
-    return LineString(pts)
-
-
-def y_at(line: LineString, xs) -> np.ndarray:
-    """Elevation of an x-ordered line at distances (NaN outside it)."""
-    c = _xy(line)
-    return np.interp(np.asarray(xs, float), c[:, 0], c[:, 1], left=np.nan, right=np.nan)
+# --- restored levels ----------------------------------------------------------
 
 
 def restored_elevation(column, top_of: str) -> float:
@@ -114,67 +51,6 @@ def restored_elevation(column, top_of: str) -> float:
     if top_of.lower().startswith("base"):
         return -column.total_thickness
     raise CheckError(f"horizon top_of {top_of!r}: not a unit of the stratigraphic column")
-
-
-@dataclass(frozen=True)
-class FaultBlocks:
-    """The two blocks a fault separates, and which is the hanging wall."""
-
-    name: str
-    footwall: int
-    hanging_wall: int
-    dips_toward: int  # +1: the fault descends toward increasing distance; -1: decreasing
-    ground_x: float  # distance of the fault's upper end
-    # top_of -> ((x, y) of the hanging-wall cutoff, (x, y) of the footwall cutoff)
-    cutoffs: dict[str, tuple[tuple[float, float] | None, tuple[float, float] | None]]
-
-
-def _tol(draft: Draft) -> float:
-    return max(1.0, 1e-5 * float(draft.line.length))
-
-
-def fault_blocks(draft: Draft) -> dict[str, FaultBlocks]:
-    """For each fault: its footwall and hanging-wall blocks and the horizon cutoffs on it.
-
-    The hanging wall lies on the side toward which the fault trace descends. The
-    blocks are those of the horizon ends lying on the fault (within 1 m); a fault
-    no horizon touches separates block i and i+1, i its rank along the line.
-    """
-    joined = joined_horizons(draft)
-    tol = _tol(draft)
-
-    def ground_x(f) -> float:
-        c = _xy(f.geometry)
-        return float(c[np.argmax(c[:, 1]), 0])
-
-    ordered = sorted(draft.faults, key=ground_x)
-    out = {}
-    for rank, f in enumerate(ordered):
-        c = _xy(f.geometry)
-        top, bot = c[np.argmax(c[:, 1])], c[np.argmin(c[:, 1])]
-        dx = bot[0] - top[0]
-        toward = int(np.sign(dx)) if abs(dx) > 1e-9 else int(np.sign(f.apparent_dip or 0.0))
-        left: dict[int, int] = {}
-        right: dict[int, int] = {}
-        ends: dict[tuple[str, int], tuple[float, float]] = {}
-        for (top_of, block), line in joined.items():
-            lc = _xy(line)
-            for end, other in ((lc[0], lc[-1]), (lc[-1], lc[0])):
-                if f.geometry.distance(Point(end)) <= tol:
-                    side = right if other[0] > end[0] else left
-                    side[block] = side.get(block, 0) + 1
-                    ends[(top_of, block)] = (float(end[0]), float(end[1]))
-        lb = max(left, key=left.get) if left else rank
-        rb = max(right, key=right.get) if right else rank + 1
-        hw, fw = (rb, lb) if toward >= 0 else (lb, rb)
-        cut = {}
-        for (top_of, block), pt in ends.items():
-            if block not in (hw, fw):
-                continue
-            prev = cut.get(top_of, (None, None))
-            cut[top_of] = (pt, prev[1]) if block == hw else (prev[0], pt)
-        out[f.name] = FaultBlocks(f.name, fw, hw, toward, float(top[0]), cut)
-    return out
 
 
 # --- results -------------------------------------------------------------------
@@ -317,7 +193,7 @@ def _vertical_hits_fault(draft: Draft, x: float, lo_y: float, hi_y: float) -> st
 
 def _y_range(draft: Draft, joined) -> tuple[float, float]:
     # The horizons' depth range: a detachment flat below every horizon does not count.
-    ys = [(_xy(g)[:, 1].min(), _xy(g)[:, 1].max()) for g in joined.values()]
+    ys = [(line_xy(g)[:, 1].min(), line_xy(g)[:, 1].max()) for g in joined.values()]
     lo = min(y[0] for y in ys)
     hi = max(y[1] for y in ys)
     return float(lo), float(hi)
@@ -326,7 +202,7 @@ def _y_range(draft: Draft, joined) -> tuple[float, float]:
 def _common_range(joined) -> tuple[float, float]:
     ext: dict[str, list[float]] = {}
     for (top_of, _), g in joined.items():
-        c = _xy(g)[:, 0]
+        c = line_xy(g)[:, 0]
         e = ext.setdefault(top_of, [np.inf, -np.inf])
         e[0], e[1] = min(e[0], c.min()), max(e[1], c.max())
     lo = max(e[0] for e in ext.values())
@@ -357,7 +233,7 @@ def _default_lines(draft: Draft, joined, y_lo, y_hi) -> tuple[float, float, bool
             if name is None:
                 return x
             f = next(f for f in draft.faults if f.name == name)
-            fx = _xy(f.geometry)[:, 0]
+            fx = line_xy(f.geometry)[:, 0]
             x = (fx.max() if inward > 0 else fx.min()) + inward * 1.0
         return x
 
@@ -434,7 +310,7 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
         raise CheckError(f"section {name}: pin and loose lines coincide at {pin:.1f} m")
     direction = 1 if loose > pin else -1
     lo, hi = min(pin, loose), max(pin, loose)
-    tol = _tol(draft)
+    tol = snap_tolerance(draft)
 
     # Pieces between the lines, per block.
     blocks: dict[int, dict[str, LineString]] = {}
@@ -447,11 +323,11 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
                          f"and the loose line at {loose:.1f} m")
 
     def pin_side_x(p: LineString) -> float:
-        c = _xy(p)[:, 0]
+        c = line_xy(p)[:, 0]
         return float(c[0] if direction > 0 else c[-1])
 
     def far_x(p: LineString) -> float:
-        c = _xy(p)[:, 0]
+        c = line_xy(p)[:, 0]
         return float(c[-1] if direction > 0 else c[0])
 
     def contains_pin(b: int) -> int:
@@ -586,112 +462,3 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     return Restoration(name, float(pin), float(loose), source, direction, float(threshold_pct),
                        pieces, balances, units, gaps, mismatch, spread, angle, departure,
                        short_pct, short_m, passed, failures, draft.column)
-
-
-# --- outputs ------------------------------------------------------------------------
-
-
-def restoration_frames(restoration: Restoration) -> dict:
-    """GeoDataFrames ``restored_horizons`` and ``restored_units`` in restored section space."""
-    import geopandas as gpd
-
-    hz = gpd.GeoDataFrame(
-        {
-            "top_of": [p.top_of for p in restoration.pieces],
-            "block": [p.block for p in restoration.pieces],
-            "bed_length_m": [p.bed_length_m for p in restoration.pieces],
-            "restored_length_m": [p.restored_length_m for p in restoration.pieces],
-        },
-        geometry=[p.geometry for p in restoration.pieces],
-    )
-    un = gpd.GeoDataFrame(
-        {
-            "unit": [u.unit for u in restoration.units],
-            "block": [u.block for u in restoration.units],
-            "area_m2": [u.area_m2 for u in restoration.units],
-        },
-        geometry=[u.geometry for u in restoration.units],
-    )
-    return {"restored_horizons": hz, "restored_units": un}
-
-
-def _colours(column, names) -> dict[str, str]:
-    try:
-        from ..colours import unit_colours
-
-        return unit_colours(column, names) if column is not None else {}
-    except Exception:  # colours not available: a plain palette
-        import matplotlib
-
-        cmap = matplotlib.colormaps["tab20"]
-        return {n: matplotlib.colors.to_hex(cmap(i % 20)) for i, n in enumerate(names)}
-
-
-def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> list[Path]:
-    """Draw the restored section to ``<stem>.png``, ``.svg`` and ``.pdf``; returns the paths."""
-    import textwrap
-
-    import matplotlib
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.collections import LineCollection, PathCollection
-    from matplotlib.figure import Figure
-    from matplotlib.lines import Line2D
-
-    from ..figure import _polygon_path
-
-    r = restoration
-    names = sorted({p.top_of for p in r.pieces})
-    cols = _colours(r.column, names)
-    fig = Figure(figsize=(10, 4.2))
-    FigureCanvasAgg(fig)
-    fig.subplots_adjust(bottom=0.2)
-    ax = fig.add_subplot()
-    # One collection for all the unit fills and one for all the beds: far fewer artists.
-    paths, faces = [], []
-    for u in r.units:
-        path = _polygon_path(u.geometry)
-        if path is not None:
-            paths.append(path)
-            faces.append(cols.get(u.unit, "#dddddd"))
-    if paths:
-        ax.add_collection(PathCollection(paths, facecolors=faces, edgecolors="none",
-                                         alpha=0.85, linewidths=0), autolim=True)
-    beds = [_xy(p.geometry) for p in r.pieces if not p.geometry.is_empty]
-    if beds:
-        ax.add_collection(LineCollection(beds, colors="black", linewidths=0.8), autolim=True)
-    ax.autoscale_view()
-    ys = [p.restored_elevation_m for p in r.pieces]
-    ax.axvline(r.pin_m, color="#b00000", linewidth=1.4)
-    ax.annotate("pin", (r.pin_m, max(ys)), textcoords="offset points", xytext=(3, 6),
-                color="#b00000", fontsize=9)
-    loose = r.restored_loose_line
-    if loose is not None:
-        x, y = loose.xy
-        ax.plot(x, y, color="#0050b0", linewidth=1.4)
-        ax.annotate("restored loose line", (x[0], y[0]), textcoords="offset points",
-                    xytext=(3, 6), color="#0050b0", fontsize=9, ha="left")
-    units_drawn = {u.unit for u in r.units}
-    handles = [Line2D([], [], color=cols.get(u, "#dddddd"), linewidth=6, label=u)
-               for u in (r.column.names if r.column is not None else names) if u in units_drawn]
-    if handles:
-        ax.legend(handles=handles, loc="lower left", fontsize=7, ncol=min(len(names), 6),
-                  frameon=False)
-    ax.set_xlabel("restored distance from the section start (m)")
-    ax.set_ylabel("restored level: m below the top of the column")
-    mm = r.line_length_mismatch_pct
-    ax.set_title(f"{r.section}: flexural-slip restoration (Dahlstrom 1969) - shortening "
-                 f"{r.shortening_pct:.1f} %, line-length spread {mm:.1f} %", fontsize=10,
-                 y=1.0)
-    ax.set_aspect("equal", adjustable="datalim")
-    # Pre-wrapped: matplotlib's own wrapping measures the text word by word on every draw.
-    fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 225)), fontsize=6, color="#444444")
-    out = []
-    # Text stays text in the SVG (searchable, and no glyph outlines to write).
-    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}):
-        for ext in ("png", "svg", "pdf"):
-            path = Path(f"{os.fspath(path_stem)}.{ext}")
-            with atomic_file(path) as tmp:
-                fig.savefig(tmp, format=ext, dpi=150,
-                            **({"pil_kwargs": {"compress_level": 3}} if ext == "png" else {}))
-            out.append(path)
-    return out
