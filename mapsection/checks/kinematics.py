@@ -223,12 +223,10 @@ def _run_fbf(draft: Draft, fault, fb: FaultBlocks, seps: dict[str, float],
     return entry
 
 
-def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Kinematics:
-    """Run the kinematic consistency checks and the fault-bend fold comparison on a draft."""
-    blocks = fault_blocks(draft)
-    failures: list[str] = []
-
-    # 1. transport direction
+def _transport(draft: Draft, blocks: dict[str, FaultBlocks]
+               ) -> tuple[int | None, dict[str, int], dict, list[str]]:
+    """The section's transport direction (the contractional faults' majority), each such
+    fault's own, the transport entry of the result and its failures."""
     votes: dict[int, float] = {1: 0.0, -1: 0.0}
     own: dict[str, int] = {}
     for f in draft.faults:
@@ -245,15 +243,20 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
     if own and direction is None:
         exceptions = [{"fault": n, "distance_m": blocks[n].ground_x, "transport": _dir_name(d)}
                       for n, d in own.items()]
-    transport_ok = not exceptions
-    for e in exceptions:
-        failures.append(f"fault {e['fault']} at {e['distance_m']:.0f} m transports "
-                        f"{e['transport']}, against the section's "
-                        f"{_dir_name(direction) or 'majority (tied)'}")
-    transport = {"passed": transport_ok, "applicable": bool(own), "exceptions": exceptions,
+    failures = [f"fault {e['fault']} at {e['distance_m']:.0f} m transports "
+                f"{e['transport']}, against the section's "
+                f"{_dir_name(direction) or 'majority (tied)'}" for e in exceptions]
+    transport = {"passed": not exceptions, "applicable": bool(own), "exceptions": exceptions,
                  "faults": {n: _dir_name(d) for n, d in own.items()}}
+    return direction, own, transport, failures
 
-    # 2. cut up-section, 3. separations
+
+def _cut_up_and_separations(draft: Draft, blocks: dict[str, FaultBlocks],
+                            direction: int | None, own: dict[str, int]
+                            ) -> tuple[dict, dict, list[str]]:
+    """Thrusts cutting up-section in the transport direction, and every fault's separations
+    agreeing with its sense: the two result entries and their failures."""
+    failures: list[str] = []
     cut_fail, sep_fail, sep_all = [], [], {}
     joined = joined_horizons(draft)
     for f in draft.faults:
@@ -291,6 +294,19 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
                                 f"(cutoff angle {angle:.1f} degrees)")
     cut = {"passed": not cut_fail, "failures": cut_fail}
     separations = {"passed": not sep_fail, "failures": sep_fail, "faults": sep_all}
+    return cut, separations, failures
+
+
+def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Kinematics:
+    """Run the kinematic consistency checks and the fault-bend fold comparison on a draft."""
+    blocks = fault_blocks(draft)
+
+    # 1. transport direction
+    direction, own, transport, failures = _transport(draft, blocks)
+
+    # 2. cut up-section, 3. separations
+    cut, separations, more = _cut_up_and_separations(draft, blocks, direction, own)
+    failures += more
 
     # 4. crossings
     cross = horizon_crossings(draft)
@@ -310,5 +326,6 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
             continue
         fbfs.append(_run_fbf(draft, f, blocks[f.name], seps, direction or own[f.name]))
 
-    passed = transport_ok and cut["passed"] and separations["passed"] and crossings["passed"]
+    passed = (transport["passed"] and cut["passed"] and separations["passed"]
+              and crossings["passed"])
     return Kinematics(passed, direction, transport, cut, separations, crossings, fbfs, failures)

@@ -273,24 +273,11 @@ def _unit_pairs(column, present: set[str]) -> list[tuple[str, str]]:
     return list(zip(order[:-1], order[1:], strict=True))
 
 
-def restore_section(draft: Draft, pin: float | None = None, loose: float | None = None,
-                    threshold_pct: float = 5.0) -> Restoration:
-    """Flexural-slip restoration between a pin and a loose line (Dahlstrom 1969).
-
-    ``pin`` and ``loose`` are distances along the section (metres); by default
-    the pin sits at the end of the section in the least-dipping end domain and
-    the loose line at the other end. Horizons are laid flat at minus their
-    depth below the top of the column (the datum, elevation 0 in the restored
-    frame). Passes when the spread of the restored lengths ((max - min) / mean)
-    is within ``threshold_pct`` (Thresholds.line_length_spread_pct, default 5 %,
-    common practice).
-    """
+def _pin_and_loose(draft: Draft, joined, pin: float | None, loose: float | None
+                   ) -> tuple[float, float, str]:
+    """The pin and loose lines, given or by default, and how they were chosen; checked to
+    lie inside the section, clear of the faults and apart."""
     name = draft.name or "(unnamed)"
-    joined = joined_horizons(draft)
-    if not joined:
-        raise CheckError(f"section {name}: has no horizons to restore")
-    for top_of, _ in joined:
-        restored_elevation(draft.column, top_of)  # unknown names fail here, one line
     y_lo, y_hi = _y_range(draft, joined)
     if pin is None and loose is None:
         a, b, at_start, source = _default_lines(draft, joined, y_lo, y_hi)
@@ -308,19 +295,31 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     _check_line(draft, "loose", loose, y_lo, y_hi)
     if abs(loose - pin) < 1e-6:
         raise CheckError(f"section {name}: pin and loose lines coincide at {pin:.1f} m")
-    direction = 1 if loose > pin else -1
-    lo, hi = min(pin, loose), max(pin, loose)
-    tol = snap_tolerance(draft)
+    return pin, loose, source
 
-    # Pieces between the lines, per block.
-    blocks: dict[int, dict[str, LineString]] = {}
-    for (top_of, block), line in joined.items():
-        piece = clip_x(line, lo, hi)
-        if piece is not None and piece.length > 1e-9:
-            blocks.setdefault(block, {})[top_of] = piece
-    if not blocks:
-        raise CheckError(f"section {name}: no horizon lies between the pin line at {pin:.1f} m "
-                         f"and the loose line at {loose:.1f} m")
+
+def _block_lengths(ps: dict[str, LineString], starts: dict[str, float], xl: float,
+                   direction: int, tol: float) -> tuple[dict[str, float], dict[str, float]]:
+    """Bed length of each piece behind (toward the pin) and ahead of the local pin ``xl``."""
+    back, fwd = {}, {}
+    for t, p in ps.items():
+        xs = starts[t]
+        if direction * (xs - xl) <= tol:
+            a, c = sorted((xs, xl))
+            seg = clip_x(p, a, c)
+            back[t] = seg.length if seg is not None else 0.0
+            fwd[t] = p.length - back[t]
+        else:  # starts beyond the local pin: keep its horizontal offset
+            back[t] = -abs(xs - xl)
+            fwd[t] = p.length + abs(xs - xl)
+    return back, fwd
+
+
+def _lay_flat(draft: Draft, blocks: dict[int, dict[str, LineString]], ys: dict[str, float],
+              pin: float, direction: int) -> tuple[list[RestoredHorizon], list[RestoredGap]]:
+    """Each block's pieces laid flat, block after block from the pin, end to end with the
+    block before; the gaps and overlaps that leaves between the blocks' units."""
+    tol = snap_tolerance(draft)
 
     def pin_side_x(p: LineString) -> float:
         c = line_xy(p)[:, 0]
@@ -337,31 +336,19 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
         [pin_side_x(p) for p in blocks[b].values()]) - pin)))
     others = sorted((b for b in blocks if b != pin_block),
                     key=lambda b: direction * np.mean([pin_side_x(p) for p in blocks[b].values()]))
-    order = [pin_block, *others]
 
     pieces: list[RestoredHorizon] = []
     last_end: dict[str, float] = {}
     gaps: list[RestoredGap] = []
     prev_block: dict[str, int] = {}
-    ys = {t: restored_elevation(draft.column, t) for t in {k[0] for k in joined}}
-    for b in order:
+    for b in [pin_block, *others]:
         ps = blocks[b]
         starts = {t: pin_side_x(p) for t, p in ps.items()}
         if b == pin_block:
             xl = pin
         else:  # first distance from the pin side where every horizon of the block exists
             xl = max(starts.values()) if direction > 0 else min(starts.values())
-        back, fwd = {}, {}
-        for t, p in ps.items():
-            xs = starts[t]
-            if direction * (xs - xl) <= tol:
-                a, c = sorted((xs, xl))
-                seg = clip_x(p, a, c)
-                back[t] = seg.length if seg is not None else 0.0
-                fwd[t] = p.length - back[t]
-            else:  # starts beyond the local pin: keep its horizontal offset
-                back[t] = -abs(xs - xl)
-                fwd[t] = p.length + abs(xs - xl)
+        back, fwd = _block_lengths(ps, starts, xl, direction, tol)
         if b == pin_block:
             x_anchor = pin
         else:
@@ -386,14 +373,17 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
                 float(xl), LineString([(x0, ys[t]), (x1, ys[t])])))
             last_end[t] = x1
             prev_block[t] = b
+    return pieces, gaps
 
-    # Restored units between consecutive horizons of a block.
+
+def _restored_units(column, pieces: list[RestoredHorizon]) -> list[RestoredUnit]:
+    """Restored units between consecutive horizons of a block."""
     units: list[RestoredUnit] = []
     by_block: dict[int, dict[str, RestoredHorizon]] = {}
     for rp in pieces:
         by_block.setdefault(rp.block, {})[rp.top_of] = rp
     for b, rps in by_block.items():
-        for top, base in _unit_pairs(draft.column, set(rps)):
+        for top, base in _unit_pairs(column, set(rps)):
             a, c = rps[top], rps[base]
             poly = Polygon([(a.restored_x0_m, a.restored_elevation_m),
                             (a.restored_x1_m, a.restored_elevation_m),
@@ -403,8 +393,12 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
                 poly = poly.buffer(0)
             units.append(RestoredUnit(top, b, base, a.restored_elevation_m - c.restored_elevation_m,
                                       poly, float(poly.area)))
+    return units
 
-    # Per horizon: lengths, shortening, the restored loose line.
+
+def _horizon_balances(pieces: list[RestoredHorizon], ys: dict[str, float], pin: float,
+                      loose: float, direction: int, tol: float) -> list[HorizonBalance]:
+    """Per horizon: lengths, shortening, where it restores at the loose line."""
     balances: list[HorizonBalance] = []
     for t in sorted(ys, key=lambda t: -ys[t]):
         rps = [rp for rp in pieces if rp.top_of == t]
@@ -420,7 +414,24 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
         balances.append(HorizonBalance(t, ys[t], float(deformed), float(bed), float(restored),
                                        float(short), float(pct), bool(abs(far_def - loose) <= tol),
                                        float(far_res)))
+    return balances
 
+
+@dataclass(frozen=True)
+class _LineLengths:
+    """The line-length balance of the horizons that reach the loose line."""
+
+    mismatch_pct: float
+    loose_spread_m: float
+    loose_angle_deg: float
+    loose_departure_m: float
+    shortening_pct: float
+    shortening_m: float
+    failures: list[str]
+
+
+def _line_lengths(balances: list[HorizonBalance], loose: float, direction: int,
+                  threshold_pct: float) -> _LineLengths:
     full = [h for h in balances if h.reaches_loose]
     failures: list[str] = []
     if full:
@@ -451,6 +462,46 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     if missing and full:
         failures.append("horizons ending before the loose line (not in the balance): "
                         + ", ".join(missing))
+    return _LineLengths(mismatch, spread, angle, departure, short_pct, short_m, failures)
+
+
+def restore_section(draft: Draft, pin: float | None = None, loose: float | None = None,
+                    threshold_pct: float = 5.0) -> Restoration:
+    """Flexural-slip restoration between a pin and a loose line (Dahlstrom 1969).
+
+    ``pin`` and ``loose`` are distances along the section (metres); by default
+    the pin sits at the end of the section in the least-dipping end domain and
+    the loose line at the other end. Horizons are laid flat at minus their
+    depth below the top of the column (the datum, elevation 0 in the restored
+    frame). Passes when the spread of the restored lengths ((max - min) / mean)
+    is within ``threshold_pct`` (Thresholds.line_length_spread_pct, default 5 %,
+    common practice).
+    """
+    name = draft.name or "(unnamed)"
+    joined = joined_horizons(draft)
+    if not joined:
+        raise CheckError(f"section {name}: has no horizons to restore")
+    for top_of, _ in joined:
+        restored_elevation(draft.column, top_of)  # unknown names fail here, one line
+    pin, loose, source = _pin_and_loose(draft, joined, pin, loose)
+    direction = 1 if loose > pin else -1
+    lo, hi = min(pin, loose), max(pin, loose)
+
+    # Pieces between the lines, per block.
+    blocks: dict[int, dict[str, LineString]] = {}
+    for (top_of, block), line in joined.items():
+        piece = clip_x(line, lo, hi)
+        if piece is not None and piece.length > 1e-9:
+            blocks.setdefault(block, {})[top_of] = piece
+    if not blocks:
+        raise CheckError(f"section {name}: no horizon lies between the pin line at {pin:.1f} m "
+                         f"and the loose line at {loose:.1f} m")
+    ys = {t: restored_elevation(draft.column, t) for t in {k[0] for k in joined}}
+    pieces, gaps = _lay_flat(draft, blocks, ys, pin, direction)
+    units = _restored_units(draft.column, pieces)
+    balances = _horizon_balances(pieces, ys, pin, loose, direction, snap_tolerance(draft))
+    ll = _line_lengths(balances, loose, direction, threshold_pct)
+    failures = ll.failures
     # Across faults the blocks are laid end to end, so a bed-length mismatch between
     # blocks shows as gaps and overlaps rather than as spread: they count too.
     area = float(sum(u.area_m2 for u in units))
@@ -458,7 +509,9 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     if gap_pct > threshold_pct:
         failures.append(f"gaps and overlaps between fault blocks in the restored state: "
                         f"{gap_pct:.2f} % of the restored area (> {threshold_pct:g} %)")
-    passed = bool(full) and mismatch <= threshold_pct and gap_pct <= threshold_pct
+    full = any(h.reaches_loose for h in balances)
+    passed = full and ll.mismatch_pct <= threshold_pct and gap_pct <= threshold_pct
     return Restoration(name, float(pin), float(loose), source, direction, float(threshold_pct),
-                       pieces, balances, units, gaps, mismatch, spread, angle, departure,
-                       short_pct, short_m, passed, failures, draft.column)
+                       pieces, balances, units, gaps, ll.mismatch_pct, ll.loose_spread_m,
+                       ll.loose_angle_deg, ll.loose_departure_m, ll.shortening_pct,
+                       ll.shortening_m, passed, failures, draft.column)

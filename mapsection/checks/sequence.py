@@ -24,7 +24,7 @@ from shapely.geometry import LineString
 
 from ..draft import Draft
 from ..errors import CheckError
-from .geometry import clip_x, fault_blocks, joined_horizons, line_xy, y_at
+from .geometry import FaultBlocks, clip_x, fault_blocks, joined_horizons, line_xy, y_at
 from .restore import Restoration
 
 __all__ = ["Frame", "FrameHorizon", "incremental_sequence"]
@@ -92,23 +92,31 @@ def incremental_sequence(draft: Draft, restoration: Restoration, n_steps: int = 
             pts = np.vstack([p0, p0 + np.cumsum(steps, axis=0)])
             fh.append(FrameHorizon(rp.top_of, rp.block, LineString(pts)))
             ends[(rp.top_of, rp.block)] = pts
-        faults = []
-        for fb in blocks.values():
-            pts = []
-            for t, (_, fw) in fb.cutoffs.items():
-                p = ends.get((t, fb.footwall))
-                src = joined.get((t, fb.footwall))
-                if fw is None or p is None or src is None:
-                    continue
-                # the footwall cutoff is the piece end nearest to the drafted cutoff
-                c = clip_x(src, lo, hi)
-                if c is None:
-                    continue
-                cc = line_xy(c) if sgn > 0 else line_xy(c)[::-1]
-                first = np.hypot(*(cc[0] - fw)) <= np.hypot(*(cc[-1] - fw))
-                pts.append(p[0] if first else p[-1])
-            if len(pts) >= 2:
-                pts.sort(key=lambda q: -q[1])
-                faults.append(LineString(pts))
-        frames.append(Frame(k, f, fh, faults))
+        frames.append(Frame(k, f, fh, _frame_faults(blocks, ends, joined, (lo, hi), sgn)))
     return frames
+
+
+def _frame_faults(blocks: dict[str, FaultBlocks], ends: dict[tuple[str, int], np.ndarray],
+                  joined: dict[tuple[str, int], LineString], span: tuple[float, float],
+                  sgn: int) -> list[LineString]:
+    """Each fault in a frame: through its footwall cutoffs, where the frame's beds put them."""
+    lo, hi = span
+    faults = []
+    for fb in blocks.values():
+        pts = []
+        for t, (_, fw) in fb.cutoffs.items():
+            p = ends.get((t, fb.footwall))
+            src = joined.get((t, fb.footwall))
+            if fw is None or p is None or src is None:
+                continue
+            # the footwall cutoff is the piece end nearest to the drafted cutoff
+            c = clip_x(src, lo, hi)
+            if c is None:
+                continue
+            cc = line_xy(c) if sgn > 0 else line_xy(c)[::-1]
+            first = np.hypot(*(cc[0] - fw)) <= np.hypot(*(cc[-1] - fw))
+            pts.append(p[0] if first else p[-1])
+        if len(pts) >= 2:
+            pts.sort(key=lambda q: -q[1])
+            faults.append(LineString(pts))
+    return faults

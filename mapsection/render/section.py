@@ -136,18 +136,9 @@ def _map_fault_marks(xy: np.ndarray, kind: str, dip_direction: float, size: floa
 
 
 # --- the figure -------------------------------------------------------------------
-def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
-    """Build the section page as a matplotlib Figure (not saved)."""
-    ve = float(draft.ve or 1.0)
+def _vertical_range(draft: Draft) -> tuple[float, float]:
+    """From the section's base to a little above the highest ground (elevations, m)."""
     prof = draft.profile
-    col_names = draft.column.names
-    extra = sorted({u.unit for u in draft.units} - set(col_names))
-    palette = C.unit_colours(draft.column, extra)
-
-    x0, x1 = 0.0, float(draft.line.length)
-    xspan = max(x1 - x0, 1.0)
-
-    # Vertical extent: from the section's base to a little above the highest ground.
     zg = prof.z[np.isfinite(prof.z)]
     ztop = float(zg.max()) if zg.size else 0.0
     zlow_candidates = [draft.base_elevation_m] if np.isfinite(draft.base_elevation_m) else []
@@ -158,20 +149,11 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
         if not u.geometry.is_empty:
             zlow_candidates.append(u.geometry.bounds[1])
     zbot = min(zlow_candidates) if zlow_candidates else (float(zg.min()) if zg.size else -1000.0)
-    zspan = max(ztop - zbot, 1.0)
-    ylim = (zbot, ztop + 0.18 * zspan)
+    return zbot, ztop
 
-    # Page layout in inches: the page is sized to the section's exaggerated shape.
-    legend_rows = _legend_rows(draft, palette)
-    page = page_layout(xspan, ylim[1] - ylim[0], ve, tuple(map(len, legend_rows)),
-                       map_data is not None)
-    ylim = (ylim[0], ylim[0] + page.yspan)
-    fig = Figure(figsize=(page.width, page.height))
-    fh = page.height
-    ax = fig.add_axes(tuple(v / d for v, d in zip(page.axes, (page.width, fh) * 2, strict=True)))
-    below_y = page.below / fh  # figure fraction of the VE / scale-bar row
 
-    # Units.
+def _draw_units_and_horizons(ax, draft: Draft, palette: dict[str, str]) -> None:
+    """The unit fills, the axial surfaces under the horizons, the horizons and the ground."""
     patches, faces = [], []
     for u in draft.units:
         path = polygon_path(u.geometry)
@@ -204,9 +186,11 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
         art.set_gid(f"horizon-{i}")
 
     # Ground.
-    ax.plot(prof.distance, prof.z, zorder=5, **C.GROUND.kwargs())
+    ax.plot(draft.profile.distance, draft.profile.z, zorder=5, **C.GROUND.kwargs())
 
-    # Faults and their sense.
+
+def _draw_faults(ax, draft: Draft, ve: float, xspan: float, zspan: float) -> None:
+    """The faults with their half-arrows of relative motion and their names."""
     arrow_size = 0.035 * xspan
     for i, f in enumerate(draft.faults):
         parts = lines_xy(f.geometry)
@@ -226,7 +210,9 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
                     bbox={"boxstyle": "round,pad=0.1", "facecolor": "white", "alpha": 0.7,
                           "linewidth": 0})
 
-    # Projected dips: short ticks at their apparent dip, with the section's VE.
+
+def _draw_dips(ax, draft: Draft, ve: float, xspan: float) -> None:
+    """Projected dips: short ticks at their apparent dip, with the section's VE."""
     dips = draft.dips
     if len(dips):
         a0, a1 = tick_segment(dips.distance_m, dips.elevation_m, dips.apparent_dip, ve,
@@ -240,12 +226,15 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
                             **C.DIP_TICK.kwargs())
             ln.set_gid(f"dip-{i}")
 
-    # Bends of the section line.
+
+def _draw_frame(ax, draft: Draft, ve: float, xlim: tuple[float, float],
+                ylim: tuple[float, float]) -> None:
+    """The bends of the section line, the axes, the ends named with bearings, the title."""
     for d in draft.line.cumulative[1:-1]:
         ax.axvline(d, color="#999999", linewidth=0.6, linestyle=(0, (2, 2)), zorder=4)
         ax.text(d, ylim[1], " bend", fontsize=6, color="#666666", va="top", ha="left")
 
-    ax.set_xlim(x0, x1)
+    ax.set_xlim(*xlim)
     ax.set_ylim(*ylim)
     ax.set_aspect(ve, adjustable="box", anchor="SW")
     ax.set_xlabel("Distance along section (m)")
@@ -266,7 +255,11 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
     ax.set_title(f"Draft section {left}–{right}  ·  {method} construction", fontsize=10,
                  pad=34, y=1.0)  # y given: no tick-label measuring to place the title
 
-    # VE statement and scale bar below the axes (x in data, y in axes fraction).
+
+def _draw_scale(fig: Figure, ax, ve: float, x0: float, xspan: float, page: PageLayout) -> None:
+    """VE statement and scale bar below the axes (x in data, y in figure fraction)."""
+    fh = page.height
+    below_y = page.below / fh  # figure fraction of the VE / scale-bar row
     tr = blended_transform_factory(ax.transData, fig.transFigure)
     ax.text(x0, below_y, ve_text(ve), transform=tr, fontsize=8, va="center")
     L = nice_length(xspan)
@@ -282,6 +275,32 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
         ax.text(x0 + 0.4 * xspan + xx, below_y - bh, lab, transform=tr, ha="center", va="top",
                 fontsize=7)
 
+
+def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
+    """Build the section page as a matplotlib Figure (not saved)."""
+    ve = float(draft.ve or 1.0)
+    extra = sorted({u.unit for u in draft.units} - set(draft.column.names))
+    palette = C.unit_colours(draft.column, extra)
+
+    x0, x1 = 0.0, float(draft.line.length)
+    xspan = max(x1 - x0, 1.0)
+    zbot, ztop = _vertical_range(draft)
+    zspan = max(ztop - zbot, 1.0)
+    ylim = (zbot, ztop + 0.18 * zspan)
+
+    # Page layout in inches: the page is sized to the section's exaggerated shape.
+    legend_rows = _legend_rows(draft, palette)
+    page = page_layout(xspan, ylim[1] - ylim[0], ve, tuple(map(len, legend_rows)),
+                       map_data is not None)
+    ylim = (ylim[0], ylim[0] + page.yspan)
+    fig = Figure(figsize=(page.width, page.height))
+    ax = fig.add_axes(tuple(v / d for v, d in zip(page.axes, (page.width, page.height) * 2,
+                                                   strict=True)))
+    _draw_units_and_horizons(ax, draft, palette)
+    _draw_faults(ax, draft, ve, xspan, zspan)
+    _draw_dips(ax, draft, ve, xspan)
+    _draw_frame(ax, draft, ve, (x0, x1), ylim)
+    _draw_scale(fig, ax, ve, x0, xspan, page)
     _legend(fig, legend_rows, page)
     if map_data is not None:
         _inset(fig, draft, map_data, palette, page)
@@ -351,23 +370,13 @@ def _column(frame, name: str) -> np.ndarray:
     return np.full(len(frame), None, dtype=object)
 
 
-def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str],
-           page: PageLayout) -> None:
-    """Location inset: the geologic map around the line, the line, its ends named."""
-    left, bottom, size = page.inset
-    iax = fig.add_axes((left / page.width, bottom / page.height, size / page.width,
-                        size / page.height))
-    line = draft.line
-    v = line.vertices
-    # A square extent (the inset box is square) around the line, with a margin.
-    centre = (v.min(axis=0) + v.max(axis=0)) / 2
-    half = 0.5 * float(np.max(v.max(axis=0) - v.min(axis=0))) + 0.15 * line.length
-    xmin, ymin = centre - half
-    xmax, ymax = centre + half
-    box = shapely.box(xmin, ymin, xmax, ymax)
+def _inset_units(iax, map_data: MapData, palette: dict[str, str],
+                 bounds: tuple[float, float, float, float]) -> None:
+    """The map's unit polygons within ``bounds`` (xmin, ymin, xmax, ymax), filled."""
+    xmin, ymin, xmax, ymax = bounds
     geoms, names = map_data.unit_geoms, map_data.unit_names
     if len(geoms):
-        idx = np.sort(map_data.unit_tree.query(box))
+        idx = np.sort(map_data.unit_tree.query(shapely.box(*bounds)))
         # The map's polygons are often traced on a fine grid (tens of thousands of
         # vertices); at the inset's scale a quarter of a 150-dpi pixel is ~1/1500 of
         # its width, so simplifying to that loses nothing visible and draws far less.
@@ -385,6 +394,12 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
         if patches:
             iax.add_collection(PatchCollection(patches, facecolors=faces, edgecolors="#666666",
                                                linewidths=0.2))
+
+
+def _inset_faults(iax, map_data: MapData, bounds: tuple[float, float, float, float]) -> None:
+    """The map's faults within ``bounds`` with their sense marks (teeth, bar and ball)."""
+    xmin, ymin, xmax, ymax = bounds
+    box = shapely.box(*bounds)
     faults = map_data.faults
     if faults is not None and len(faults):
         ff = dict(map_data.fault_fields or {})
@@ -414,6 +429,23 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
         if balls:
             b = np.asarray(balls)
             iax.plot(b[:, 0], b[:, 1], "o", color="black", markersize=3)
+
+
+def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str],
+           page: PageLayout) -> None:
+    """Location inset: the geologic map around the line, the line, its ends named."""
+    left, bottom, size = page.inset
+    iax = fig.add_axes((left / page.width, bottom / page.height, size / page.width,
+                        size / page.height))
+    line = draft.line
+    v = line.vertices
+    # A square extent (the inset box is square) around the line, with a margin.
+    centre = (v.min(axis=0) + v.max(axis=0)) / 2
+    half = 0.5 * float(np.max(v.max(axis=0) - v.min(axis=0))) + 0.15 * line.length
+    xmin, ymin = centre - half
+    xmax, ymax = centre + half
+    _inset_units(iax, map_data, palette, (xmin, ymin, xmax, ymax))
+    _inset_faults(iax, map_data, (xmin, ymin, xmax, ymax))
     iax.plot(v[:, 0], v[:, 1], **C.SECTION_LINE.kwargs())
     left, right = end_names(draft.name)
     for p, lab in ((v[0], left), (v[-1], right)):

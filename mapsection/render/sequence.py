@@ -39,6 +39,15 @@ FRAME_DPI = 80
 FRAME_SIZE_IN = (6.4, 3.0)
 
 
+def _frame_limits(ax, frames: list[Frame]) -> None:
+    """Axes limits holding every frame, with a margin."""
+    allc = np.vstack([line_xy(h.geometry) for fr in frames for h in fr.horizons])
+    (x0, y0), (x1, y1) = allc.min(axis=0), allc.max(axis=0)
+    pad_x, pad_y = 0.03 * (x1 - x0 + 1.0), 0.1 * (y1 - y0 + 1.0)
+    ax.set_xlim(x0 - pad_x, x1 + pad_x)
+    ax.set_ylim(y0 - pad_y, y1 + pad_y)
+
+
 def write_sequence(frames: list[Frame], folder: str | os.PathLike, *,
                    column: Column | None = None,
                    title: str = "", duration_ms: int = 450) -> list[Path]:
@@ -53,9 +62,6 @@ def write_sequence(frames: list[Frame], folder: str | os.PathLike, *,
         raise OutputError(f"{folder}: output folder does not exist")
     if not frames:
         raise CheckError("incremental sequence: no frames to write")
-    allc = np.vstack([line_xy(h.geometry) for fr in frames for h in fr.horizons])
-    (x0, y0), (x1, y1) = allc.min(axis=0), allc.max(axis=0)
-    pad_x, pad_y = 0.03 * (x1 - x0 + 1.0), 0.1 * (y1 - y0 + 1.0)
     names = sorted({h.top_of for fr in frames for h in fr.horizons})
     cols = unit_palette(column, names)
     n = len(frames) - 1
@@ -64,8 +70,7 @@ def write_sequence(frames: list[Frame], folder: str | os.PathLike, *,
     canvas = FigureCanvasAgg(fig)
     fig.subplots_adjust(bottom=0.25)
     ax = fig.add_subplot()
-    ax.set_xlim(x0 - pad_x, x1 + pad_x)
-    ax.set_ylim(y0 - pad_y, y1 + pad_y)
+    _frame_limits(ax, frames)
     ax.set_xlabel("distance (m)", fontsize=8)
     ax.set_ylabel("elevation (m)", fontsize=8)
     ax.tick_params(labelsize=7)
@@ -99,10 +104,14 @@ def write_sequence(frames: list[Frame], folder: str | os.PathLike, *,
         paths.append(path)
         # Few flat colours: the fast octree palette loses nothing visible here.
         images.append(rgb.quantize(256, method=Image.Quantize.FASTOCTREE))
-    gif = folder / "sequence.gif"
+    paths.append(_save_gif(images, folder / "sequence.gif", duration_ms))
+    return paths
+
+
+def _save_gif(images: list[Image.Image], path: Path, duration_ms: int) -> Path:
+    """An animated GIF of the frames, looping, the last one held three times as long."""
     durations = [duration_ms] * (len(images) - 1) + [duration_ms * 3]
-    with atomic_file(gif) as tmp:
+    with atomic_file(path) as tmp:
         images[0].save(tmp, format="GIF", save_all=True, append_images=images[1:],
                        duration=durations, loop=0)
-    paths.append(gif)
-    return paths
+    return path
