@@ -47,3 +47,43 @@ def test_no_check_module_imports_a_private_name():
             if isinstance(node, ast.ImportFrom) and node.level > 0:
                 private = [a.name for a in node.names if a.name.startswith("_")]
                 assert not private, f"{path.name} imports {private} from {node.module}"
+
+
+def _imports(path: Path, module: str, modules: set[str]) -> set[str]:
+    """The package's modules that a module imports (anywhere in it, but for type checking)."""
+    package = module if path.name == "__init__.py" else module.rsplit(".", 1)[0]
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    typing_only = {id(n) for node in ast.walk(tree) if isinstance(node, ast.If)
+                   and ast.unparse(node.test) in ("TYPE_CHECKING", "typing.TYPE_CHECKING")
+                   for n in ast.walk(node)}
+    out = set()
+    for node in ast.walk(tree):
+        if id(node) in typing_only:
+            continue
+        if isinstance(node, ast.ImportFrom):
+            base = package.split(".")[: len(package.split(".")) - max(node.level - 1, 0)]
+            target = ".".join(base + [node.module]) if node.level and node.module else (
+                ".".join(base) if node.level else node.module or "")
+            out |= {c for c in [target, *(f"{target}.{a.name}" for a in node.names)]
+                    if c in modules}
+        elif isinstance(node, ast.Import):
+            out |= {a.name for a in node.names if a.name in modules}
+    return out - {module}
+
+
+def test_no_import_circle():
+    files = {}
+    for path in (ROOT / "mapsection").rglob("*.py"):
+        name = ".".join(path.relative_to(ROOT).with_suffix("").parts)
+        files[name.removesuffix(".__init__")] = path
+    graph = {m: _imports(p, m, set(files)) for m, p in files.items()}
+    # A module on a circle reaches itself: follow the imports from each one.
+    for start in graph:
+        seen, todo = set(), list(graph[start])
+        while todo:
+            m = todo.pop()
+            if m == start:
+                raise AssertionError(f"{start} imports itself through other modules")
+            if m not in seen:
+                seen.add(m)
+                todo += graph[m]

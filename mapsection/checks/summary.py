@@ -16,13 +16,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
 from ..project import Thresholds
 from .area import AreaBalance, DetachmentFit
-
-if TYPE_CHECKING:
-    from . import CheckReport
+from .results import CheckReport
 
 __all__ = [
     "AreaFigures",
