@@ -175,13 +175,14 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     """Build every section of a project (or the one named) into ``outdir/<name>/``.
 
     Returns the section folders written. ``timings``, when given, receives the wall
-    time of each stage (see ``STAGES``); ``summaries`` the key figures of each
-    section's checks, by section folder (:func:`mapsection.checks.key_figures`). The
-    drafts are constructed one after the other; their outputs (figures, GeoPackages,
-    checks) are written in up to ``workers`` processes at once (default: one per CPU
-    core, where the system can fork). All or nothing: the section folders replace
-    earlier builds only once every section has been written, so a failure leaves OUTDIR
-    as it was.
+    time of each stage (see ``STAGES``). The drafts are constructed one after the
+    other; their outputs (figures, GeoPackages, checks) are written in up to
+    ``workers`` processes at once (default: one per CPU core, where the system can
+    fork). All or nothing: the section folders replace earlier builds only once
+    every section has been written, so a failure leaves OUTDIR as it was.
+
+    ``summaries``, when given, receives the key figures of each section's checks
+    (:func:`mapsection.checks.key_figures`) by section folder.
     """
     _check_options(method, ve)
     warn = warn or _default_warn
