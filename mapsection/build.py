@@ -7,10 +7,11 @@ folder ``OUTDIR/<section name>/`` holding
 - ``section_3d.gpkg`` -- the ground, horizons and faults as LineString Z in the
   project CRS;
 - ``section.png``, ``section.svg``, ``section.pdf`` -- the figure
-  (see :mod:`mapsection.figure`);
+  (see :mod:`mapsection.render.section`);
 - ``build.log`` -- what the construction did and every warning it gave;
 - ``checks.json`` and ``report.html`` -- the balance checks; ``restored.png/.svg/.pdf``,
-  ``area_depth.png`` and ``sequence/`` (frames and an animated GIF) -- their figures.
+  ``area_depth.png`` and ``sequence/`` (frames and an animated GIF) -- their figures
+  (see :mod:`mapsection.render.section_folder`, which ``mapsection check`` uses too).
 
 Each folder is written into a temporary sibling and replaces a previous build
 only once every file of the new one is complete: a failed build leaves the
@@ -32,7 +33,7 @@ import time
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -44,6 +45,9 @@ from .errors import OutputError, ParameterError
 from .line import SectionLine
 from .project import METHODS, Project, SectionSpec, load_project
 from .session import ProjectInputs, SectionSession, load_inputs
+
+if TYPE_CHECKING:
+    from .checks import CheckReport, KeyFigures
 
 Warn = Callable[[str], None]
 STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
@@ -127,7 +131,7 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
                           log: bool = True) -> list[Path]:
     """Write section.gpkg, section_3d.gpkg, section.png/.svg/.pdf and (``log``) build.log."""
     from .export import write_section_3d, write_section_gpkg
-    from .figure import draw_section
+    from .render.section import draw_section
 
     folder = Path(folder)
     if not folder.is_dir():
@@ -144,72 +148,30 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
 
 def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpec,
                   warn: Warn | None = None, timings: dict[str, float] | None = None
-                  ) -> list[Path]:
+                  ) -> CheckReport:
     """CHECKS CALL POINT: run the balance checks and write their outputs into ``folder``.
 
-    Writes checks.json, the restored layers into section.gpkg (``restored_horizons``,
-    ``restored_units``), restored.png/.svg/.pdf, area_depth.png, the incremental
-    sequence (sequence/sequence_01.png ... and sequence.gif) and report.html.
-    A failed test is a result and is written like a pass; CheckError (a bad pin or
-    loose line) stops the build like any bad input.
+    The outputs are those of :func:`mapsection.render.section_folder.write_check_outputs`
+    (checks.json, the restored layers in section.gpkg, restored.png/.svg/.pdf,
+    area_depth.png, sequence/ and report.html). A failed test is a result and is written
+    like a pass; CheckError (a bad pin or loose line) stops the build like any bad input.
     """
-    import json
-
     from .checks import run_checks
+    from .render.section_folder import write_check_outputs
 
     with _stage(timings, "checks"):
         report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
                             warn=warn)
-        text = json.dumps(report.to_dict(), indent=2, allow_nan=False)
-        checks = folder / "checks.json"
-        with atomic_file(checks) as tmp:
-            tmp.write_text(text + "\n", encoding="utf-8")
     with _stage(timings, "check figures"):
-        return [checks, *_write_check_outputs(folder, draft, report)]
-
-
-def _write_check_outputs(folder: Path, draft: Draft, report: Any) -> list[Path]:
-    """The checks' figures, restored layers and report.html (see :func:`_write_checks`)."""
-    from .report import write_report
-
-    out: list[Path] = []
-    figures = {"section": folder / "section.png"}
-    restoration = getattr(report, "restoration", None)
-    if restoration is not None:
-        from .checks.restore import draw_restoration, restoration_frames
-        from .export import add_layers
-
-        add_layers(folder / "section.gpkg", restoration_frames(restoration))
-        out += draw_restoration(restoration, folder / "restored")
-        figures["restored"] = folder / "restored.png"
-        from .checks.sequence import incremental_sequence, write_sequence
-
-        # The structure forming step by step: sequence/sequence_01.png ... and a GIF.
-        seq = folder / "sequence"
-        seq.mkdir()
-        frames = incremental_sequence(draft, restoration)
-        written = write_sequence(frames, seq, column=draft.column, title=draft.name)
-        out += written
-        pngs = [p for p in written if p.suffix == ".png"]
-        if pngs:
-            figures["sequence_first"], figures["sequence_last"] = pngs[0], pngs[-1]
-        gifs = [p for p in written if p.suffix == ".gif"]
-        if gifs:
-            figures["sequence"] = gifs[0]
-    fit = getattr(getattr(report, "area_balance", None), "detachment", None)
-    if fit is not None and len(getattr(fit, "points", ())) >= 2:
-        from .checks.area import draw_area_depth
-
-        out.append(draw_area_depth(fit, folder / "area_depth.png"))
-        figures["area_depth"] = folder / "area_depth.png"
-    out.append(write_report(folder / "report.html", draft, report, figures))
-    return out
+        write_check_outputs(folder, draft, report)
+    return report
 
 
 def build_project(project_path: str | Path, outdir: str | Path, *, section: str | None = None,
                   method: str | None = None, ve: float | None = None, warn: Warn | None = None,
                   timings: dict[str, float] | None = None,
-                  workers: int | None = None) -> list[Path]:
+                  workers: int | None = None,
+                  summaries: dict[Path, KeyFigures] | None = None) -> list[Path]:
     """Build every section of a project (or the one named) into ``outdir/<name>/``.
 
     Returns the section folders written. ``timings``, when given, receives the wall
@@ -218,6 +180,9 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     ``workers`` processes at once (default: one per CPU core, where the system can
     fork). All or nothing: the section folders replace earlier builds only once
     every section has been written, so a failure leaves OUTDIR as it was.
+
+    ``summaries``, when given, receives the key figures of each section's checks
+    (:func:`mapsection.checks.key_figures`) by section folder.
     """
     _check_options(method, ve)
     warn = warn or _default_warn
@@ -250,12 +215,14 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
             finally:
                 # Closed before any fork: no GDAL file handle is shared with a worker.
                 inputs.close()
-            for job, said, job_timings in _run_jobs(jobs, inputs.map_data, workers):
+            for job, said, job_timings, figures in _run_jobs(jobs, inputs.map_data, workers):
                 for message in said[len(job.said):]:  # the checks' warnings, said in a worker
                     warn(_named(message, job.spec.name))
                 if timings is not None:
                     for k, v in job_timings.items():
                         timings[k] = timings.get(k, 0.0) + v
+                if summaries is not None:
+                    summaries[job.target] = figures
     except BaseException:
         if created:
             with contextlib.suppress(OSError):
@@ -290,27 +257,31 @@ def _section_warn(warn: Warn, name: str, said: list[str]) -> Warn:
     return section_warn
 
 
-def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float]]:
-    """Write one section's folder; returns everything said and the stage timings."""
+def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], KeyFigures]:
+    """Write one section's folder; returns everything said, the stage timings and the key
+    figures of the checks."""
+    from .checks import key_figures
+
     said = list(job.said)
     timings: dict[str, float] = {}
     write_section_outputs(job.draft, job.folder, map_data, timings=timings, log=False)
-    _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings)
+    report = _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings)
     write_build_log(job.draft, job.folder / "build.log", said)  # with the checks' notes too
-    return said, timings
+    return said, timings, key_figures(report)
 
 
 # The jobs of the build in progress, read by forked workers (nothing is pickled but an index).
 _JOBS: list[tuple[_Job, Any]] = []
 
 
-def _write_job_at(index: int) -> tuple[list[str], dict[str, float]]:
+def _write_job_at(index: int) -> tuple[list[str], dict[str, float], KeyFigures]:
     job, map_data = _JOBS[index]
     return _write_job(job, map_data)
 
 
 def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None):
-    """Yield (job, said, timings) for each job, writing them in parallel where that pays."""
+    """Yield (job, said, timings, key figures) for each job, writing them in parallel where
+    that pays."""
     import multiprocessing
     import os
 
@@ -322,8 +293,9 @@ def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None):
     from concurrent.futures import ProcessPoolExecutor
 
     # Import the drawing and writing code once, here, so that workers inherit it.
-    from . import export, figure, report  # noqa: F401
-    from .checks import area, restore, sequence  # noqa: F401
+    from . import checks, export  # noqa: F401
+    from .render import area_depth, report, restoration, section, section_folder  # noqa: F401
+    from .render import sequence as render_sequence  # noqa: F401
 
     _JOBS[:] = [(job, map_data) for job in jobs]
     try:
@@ -331,8 +303,8 @@ def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None):
             results = list(pool.map(_write_job_at, range(len(jobs))))
     finally:
         _JOBS.clear()
-    for job, (said, timings) in zip(jobs, results, strict=True):
-        yield job, said, timings
+    for job, (said, timings, figures) in zip(jobs, results, strict=True):
+        yield job, said, timings, figures
 
 
 def _folder_name(name: str) -> str:

@@ -9,76 +9,90 @@ way::
     project = load_project("sample_area/project.toml")
     draft, report = check_section(project, project.section("A"))
     print("\n".join(summary_lines(report)))
+
+The figures of the table come from :func:`mapsection.checks.key_figures`; the files
+(``--json``, ``--html``) are written by :mod:`mapsection.render.section_folder`, the
+writer ``mapsection build`` uses.
 """
 
 from __future__ import annotations
 
-import json
 import math
 from collections.abc import Callable
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from ._messages import default_warn as _default_warn
-from .checks import TESTS, units_worst
+from .checks import CheckReport, KeyFigures, key_figures
+from .checks.area import DetachmentFit
 from .errors import CheckError
+
+if TYPE_CHECKING:
+    from .session import ProjectInputs
 
 
 def _num(v, fmt: str) -> str:
     return "-" if v is None or (isinstance(v, float) and not math.isfinite(v)) else format(v, fmt)
 
 
-def _detachment_text(fit: dict) -> str:
+def _detachment_text(fit: DetachmentFit | None) -> str:
     """The area-depth result for the table: a depth only when the fit can be trusted."""
-    if not fit:
+    if fit is None:
         return "depth to detachment not measured (fewer than 2 horizons)"
-    r2 = _num(fit.get("r_squared"), ".3f")
-    if not fit.get("reliable"):
-        why = "; ".join(str(i).split(":")[0] for i in fit.get("issues") or [])
+    r2 = _num(fit.r_squared, ".3f")
+    if not fit.reliable:
+        why = "; ".join(str(i).split(":")[0] for i in fit.issues)
         return f"depth to detachment not determined ({why}; R² {r2})"
-    return (f"detachment at elevation {_num(fit.get('detachment_elevation_m'), '.0f')} m, "
-            f"{_num(fit.get('depth_to_detachment_m'), '.0f')} m below {fit.get('datum')} "
+    return (f"detachment at elevation {_num(fit.detachment_elevation_m, '.0f')} m, "
+            f"{_num(fit.depth_to_detachment_m, '.0f')} m below {fit.datum} "
             f"(R² {r2})")
 
 
-def summary_lines(report) -> list[str]:
-    """One line per test: name, PASS/FAIL and its key figures against the thresholds."""
-    d = report.to_dict()
-    t = report.thresholds
-    topo, rest, area, kin = (d[k] for k in ("topography", "restoration", "area_balance",
-                                             "kinematics"))
-    unit, worst = units_worst(area.get("units"))
-    fit = area.get("detachment") or {}
-    unpaired = (len(topo.get("unpaired_map_contacts") or [])
-                + len(topo.get("unpaired_section_contacts") or []))
-    n_kin = len(kin.get("failures") or [])
-    figures = {
+def _figure_texts(key: KeyFigures) -> dict[str, str]:
+    """Each test's key figures against its thresholds, as the table shows them."""
+    t = key.thresholds
+    topo, rest, area, kin = key.topography, key.restoration, key.area_balance, key.kinematics
+    n_kin = kin.inconsistencies
+    unit = area.worst_unit
+    return {
         "topography": (
-            f"contact RMS {_num(topo.get('contact_rms_m'), '.1f')} m "
-            f"(<= {_num(topo.get('contact_threshold_m'), '.1f')}), "
-            f"unit agreement {_num(topo.get('unit_agreement'), '.3f')} "
-            f"(>= {t.unit_agreement:.2f}), dip RMS {_num(topo.get('dip_rms_deg'), '.1f')} deg "
+            f"contact RMS {_num(topo.contact_rms_m, '.1f')} m "
+            f"(<= {_num(topo.contact_threshold_m, '.1f')}), "
+            f"unit agreement {_num(topo.unit_agreement, '.3f')} "
+            f"(>= {t.unit_agreement:.2f}), dip RMS {_num(topo.dip_rms_deg, '.1f')} deg "
             f"(<= {t.dip_rms_deg:g}), unpaired contacts "
-            f"{unpaired} (<= {topo.get('max_unpaired')})"
+            f"{topo.unpaired_contacts} (<= {topo.max_unpaired})"
         ),
         "restoration": (
-            f"shortening {_num(rest.get('shortening_pct'), '.1f')} % "
-            f"({_num(rest.get('shortening_m'), '.0f')} m), line-length spread "
-            f"{_num(rest.get('line_length_mismatch_pct'), '.2f')} % "
+            f"shortening {_num(rest.shortening_pct, '.1f')} % "
+            f"({_num(rest.shortening_m, '.0f')} m), line-length spread "
+            f"{_num(rest.line_length_mismatch_pct, '.2f')} % "
             f"(<= {t.line_length_spread_pct:g})"
         ),
         "area_balance": (
-            f"worst unit mismatch {_num(worst, '.2f')} %{f' ({unit})' if unit else ''} "
-            f"(<= {t.area_mismatch_pct:g}), {_detachment_text(fit)}"
+            f"worst unit mismatch {_num(area.worst_mismatch_pct, '.2f')} %"
+            f"{f' ({unit})' if unit else ''} "
+            f"(<= {t.area_mismatch_pct:g}), {_detachment_text(area.detachment)}"
         ),
         "kinematics": (f"{n_kin} inconsistenc{'y' if n_kin == 1 else 'ies'}, transport "
-                       f"{kin.get('transport_direction') or '-'}, "
-                       f"{len(kin.get('fault_bend_folds') or [])} fault-bend fold(s) compared"),
+                       f"{kin.transport_direction or '-'}, "
+                       f"{kin.fault_bend_folds} fault-bend fold(s) compared"),
     }
-    lines = [f"section {d['section']} (method {d['method']}, VE {report.ve:g})",
+
+
+def summary_lines(report: CheckReport) -> list[str]:
+    """One line per test: name, PASS/FAIL and its key figures against the thresholds."""
+    key = key_figures(report)
+    lines = [f"section {key.section} (method {key.method}, VE {key.ve:g})",
              f"  {'test':<13} {'result':<6} figures (thresholds)"]
-    for k, text in figures.items():
-        lines.append(f"  {k:<13} {'PASS' if d[k]['passed'] else 'FAIL':<6} {text}")
+    for k, text in _figure_texts(key).items():
+        lines.append(f"  {k:<13} {'PASS' if key.results[k] else 'FAIL':<6} {text}")
     return lines
+
+
+def result_line(key: KeyFigures) -> str:
+    """One line: each test PASS or FAIL (what ``mapsection demo`` prints per section)."""
+    return "  ".join(f"{k} {'PASS' if ok else 'FAIL'}" for k, ok in key.results.items())
 
 
 def gpkg_layers_and_section(path: Path) -> tuple[list[str], str]:
@@ -117,11 +131,13 @@ def infer_section(project, path: Path):
     )
 
 
-def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _default_warn):
+def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _default_warn,
+                 *, inputs: ProjectInputs | None = None):
     """A draft whose horizons and faults come from a section.gpkg, checked against real data.
 
     The profile, surface geology and dips are re-derived from the project's DEM,
-    map and attitudes, so the topography test still compares with the real ground.
+    map and attitudes (``inputs``, when already loaded), so the topography test still
+    compares with the real ground.
     """
     from .export import read_section_gpkg
     from .session import SectionSession
@@ -130,16 +146,25 @@ def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _de
     if recorded and recorded != spec.name:
         warn_fn(f"{path}: was built for section {recorded!r}; checking it as section "
                 f"{spec.name!r} as asked")
-    with SectionSession.from_project(project, spec, warn=warn_fn) as session:
-        data = session.run()
+    if inputs is not None:
+        data = SectionSession.from_inputs(inputs, project, spec, warn=warn_fn).run()
+    else:
+        with SectionSession.from_project(project, spec, warn=warn_fn) as session:
+            data = session.run()
     draft = read_section_gpkg(path, project.column, data.line, spec.name, profile=data.profile,
                               geology=data.geology, dips=data.dips)
     return draft
 
 
 def check_section(project, spec, from_path: Path | None = None,
-                  warn_fn: Callable[[str], None] = _default_warn):
-    """Build (or read back) one section and run the four tests on it."""
+                  warn_fn: Callable[[str], None] = _default_warn, *,
+                  inputs: ProjectInputs | None = None):
+    """Build (or read back) one section and run the four tests on it.
+
+    ``inputs`` (from :func:`mapsection.session.load_inputs`) share the loaded map,
+    attitudes and DEM, as ``mapsection build`` does; without them they are read for
+    this section alone. Returns the draft and its :class:`~mapsection.checks.CheckReport`.
+    """
     from .checks import run_checks
     from .checks.topography import validate_thresholds
 
@@ -150,33 +175,7 @@ def check_section(project, spec, from_path: Path | None = None,
     if from_path is None:
         from .build import build_section
 
-        draft = build_section(project, spec, warn=warn_fn)
+        draft = build_section(project, spec, warn=warn_fn, inputs=inputs)
     else:
-        draft = edited_draft(project, spec, from_path, warn_fn)
+        draft = edited_draft(project, spec, from_path, warn_fn, inputs=inputs)
     return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
-
-
-def write_html_report(path: Path, draft, report) -> Path:
-    """report.html with its figures drawn in a scratch folder and embedded."""
-    import tempfile
-
-    from .checks import write_check_figures
-    from .figure import draw_section
-    from .report import write_report
-
-    with tempfile.TemporaryDirectory(prefix="mapsection-check-") as tmp:
-        drawn = draw_section(draft, Path(tmp) / "section", formats=("png",))
-        figures = {"section": Path(drawn[0])}
-        figures.update(write_check_figures(report, draft, tmp))
-        return write_report(path, draft, report, figures)
-
-
-def summary_from_json(path: str | Path) -> str:
-    """One line from a build's checks.json: each test PASS or FAIL."""
-    path = Path(path)
-    try:
-        d = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError) as exc:
-        raise CheckError(f"{path}: cannot read the check results ({exc})") from None
-    parts = [f"{k} {'PASS' if (d.get(k) or {}).get('passed') else 'FAIL'}" for k in TESTS]
-    return "  ".join(parts)

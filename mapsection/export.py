@@ -31,7 +31,8 @@ without one (a GIS shows them as a plain metric drawing). Layers:
 - ``dip_domains``: the ground over each dip domain, LineStrings, fields ``start_m``,
   ``end_m``, ``dip``, ``n_dips``, ``block`` (read back so that the checks choose the same
   default pin line for an edited file as for the build);
-- any ``extra_layers`` given (the checks add ``restored_horizons``, ``restored_units``).
+- any ``extra_layers`` given; the checks' outputs add ``restored_horizons`` and
+  ``restored_units`` (:func:`restoration_frames`, :func:`add_layers`).
 
 ``section_3d.gpkg`` (:func:`write_section_3d`) holds the ground, the horizons and
 the faults as LineString Z in the project CRS, so the section stands in place in a
@@ -53,6 +54,7 @@ import os
 import warnings
 from collections.abc import Iterator
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import geopandas as gpd
 import numpy as np
@@ -70,6 +72,9 @@ from .geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from .line import SectionLine
 from .profile import Profile
 from .stratigraphy import Column
+
+if TYPE_CHECKING:
+    from .checks.restore import Restoration
 
 # layer -> (geometry type, fields that read_section_gpkg needs)
 LAYERS: dict[str, tuple[str, tuple[str, ...]]] = {
@@ -299,6 +304,30 @@ def add_layers(path: str | os.PathLike, frames: dict[str, gpd.GeoDataFrame]) -> 
     with _fast_sqlite():
         _append_layers(path, frames, have)
     return path
+
+
+def restoration_frames(restoration: Restoration) -> dict[str, gpd.GeoDataFrame]:
+    """GeoDataFrames ``restored_horizons`` and ``restored_units`` in restored section space
+    (for :func:`add_layers`; see :mod:`mapsection.checks.restore`)."""
+    pieces, units = restoration.pieces, restoration.units
+    hz = gpd.GeoDataFrame(
+        {
+            "top_of": [p.top_of for p in pieces],
+            "block": [p.block for p in pieces],
+            "bed_length_m": [p.bed_length_m for p in pieces],
+            "restored_length_m": [p.restored_length_m for p in pieces],
+        },
+        geometry=[p.geometry for p in pieces],
+    )
+    un = gpd.GeoDataFrame(
+        {
+            "unit": [u.unit for u in units],
+            "block": [u.block for u in units],
+            "area_m2": [u.area_m2 for u in units],
+        },
+        geometry=[u.geometry for u in units],
+    )
+    return {"restored_horizons": hz, "restored_units": un}
 
 
 def _append_layers(path: Path, frames: dict[str, gpd.GeoDataFrame], have: set[str]) -> None:

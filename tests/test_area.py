@@ -7,10 +7,11 @@ import pytest
 from shapely.geometry import LineString, Polygon
 from test_restore import TAN30, make_draft, parallel
 
-from mapsection.checks.area import area_balance, depth_to_detachment, draw_area_depth
+from mapsection.checks.area import area_balance, depth_to_detachment
 from mapsection.checks.restore import restore_section
 from mapsection.draft import Horizon
 from mapsection.errors import CheckError
+from mapsection.render.area_depth import draw_area_depth
 from mapsection.stratigraphy import Column, Unit
 
 KINK = Column((Unit("A", 300.0), Unit("B", 400.0), Unit("C", 500.0), Unit("D", 800.0)))

@@ -86,6 +86,19 @@ def test_unedited_file_passes_like_the_build(built, tmp_path):
         assert again[key] == pytest.approx(first[key], rel=1e-6, abs=1e-6), key
 
 
+def test_check_writes_the_report_the_build_writes(built, tmp_path):
+    # self-consistency: 'check --html/--json' and 'build' share one writer of a section's
+    # check outputs, so for the same section they write the same files, byte for byte
+    res = _run("check", PROJECT, "--section", "A", "--html", tmp_path / "report.html",
+               "--json", tmp_path / "checks.json")
+    assert res.exit_code == 0, res.output
+    for name in ("checks.json", "report.html"):
+        assert (tmp_path / name).read_bytes() == (built / name).read_bytes(), name
+    html = (tmp_path / "report.html").read_text("utf-8")
+    assert 'src="data:image/gif;base64,' in html  # the sequence's GIF, as the build's has
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["checks.json", "report.html"]
+
+
 def _below_older(names: list[str], unit: str) -> str:
     """The horizon closing ``unit`` below: the next older top, or the column's base."""
     i = names.index(unit)

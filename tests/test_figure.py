@@ -17,13 +17,14 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from PIL import Image
 from shapely.geometry import LineString, box
 
-from mapsection.colours import chart_colour, fault_kind, unit_colours
 from mapsection.dips import ProjectedDips
 from mapsection.draft import AxialSurface, Draft, FaultTrace, Horizon, UnitPolygon
-from mapsection.figure import draw_section, nice_length, page_layout, section_figure, ve_text
 from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
 from mapsection.profile import Profile
+from mapsection.render.colours import chart_colour, fault_kind, unit_colours
+from mapsection.render.layout import nice_length, page_layout, ve_text
+from mapsection.render.section import draw_section, section_figure
 from mapsection.stratigraphy import Column, Unit
 
 APPARENT = np.array([10.0, -20.0, 35.0, 0.0, 60.0, -75.0])

@@ -12,8 +12,9 @@ from test_restore import make_draft as restore_draft
 from mapsection.checks.fbf import compare_with_draft, fault_bend_fold
 from mapsection.checks.kinematics import check_kinematics, horizon_crossings
 from mapsection.checks.restore import restore_section
-from mapsection.checks.sequence import incremental_sequence, write_sequence
+from mapsection.checks.sequence import incremental_sequence
 from mapsection.draft import Draft, FaultTrace, Horizon
+from mapsection.render.sequence import write_sequence
 
 
 def make_draft(horizons, faults=(), length=10000.0, column=COLUMN) -> Draft:
@@ -184,7 +185,7 @@ def test_incremental_sequence(which, tmp_path):
             assert h.geometry.length == pytest.approx(beds[(h.top_of, h.block)], rel=1e-9)
     for h in frames[0].horizons:  # the first frame is flat
         assert np.ptp(np.asarray(h.geometry.coords)[:, 1]) == pytest.approx(0.0, abs=1e-6)
-    from mapsection.checks.restore import clip_x, joined_horizons
+    from mapsection.checks.geometry import clip_x, joined_horizons
 
     joined = joined_horizons(draft)
     for h in frames[-1].horizons:  # the last frame is the draft

@@ -19,10 +19,11 @@ import pytest  # noqa: E402
 from test_topography import TOP_B, TOP_C, _draft  # noqa: E402
 
 from mapsection import CAUTION  # noqa: E402
-from mapsection.checks import run_checks, write_checks_json  # noqa: E402
+from mapsection.checks import run_checks  # noqa: E402
 from mapsection.errors import OutputError  # noqa: E402
 from mapsection.project import Thresholds  # noqa: E402
-from mapsection.report import write_report  # noqa: E402
+from mapsection.render.report import write_report  # noqa: E402
+from mapsection.render.section_folder import write_checks_json  # noqa: E402
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification, section 5.2
 

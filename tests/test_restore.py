@@ -6,10 +6,11 @@ import numpy as np
 import pytest
 from shapely.geometry import LineString, Polygon
 
-from mapsection.checks.restore import restoration_frames, restore_section
+from mapsection.checks.restore import restore_section
 from mapsection.dips import ProjectedDips
 from mapsection.draft import DipDomain, Draft, FaultTrace, Horizon
 from mapsection.errors import CheckError
+from mapsection.export import restoration_frames
 from mapsection.geology import SurfaceGeology
 from mapsection.line import SectionLine
 from mapsection.profile import Profile
@@ -212,7 +213,7 @@ def test_frames_for_the_gpkg():
 
 
 def test_draw_restoration(tmp_path):
-    from mapsection.checks.restore import draw_restoration
+    from mapsection.render.restoration import draw_restoration
 
     r = restore_section(thrust_draft(), pin=500.0, loose=9500.0)
     paths = draw_restoration(r, tmp_path / "restored")

@@ -22,17 +22,15 @@
 
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 from shapely.geometry import Polygon, box
 
-from .._atomic import atomic_file
 from ..draft import Draft
 from ..errors import CheckError
-from .restore import Restoration, _xy, clip_x, joined_horizons, y_at
+from .geometry import clip_x, joined_horizons, line_xy, y_at
+from .restore import Restoration
 
 __all__ = [
     "UnitArea",
@@ -43,7 +41,6 @@ __all__ = [
     "area_balance",
     "excess_area_points",
     "depth_to_detachment",
-    "draw_area_depth",
 ]
 
 
@@ -160,7 +157,7 @@ class AreaBalance:
 
 def _polygon_between(top, base) -> Polygon:
     """The region between two x-ordered lines, closed by straight segments at both ends."""
-    poly = Polygon(np.vstack([_xy(top), _xy(base)[::-1]]))
+    poly = Polygon(np.vstack([line_xy(top), line_xy(base)[::-1]]))
     if not poly.is_valid:
         poly = poly.buffer(0)  # a crossing pair of horizons: count the enclosed area once
     return poly
@@ -298,7 +295,7 @@ def excess_area_points(draft: Draft, restoration: Restoration,
             piece = clip_x(g, lo, hi)
             if piece is None:
                 continue
-            c = _xy(piece)
+            c = line_xy(piece)
             area += float(np.trapezoid(c[:, 1] - regional, c[:, 0]))
         out.append(ExcessAreaPoint(top_of, regional, datum_elevation_m - regional, area))
     return out
@@ -342,47 +339,3 @@ def depth_to_detachment(depths, excess_areas, *, datum_elevation_m: float = 0.0,
     pts = [ExcessAreaPoint("", datum_elevation_m - float(a), float(a), float(b))
            for a, b in zip(z, s, strict=True)]
     return DetachmentFit(pts, disp, zd, r2, float(datum_elevation_m), datum, issues)
-
-
-def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike) -> Path:
-    """A small PNG: excess area against depth with the fitted line (for the report)."""
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    path = Path(path)
-    z = np.array([p.depth_m for p in fit.points])
-    s = np.array([p.excess_area_m2 for p in fit.points]) / 1e6
-    fig = Figure(figsize=(4.2, 3.4))
-    FigureCanvasAgg(fig)
-    # Fixed margins instead of tight_layout (which draws the figure once more to measure it).
-    fig.subplots_adjust(left=0.19, right=0.8, bottom=0.14, top=0.87)  # room for labels
-    ax = fig.add_subplot()
-    ax.plot(s, z, "o", color="#1a1a8c")
-    for p in fit.points:
-        if p.top_of:
-            ax.annotate(p.top_of, (p.excess_area_m2 / 1e6, p.depth_m), fontsize=7,
-                        textcoords="offset points", xytext=(4, 2))
-    if np.isfinite(fit.depth_to_detachment_m) and np.isfinite(fit.displacement_m):
-        # A trusted line is drawn down to the detachment; a doubtful one only across the data.
-        zd = fit.depth_to_detachment_m if fit.reliable else z.mean()
-        zz = np.array([min(z.min(), zd), max(z.max(), zd)])
-        style = "-" if fit.reliable else "--"
-        ax.plot(fit.displacement_m * (fit.depth_to_detachment_m - zz) / 1e6, zz, style,
-                color="#b00000", linewidth=1)
-        if fit.reliable:
-            ax.axhline(fit.depth_to_detachment_m, color="#b00000", linewidth=0.6, linestyle=":")
-    if fit.reliable:
-        title = (f"detachment {fit.depth_to_detachment_m:.0f} m deep (elevation "
-                 f"{fit.detachment_elevation_m:.0f} m)\nD = {fit.displacement_m:.0f} m, "
-                 f"R² = {fit.r_squared:.3f}")
-    else:
-        title = f"detachment not determined\n(R² = {fit.r_squared:.3f}; see the report)"
-    ax.set_title(title, fontsize=8, y=1.0)
-    ax.axvline(0.0, color="#777777", linewidth=0.5)
-    ax.axhline(0.0, color="#777777", linewidth=0.5)
-    ax.invert_yaxis()
-    ax.set_xlabel("excess area (km²)")
-    ax.set_ylabel(f"depth below {fit.datum} (m)", fontsize=8)
-    with atomic_file(path) as tmp:
-        fig.savefig(tmp, format="png", dpi=110, pil_kwargs={"compress_level": 3})
-    return path

@@ -30,6 +30,7 @@ from scipy.optimize import brentq, minimize_scalar
 from shapely.geometry import LineString
 
 from ..errors import ParameterError
+from .geometry import fault_blocks, joined_horizons
 
 __all__ = [
     "FBFModel",
@@ -399,8 +400,6 @@ def compare_with_draft(draft, fault, model: FBFModel, *, n: int = 200) -> FBFMis
     Compared within the model's fold (from axial surface A to B' of each horizon)
     wherever the draft's hanging-wall horizon of the same ``top_of`` exists.
     """
-    from .restore import fault_blocks, joined_horizons
-
     name = fault.name if hasattr(fault, "name") else str(fault)
     fb = fault_blocks(draft).get(name)
     joined = joined_horizons(draft)

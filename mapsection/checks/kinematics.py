@@ -29,7 +29,8 @@ from shapely.geometry import LineString, Point
 from ..draft import Draft
 from ..errors import ParameterError
 from .fbf import compare_with_draft, fault_bend_fold
-from .restore import Restoration, _tol, _xy, fault_blocks, joined_horizons
+from .geometry import FaultBlocks, fault_blocks, joined_horizons, line_xy, snap_tolerance
+from .restore import Restoration
 
 __all__ = ["Kinematics", "check_kinematics", "horizon_crossings", "fbf_tolerance_m"]
 
@@ -64,10 +65,15 @@ class Kinematics:
     fault_bend_folds: list[dict] = field(default_factory=list)
     failures: list[str] = field(default_factory=list)
 
+    @property
+    def transport_name(self) -> str | None:
+        """The section's transport direction in words (None when not found)."""
+        return _dir_name(self.transport_direction)
+
     def to_dict(self) -> dict:
         return {
             "passed": self.passed,
-            "transport_direction": _dir_name(self.transport_direction),
+            "transport_direction": self.transport_name,
             "transport": self.transport,
             "cut_up_section": self.cut_up_section,
             "separations": self.separations,
@@ -89,7 +95,7 @@ def _fault_dir_at(fault: LineString, p: Point, transport: int) -> np.ndarray:
 
 
 def _bed_dir_at_end(line: LineString, at_start: bool, transport: int) -> np.ndarray:
-    c = _xy(line)
+    c = line_xy(line)
     seg = c[1] - c[0] if at_start else c[-1] - c[-2]
     if seg[0] * transport < 0:
         seg = -seg
@@ -108,12 +114,12 @@ def horizon_crossings(draft: Draft, limit: int = 200) -> list[dict]:
     elevation_m. Points within 1 m of a line's end are touches, not crossings.
     """
     joined = joined_horizons(draft)
-    tol = _tol(draft)
+    tol = snap_tolerance(draft)
     out: list[dict] = []
     for (top_of, block), line in joined.items():
         if line.is_simple:
             continue
-        c = _xy(line)
+        c = line_xy(line)
         segs = shapely.linestrings(np.stack([c[:-1], c[1:]], axis=1))
         tree = shapely.STRtree(segs)
         i, j = tree.query(segs, predicate="intersects")
@@ -135,7 +141,7 @@ def horizon_crossings(draft: Draft, limit: int = 200) -> list[dict]:
                 continue
             inter = la.intersection(lb)
             pts = shapely.get_coordinates(inter)
-            ends = np.vstack([_xy(la)[[0, -1]], _xy(lb)[[0, -1]]])
+            ends = np.vstack([line_xy(la)[[0, -1]], line_xy(lb)[[0, -1]]])
             for p in pts:
                 if np.min(np.hypot(*(ends - p).T)) <= tol:
                     continue  # touching at an end is allowed
@@ -145,7 +151,7 @@ def horizon_crossings(draft: Draft, limit: int = 200) -> list[dict]:
     return out[:limit] if limit else out
 
 
-def _measured_separations(draft: Draft, fb) -> dict[str, float]:
+def _measured_separations(draft: Draft, fb: FaultBlocks) -> dict[str, float]:
     """Separation along the fault between the cutoffs of each horizon (+: hanging wall up)."""
     f = next(x for x in draft.faults if x.name == fb.name)
     out = {}
@@ -158,14 +164,14 @@ def _measured_separations(draft: Draft, fb) -> dict[str, float]:
 
 
 def _has_anticline(line: LineString) -> bool:
-    y = _xy(line)[:, 1]
+    y = line_xy(line)[:, 1]
     return bool(len(y) >= 3 and y.max() > max(y[0], y[-1]) + 1.0)
 
 
 def _ramp(fault: LineString) -> tuple[np.ndarray, np.ndarray]:
     """Lower and upper ends of the fault's ramp: its run of segments steeper than 5 degrees
     (the whole trace when it has no flats)."""
-    c = _xy(fault)
+    c = line_xy(fault)
     d = np.diff(c, axis=0)
     steep = np.degrees(np.arctan2(np.abs(d[:, 1]), np.abs(d[:, 0]))) > 5.0
     if not steep.any():
@@ -175,7 +181,8 @@ def _ramp(fault: LineString) -> tuple[np.ndarray, np.ndarray]:
     return pts[np.argmin(pts[:, 1])], pts[np.argmax(pts[:, 1])]
 
 
-def _run_fbf(draft, fault, fb, seps, transport) -> dict:
+def _run_fbf(draft: Draft, fault, fb: FaultBlocks, seps: dict[str, float],
+             transport: int) -> dict:
     joined = joined_horizons(draft)
     bottom, top = _ramp(fault.geometry)
     entry: dict = {"fault": fault.name, "distance_m": float(fb.ground_x), "run": False}
@@ -197,7 +204,7 @@ def _run_fbf(draft, fault, fb, seps, transport) -> dict:
     flat = float(bottom[1])
     depths = {}
     for t, g in hw.items():
-        gc = _xy(g)
+        gc = line_xy(g)
         # the regional level: the horizon's hinterland end, behind the fold
         far = gc[0] if transport > 0 else gc[-1]
         if far[1] - flat > 0:
@@ -216,12 +223,10 @@ def _run_fbf(draft, fault, fb, seps, transport) -> dict:
     return entry
 
 
-def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Kinematics:
-    """Run the kinematic consistency checks and the fault-bend fold comparison on a draft."""
-    blocks = fault_blocks(draft)
-    failures: list[str] = []
-
-    # 1. transport direction
+def _transport(draft: Draft, blocks: dict[str, FaultBlocks]
+               ) -> tuple[int | None, dict[str, int], dict, list[str]]:
+    """The section's transport direction (the contractional faults' majority), each such
+    fault's own, the transport entry of the result and its failures."""
     votes: dict[int, float] = {1: 0.0, -1: 0.0}
     own: dict[str, int] = {}
     for f in draft.faults:
@@ -238,15 +243,20 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
     if own and direction is None:
         exceptions = [{"fault": n, "distance_m": blocks[n].ground_x, "transport": _dir_name(d)}
                       for n, d in own.items()]
-    transport_ok = not exceptions
-    for e in exceptions:
-        failures.append(f"fault {e['fault']} at {e['distance_m']:.0f} m transports "
-                        f"{e['transport']}, against the section's "
-                        f"{_dir_name(direction) or 'majority (tied)'}")
-    transport = {"passed": transport_ok, "applicable": bool(own), "exceptions": exceptions,
+    failures = [f"fault {e['fault']} at {e['distance_m']:.0f} m transports "
+                f"{e['transport']}, against the section's "
+                f"{_dir_name(direction) or 'majority (tied)'}" for e in exceptions]
+    transport = {"passed": not exceptions, "applicable": bool(own), "exceptions": exceptions,
                  "faults": {n: _dir_name(d) for n, d in own.items()}}
+    return direction, own, transport, failures
 
-    # 2. cut up-section, 3. separations
+
+def _cut_up_and_separations(draft: Draft, blocks: dict[str, FaultBlocks],
+                            direction: int | None, own: dict[str, int]
+                            ) -> tuple[dict, dict, list[str]]:
+    """Thrusts cutting up-section in the transport direction, and every fault's separations
+    agreeing with its sense: the two result entries and their failures."""
+    failures: list[str] = []
     cut_fail, sep_fail, sep_all = [], [], {}
     joined = joined_horizons(draft)
     for f in draft.faults:
@@ -271,7 +281,7 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
             line = joined.get((t, fb.hanging_wall))
             if hw is None or line is None:
                 continue
-            lc = _xy(line)
+            lc = line_xy(line)
             at_start = np.hypot(*(lc[0] - hw)) < np.hypot(*(lc[-1] - hw))
             bed = _bed_dir_at_end(line, at_start, t_dir)
             fdir = _fault_dir_at(f.geometry, Point(hw), t_dir)
@@ -284,6 +294,19 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
                                 f"(cutoff angle {angle:.1f} degrees)")
     cut = {"passed": not cut_fail, "failures": cut_fail}
     separations = {"passed": not sep_fail, "failures": sep_fail, "faults": sep_all}
+    return cut, separations, failures
+
+
+def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Kinematics:
+    """Run the kinematic consistency checks and the fault-bend fold comparison on a draft."""
+    blocks = fault_blocks(draft)
+
+    # 1. transport direction
+    direction, own, transport, failures = _transport(draft, blocks)
+
+    # 2. cut up-section, 3. separations
+    cut, separations, more = _cut_up_and_separations(draft, blocks, direction, own)
+    failures += more
 
     # 4. crossings
     cross = horizon_crossings(draft)
@@ -303,5 +326,6 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
             continue
         fbfs.append(_run_fbf(draft, f, blocks[f.name], seps, direction or own[f.name]))
 
-    passed = transport_ok and cut["passed"] and separations["passed"] and crossings["passed"]
+    passed = (transport["passed"] and cut["passed"] and separations["passed"]
+              and crossings["passed"])
     return Kinematics(passed, direction, transport, cut, separations, crossings, fbfs, failures)

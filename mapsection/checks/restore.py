@@ -18,17 +18,14 @@ the other end; both at the first/last distance where every horizon exists.
 
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import LineString, Polygon
 
-from .. import CAUTION
-from .._atomic import atomic_file
 from ..draft import Draft
 from ..errors import CheckError
+from .geometry import clip_x, joined_horizons, line_xy, snap_tolerance
 
 __all__ = [
     "Restoration",
@@ -36,72 +33,12 @@ __all__ = [
     "HorizonBalance",
     "RestoredUnit",
     "RestoredGap",
-    "FaultBlocks",
     "restore_section",
-    "restoration_frames",
-    "draw_restoration",
-    "joined_horizons",
-    "fault_blocks",
-    "clip_x",
     "restored_elevation",
 ]
 
 
-# --- geometry helpers shared by the checks ------------------------------------
-
-
-def _xy(line: LineString) -> np.ndarray:
-    return np.asarray(line.coords, float)[:, :2]
-
-
-def joined_horizons(draft: Draft) -> dict[tuple[str, int], LineString]:
-    """Each horizon's below- and above-ground pieces joined, per (top_of, block).
-
-    Pieces are ordered by distance and oriented toward increasing distance;
-    repeated vertices where pieces meet are dropped.
-    """
-    groups: dict[tuple[str, int], list[np.ndarray]] = {}
-    for h in draft.horizons:
-        g = h.geometry
-        if g is None or g.is_empty:
-            continue
-        parts = list(g.geoms) if hasattr(g, "geoms") else [g]
-        for p in parts:
-            c = _xy(p)
-            if len(c) < 2:
-                continue
-            if c[-1, 0] < c[0, 0]:
-                c = c[::-1]
-            groups.setdefault((h.top_of, int(h.block)), []).append(c)
-    out = {}
-    for key, pieces in groups.items():
-        pieces.sort(key=lambda c: (c[0, 0], c[-1, 0]))
-        c = np.concatenate(pieces)
-        keep = np.concatenate([[True], np.any(np.abs(np.diff(c, axis=0)) > 1e-9, axis=1)])
-        c = c[keep]
-        if len(c) >= 2:
-            out[key] = LineString(c)
-    return out
-
-
-def clip_x(line: LineString, x0: float, x1: float) -> LineString | None:
-    """The part of an x-ordered line between distances x0 <= x1 (exact end points)."""
-    c = _xy(line)
-    x = c[:, 0]
-    lo, hi = max(x0, x[0]), min(x1, x[-1])
-    if hi - lo <= 1e-9:
-        return None
-    inner = c[(x > lo) & (x < hi)]
-    ya = np.interp(lo, x, c[:, 1])
-    yb = np.interp(hi, x, c[:, 1])
-    pts = np.vstack([[lo, ya], inner, [hi, yb]])
-    return LineString(pts)
-
-
-def y_at(line: LineString, xs) -> np.ndarray:
-    """Elevation of an x-ordered line at distances (NaN outside it)."""
-    c = _xy(line)
-    return np.interp(np.asarray(xs, float), c[:, 0], c[:, 1], left=np.nan, right=np.nan)
+# --- restored levels ----------------------------------------------------------
 
 
 def restored_elevation(column, top_of: str) -> float:
@@ -114,67 +51,6 @@ def restored_elevation(column, top_of: str) -> float:
     if top_of.lower().startswith("base"):
         return -column.total_thickness
     raise CheckError(f"horizon top_of {top_of!r}: not a unit of the stratigraphic column")
-
-
-@dataclass(frozen=True)
-class FaultBlocks:
-    """The two blocks a fault separates, and which is the hanging wall."""
-
-    name: str
-    footwall: int
-    hanging_wall: int
-    dips_toward: int  # +1: the fault descends toward increasing distance; -1: decreasing
-    ground_x: float  # distance of the fault's upper end
-    # top_of -> ((x, y) of the hanging-wall cutoff, (x, y) of the footwall cutoff)
-    cutoffs: dict[str, tuple[tuple[float, float] | None, tuple[float, float] | None]]
-
-
-def _tol(draft: Draft) -> float:
-    return max(1.0, 1e-5 * float(draft.line.length))
-
-
-def fault_blocks(draft: Draft) -> dict[str, FaultBlocks]:
-    """For each fault: its footwall and hanging-wall blocks and the horizon cutoffs on it.
-
-    The hanging wall lies on the side toward which the fault trace descends. The
-    blocks are those of the horizon ends lying on the fault (within 1 m); a fault
-    no horizon touches separates block i and i+1, i its rank along the line.
-    """
-    joined = joined_horizons(draft)
-    tol = _tol(draft)
-
-    def ground_x(f) -> float:
-        c = _xy(f.geometry)
-        return float(c[np.argmax(c[:, 1]), 0])
-
-    ordered = sorted(draft.faults, key=ground_x)
-    out = {}
-    for rank, f in enumerate(ordered):
-        c = _xy(f.geometry)
-        top, bot = c[np.argmax(c[:, 1])], c[np.argmin(c[:, 1])]
-        dx = bot[0] - top[0]
-        toward = int(np.sign(dx)) if abs(dx) > 1e-9 else int(np.sign(f.apparent_dip or 0.0))
-        left: dict[int, int] = {}
-        right: dict[int, int] = {}
-        ends: dict[tuple[str, int], tuple[float, float]] = {}
-        for (top_of, block), line in joined.items():
-            lc = _xy(line)
-            for end, other in ((lc[0], lc[-1]), (lc[-1], lc[0])):
-                if f.geometry.distance(Point(end)) <= tol:
-                    side = right if other[0] > end[0] else left
-                    side[block] = side.get(block, 0) + 1
-                    ends[(top_of, block)] = (float(end[0]), float(end[1]))
-        lb = max(left, key=left.get) if left else rank
-        rb = max(right, key=right.get) if right else rank + 1
-        hw, fw = (rb, lb) if toward >= 0 else (lb, rb)
-        cut = {}
-        for (top_of, block), pt in ends.items():
-            if block not in (hw, fw):
-                continue
-            prev = cut.get(top_of, (None, None))
-            cut[top_of] = (pt, prev[1]) if block == hw else (prev[0], pt)
-        out[f.name] = FaultBlocks(f.name, fw, hw, toward, float(top[0]), cut)
-    return out
 
 
 # --- results -------------------------------------------------------------------
@@ -317,7 +193,7 @@ def _vertical_hits_fault(draft: Draft, x: float, lo_y: float, hi_y: float) -> st
 
 def _y_range(draft: Draft, joined) -> tuple[float, float]:
     # The horizons' depth range: a detachment flat below every horizon does not count.
-    ys = [(_xy(g)[:, 1].min(), _xy(g)[:, 1].max()) for g in joined.values()]
+    ys = [(line_xy(g)[:, 1].min(), line_xy(g)[:, 1].max()) for g in joined.values()]
     lo = min(y[0] for y in ys)
     hi = max(y[1] for y in ys)
     return float(lo), float(hi)
@@ -326,7 +202,7 @@ def _y_range(draft: Draft, joined) -> tuple[float, float]:
 def _common_range(joined) -> tuple[float, float]:
     ext: dict[str, list[float]] = {}
     for (top_of, _), g in joined.items():
-        c = _xy(g)[:, 0]
+        c = line_xy(g)[:, 0]
         e = ext.setdefault(top_of, [np.inf, -np.inf])
         e[0], e[1] = min(e[0], c.min()), max(e[1], c.max())
     lo = max(e[0] for e in ext.values())
@@ -357,7 +233,7 @@ def _default_lines(draft: Draft, joined, y_lo, y_hi) -> tuple[float, float, bool
             if name is None:
                 return x
             f = next(f for f in draft.faults if f.name == name)
-            fx = _xy(f.geometry)[:, 0]
+            fx = line_xy(f.geometry)[:, 0]
             x = (fx.max() if inward > 0 else fx.min()) + inward * 1.0
         return x
 
@@ -397,24 +273,11 @@ def _unit_pairs(column, present: set[str]) -> list[tuple[str, str]]:
     return list(zip(order[:-1], order[1:], strict=True))
 
 
-def restore_section(draft: Draft, pin: float | None = None, loose: float | None = None,
-                    threshold_pct: float = 5.0) -> Restoration:
-    """Flexural-slip restoration between a pin and a loose line (Dahlstrom 1969).
-
-    ``pin`` and ``loose`` are distances along the section (metres); by default
-    the pin sits at the end of the section in the least-dipping end domain and
-    the loose line at the other end. Horizons are laid flat at minus their
-    depth below the top of the column (the datum, elevation 0 in the restored
-    frame). Passes when the spread of the restored lengths ((max - min) / mean)
-    is within ``threshold_pct`` (Thresholds.line_length_spread_pct, default 5 %,
-    common practice).
-    """
+def _pin_and_loose(draft: Draft, joined, pin: float | None, loose: float | None
+                   ) -> tuple[float, float, str]:
+    """The pin and loose lines, given or by default, and how they were chosen; checked to
+    lie inside the section, clear of the faults and apart."""
     name = draft.name or "(unnamed)"
-    joined = joined_horizons(draft)
-    if not joined:
-        raise CheckError(f"section {name}: has no horizons to restore")
-    for top_of, _ in joined:
-        restored_elevation(draft.column, top_of)  # unknown names fail here, one line
     y_lo, y_hi = _y_range(draft, joined)
     if pin is None and loose is None:
         a, b, at_start, source = _default_lines(draft, joined, y_lo, y_hi)
@@ -432,26 +295,38 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     _check_line(draft, "loose", loose, y_lo, y_hi)
     if abs(loose - pin) < 1e-6:
         raise CheckError(f"section {name}: pin and loose lines coincide at {pin:.1f} m")
-    direction = 1 if loose > pin else -1
-    lo, hi = min(pin, loose), max(pin, loose)
-    tol = _tol(draft)
+    return pin, loose, source
 
-    # Pieces between the lines, per block.
-    blocks: dict[int, dict[str, LineString]] = {}
-    for (top_of, block), line in joined.items():
-        piece = clip_x(line, lo, hi)
-        if piece is not None and piece.length > 1e-9:
-            blocks.setdefault(block, {})[top_of] = piece
-    if not blocks:
-        raise CheckError(f"section {name}: no horizon lies between the pin line at {pin:.1f} m "
-                         f"and the loose line at {loose:.1f} m")
+
+def _block_lengths(ps: dict[str, LineString], starts: dict[str, float], xl: float,
+                   direction: int, tol: float) -> tuple[dict[str, float], dict[str, float]]:
+    """Bed length of each piece behind (toward the pin) and ahead of the local pin ``xl``."""
+    back, fwd = {}, {}
+    for t, p in ps.items():
+        xs = starts[t]
+        if direction * (xs - xl) <= tol:
+            a, c = sorted((xs, xl))
+            seg = clip_x(p, a, c)
+            back[t] = seg.length if seg is not None else 0.0
+            fwd[t] = p.length - back[t]
+        else:  # starts beyond the local pin: keep its horizontal offset
+            back[t] = -abs(xs - xl)
+            fwd[t] = p.length + abs(xs - xl)
+    return back, fwd
+
+
+def _lay_flat(draft: Draft, blocks: dict[int, dict[str, LineString]], ys: dict[str, float],
+              pin: float, direction: int) -> tuple[list[RestoredHorizon], list[RestoredGap]]:
+    """Each block's pieces laid flat, block after block from the pin, end to end with the
+    block before; the gaps and overlaps that leaves between the blocks' units."""
+    tol = snap_tolerance(draft)
 
     def pin_side_x(p: LineString) -> float:
-        c = _xy(p)[:, 0]
+        c = line_xy(p)[:, 0]
         return float(c[0] if direction > 0 else c[-1])
 
     def far_x(p: LineString) -> float:
-        c = _xy(p)[:, 0]
+        c = line_xy(p)[:, 0]
         return float(c[-1] if direction > 0 else c[0])
 
     def contains_pin(b: int) -> int:
@@ -461,31 +336,19 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
         [pin_side_x(p) for p in blocks[b].values()]) - pin)))
     others = sorted((b for b in blocks if b != pin_block),
                     key=lambda b: direction * np.mean([pin_side_x(p) for p in blocks[b].values()]))
-    order = [pin_block, *others]
 
     pieces: list[RestoredHorizon] = []
     last_end: dict[str, float] = {}
     gaps: list[RestoredGap] = []
     prev_block: dict[str, int] = {}
-    ys = {t: restored_elevation(draft.column, t) for t in {k[0] for k in joined}}
-    for b in order:
+    for b in [pin_block, *others]:
         ps = blocks[b]
         starts = {t: pin_side_x(p) for t, p in ps.items()}
         if b == pin_block:
             xl = pin
         else:  # first distance from the pin side where every horizon of the block exists
             xl = max(starts.values()) if direction > 0 else min(starts.values())
-        back, fwd = {}, {}
-        for t, p in ps.items():
-            xs = starts[t]
-            if direction * (xs - xl) <= tol:
-                a, c = sorted((xs, xl))
-                seg = clip_x(p, a, c)
-                back[t] = seg.length if seg is not None else 0.0
-                fwd[t] = p.length - back[t]
-            else:  # starts beyond the local pin: keep its horizontal offset
-                back[t] = -abs(xs - xl)
-                fwd[t] = p.length + abs(xs - xl)
+        back, fwd = _block_lengths(ps, starts, xl, direction, tol)
         if b == pin_block:
             x_anchor = pin
         else:
@@ -510,14 +373,17 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
                 float(xl), LineString([(x0, ys[t]), (x1, ys[t])])))
             last_end[t] = x1
             prev_block[t] = b
+    return pieces, gaps
 
-    # Restored units between consecutive horizons of a block.
+
+def _restored_units(column, pieces: list[RestoredHorizon]) -> list[RestoredUnit]:
+    """Restored units between consecutive horizons of a block."""
     units: list[RestoredUnit] = []
     by_block: dict[int, dict[str, RestoredHorizon]] = {}
     for rp in pieces:
         by_block.setdefault(rp.block, {})[rp.top_of] = rp
     for b, rps in by_block.items():
-        for top, base in _unit_pairs(draft.column, set(rps)):
+        for top, base in _unit_pairs(column, set(rps)):
             a, c = rps[top], rps[base]
             poly = Polygon([(a.restored_x0_m, a.restored_elevation_m),
                             (a.restored_x1_m, a.restored_elevation_m),
@@ -527,8 +393,12 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
                 poly = poly.buffer(0)
             units.append(RestoredUnit(top, b, base, a.restored_elevation_m - c.restored_elevation_m,
                                       poly, float(poly.area)))
+    return units
 
-    # Per horizon: lengths, shortening, the restored loose line.
+
+def _horizon_balances(pieces: list[RestoredHorizon], ys: dict[str, float], pin: float,
+                      loose: float, direction: int, tol: float) -> list[HorizonBalance]:
+    """Per horizon: lengths, shortening, where it restores at the loose line."""
     balances: list[HorizonBalance] = []
     for t in sorted(ys, key=lambda t: -ys[t]):
         rps = [rp for rp in pieces if rp.top_of == t]
@@ -544,7 +414,24 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
         balances.append(HorizonBalance(t, ys[t], float(deformed), float(bed), float(restored),
                                        float(short), float(pct), bool(abs(far_def - loose) <= tol),
                                        float(far_res)))
+    return balances
 
+
+@dataclass(frozen=True)
+class _LineLengths:
+    """The line-length balance of the horizons that reach the loose line."""
+
+    mismatch_pct: float
+    loose_spread_m: float
+    loose_angle_deg: float
+    loose_departure_m: float
+    shortening_pct: float
+    shortening_m: float
+    failures: list[str]
+
+
+def _line_lengths(balances: list[HorizonBalance], loose: float, direction: int,
+                  threshold_pct: float) -> _LineLengths:
     full = [h for h in balances if h.reaches_loose]
     failures: list[str] = []
     if full:
@@ -575,6 +462,46 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     if missing and full:
         failures.append("horizons ending before the loose line (not in the balance): "
                         + ", ".join(missing))
+    return _LineLengths(mismatch, spread, angle, departure, short_pct, short_m, failures)
+
+
+def restore_section(draft: Draft, pin: float | None = None, loose: float | None = None,
+                    threshold_pct: float = 5.0) -> Restoration:
+    """Flexural-slip restoration between a pin and a loose line (Dahlstrom 1969).
+
+    ``pin`` and ``loose`` are distances along the section (metres); by default
+    the pin sits at the end of the section in the least-dipping end domain and
+    the loose line at the other end. Horizons are laid flat at minus their
+    depth below the top of the column (the datum, elevation 0 in the restored
+    frame). Passes when the spread of the restored lengths ((max - min) / mean)
+    is within ``threshold_pct`` (Thresholds.line_length_spread_pct, default 5 %,
+    common practice).
+    """
+    name = draft.name or "(unnamed)"
+    joined = joined_horizons(draft)
+    if not joined:
+        raise CheckError(f"section {name}: has no horizons to restore")
+    for top_of, _ in joined:
+        restored_elevation(draft.column, top_of)  # unknown names fail here, one line
+    pin, loose, source = _pin_and_loose(draft, joined, pin, loose)
+    direction = 1 if loose > pin else -1
+    lo, hi = min(pin, loose), max(pin, loose)
+
+    # Pieces between the lines, per block.
+    blocks: dict[int, dict[str, LineString]] = {}
+    for (top_of, block), line in joined.items():
+        piece = clip_x(line, lo, hi)
+        if piece is not None and piece.length > 1e-9:
+            blocks.setdefault(block, {})[top_of] = piece
+    if not blocks:
+        raise CheckError(f"section {name}: no horizon lies between the pin line at {pin:.1f} m "
+                         f"and the loose line at {loose:.1f} m")
+    ys = {t: restored_elevation(draft.column, t) for t in {k[0] for k in joined}}
+    pieces, gaps = _lay_flat(draft, blocks, ys, pin, direction)
+    units = _restored_units(draft.column, pieces)
+    balances = _horizon_balances(pieces, ys, pin, loose, direction, snap_tolerance(draft))
+    ll = _line_lengths(balances, loose, direction, threshold_pct)
+    failures = ll.failures
     # Across faults the blocks are laid end to end, so a bed-length mismatch between
     # blocks shows as gaps and overlaps rather than as spread: they count too.
     area = float(sum(u.area_m2 for u in units))
@@ -582,116 +509,9 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
     if gap_pct > threshold_pct:
         failures.append(f"gaps and overlaps between fault blocks in the restored state: "
                         f"{gap_pct:.2f} % of the restored area (> {threshold_pct:g} %)")
-    passed = bool(full) and mismatch <= threshold_pct and gap_pct <= threshold_pct
+    full = any(h.reaches_loose for h in balances)
+    passed = full and ll.mismatch_pct <= threshold_pct and gap_pct <= threshold_pct
     return Restoration(name, float(pin), float(loose), source, direction, float(threshold_pct),
-                       pieces, balances, units, gaps, mismatch, spread, angle, departure,
-                       short_pct, short_m, passed, failures, draft.column)
-
-
-# --- outputs ------------------------------------------------------------------------
-
-
-def restoration_frames(restoration: Restoration) -> dict:
-    """GeoDataFrames ``restored_horizons`` and ``restored_units`` in restored section space."""
-    import geopandas as gpd
-
-    hz = gpd.GeoDataFrame(
-        {
-            "top_of": [p.top_of for p in restoration.pieces],
-            "block": [p.block for p in restoration.pieces],
-            "bed_length_m": [p.bed_length_m for p in restoration.pieces],
-            "restored_length_m": [p.restored_length_m for p in restoration.pieces],
-        },
-        geometry=[p.geometry for p in restoration.pieces],
-    )
-    un = gpd.GeoDataFrame(
-        {
-            "unit": [u.unit for u in restoration.units],
-            "block": [u.block for u in restoration.units],
-            "area_m2": [u.area_m2 for u in restoration.units],
-        },
-        geometry=[u.geometry for u in restoration.units],
-    )
-    return {"restored_horizons": hz, "restored_units": un}
-
-
-def _colours(column, names) -> dict[str, str]:
-    try:
-        from ..colours import unit_colours
-
-        return unit_colours(column, names) if column is not None else {}
-    except Exception:  # colours not available: a plain palette
-        import matplotlib
-
-        cmap = matplotlib.colormaps["tab20"]
-        return {n: matplotlib.colors.to_hex(cmap(i % 20)) for i, n in enumerate(names)}
-
-
-def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> list[Path]:
-    """Draw the restored section to ``<stem>.png``, ``.svg`` and ``.pdf``; returns the paths."""
-    import textwrap
-
-    import matplotlib
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.collections import LineCollection, PathCollection
-    from matplotlib.figure import Figure
-    from matplotlib.lines import Line2D
-
-    from ..figure import _polygon_path
-
-    r = restoration
-    names = sorted({p.top_of for p in r.pieces})
-    cols = _colours(r.column, names)
-    fig = Figure(figsize=(10, 4.2))
-    FigureCanvasAgg(fig)
-    fig.subplots_adjust(bottom=0.2)
-    ax = fig.add_subplot()
-    # One collection for all the unit fills and one for all the beds: far fewer artists.
-    paths, faces = [], []
-    for u in r.units:
-        path = _polygon_path(u.geometry)
-        if path is not None:
-            paths.append(path)
-            faces.append(cols.get(u.unit, "#dddddd"))
-    if paths:
-        ax.add_collection(PathCollection(paths, facecolors=faces, edgecolors="none",
-                                         alpha=0.85, linewidths=0), autolim=True)
-    beds = [_xy(p.geometry) for p in r.pieces if not p.geometry.is_empty]
-    if beds:
-        ax.add_collection(LineCollection(beds, colors="black", linewidths=0.8), autolim=True)
-    ax.autoscale_view()
-    ys = [p.restored_elevation_m for p in r.pieces]
-    ax.axvline(r.pin_m, color="#b00000", linewidth=1.4)
-    ax.annotate("pin", (r.pin_m, max(ys)), textcoords="offset points", xytext=(3, 6),
-                color="#b00000", fontsize=9)
-    loose = r.restored_loose_line
-    if loose is not None:
-        x, y = loose.xy
-        ax.plot(x, y, color="#0050b0", linewidth=1.4)
-        ax.annotate("restored loose line", (x[0], y[0]), textcoords="offset points",
-                    xytext=(3, 6), color="#0050b0", fontsize=9, ha="left")
-    units_drawn = {u.unit for u in r.units}
-    handles = [Line2D([], [], color=cols.get(u, "#dddddd"), linewidth=6, label=u)
-               for u in (r.column.names if r.column is not None else names) if u in units_drawn]
-    if handles:
-        ax.legend(handles=handles, loc="lower left", fontsize=7, ncol=min(len(names), 6),
-                  frameon=False)
-    ax.set_xlabel("restored distance from the section start (m)")
-    ax.set_ylabel("restored level: m below the top of the column")
-    mm = r.line_length_mismatch_pct
-    ax.set_title(f"{r.section}: flexural-slip restoration (Dahlstrom 1969) - shortening "
-                 f"{r.shortening_pct:.1f} %, line-length spread {mm:.1f} %", fontsize=10,
-                 y=1.0)
-    ax.set_aspect("equal", adjustable="datalim")
-    # Pre-wrapped: matplotlib's own wrapping measures the text word by word on every draw.
-    fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 225)), fontsize=6, color="#444444")
-    out = []
-    # Text stays text in the SVG (searchable, and no glyph outlines to write).
-    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}):
-        for ext in ("png", "svg", "pdf"):
-            path = Path(f"{os.fspath(path_stem)}.{ext}")
-            with atomic_file(path) as tmp:
-                fig.savefig(tmp, format=ext, dpi=150,
-                            **({"pil_kwargs": {"compress_level": 3}} if ext == "png" else {}))
-            out.append(path)
-    return out
+                       pieces, balances, units, gaps, ll.mismatch_pct, ll.loose_spread_m,
+                       ll.loose_angle_deg, ll.loose_departure_m, ll.shortening_pct,
+                       ll.shortening_m, passed, failures, draft.column)

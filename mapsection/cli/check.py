@@ -7,7 +7,7 @@ from pathlib import Path
 import click
 
 from .. import CAUTION
-from ..checking import check_section, infer_section, summary_lines, write_html_report
+from ..checking import check_section, infer_section, summary_lines
 from ..errors import CheckError
 from ._common import warn
 
@@ -41,6 +41,9 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
     named by --section, else the one recorded in the file by 'mapsection build',
     else the one its folder is named after (OUTDIR/<section>/section.gpkg).
 
+    --json and --html write the checks.json and report.html that 'mapsection build'
+    writes for the same section.
+
     Exit code 0 when every test passes, 1 when any test fails, 2 for bad input.
     Thresholds are set in the [checks] table of the project file.
 
@@ -51,8 +54,9 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
       mapsection build sample_area/project.toml -o out
       mapsection check sample_area/project.toml --from out/A/section.gpkg
     """
-    from ..checks import write_checks_json
     from ..project import load_project
+    from ..render.section_folder import write_check_report, write_checks_json
+    from ..session import load_inputs
 
     project = load_project(project_file)
     if section_name is not None:
@@ -65,14 +69,20 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
         raise CheckError("--json/--html: write one section at a time; add --section NAME")
 
     all_passed = True
-    for spec in specs:
-        draft, report = check_section(project, spec, from_path, warn)
-        for line in summary_lines(report):
-            click.echo(line)
-        all_passed &= report.passed
-        if json_path is not None:
-            write_checks_json(report, json_path)
-        if html_path is not None:
-            write_html_report(html_path, draft, report)
+    # The report's section figure has its location inset on the map, as a build's has.
+    inputs = load_inputs(project, warn) if html_path is not None else None
+    try:
+        for spec in specs:
+            draft, report = check_section(project, spec, from_path, warn, inputs=inputs)
+            for line in summary_lines(report):
+                click.echo(line)
+            all_passed &= report.passed
+            if json_path is not None:
+                write_checks_json(report, json_path)
+            if html_path is not None:
+                write_check_report(html_path, draft, report, inputs.map_data)
+    finally:
+        if inputs is not None:
+            inputs.close()
     click.echo("all tests pass" if all_passed else "some tests FAIL")
     click.get_current_context().exit(0 if all_passed else 1)

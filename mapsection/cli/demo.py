@@ -35,7 +35,7 @@ def command(outdir: str) -> None:
       mapsection demo -o demo_out
     """
     from ..build import build_project
-    from ..checking import summary_from_json
+    from ..checking import result_line
     from ..sample import sample_project
 
     out = Path(outdir)
@@ -51,8 +51,9 @@ def command(outdir: str) -> None:
         if flawed.is_file():
             runs.append(("flawed variant (one unit 40 % too thick)", flawed, out / "flawed"))
         for title, proj, dest in runs:
-            folders = build_project(proj, dest, warn=warn)
+            summaries: dict = {}
+            folders = build_project(proj, dest, warn=warn, summaries=summaries)
             click.echo(f"{title}: {proj.name}")
             for folder in folders:
-                click.echo(f"  {folder}: {summary_from_json(Path(folder) / 'checks.json')}")
+                click.echo(f"  {folder}: {result_line(summaries[folder])}")
     click.echo(f"CAUTION: {CAUTION}")

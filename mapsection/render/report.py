@@ -6,7 +6,7 @@ that comes from data (unit names, log lines, ids) is escaped.
 
 Example::
 
-    from mapsection.report import write_report
+    from mapsection.render.report import write_report
     write_report("out/A/report.html", draft, report,
                  {"section": "out/A/section.png", "restored": "out/A/restored.png"})
 """
@@ -20,8 +20,12 @@ from html import escape
 from pathlib import Path
 from typing import Any
 
-from . import CAUTION
-from ._atomic import atomic_file
+from .. import CAUTION
+from .._atomic import atomic_file
+from ..checks import TESTS, CheckReport, key_figures
+from ..checks.area import DetachmentFit
+from ..checks.summary import KeyFigures
+from ..draft import Draft
 
 TITLES = {
     "topography": "Topography: the section against the ground, the map and the dips",
@@ -153,22 +157,22 @@ def _image(name: str, path: str | os.PathLike) -> str:
 # the page
 
 
-def _test_section(name: str, d: dict) -> str:
+def _test_section(name: str, d: dict, passed: bool, failures: list[str],
+                  fit: DetachmentFit | None = None) -> str:
+    """One test's part of the page: its verdict, why it fails, and ``d`` (its part of
+    checks.json) as tables; ``fit`` the area-depth verdict, in words before its numbers."""
     scalars = {k: v for k, v in d.items()
                if k not in ("passed", "failures", "thresholds") and not isinstance(v, list | dict)}
     nested = {k: v for k, v in d.items()
               if k != "thresholds" and isinstance(v, list | dict) and k != "failures"}
     parts = [f'<h2 id="{escape(name)}">{escape(TITLES.get(name, name))} '
-             f'{_badge(bool(d.get("passed")))}</h2>']
-    fails = d.get("failures") or []
-    if fails:
+             f'{_badge(passed)}</h2>']
+    if failures:
         parts.append("<h3>Why it fails</h3><ul>"
-                     + "".join(f"<li>{escape(str(f))}</li>" for f in fails) + "</ul>")
-    det = d.get("detachment")
-    if isinstance(det, dict) and det.get("summary"):
-        # The area-depth verdict in plain words, before its table of numbers.
-        cav = "".join(f"<li>{escape(str(c))}</li>" for c in det.get("caveats") or [])
-        parts.append(f'<div class="note"><b>Depth to detachment:</b> {escape(det["summary"])}'
+                     + "".join(f"<li>{escape(str(f))}</li>" for f in failures) + "</ul>")
+    if fit is not None and fit.summary:
+        cav = "".join(f"<li>{escape(str(c))}</li>" for c in fit.caveats)
+        parts.append(f'<div class="note"><b>Depth to detachment:</b> {escape(fit.summary)}'
                      + (f"<ul>{cav}</ul>" if cav else "") + "</div>")
     parts.append("<h3>Figures</h3>" + _kv_table(scalars))
     if isinstance(d.get("thresholds"), dict):
@@ -186,53 +190,67 @@ def _dict_block(key: str, d: dict) -> str:
     return _kv_table(d)
 
 
-def render_report(draft, report, figures: dict[str, str | os.PathLike] | None = None) -> str:
-    """The report page as a string (see :func:`write_report`)."""
-    rd = report.to_dict() if hasattr(report, "to_dict") else dict(report)
-    tests = [k for k in ("topography", "restoration", "area_balance", "kinematics") if k in rd]
-    overall = all(bool(rd[k].get("passed")) for k in tests)
-    name = escape(str(draft.name or rd.get("section") or "section"))
-    ve = float(getattr(draft, "ve", 1.0))
-    notes = list(getattr(report, "notes", []) or [])
-    summary_rows = []
-    key_figures = {
-        "topography": ("contact_rms_m", "unit_agreement", "dip_rms_deg"),
-        "restoration": ("shortening_pct", "line_length_mismatch_pct"),
-        "area_balance": (),
-        "kinematics": ("transport_direction",),
-    }
-    for k in tests:
-        figs = "; ".join(f"{_label(f)} {format_value(f, rd[k].get(f))}"
-                         for f in key_figures.get(k, ()) if f in rd[k])
-        if k == "area_balance":
-            from .checks import units_worst
+def summary_texts(figures: KeyFigures) -> dict[str, str]:
+    """The key figures of each test, as the report's summary table shows them."""
 
-            unit, worst = units_worst(rd[k].get("units"))
-            if worst is not None:
-                figs = f"worst unit mismatch {worst:.2f} % ({unit})"
-            det = rd[k].get("detachment") or {}
-            if det.get("summary"):
-                figs += f"; {det['summary']}"
-        summary_rows.append(f'<tr><td><a href="#{k}">{escape(k)}</a></td>'
-                            f"<td>{_badge(bool(rd[k].get('passed')))}</td>"
-                            f"<td>{escape(figs)}</td></tr>")
+    def fig(key: str, value: Any) -> str:
+        return f"{_label(key)} {format_value(key, value)}"
+
+    topo, rest, area = figures.topography, figures.restoration, figures.area_balance
+    area_text = ""
+    if area.worst_mismatch_pct is not None:
+        area_text = f"worst unit mismatch {area.worst_mismatch_pct:.2f} % ({area.worst_unit})"
+    if area.detachment is not None and area.detachment.summary:
+        area_text += f"; {area.detachment.summary}"
+    return {
+        "topography": "; ".join([fig("contact_rms_m", topo.contact_rms_m),
+                                 fig("unit_agreement", topo.unit_agreement),
+                                 fig("dip_rms_deg", topo.dip_rms_deg)]),
+        "restoration": "; ".join([fig("shortening_pct", rest.shortening_pct),
+                                  fig("line_length_mismatch_pct",
+                                      rest.line_length_mismatch_pct)]),
+        "area_balance": area_text,
+        "kinematics": fig("transport_direction", figures.kinematics.transport_direction),
+    }
+
+
+def _test_sections(report: CheckReport) -> list[str]:
+    details = report.to_dict()  # each test's part of checks.json, shown as tables
+    results = report.results
+    failures = {"topography": report.topography.failures,
+                "restoration": report.restoration.failures,
+                "area_balance": report.area_balance.failures,
+                "kinematics": report.kinematics.failures}
+    return [_test_section(k, details[k], results[k], failures[k],
+                          report.area_balance.detachment if k == "area_balance" else None)
+            for k in TESTS]
+
+
+def render_report(draft: Draft, report: CheckReport,
+                  figures: dict[str, str | os.PathLike] | None = None) -> str:
+    """The report page as a string (see :func:`write_report`)."""
+    key = key_figures(report)
+    name = escape(str(draft.name or report.section or "section"))
+    summary_rows = [f'<tr><td><a href="#{k}">{escape(k)}</a></td>'
+                    f"<td>{_badge(key.results[k])}</td><td>{escape(text)}</td></tr>"
+                    for k, text in summary_texts(key).items()]
     fig_html = "".join(_image(n, p) for n, p in (figures or {}).items())
     line = draft.line
     html = [
         "<!DOCTYPE html>",
         '<html lang="en"><head><meta charset="utf-8">',
         f"<title>Section {name}: checks</title><style>{_CSS}</style></head><body><main>",
-        f"<h1>Section {name} {_badge(overall)}</h1>",
+        f"<h1>Section {name} {_badge(key.passed)}</h1>",
         f'<p class="meta">Method: {escape(str(draft.method))} · vertical exaggeration '
-        f"{ve:g} (checks are measured at true scale) · length {line.length:.1f} m · "
+        f"{float(draft.ve):g} (checks are measured at true scale) · length {line.length:.1f} m · "
         f"bearing {line.start_bearing:.1f}°</p>",
         f'<div class="caution">Caution: {escape(CAUTION)}</div>',
-        *(f'<div class="note">{escape(n)}</div>' for n in notes),
+        *(f'<div class="note">{escape(n)}</div>' for n in report.notes),
         "<table><tr><th>Test</th><th>Result</th><th>Key figures</th></tr>",
         *summary_rows,
         "</table>",
         fig_html,
-        *(_test_section(k, rd[k]) for k in tests),
+        *_test_sections(report),
         "<h2>Construction log</h2>",
         ("<ul class='log'>" + "".join(f"<li>{escape(str(m))}</li>" for m in draft.log) + "</ul>")
         if draft.log else "<p class='meta'>empty</p>",
@@ -242,7 +260,7 @@ def render_report(draft, report, figures: dict[str, str | os.PathLike] | None = 
     return "\n".join(html)
 
 
-def write_report(path: str | os.PathLike, draft, report,
+def write_report(path: str | os.PathLike, draft: Draft, report: CheckReport,
                  figures: dict[str, str | os.PathLike] | None = None) -> Path:
     """Write a self-contained report.html for one section, all-or-nothing.
 

@@ -8,7 +8,8 @@ vertical exaggeration, a scale bar, a location inset on the geologic map, a
 legend from the stratigraphic column (youngest at top) and the caution.
 
 Symbols follow the conventions of the FGDC Digital Cartographic Standard for
-Geologic Map Symbolization (FGDC-STD-013-2006); see :mod:`mapsection.colours`.
+Geologic Map Symbolization (FGDC-STD-013-2006); see :mod:`mapsection.render.colours`.
+The page's geometry is :mod:`mapsection.render.layout`.
 
 Vertical exaggeration is applied once, as the axes' aspect ratio, so that every
 element -- ground, horizons, faults and dip ticks -- is exaggerated alike: a dip
@@ -20,16 +21,14 @@ fault ``fault-<n>``, so the figure's content can be counted or styled.
 
 Example (with a draft from :func:`mapsection.build.build_section`)::
 
-    from mapsection.figure import draw_section
+    from mapsection.render.section import draw_section
     draw_section(draft, "out/A/section")   # out/A/section.png, .svg, .pdf
 """
 
 from __future__ import annotations
 
-import math
 import os
 import textwrap
-from dataclasses import dataclass
 from pathlib import Path
 
 import matplotlib
@@ -40,171 +39,33 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import PathPatch, Rectangle
 from matplotlib.patches import Polygon as MplPolygon
-from matplotlib.path import Path as MplPath
 from matplotlib.transforms import blended_transform_factory
 
-from . import CAUTION
+from .. import CAUTION
+from .._atomic import atomic_file
+from ..draft import Draft
+from ..errors import ParameterError
+from ..mapdata import MapData
 from . import colours as C
-from ._atomic import atomic_file
-from .draft import Draft
-from .errors import ParameterError
-from .mapdata import MapData
+from .layout import (
+    LEGEND_COLUMN_WIDTH,
+    LEGEND_EM,
+    LEGEND_FONT,
+    LEGEND_PITCH,
+    LEGEND_TITLE,
+    PageLayout,
+    end_names,
+    nice_length,
+    page_layout,
+    tick_segment,
+    ve_text,
+)
+from .shapes import lines_xy, polygon_path
 
 matplotlib.use("Agg")  # headless: figures are only ever written to files
 
 FORMATS = ("png", "svg", "pdf")
 PNG_DPI = 150
-
-
-# --- small helpers ------------------------------------------------------------
-def ve_text(ve: float) -> str:
-    """How the figure states its vertical exaggeration."""
-    return "Vertical exaggeration 1:1" if math.isclose(ve, 1.0) else f"V.E. {ve:g}×"
-
-
-def end_names(name: str) -> tuple[str, str]:
-    """Names of the section's two ends: ``A`` and ``A′``."""
-    name = name or "A"
-    return name, f"{name}′"
-
-
-def nice_length(span: float) -> float:
-    """A round scale-bar length (1, 2 or 5 times a power of ten) near a fifth of ``span``."""
-    target = max(span / 5.0, 1e-9)
-    p = 10.0 ** math.floor(math.log10(target))
-    for m in (5.0, 2.0, 1.0):
-        if m * p <= target:
-            return m * p
-    return p
-
-
-# --- page layout (inches) ------------------------------------------------------------
-_LEGEND_FONT = 7.0  # points
-_EM = _LEGEND_FONT / 72.0  # the legend font's em, inches
-LEGEND_PITCH = 1.5 * _EM  # one text line plus the label spacing of a legend
-LEGEND_TITLE = 0.17  # the legend's title line
-LEGEND_COLUMN_WIDTH = 2.45  # a swatch and a 38-character label
-INSET_SIZE = 2.5  # the location inset is square
-_MARGIN_LEFT, _MARGIN_RIGHT, _MARGIN_TOP = 0.8, 0.25, 0.8  # tick labels; end names, title
-_GAP = 0.5  # between the section and the inset column
-_XLABEL = 0.48  # tick labels and the axis label under the section
-_ROW = 0.3  # the VE statement and the scale bar
-_CAUTION = 0.32  # the caution (two lines) at the foot of the page
-_PAGE_WIDTH = 11.2
-_SECTION_HEIGHT = (1.0, 5.5)  # the section's box, least and most
-
-
-@dataclass(frozen=True)
-class PageLayout:
-    """Where everything goes on the page, in inches from its lower left corner.
-
-    ``axes`` (left, bottom, width, height) is the section's box, whose shape is the
-    section's exaggerated shape; ``yspan`` its elevation range in metres (at least the
-    one asked, more where a very long, flat section would be thinner than the least
-    height); ``below`` the height of the VE / scale-bar row, just under the section;
-    ``legend`` the top left corner of the legend, with ``legend_rows`` rows a column
-    (the symbols start a column of their own when the legend is under the section);
-    ``inset`` (left, bottom, size) of the location inset, beside the section.
-    """
-
-    width: float
-    height: float
-    axes: tuple[float, float, float, float]
-    yspan: float
-    below: float
-    legend: tuple[float, float]
-    legend_rows: int
-    inset: tuple[float, float, float]
-
-
-def page_layout(xspan: float, yspan: float, ve: float, legend_rows: tuple[int, int],
-                with_inset: bool = True) -> PageLayout:
-    """Size the page to the section: its box ``xspan`` wide and ``yspan * ve`` high at one
-    scale; the inset beside it (top-aligned) and the legend (``legend_rows``: the number of
-    unit rows and of symbol rows) beside it under the inset where that fits within the
-    section's height, else under the section in columns, units apart from symbols."""
-    side = _GAP + INSET_SIZE if with_inset else 0.0
-    wa = _PAGE_WIDTH - _MARGIN_LEFT - _MARGIN_RIGHT - side
-    ha = wa * yspan * ve / xspan
-    lo, hi = _SECTION_HEIGHT
-    if ha > hi:  # a tall section: narrower page, same scale both ways times VE
-        wa, ha = wa * hi / ha, hi
-    elif ha < lo:  # a long, flat one: more air above the ground keeps the scale exact
-        yspan, ha = yspan * lo / ha, lo
-    block = _MARGIN_TOP + ha + _XLABEL + _ROW  # the section with its labels and scale row
-    n_units, n_symbols = legend_rows
-    inset_top = _MARGIN_TOP + (INSET_SIZE + 0.35 if with_inset else 0.0)  # and a gap
-    one_column = LEGEND_TITLE + (n_units + n_symbols) * LEGEND_PITCH
-    beside = with_inset and inset_top + one_column <= block
-    if beside:
-        per_column, left_h, right_h = n_units + n_symbols, block, inset_top + one_column
-    else:
-        # The fewest rows that put the units, then the symbols, in their own columns.
-        columns = max(2, int((wa + 0.5 * _MARGIN_LEFT) // LEGEND_COLUMN_WIDTH))
-        per_column = max(n_units, n_symbols)
-        for rows in range(1, per_column + 1):
-            if -(-n_units // rows) + -(-n_symbols // rows) <= columns:
-                per_column = rows
-                break
-        left_h = block + 0.15 + LEGEND_TITLE + per_column * LEGEND_PITCH
-        right_h = inset_top
-    # Beside a flat section a smaller inset keeps the page from growing below it.
-    size = INSET_SIZE if beside else float(np.clip(left_h - _MARGIN_TOP, 1.6, INSET_SIZE))
-    right_h -= INSET_SIZE - size
-    height = max(left_h, right_h) + _CAUTION
-    width = _MARGIN_LEFT + wa + side + _MARGIN_RIGHT
-    ax_bottom = height - _MARGIN_TOP - ha
-    right_x = _MARGIN_LEFT + wa + _GAP
-    legend = ((right_x, height - inset_top) if beside
-              else (_MARGIN_LEFT, height - block - 0.15))
-    return PageLayout(width, height, (_MARGIN_LEFT, ax_bottom, wa, ha), yspan,
-                      ax_bottom - _XLABEL - _ROW / 2, legend, per_column,
-                      (right_x, height - _MARGIN_TOP - size, size))
-
-
-def tick_segment(d, z, apparent_dip, ve: float, half_length: float):
-    """End points (data coordinates) of dip ticks centred on (d, z).
-
-    The tick's direction in data space has slope ``-tan(a)`` (positive apparent dip
-    descends toward increasing distance); drawn on axes whose aspect is ``ve`` it
-    appears at ``atan(ve * tan a)``. ``half_length`` is in distance units on the page,
-    so every tick looks the same length whatever its dip.
-    """
-    a = np.radians(np.asarray(apparent_dip, float))
-    theta = np.arctan(ve * np.tan(a))  # angle on the page
-    dx = half_length * np.cos(theta)
-    dy = half_length * np.sin(theta) / ve
-    d = np.asarray(d, float)
-    z = np.asarray(z, float)
-    return np.stack([d - dx, z + dy], -1), np.stack([d + dx, z - dy], -1)
-
-
-def _polygon_path(geom) -> MplPath | None:
-    """One matplotlib compound path (exteriors and holes) for a Polygon/MultiPolygon."""
-    # Fills use the nonzero winding rule: holes must wind against their exterior,
-    # whatever the source (clipping and simplification do not keep ring orientation).
-    geom = shapely.orient_polygons(geom)
-    polys = [p for p in shapely.get_parts(geom) if not p.is_empty and p.geom_type == "Polygon"]
-    if not polys:
-        return None
-    verts, codes = [], []
-    for p in polys:
-        for ring in (p.exterior, *p.interiors):
-            xy = np.asarray(ring.coords)
-            if len(xy) < 3:
-                continue
-            c = np.full(len(xy), MplPath.LINETO, dtype=np.uint8)
-            c[0], c[-1] = MplPath.MOVETO, MplPath.CLOSEPOLY
-            verts.append(xy)
-            codes.append(c)
-    if not verts:
-        return None
-    return MplPath(np.concatenate(verts), np.concatenate(codes))
-
-
-def _lines_xy(geom) -> list[np.ndarray]:
-    return [np.asarray(g.coords)[:, :2] for g in shapely.get_parts(geom)
-            if not g.is_empty and g.geom_type == "LineString"]
 
 
 # --- fault sense symbols ----------------------------------------------------------
@@ -275,18 +136,9 @@ def _map_fault_marks(xy: np.ndarray, kind: str, dip_direction: float, size: floa
 
 
 # --- the figure -------------------------------------------------------------------
-def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
-    """Build the section page as a matplotlib Figure (not saved)."""
-    ve = float(draft.ve or 1.0)
+def _vertical_range(draft: Draft) -> tuple[float, float]:
+    """From the section's base to a little above the highest ground (elevations, m)."""
     prof = draft.profile
-    col_names = draft.column.names
-    extra = sorted({u.unit for u in draft.units} - set(col_names))
-    palette = C.unit_colours(draft.column, extra)
-
-    x0, x1 = 0.0, float(draft.line.length)
-    xspan = max(x1 - x0, 1.0)
-
-    # Vertical extent: from the section's base to a little above the highest ground.
     zg = prof.z[np.isfinite(prof.z)]
     ztop = float(zg.max()) if zg.size else 0.0
     zlow_candidates = [draft.base_elevation_m] if np.isfinite(draft.base_elevation_m) else []
@@ -297,23 +149,14 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
         if not u.geometry.is_empty:
             zlow_candidates.append(u.geometry.bounds[1])
     zbot = min(zlow_candidates) if zlow_candidates else (float(zg.min()) if zg.size else -1000.0)
-    zspan = max(ztop - zbot, 1.0)
-    ylim = (zbot, ztop + 0.18 * zspan)
+    return zbot, ztop
 
-    # Page layout in inches: the page is sized to the section's exaggerated shape.
-    legend_rows = _legend_rows(draft, palette)
-    page = page_layout(xspan, ylim[1] - ylim[0], ve, tuple(map(len, legend_rows)),
-                       map_data is not None)
-    ylim = (ylim[0], ylim[0] + page.yspan)
-    fig = Figure(figsize=(page.width, page.height))
-    fh = page.height
-    ax = fig.add_axes(tuple(v / d for v, d in zip(page.axes, (page.width, fh) * 2, strict=True)))
-    below_y = page.below / fh  # figure fraction of the VE / scale-bar row
 
-    # Units.
+def _draw_units_and_horizons(ax, draft: Draft, palette: dict[str, str]) -> None:
+    """The unit fills, the axial surfaces under the horizons, the horizons and the ground."""
     patches, faces = [], []
     for u in draft.units:
-        path = _polygon_path(u.geometry)
+        path = polygon_path(u.geometry)
         if path is not None:
             patches.append(PathPatch(path))
             faces.append(palette.get(u.unit, "#cccccc"))
@@ -324,14 +167,14 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
 
     # Axial surfaces (thin, dotted), under the horizons.
     for i, a in enumerate(draft.axial_surfaces):
-        for xy in _lines_xy(a.geometry):
+        for xy in lines_xy(a.geometry):
             (ln,) = ax.plot(xy[:, 0], xy[:, 1], zorder=2, **C.AXIAL_SURFACE.kwargs())
             ln.set_gid(f"axial-{i}")
 
     # Horizons: below ground solid; projected above ground dashed.
     for i, h in enumerate(draft.horizons):
         style = C.CONTACT_PROJECTED if h.above_ground else C.CONTACT
-        xy_parts = _lines_xy(h.geometry)
+        xy_parts = lines_xy(h.geometry)
         if not xy_parts:
             continue
         if len(xy_parts) == 1:
@@ -343,12 +186,14 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
         art.set_gid(f"horizon-{i}")
 
     # Ground.
-    ax.plot(prof.distance, prof.z, zorder=5, **C.GROUND.kwargs())
+    ax.plot(draft.profile.distance, draft.profile.z, zorder=5, **C.GROUND.kwargs())
 
-    # Faults and their sense.
+
+def _draw_faults(ax, draft: Draft, ve: float, xspan: float, zspan: float) -> None:
+    """The faults with their half-arrows of relative motion and their names."""
     arrow_size = 0.035 * xspan
     for i, f in enumerate(draft.faults):
-        parts = _lines_xy(f.geometry)
+        parts = lines_xy(f.geometry)
         for xy in parts:
             (ln,) = ax.plot(xy[:, 0], xy[:, 1], zorder=6, solid_capstyle="butt",
                             **C.FAULT.kwargs())
@@ -365,7 +210,9 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
                     bbox={"boxstyle": "round,pad=0.1", "facecolor": "white", "alpha": 0.7,
                           "linewidth": 0})
 
-    # Projected dips: short ticks at their apparent dip, with the section's VE.
+
+def _draw_dips(ax, draft: Draft, ve: float, xspan: float) -> None:
+    """Projected dips: short ticks at their apparent dip, with the section's VE."""
     dips = draft.dips
     if len(dips):
         a0, a1 = tick_segment(dips.distance_m, dips.elevation_m, dips.apparent_dip, ve,
@@ -379,12 +226,15 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
                             **C.DIP_TICK.kwargs())
             ln.set_gid(f"dip-{i}")
 
-    # Bends of the section line.
+
+def _draw_frame(ax, draft: Draft, ve: float, xlim: tuple[float, float],
+                ylim: tuple[float, float]) -> None:
+    """The bends of the section line, the axes, the ends named with bearings, the title."""
     for d in draft.line.cumulative[1:-1]:
         ax.axvline(d, color="#999999", linewidth=0.6, linestyle=(0, (2, 2)), zorder=4)
         ax.text(d, ylim[1], " bend", fontsize=6, color="#666666", va="top", ha="left")
 
-    ax.set_xlim(x0, x1)
+    ax.set_xlim(*xlim)
     ax.set_ylim(*ylim)
     ax.set_aspect(ve, adjustable="box", anchor="SW")
     ax.set_xlabel("Distance along section (m)")
@@ -405,7 +255,11 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
     ax.set_title(f"Draft section {left}–{right}  ·  {method} construction", fontsize=10,
                  pad=34, y=1.0)  # y given: no tick-label measuring to place the title
 
-    # VE statement and scale bar below the axes (x in data, y in axes fraction).
+
+def _draw_scale(fig: Figure, ax, ve: float, x0: float, xspan: float, page: PageLayout) -> None:
+    """VE statement and scale bar below the axes (x in data, y in figure fraction)."""
+    fh = page.height
+    below_y = page.below / fh  # figure fraction of the VE / scale-bar row
     tr = blended_transform_factory(ax.transData, fig.transFigure)
     ax.text(x0, below_y, ve_text(ve), transform=tr, fontsize=8, va="center")
     L = nice_length(xspan)
@@ -421,6 +275,32 @@ def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
         ax.text(x0 + 0.4 * xspan + xx, below_y - bh, lab, transform=tr, ha="center", va="top",
                 fontsize=7)
 
+
+def section_figure(draft: Draft, map_data: MapData | None = None) -> Figure:
+    """Build the section page as a matplotlib Figure (not saved)."""
+    ve = float(draft.ve or 1.0)
+    extra = sorted({u.unit for u in draft.units} - set(draft.column.names))
+    palette = C.unit_colours(draft.column, extra)
+
+    x0, x1 = 0.0, float(draft.line.length)
+    xspan = max(x1 - x0, 1.0)
+    zbot, ztop = _vertical_range(draft)
+    zspan = max(ztop - zbot, 1.0)
+    ylim = (zbot, ztop + 0.18 * zspan)
+
+    # Page layout in inches: the page is sized to the section's exaggerated shape.
+    legend_rows = _legend_rows(draft, palette)
+    page = page_layout(xspan, ylim[1] - ylim[0], ve, tuple(map(len, legend_rows)),
+                       map_data is not None)
+    ylim = (ylim[0], ylim[0] + page.yspan)
+    fig = Figure(figsize=(page.width, page.height))
+    ax = fig.add_axes(tuple(v / d for v, d in zip(page.axes, (page.width, page.height) * 2,
+                                                   strict=True)))
+    _draw_units_and_horizons(ax, draft, palette)
+    _draw_faults(ax, draft, ve, xspan, zspan)
+    _draw_dips(ax, draft, ve, xspan)
+    _draw_frame(ax, draft, ve, (x0, x1), ylim)
+    _draw_scale(fig, ax, ve, x0, xspan, page)
     _legend(fig, legend_rows, page)
     if map_data is not None:
         _inset(fig, draft, map_data, palette, page)
@@ -474,13 +354,13 @@ def _legend(fig: Figure, rows: tuple[list[tuple[str, object]], list[tuple[str, o
         x = x0 + (slot // per) * LEGEND_COLUMN_WIDTH
         yc = y0 - LEGEND_TITLE - (slot % per + 0.5) * LEGEND_PITCH
         if isinstance(sym, str):  # a unit's colour swatch
-            art = Rectangle((x, yc - 0.35 * _EM), 2.0 * _EM, 0.7 * _EM, transform=tr,
-                            facecolor=sym, edgecolor="#333333", linewidth=0.4)
+            art = Rectangle((x, yc - 0.35 * LEGEND_EM), 2.0 * LEGEND_EM, 0.7 * LEGEND_EM,
+                            transform=tr, facecolor=sym, edgecolor="#333333", linewidth=0.4)
         else:
-            art = Line2D([x, x + 2.0 * _EM], [yc, yc], transform=tr, **sym.kwargs())
+            art = Line2D([x, x + 2.0 * LEGEND_EM], [yc, yc], transform=tr, **sym.kwargs())
         art.set_gid(f"legend-{k}")
         fig.add_artist(art)
-        fig.text(x + 2.8 * _EM, yc, label, transform=tr, fontsize=_LEGEND_FONT,
+        fig.text(x + 2.8 * LEGEND_EM, yc, label, transform=tr, fontsize=LEGEND_FONT,
                  va="center_baseline", ha="left")
 
 
@@ -490,23 +370,13 @@ def _column(frame, name: str) -> np.ndarray:
     return np.full(len(frame), None, dtype=object)
 
 
-def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str],
-           page: PageLayout) -> None:
-    """Location inset: the geologic map around the line, the line, its ends named."""
-    left, bottom, size = page.inset
-    iax = fig.add_axes((left / page.width, bottom / page.height, size / page.width,
-                        size / page.height))
-    line = draft.line
-    v = line.vertices
-    # A square extent (the inset box is square) around the line, with a margin.
-    centre = (v.min(axis=0) + v.max(axis=0)) / 2
-    half = 0.5 * float(np.max(v.max(axis=0) - v.min(axis=0))) + 0.15 * line.length
-    xmin, ymin = centre - half
-    xmax, ymax = centre + half
-    box = shapely.box(xmin, ymin, xmax, ymax)
+def _inset_units(iax, map_data: MapData, palette: dict[str, str],
+                 bounds: tuple[float, float, float, float]) -> None:
+    """The map's unit polygons within ``bounds`` (xmin, ymin, xmax, ymax), filled."""
+    xmin, ymin, xmax, ymax = bounds
     geoms, names = map_data.unit_geoms, map_data.unit_names
     if len(geoms):
-        idx = np.sort(map_data.unit_tree.query(box))
+        idx = np.sort(map_data.unit_tree.query(shapely.box(*bounds)))
         # The map's polygons are often traced on a fine grid (tens of thousands of
         # vertices); at the inset's scale a quarter of a 150-dpi pixel is ~1/1500 of
         # its width, so simplifying to that loses nothing visible and draws far less.
@@ -517,13 +387,19 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
                                        xmin, ymin, xmax, ymax)
         patches, faces = [], []
         for g, nm in zip(clipped, names[idx], strict=True):
-            path = _polygon_path(g)
+            path = polygon_path(g)
             if path is not None:
                 patches.append(PathPatch(path))
                 faces.append(palette.get(nm, "#dddddd"))
         if patches:
             iax.add_collection(PatchCollection(patches, facecolors=faces, edgecolors="#666666",
                                                linewidths=0.2))
+
+
+def _inset_faults(iax, map_data: MapData, bounds: tuple[float, float, float, float]) -> None:
+    """The map's faults within ``bounds`` with their sense marks (teeth, bar and ball)."""
+    xmin, ymin, xmax, ymax = bounds
+    box = shapely.box(*bounds)
     faults = map_data.faults
     if faults is not None and len(faults):
         ff = dict(map_data.fault_fields or {})
@@ -534,7 +410,7 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
         for k, g in enumerate(faults.geometry.values):
             if g is None or g.is_empty or not g.intersects(box):
                 continue
-            for xy in _lines_xy(g):
+            for xy in lines_xy(g):
                 iax.plot(xy[:, 0], xy[:, 1], color="black", linewidth=1.2)
                 kind = C.fault_kind(sense[k] if isinstance(sense[k], str) else None)
                 if kind:
@@ -553,6 +429,23 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
         if balls:
             b = np.asarray(balls)
             iax.plot(b[:, 0], b[:, 1], "o", color="black", markersize=3)
+
+
+def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str],
+           page: PageLayout) -> None:
+    """Location inset: the geologic map around the line, the line, its ends named."""
+    left, bottom, size = page.inset
+    iax = fig.add_axes((left / page.width, bottom / page.height, size / page.width,
+                        size / page.height))
+    line = draft.line
+    v = line.vertices
+    # A square extent (the inset box is square) around the line, with a margin.
+    centre = (v.min(axis=0) + v.max(axis=0)) / 2
+    half = 0.5 * float(np.max(v.max(axis=0) - v.min(axis=0))) + 0.15 * line.length
+    xmin, ymin = centre - half
+    xmax, ymax = centre + half
+    _inset_units(iax, map_data, palette, (xmin, ymin, xmax, ymax))
+    _inset_faults(iax, map_data, (xmin, ymin, xmax, ymax))
     iax.plot(v[:, 0], v[:, 1], **C.SECTION_LINE.kwargs())
     left, right = end_names(draft.name)
     for p, lab in ((v[0], left), (v[-1], right)):

@@ -30,7 +30,7 @@ import re
 from collections.abc import Iterable
 from dataclasses import dataclass
 
-from .stratigraphy import Column
+from ..stratigraphy import Column
 
 # International Chronostratigraphic Chart colours (CGMW/ICS), RGB 0-255.
 # These values were recalled from memory of the published chart and have NOT
@@ -156,6 +156,19 @@ def unit_colours(column: Column, extra_units: Iterable[str] = ()) -> dict[str, s
             out[name] = PALETTE[k % len(PALETTE)]
             k += 1
     return out
+
+
+def unit_palette(column: Column | None, names: Iterable[str]) -> dict[str, str]:
+    """Colours for the checks' figures: the column's (:func:`unit_colours`, none without a
+    column), or matplotlib's ``tab20`` palette where the column cannot give them."""
+    names = list(names)
+    try:
+        return unit_colours(column, names) if column is not None else {}
+    except Exception:  # colours not available: a plain palette
+        import matplotlib
+
+        cmap = matplotlib.colormaps["tab20"]
+        return {n: matplotlib.colors.to_hex(cmap(i % 20)) for i, n in enumerate(names)}
 
 
 @dataclass(frozen=True)
