@@ -40,6 +40,13 @@ def _detachment_text(fit: dict) -> str:
             f"(R² {r2})")
 
 
+def _fault_bend_text(fb: dict) -> str:
+    """The fault-bend fold comparison: a count only of what was compared."""
+    if fb.get("compared"):
+        return f"{fb['compared']} fault-bend fold(s) compared ({fb.get('status')})"
+    return "fault-bend fold comparison not tested"
+
+
 def summary_lines(report) -> list[str]:
     """One line per test: name, PASS/FAIL and its key figures against the thresholds."""
     d = report.to_dict()
@@ -72,7 +79,7 @@ def summary_lines(report) -> list[str]:
         ),
         "kinematics": (f"{n_kin} inconsistenc{'y' if n_kin == 1 else 'ies'}, transport "
                        f"{kin.get('transport_direction') or '-'}, "
-                       f"{len(kin.get('fault_bend_folds') or [])} fault-bend fold(s) compared"),
+                       + _fault_bend_text(kin.get("fault_bend") or {})),
     }
     lines = [f"section {d['section']} (method {d['method']}, VE {report.ve:g})",
              f"  {'test':<13} {'result':<6} figures (thresholds)"]
