@@ -229,3 +229,35 @@ def test_no_reading_and_no_contact():
 def test_bad_settings(kwargs):
     with pytest.raises(ParameterError, match="diagnosis"):
         diagnose(make_draft([], dips_at([], [])), **kwargs)
+
+
+def test_sample_area_narrow_corridor_gets_a_wider_one_suggested():
+    # Section A of the sample area with a 150 m corridor: the suggested corridor is checked
+    # by counting the attitudes with shapely (a flat-capped buffer of the straight line).
+    import csv
+    from dataclasses import replace
+
+    from shapely.geometry import LineString, Point
+
+    from mapsection.build import build_section
+    from mapsection.project import load_project
+
+    project = load_project(AREA / "project.toml")
+    spec = replace(project.section("A"), corridor=150.0)
+    draft = build_section(project, spec, warn=lambda m: None)
+    with open(AREA / "attitudes.csv", newline="") as fh:
+        xy = [(float(r["x"]), float(r["y"])) for r in csv.DictReader(fh)]
+    stretches = sparse_stretches(draft, attitude_xy=xy, corridor_m=150.0)
+    assert stretches
+    line = LineString(spec.line)
+
+    def count(s, w):
+        band = line.buffer(w, cap_style="flat")
+        return sum(1 for p in map(Point, xy)
+                   if band.covers(p) and s.start_m <= line.project(p) <= s.end_m)
+
+    for s in stretches:
+        assert s.n_readings < s.needed
+        assert s.suggested_corridor_m is not None
+        assert count(s, s.suggested_corridor_m) == s.readings_at_suggestion >= s.needed
+        assert count(s, s.suggested_corridor_m - 100.0) < s.needed

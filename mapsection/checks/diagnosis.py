@@ -19,7 +19,9 @@ Three kinds of cause, each with the figure behind it:
   neighbours (readings of the same fault block within 1000 m along the line, the
   tool's default) by a modified z-score above 3.5 (Iglewicz & Hoaglin 1993, How
   to detect and handle outliers: M = 0.6745 (x - median) / MAD) and by at least
-  10 degrees (the tool's default); a map contact that the best-fit thicknesses and
+  10 degrees, and that no neighbour within 5 degrees corroborates (two agreeing
+  readings make a narrow dip domain, not a stray reading; the tool's defaults); a
+  map contact that the best-fit thicknesses and
   the dips cannot place (the residuals of the pairs on either side of it, judged
   the same way against all contacts), by at least 2 DEM pixels or 50 m along the
   line (the tool's default).
@@ -64,6 +66,7 @@ MODIFIED_Z = 3.5  # Iglewicz & Hoaglin (1993)
 MIN_DIP_OUTLIER_DEG = 10.0  # the tool's default
 DIP_MAD_FLOOR_DEG = 1.0  # readings are taken to whole degrees (the tool's default)
 DIP_WINDOW_M = 1000.0  # the tool's default
+CORROBORATE_DEG = 5.0  # a neighbour this close to a reading corroborates it (the tool's default)
 MIN_CONTACT_OUTLIER_M = 50.0  # or 2 DEM pixels, whichever is larger (the tool's default)
 SPACING_M = 1000.0  # one reading per this much line at least (the tool's default)
 PAIR_DIP_TOLERANCE_DEG = 10.0  # two contacts in domains differing more are not paired
@@ -275,7 +278,9 @@ class AttitudeOutlier:
 def attitude_outliers(draft: Draft, *, window_m: float = DIP_WINDOW_M,
                       min_misfit_deg: float = MIN_DIP_OUTLIER_DEG) -> list[AttitudeOutlier]:
     """Attitudes that depart from their neighbours (modified z-score > 3.5, Iglewicz &
-    Hoaglin 1993), worst first. Readings whose strike is within 15 degrees of the line
+    Hoaglin 1993) by at least ``min_misfit_deg`` and that no neighbour corroborates,
+    worst first. Neighbours: readings of the same fault block within ``window_m`` along
+    the line (at least 3). Readings whose strike is within 15 degrees of the line
     (poorly constrained apparent dips) are left out."""
     dips = draft.dips
     dist = np.asarray(dips.distance_m, float)
@@ -295,7 +300,9 @@ def attitude_outliers(draft: Draft, *, window_m: float = DIP_WINDOW_M,
         mad = float(np.median(np.abs(v - med)))
         r = float(app[i] - med)
         z = _mod_z(r, mad, DIP_MAD_FLOOR_DEG)
-        if z > MODIFIED_Z and abs(r) >= min_misfit_deg:
+        # A neighbour agreeing with it makes a (narrow) dip domain, not a stray reading.
+        corroborated = bool(np.any(np.abs(v - app[i]) <= CORROBORATE_DEG))
+        if z > MODIFIED_Z and abs(r) >= min_misfit_deg and not corroborated:
             out.append(AttitudeOutlier(str(dips.id[i]), float(dist[i]), float(app[i]), med, r,
                                        float(z), int(nb.sum())))
     out.sort(key=lambda o: -o.modified_z)
