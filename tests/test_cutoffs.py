@@ -167,3 +167,39 @@ def test_hand_edited_sample_section_fails_at_the_fault(sample_a):
         assert moved[h.top_of] - h.mismatch_m == pytest.approx(200.0, rel=0.10)
     # the default threshold: the larger of 10 % of the mean separation and 2 pixels of 25 m
     assert fa.threshold_m == pytest.approx(max(0.1 * abs(fa.mean_separation_m), 50.0))
+
+
+def test_bent_fault_compared_within_each_straight_stretch():
+    # A ramp (30 degrees) above a gentler segment (10 degrees): the slip changes across the
+    # bend (Suppe 1983), so horizons cut on different stretches are not compared together.
+    # Cutoffs placed on the trace by arc length: hanging-wall cutoff = footwall cutoff +
+    # separation up the fault (exact by construction of the geometry).
+    from shapely.geometry import LineString
+
+    from mapsection.draft import FaultTrace
+
+    t30, t10 = np.radians(30.0), np.radians(10.0)
+    top = np.array([9000.0, 1500.0])
+    bend = top - 1600.0 * np.array([np.cos(t30), np.sin(t30)])
+    low = bend - 4000.0 * np.array([np.cos(t10), np.sin(t10)])
+    trace = LineString([top, bend, low])  # descends toward decreasing distance
+    seps = {"A": 1000.0, "B": 1000.0, "C": 800.0, "D": 800.0}
+    at = {"A": 200.0, "B": 1000.0, "C": 2200.0, "D": 3400.0}  # footwall cutoffs, from the top
+    hz = []
+    for n, u in at.items():
+        fw = np.asarray(trace.interpolate(u).coords[0])
+        hw = np.asarray(trace.interpolate(u - seps[n]).coords[0]) if u - seps[n] >= 0 else \
+            top + (seps[n] - u) * np.array([np.cos(t30), np.sin(t30)])
+        hz += [Horizon(n, LineString([(0.0, hw[1]), tuple(hw)]), block=0),
+               Horizon(n, LineString([tuple(fw), (12000.0, fw[1])]), block=1)]
+    f = FaultTrace("F", trace, 30.0, 270.0, -30.0, "thrust", seps)
+    draft = make_draft(hz, [f], length=12000.0)
+    s = check_separations(draft)
+    (fs,) = s.faults
+    assert fs.stretches == [["A", "B"], ["C", "D"]]
+    assert fs.spread_m == pytest.approx(0.0, abs=1e-6) and s.status == "pass"
+    assert "bends" in fs.reasons[0]
+    c = check_cutoffs(draft)
+    assert c.status == "pass", c.reasons
+    assert {h.top_of: round(h.slip_m) for h in c.faults[0].horizons} == {
+        "A": 1000, "B": 1000, "C": 800, "D": 800}

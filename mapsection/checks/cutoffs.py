@@ -11,7 +11,8 @@ y = elevation, metres):
   fault, the hanging-wall cutoff then lands ``separation - slip`` metres along
   the fault from the footwall cutoff: an *overlap* where the hanging wall is
   carried too far (positive), a *gap* where it falls short (negative). The
-  slip is the mean of the separations the fault records (what construction
+  slip is the mean of the separations the fault records, per straight stretch
+  of the fault (the slip changes across a bend; Suppe 1983) (what construction
   measured, or what a hand-edited section.gpkg carries in its ``separations``
   field); a fault that records none is restored by the mean of its measured
   separations, and the result says so (a uniform error in slip cannot show
@@ -56,7 +57,6 @@ __all__ = [
     "FaultSeparations",
     "SeparationCheck",
     "FaultRestorationCheck",
-    "fault_cutoffs",
     "check_cutoffs",
     "check_separations",
     "check_fault_restoration",
@@ -204,13 +204,6 @@ def _cuts(draft: Draft, fault: FaultTrace, hw_block: int, fw_block: int) -> list
     return out
 
 
-def fault_cutoffs(draft: Draft) -> dict[str, list[_Cut]]:
-    """Per fault: the horizons cut on both walls (on the trace or its upward projection)."""
-    blocks = fault_blocks(draft)
-    return {f.name: _cuts(draft, f, blocks[f.name].hanging_wall, blocks[f.name].footwall)
-            for f in draft.faults}
-
-
 # --- cutoff mismatch ------------------------------------------------------------
 
 
@@ -224,12 +217,15 @@ class HorizonCutoff:
     projected: bool  # cut above the ground, on the fault's upward projection (eroded)
     separation_m: float  # measured along the fault, + hanging wall up
     recorded_separation_m: float | None  # what the fault records for this horizon
+    slip_m: float  # the slip this horizon's hanging wall is restored by
     mismatch_m: float  # separation - slip, along the fault: + overlap, - gap
     along_bed_m: float  # |mismatch| resolved along the footwall bed (times cos cutoff angle)
     cutoff_angle_deg: float
     kind: str  # "overlap", "gap" or "match"
     exceeds: bool
-    restored_gap_m: float | None = None  # flexural-slip restoration's gap at this horizon
+    # The flexural-slip restoration's gap between the two blocks at this horizon, when one
+    # is given (+ gap, - overlap, as mapsection.checks.restore; blocks placed by least squares).
+    restored_gap_m: float | None = None
 
     def to_dict(self) -> dict:
         d = asdict(self)
@@ -244,10 +240,10 @@ class FaultCutoffs:
     distance_m: float  # where the fault meets the ground
     hanging_wall_block: int
     footwall_block: int
-    slip_m: float  # the slip the hanging wall is restored by (NaN when not tested)
+    slip_m: float  # mean slip the hanging wall is restored by (NaN when not tested)
     slip_source: str  # "recorded separations" or "mean measured separation" or ""
     mean_separation_m: float  # mean of the measured separations
-    slip_offset_m: float  # mean measured separation - slip (a uniform misplacement)
+    slip_offset_m: float  # mean mismatch: a uniform misplacement of the hanging wall
     threshold_m: float
     horizons: list[HorizonCutoff]
     worst_m: float  # largest |mismatch|
@@ -356,24 +352,40 @@ def check_cutoffs(draft: Draft, *, fraction: float = CUTOFF_FRACTION,
         mean_sep = float(seps.mean())
         recorded = {t: float(v) for t, v in f.separations.items()
                     if v is not None and math.isfinite(float(v))}
-        rec = [recorded[c.top_of] for c in cuts if c.top_of in recorded]
-        if rec:
-            slip, source = float(np.mean(rec)), "recorded separations"
+        # One slip per straight stretch of the fault: across a bend the slip changes
+        # (Suppe 1983), so each stretch's horizons are restored by their own.
+        stretch: dict[int, list[_Cut]] = {}
+        for c in cuts:
+            stretch.setdefault(c.segment, []).append(c)
+        rec_all = [recorded[c.top_of] for c in cuts if c.top_of in recorded]
+        slip_of: dict[str, float] = {}
+        for group in stretch.values():
+            rec = [recorded[c.top_of] for c in group if c.top_of in recorded]
+            value = (float(np.mean(rec)) if rec else float(np.mean(rec_all)) if rec_all
+                     else float(np.mean([c.separation_m for c in group])))
+            slip_of.update({c.top_of: value for c in group})
+        if rec_all:
+            source = "recorded separations"
         else:
-            slip, source = mean_sep, "mean measured separation"
+            source = "mean measured separation"
             reasons.append("the fault records no separations: restored by the mean measured "
                            "separation, so a uniform error in slip cannot show")
+        if len(stretch) > 1:
+            reasons.append("the fault bends: each straight stretch restored by its own slip "
+                           "(Suppe 1983)")
+        slip = float(np.mean(list(slip_of.values())))
         thr = threshold_m if threshold_m is not None else _threshold(fraction, pixels,
                                                                       mean_sep, pixel)
         gaps = _restored_gaps(restoration, fb.hanging_wall, fb.footwall)
         hz = []
         for c in cuts:
-            m = c.separation_m - slip
+            m = c.separation_m - slip_of[c.top_of]
             kind = "match" if abs(m) < 0.5 else ("overlap" if m > 0 else "gap")
             along = abs(m) * abs(math.cos(math.radians(c.cutoff_angle_deg))) \
                 if math.isfinite(c.cutoff_angle_deg) else float("nan")
             hz.append(HorizonCutoff(c.top_of, c.hw, c.fw, c.projected, c.separation_m,
-                                    recorded.get(c.top_of), float(m), float(along),
+                                    recorded.get(c.top_of), slip_of[c.top_of], float(m),
+                                    float(along),
                                     c.cutoff_angle_deg, kind, bool(abs(m) > thr),
                                     gaps.get(c.top_of)))
         worst = max(hz, key=lambda h: abs(h.mismatch_m))
@@ -384,7 +396,8 @@ def check_cutoffs(draft: Draft, *, fraction: float = CUTOFF_FRACTION,
                            f"{abs(h.mismatch_m):.0f} m from the footwall cutoff "
                            f"({h.kind}; > {thr:.0f} m)")
         results.append(FaultCutoffs(f.name, fb.ground_x, fb.hanging_wall, fb.footwall, slip,
-                                    source, mean_sep, mean_sep - slip, float(thr), hz,
+                                    source, mean_sep,
+                                    float(np.mean([h.mismatch_m for h in hz])), float(thr), hz,
                                     float(abs(worst.mismatch_m)), worst.top_of, status, reasons))
     status = _worst_status([r.status for r in results])
     reasons = [f"fault {r.fault}: {x}" for r in results for x in r.reasons
