@@ -48,6 +48,14 @@ def _detachment_text(fit: DetachmentFit | None) -> str:
             f"(R² {r2})")
 
 
+def _fault_bend_text(fault_bend: dict) -> str:
+    """The fault-bend fold comparison (``Kinematics.fault_bend``): a count only of what was
+    compared."""
+    if fault_bend.get("compared"):
+        return f"{fault_bend['compared']} fault-bend fold(s) compared ({fault_bend.get('status')})"
+    return "fault-bend fold comparison not tested"
+
+
 def _figure_texts(key: KeyFigures) -> dict[str, str]:
     """Each test's key figures against its thresholds, as the table shows them."""
     t = key.thresholds
@@ -76,7 +84,7 @@ def _figure_texts(key: KeyFigures) -> dict[str, str]:
         ),
         "kinematics": (f"{n_kin} inconsistenc{'y' if n_kin == 1 else 'ies'}, transport "
                        f"{kin.transport_direction or '-'}, "
-                       f"{kin.fault_bend_folds} fault-bend fold(s) compared"),
+                       + _fault_bend_text(kin.fault_bend)),
     }
 
 

@@ -198,3 +198,115 @@ def test_incremental_sequence(which, tmp_path):
 
     with Image.open(paths[-1]) as gif:
         assert gif.n_frames == len(frames)  # Pillow reads the frame count back
+
+
+# --- three states for the fault-bend fold comparison (issue 12) ------------------------
+
+
+def suppe_first_mode(theta):
+    """Axial angle gamma (degrees) of a mode-I fault-bend fold over a ramp of cutoff angle
+    theta stepping up from a flat (phi = theta), from Suppe's (1983, Am. J. Sci. 283)
+    equation written out here and solved with scipy.optimize.brentq (first-mode branch)."""
+    from scipy.optimize import brentq
+
+    def phi(g):
+        g, t = np.radians(g), np.radians(theta)
+        a = np.sin(2 * g - t) - np.sin(t)
+        return np.degrees(np.arctan(-np.sin(g - t) * a / (np.cos(g - t) * a - np.sin(g))))
+
+    return brentq(lambda g: phi(g) - theta, 60.0, 89.999, xtol=1e-12)
+
+
+def analytic_fbf_draft(slip=900.0, crest_shift=0.0):
+    """A flat-ramp-flat thrust and its hanging-wall fold drafted from Suppe's (1983)
+    first-mode relations, independently of mapsection.checks.fbf: the back limb dips theta
+    between the axial surfaces A (the bisector at the lower bend) and A' (A moved ``slip``
+    up the ramp); the crest is raised by slip sin(theta); the front limb lies between B
+    (from the upper bend at gamma) and B' (B moved R slip along the upper flat, with
+    R = sin(gamma - theta) / sin(gamma) from the continuity of the velocity normal to B).
+    ``crest_shift`` moves the crest and front limb that far toward the foreland."""
+    h, theta, flat, x0 = 1000.0, 20.0, -3000.0, 3000.0
+    t = np.radians(theta)
+    g = np.radians(suppe_first_mode(theta))
+    r = np.sin(g - t) / np.sin(g)
+    xb = h / np.tan(t)
+    rise = slip * np.sin(t)
+    hz = []
+    for name, d in {"C": 1300.0, "B": 1800.0}.items():  # above the ramp top
+        xa = -d * np.tan(t / 2)
+        xa2 = slip * np.cos(t) - d * np.tan(t / 2)
+        xbb = xb + (d + rise - h) / np.tan(g) + crest_shift
+        xbp = xb + r * slip + (d - h) / np.tan(g) + crest_shift
+        pts = [(-3000.0, d), (xa, d), (xa2, d + rise), (xbb, d + rise), (xbp, d), (7000.0, d)]
+        hz.append(Horizon(name, LineString([(x0 + x, flat + y) for x, y in pts]), block=0))
+    d = 500.0  # cut by the ramp: back limb, then raised flat to its cutoff up the ramp
+    cut_hw = (d / np.tan(t) + slip * np.cos(t), d + rise)
+    pts = [(-3000.0, d), (-d * np.tan(t / 2), d), (slip * np.cos(t) - d * np.tan(t / 2),
+                                                  d + rise), cut_hw]
+    hz.append(Horizon("D", LineString([(x0 + x, flat + y) for x, y in pts]), block=0))
+    hz.append(Horizon("D", LineString([(x0 + d / np.tan(t), flat + d), (10000.0, flat + d)]),
+                      block=1))
+    trace = LineString([(0.0, flat), (x0, flat), (x0 + xb, flat + h), (10000.0, flat + h)])
+    return make_draft(hz, [FaultTrace("R", trace, 20.0, 270.0, -20.0, "thrust", {})])
+
+
+def test_suppe_first_mode_fold_drafted_exactly_passes():
+    k = check_kinematics(analytic_fbf_draft())
+    (entry,) = k.fault_bend_folds
+    assert entry["run"] and entry["status"] == "pass", entry
+    assert entry["model"]["slip_m"] == pytest.approx(900.0, abs=1e-6)  # measured on D
+    assert entry["misfit"]["rms_m"] < 1.0 and entry["misfit"]["hinge_offset_m"] < 1.0
+    assert k.fault_bend == {"status": "pass", "compared": 1, "reasons": []}
+    assert k.status == "pass" and k.passed
+
+
+def test_suppe_fold_with_its_crest_shifted_fails():
+    k = check_kinematics(analytic_fbf_draft(crest_shift=300.0))
+    (entry,) = k.fault_bend_folds
+    assert entry["run"] and entry["status"] == "fail"
+    # the front-limb hinges lie 300 m from the model's (tolerance: 10 % of the 1000 m ramp)
+    assert entry["misfit"]["hinge_offset_m"] == pytest.approx(300.0, abs=1.0)
+    assert entry["misfit"]["hinge_offset_m"] > entry["tolerance_m"] == pytest.approx(100.0)
+    assert k.fault_bend["status"] == "fail" and k.status == "fail" and not k.passed
+    assert any("fault-bend fold model misfits" in f for f in k.failures)
+
+
+def test_fold_model_not_run_is_not_tested_with_its_reason():
+    # A 32-degree ramp has no first-mode solution (Suppe 1983: none beyond about 30 degrees).
+    hz, f = thrust(slip=400.0)
+    c, s = np.cos(np.radians(32.0)), np.sin(np.radians(32.0))
+    steep = FaultTrace("F1", LineString([(6000.0 + 1500 * c / s, 1500.0),
+                                         (6000.0 - 2500 * c / s, -2500.0)]),
+                       32.0, 270.0, -32.0, "thrust", {"A": 400.0})
+    bump = Horizon("A", LineString([(0.0, 100.0), (2000.0, 400.0), (4000.0, 100.0)]), block=0)
+    k = check_kinematics(make_draft([bump, *hz[2:]], [steep]))
+    (e,) = k.fault_bend_folds
+    assert e["status"] == "not_tested" and "no mode-I solution" in e["reasons"][0]
+    assert k.fault_bend["compared"] == 0 and k.fault_bend["status"] == "not_tested"
+
+
+@pytest.fixture(scope="module")
+def sample_kinematics():
+    from pathlib import Path
+
+    from mapsection.build import build_section
+    from mapsection.project import load_project
+
+    project = load_project(Path(__file__).resolve().parents[1] / "sample_area" / "project.toml")
+    return check_kinematics(build_section(project, "A", warn=lambda m: None))
+
+
+def test_sample_area_fault_bend_comparison_not_tested(sample_kinematics):
+    # Issue 12, section 5: the Kelmby Thrust dips 32 degrees in the profile plane
+    # (sample_area/README.md); Suppe's (1983) first mode has no solution for it.
+    k = sample_kinematics
+    (entry,) = k.fault_bend_folds
+    assert not entry["run"] and entry["status"] == "not_tested"
+    assert "no mode-I solution" in entry["reasons"][0]
+    assert k.fault_bend["status"] == "not_tested" and k.fault_bend["compared"] == 0
+    assert any(r.startswith("fault-bend fold comparison: not tested") for r in k.reasons)
+    d = k.to_dict()
+    assert d["fault_bend"]["compared"] == 0
+    from mapsection.checking import _fault_bend_text
+
+    assert "compared" not in _fault_bend_text(d["fault_bend"])

@@ -26,6 +26,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
+import shapely
 from scipy.optimize import brentq, minimize_scalar
 from shapely.geometry import LineString
 
@@ -381,11 +382,29 @@ class FBFMisfit:
     max_at_m: float  # distance of the worst misfit
     n_points: int
     per_horizon: dict[str, float]  # top_of -> RMS misfit, metres
+    # Largest distance along the line from a model hinge (an axial surface meeting a
+    # horizon) to the nearest hinge of the draft's horizon (NaN: no kinked hinge to compare,
+    # e.g. a Busk arc draft).
+    hinge_offset_m: float = float("nan")
+    hinge_at_m: float = float("nan")  # the model hinge farthest from the draft's
 
     def to_dict(self) -> dict:
         return {"fault": self.fault, "rms_m": self.rms_m, "max_m": self.max_m,
                 "max_at_m": self.max_at_m, "n_points": self.n_points,
-                "per_horizon_rms_m": dict(self.per_horizon)}
+                "per_horizon_rms_m": dict(self.per_horizon),
+                "hinge_offset_m": self.hinge_offset_m, "hinge_at_m": self.hinge_at_m}
+
+
+def _kink_x(c: np.ndarray, min_deg: float = 2.0) -> np.ndarray:
+    """Distances of the vertices where a line turns by more than ``min_deg``."""
+    d = np.diff(c, axis=0)
+    keep = np.hypot(d[:, 0], d[:, 1]) > 1e-9
+    d, starts = d[keep], c[:-1][keep]
+    if len(d) < 2:
+        return np.empty(0)
+    a = np.degrees(np.arctan2(d[:, 1], d[:, 0]))
+    turn = np.abs((np.diff(a) + 180.0) % 360.0 - 180.0)
+    return starts[1:][turn > min_deg, 0]
 
 
 def _y_at(line: LineString, xs: np.ndarray) -> np.ndarray:
@@ -398,20 +417,30 @@ def compare_with_draft(draft, fault, model: FBFModel, *, n: int = 200) -> FBFMis
     """RMS elevation misfit (m) of the draft's hanging-wall horizons against the model.
 
     Compared within the model's fold (from axial surface A to B' of each horizon)
-    wherever the draft's hanging-wall horizon of the same ``top_of`` exists.
+    and within the draft's own fold (where its horizon leaves the level of its
+    hinterland end by more than 1 m), wherever the draft's hanging-wall horizon of
+    the same ``top_of`` exists: a fold drawn in the wrong place is compared too.
     """
     name = fault.name if hasattr(fault, "name") else str(fault)
     fb = fault_blocks(draft).get(name)
     joined = joined_horizons(draft)
     res_all, x_all, per = [], [], {}
+    hinge_off: list[tuple[float, float]] = []
     for mh in model.horizons:
         if fb is None:
             break
         line = joined.get((mh.name, fb.hanging_wall))
         if line is None:
             continue
-        lx = np.asarray(line.coords)[:, 0]
-        lo, hi = max(mh.fold_x[0], lx.min()), min(mh.fold_x[1], lx.max())
+        lc = np.asarray(line.coords)[:, :2]
+        lx = lc[:, 0]
+        # the draft's fold: where it leaves the level of its hinterland end
+        regional = lc[0, 1] if model.direction > 0 else lc[-1, 1]
+        off = lx[np.abs(lc[:, 1] - regional) > 1.0]
+        f0, f1 = mh.fold_x
+        if len(off):
+            f0, f1 = min(f0, float(off.min())), max(f1, float(off.max()))
+        lo, hi = max(f0, lx.min()), min(f1, lx.max())
         if hi <= lo:
             continue
         xs = np.linspace(lo, hi, n)
@@ -422,10 +451,18 @@ def compare_with_draft(draft, fault, model: FBFModel, *, n: int = 200) -> FBFMis
         per[mh.name] = float(np.sqrt(np.mean(d[ok] ** 2)))
         res_all.append(d[ok])
         x_all.append(xs[ok])
+        # Hinges: where the model's axial surfaces meet the horizon, against the draft's kinks.
+        kinks = _kink_x(lc)
+        for ax in model.axial_surfaces:
+            hit = ax.geometry.intersection(mh.geometry)
+            for px in np.asarray(shapely.get_coordinates(hit))[:, 0]:
+                if len(kinks) and lx.min() < px < lx.max():
+                    hinge_off.append((float(np.min(np.abs(kinks - px))), float(px)))
     if not res_all:
         return FBFMisfit(name, float("nan"), float("nan"), float("nan"), 0, {})
     d = np.concatenate(res_all)
     x = np.concatenate(x_all)
     i = int(np.argmax(np.abs(d)))
+    h_off, h_at = max(hinge_off) if hinge_off else (float("nan"), float("nan"))
     return FBFMisfit(name, float(np.sqrt(np.mean(d**2))), float(abs(d[i])), float(x[i]),
-                     int(len(d)), per)
+                     int(len(d)), per, h_off, h_at)

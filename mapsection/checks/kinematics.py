@@ -15,7 +15,15 @@ Consistency checks, each reported with where it fails (distance along the line):
 
 Where a thrust cuts horizons and carries a hanging-wall anticline, the fault-bend
 fold forward model (Suppe 1983, Am. J. Sci. 283; :mod:`mapsection.checks.fbf`)
-is run at the measured slip and its misfit reported (not part of ``passed``).
+is run at the measured slip and compared with the draft: it passes when the RMS
+elevation misfit and the largest offset of a model hinge from the draft's nearest
+hinge are both within :func:`fbf_tolerance_m`. Where the model cannot run (no
+first-mode solution, no anticline, no reverse slip) the comparison is
+``not_tested`` with its reason and counts as nothing compared.
+
+Every part, and the test as a whole, has a ``status`` ("pass", "fail" or
+"not_tested") and ``reasons``: the test passes only when some part was measured
+and none failed.
 """
 
 from __future__ import annotations
@@ -49,8 +57,9 @@ def _dir_name(d: int | None) -> str | None:
 
 
 def fbf_tolerance_m(ramp_height_m: float) -> float:
-    """Misfit tolerance of the fault-bend fold comparison: the larger of 50 m and 10 % of
-    the ramp height (a mapsection choice for a draft, not a published rule)."""
+    """Misfit tolerance of the fault-bend fold comparison (RMS elevation misfit and hinge
+    offset): the larger of 50 m and 10 % of the ramp height (the tool's default for a
+    draft, not a published rule)."""
     return max(50.0, 0.1 * ramp_height_m)
 
 
@@ -64,6 +73,11 @@ class Kinematics:
     crossings: dict
     fault_bend_folds: list[dict] = field(default_factory=list)
     failures: list[str] = field(default_factory=list)
+    # "pass" only when something was measured and nothing failed; "not_tested" when no
+    # part could be measured (``passed`` stays False only on a failure).
+    status: str = "pass"
+    reasons: list[str] = field(default_factory=list)
+    fault_bend: dict = field(default_factory=dict)  # status, reasons, compared (count)
 
     @property
     def transport_name(self) -> str | None:
@@ -74,6 +88,9 @@ class Kinematics:
         return {
             "passed": self.passed,
             "transport_direction": self.transport_name,
+            "status": self.status,
+            "reasons": list(self.reasons),
+            "fault_bend": self.fault_bend,
             "transport": self.transport,
             "cut_up_section": self.cut_up_section,
             "separations": self.separations,
@@ -183,6 +200,24 @@ def _ramp(fault: LineString) -> tuple[np.ndarray, np.ndarray]:
 
 def _run_fbf(draft: Draft, fault, fb: FaultBlocks, seps: dict[str, float],
              transport: int) -> dict:
+    """One fault-bend fold comparison: ``status`` "pass" / "fail" when the model ran,
+    "not_tested" with ``reasons`` (the model's own reason) when it did not."""
+    entry = _fbf_entry(draft, fault, fb, seps, transport)
+    if entry.get("run"):
+        entry["status"] = "pass" if entry["within_tolerance"] else "fail"
+        m, tol = entry["misfit"], entry["tolerance_m"]
+        entry["reasons"] = [] if entry["within_tolerance"] else [
+            f"fault-bend fold model misfits the hanging wall of {fault.name} by "
+            f"{m['rms_m']:.0f} m RMS; a model hinge lies {m['hinge_offset_m']:.0f} m from the "
+            f"draft's nearest, at {m['hinge_at_m']:.0f} m (tolerance {tol:.0f} m)"]
+    else:
+        entry["status"] = "not_tested"
+        entry["reasons"] = [entry.get("reason", "the model was not run")]
+    return entry
+
+
+def _fbf_entry(draft: Draft, fault, fb: FaultBlocks, seps: dict[str, float],
+               transport: int) -> dict:
     joined = joined_horizons(draft)
     bottom, top = _ramp(fault.geometry)
     entry: dict = {"fault": fault.name, "distance_m": float(fb.ground_x), "run": False}
@@ -219,7 +254,8 @@ def _run_fbf(draft: Draft, fault, fb: FaultBlocks, seps: dict[str, float],
     tol = fbf_tolerance_m(dy)
     entry.update({"run": True, "model": model.to_dict(), "misfit": mis.to_dict(),
                   "tolerance_m": tol,
-                  "within_tolerance": bool(np.isfinite(mis.rms_m) and mis.rms_m <= tol)})
+                  "within_tolerance": bool(np.isfinite(mis.rms_m) and mis.rms_m <= tol
+                                           and not mis.hinge_offset_m > tol)})
     return entry
 
 
@@ -326,6 +362,46 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
             continue
         fbfs.append(_run_fbf(draft, f, blocks[f.name], seps, direction or own[f.name]))
 
-    passed = (transport["passed"] and cut["passed"] and separations["passed"]
-              and crossings["passed"])
-    return Kinematics(passed, direction, transport, cut, separations, crossings, fbfs, failures)
+    # Three states (issue 12): a part passes only when it measured something.
+    n_cut = sum(1 for f in draft.faults if f.name in own
+                for hw, _ in blocks[f.name].cutoffs.values() if hw is not None)
+    parts = {
+        "transport": _part(transport, transport["passed"], bool(own),
+                           "no thrust or reverse fault on the section"),
+        "cut_up_section": _part(cut, cut["passed"], n_cut > 0,
+                                "no hanging-wall cutoff on a thrust or reverse fault"),
+        "separations": _part(separations, separations["passed"],
+                             any(_kind(f.sense) and separations["faults"][f.name]["separations_m"]
+                                 for f in draft.faults),
+                             "no fault with a mapped sense and a separation"),
+        "crossings": _part(crossings, crossings["passed"], bool(draft.horizons),
+                           "the section has no horizon"),
+    }
+    compared = [e for e in fbfs if e["status"] != "not_tested"]
+    fb_status = ("fail" if any(e["status"] == "fail" for e in fbfs) else
+                 "pass" if compared else "not_tested")
+    fault_bend = {"status": fb_status, "compared": len(compared),
+                  "reasons": ([f"{e['fault']}: {r}" for e in fbfs for r in e["reasons"]]
+                              if fbfs else ["no thrust with measured separations to model"])}
+    if fb_status == "fail":
+        failures += [r for e in fbfs if e["status"] == "fail" for r in e["reasons"]]
+    statuses = [*parts.values(), fb_status]
+    status = ("fail" if "fail" in statuses else "pass" if "pass" in statuses
+              else "not_tested")
+    subs = {"transport": transport, "cut_up_section": cut, "separations": separations,
+            "crossings": crossings}
+    reasons = [f"{k.replace('_', ' ')}: not tested ({v['reasons'][0]})"
+               for k, v in subs.items() if v["status"] == "not_tested"]
+    if fb_status == "not_tested":
+        reasons.append("fault-bend fold comparison: not tested ("
+                       + "; ".join(fault_bend["reasons"]) + ")")
+    passed = status != "fail"
+    return Kinematics(passed, direction, transport, cut, separations, crossings, fbfs, failures,
+                      status, reasons, fault_bend)
+
+
+def _part(d: dict, ok: bool, measured: bool, why: str) -> str:
+    """Give a sub-test dict its ``status`` and ``reasons``; returns the status."""
+    d["status"] = "not_tested" if not measured else ("pass" if ok else "fail")
+    d["reasons"] = [why] if not measured else []
+    return d["status"]

@@ -15,7 +15,7 @@ Example::
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from ..project import Thresholds
 from .area import AreaBalance, DetachmentFit
@@ -66,7 +66,7 @@ class KinematicsFigures:
     passed: bool
     inconsistencies: int = 0
     transport_direction: str | None = None  # in words
-    fault_bend_folds: int = 0  # fault-bend fold models compared with the draft
+    fault_bend: dict = field(default_factory=dict)  # Kinematics.fault_bend: status, compared
 
 
 @dataclass(frozen=True)
@@ -122,5 +122,5 @@ def key_figures(report: CheckReport) -> KeyFigures:
                            rest.line_length_mismatch_pct),
         AreaFigures(results["area_balance"], unit, worst, area.detachment),
         KinematicsFigures(results["kinematics"], len(kin.failures), kin.transport_name,
-                          len(kin.fault_bend_folds)),
+                          dict(kin.fault_bend)),
     )
