@@ -446,10 +446,8 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
     except Exception as exc:
         raise MapLayerError(f"{path}: not a readable GeoPackage "
                             f"({first_line(exc)})") from None
-    from .construct import base_name
-
     # The base of the oldest unit is a horizon too (named by the construction).
-    known = set(column.names) | {base_name(column)}
+    known = set(column.names) | {column.base_name}
     meta = section_info(path, layers)
 
     hz_frame = _read_layer(path, "horizons", layers)

@@ -8,11 +8,14 @@ import shapely
 from shapely.geometry import LineString, Point
 
 from mapsection.construct import base_name, build_draft
-from mapsection.construct._common import Constraints, Domain, Frame, group_domains
+from mapsection.construct.constraints import Constraints
+from mapsection.construct.domains import Domain, group_domains
+from mapsection.construct.frame import SectionFrame as Frame
 from mapsection.construct.kink import fit_kink
 from mapsection.dips import ProjectedDips
 from mapsection.geology import Contact, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
+from mapsection.notes import Notes
 from mapsection.profile import Profile
 from mapsection.stratigraphy import Column, Unit
 
@@ -193,7 +196,7 @@ def test_hinge_position_from_the_data_in_a_wide_gap():
     cd = np.array([c.distance_m for c in geology.contacts])
     cons = Constraints(cd, np.zeros(len(cd)), contact_s, np.ones(len(cd)), ("",) * len(cd),
                        np.ones(len(cd), bool))
-    mid = fit_kink(doms, cons, ground, frame, 200.0, [])
+    mid = fit_kink(doms, cons, ground, frame, 200.0, Notes())
     mid_res = mid.depth_at(cd, np.zeros(len(cd))) - contact_s
     assert np.max(np.abs(mid_res)) > 50.0
 

@@ -29,6 +29,7 @@ from .. import CAUTION
 from .._atomic import atomic_file
 from ..draft import Draft
 from ..errors import CheckError
+from ..stratigraphy import is_base_name
 
 __all__ = [
     "Restoration",
@@ -111,7 +112,7 @@ def restored_elevation(column, top_of: str) -> float:
     """
     if top_of in column.names:
         return -float(column.depth_to_top[column.index(top_of)])
-    if top_of.lower().startswith("base"):
+    if is_base_name(top_of):
         return -column.total_thickness
     raise CheckError(f"horizon top_of {top_of!r}: not a unit of the stratigraphic column")
 
