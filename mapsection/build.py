@@ -36,9 +36,10 @@ from typing import Any
 
 import numpy as np
 
-from . import CAUTION, __version__
+from . import __version__
 from ._atomic import atomic_dir, atomic_file
 from ._messages import default_warn as _default_warn
+from .caution import CAUTION
 from .draft import Draft
 from .errors import OutputError, ParameterError
 from .line import SectionLine

@@ -68,8 +68,8 @@ from .draft import AxialSurface, DipDomain, Draft, FaultTrace, Horizon, UnitPoly
 from .errors import MapLayerError, OutputError
 from .geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from .line import SectionLine
-from .profile import Profile
 from .stratigraphy import Column
+from .topo_profile import Profile
 
 # layer -> (geometry type, fields that read_section_gpkg needs)
 LAYERS: dict[str, tuple[str, tuple[str, ...]]] = {

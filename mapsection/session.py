@@ -30,18 +30,20 @@ import shapely
 from shapely import STRtree
 
 from ._messages import default_warn as _default_warn
+from .crs import same_crs
 from .errors import LineError, ParameterError
-from .geology import SurfaceGeology, same_crs, surface_geology
+from .geology import SurfaceGeology, surface_geology
 from .line import SectionLine
-from .mapdata import MapData, read_map
-from .profile import Profile
+from .mapdata import MapData
+from .readers.map import read_map
+from .topo_profile import Profile
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from .attitudes import Attitudes
-    from .dem import Dem
     from .dips import ProjectedDips
     from .foldaxis import FoldAxis
     from .project import Project, SectionSpec
+    from .readers.dem import Dem
 
 Warn = Callable[[str], None]
 PROJECTIONS = ("perpendicular", "strike", "plunge")
@@ -86,8 +88,8 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
 
     Every map unit must be in the project's column.
     """
-    from .attitudes import read_attitudes
-    from .dem import Dem
+    from .readers.attitudes import read_attitudes
+    from .readers.dem import Dem
 
     warn = warn or _default_warn
     map_data = read_map(project.map_path, project.units_layer, project.unit_field,
@@ -103,7 +105,7 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
 class SectionSession:
     """Loaded inputs of one section, ready to be re-run for any line.
 
-    ``dem`` is an open :class:`mapsection.dem.Dem` (or a path, opened here);
+    ``dem`` is an open :class:`mapsection.readers.dem.Dem` (or a path, opened here);
     ``attitudes`` get their ground elevation sampled from the DEM once, here,
     where they have none. ``corridor`` is the half-width in metres of the strip
     of attitudes projected; ``projection`` is ``perpendicular``, ``strike`` or
@@ -115,7 +117,7 @@ class SectionSession:
                  corridor: float, projection: str = "perpendicular",
                  axis: FoldAxis | None = None, step: float | None = None,
                  warn: Warn | None = None) -> None:
-        from .dem import Dem
+        from .readers.dem import Dem
 
         if not (isinstance(corridor, int | float) and np.isfinite(corridor) and corridor > 0):
             raise ParameterError(f"corridor: must be a number > 0 m, got {corridor!r}")
@@ -278,7 +280,7 @@ class SectionSession:
 
     def run(self, line: SectionLine | np.ndarray | Sequence | None = None) -> SectionData:
         """Profile, surface geology and projected dips along ``line`` (default: the current one)."""
-        from .profile import profile
+        from .topo_profile import profile
 
         line = self._as_line(line)
         prof = profile(self.dem, line, self.step, warn=self.warn)

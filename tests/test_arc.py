@@ -15,8 +15,8 @@ from mapsection.dips import ProjectedDips
 from mapsection.geology import Contact, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
 from mapsection.notes import Notes
-from mapsection.profile import Profile
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 L = 10000.0
 CENTRE = np.array([5000.0, -1500.0])

@@ -23,8 +23,8 @@ from mapsection.draft import AxialSurface, Draft, FaultTrace, Horizon, UnitPolyg
 from mapsection.figure import draw_section, nice_length, page_layout, section_figure, ve_text
 from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
-from mapsection.profile import Profile
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 APPARENT = np.array([10.0, -20.0, 35.0, 0.0, 60.0, -75.0])
 

@@ -16,8 +16,8 @@ from mapsection.dips import ProjectedDips
 from mapsection.geology import Contact, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
 from mapsection.notes import Notes
-from mapsection.profile import Profile
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 L = 10000.0
 

@@ -12,8 +12,8 @@ from mapsection.draft import DipDomain, Draft, FaultTrace, Horizon
 from mapsection.errors import CheckError
 from mapsection.geology import SurfaceGeology
 from mapsection.line import SectionLine
-from mapsection.profile import Profile
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 COLUMN = Column((Unit("A", 300.0), Unit("B", 400.0), Unit("C", 500.0), Unit("D", 800.0)))
 DEPTHS = {"A": 0.0, "B": 300.0, "C": 700.0, "D": 1200.0}

@@ -214,8 +214,8 @@ def test_attitudes_in_another_crs_are_reprojected(project):
 
     import pyproj
 
-    from mapsection.attitudes import read_attitudes
-    from mapsection.mapdata import read_map
+    from mapsection.readers.attitudes import read_attitudes
+    from mapsection.readers.map import read_map
 
     spec = project.sections[0]
     m = read_map(project.map_path, project.units_layer, project.unit_field,

@@ -21,9 +21,9 @@ from mapsection.draft import Draft, Horizon, UnitPolygon
 from mapsection.errors import CheckError
 from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
-from mapsection.profile import Profile
 from mapsection.project import Thresholds
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 LENGTH = 10_000.0
 DIP = 10.0  # degrees; beds descend toward increasing distance

@@ -35,7 +35,7 @@ def _default_project() -> Path:
 
 def _write_attitudes(path: Path, project, n: int, rng: np.random.Generator) -> None:
     """N attitudes over the DEM's extent, bedding of the sample model at the ground."""
-    from mapsection.dem import Dem
+    from mapsection.readers.dem import Dem
     from mapsection.sample import SAMPLE_MODEL
 
     with Dem.open(project.dem_path) as dem:
@@ -70,14 +70,14 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--seed", type=int, default=11)
     args = p.parse_args(argv)
 
-    from mapsection.attitudes import read_attitudes
-    from mapsection.dem import Dem
     from mapsection.dips import project_attitudes
     from mapsection.geology import surface_geology
-    from mapsection.mapdata import read_map
-    from mapsection.profile import profile
     from mapsection.project import load_project
+    from mapsection.readers.attitudes import read_attitudes
+    from mapsection.readers.dem import Dem
+    from mapsection.readers.map import read_map
     from mapsection.session import SectionSession
+    from mapsection.topo_profile import profile
 
     if not args.project.exists():
         print(f"mapsection.bench move: error: {args.project}: no project file (generate the "

@@ -5,10 +5,11 @@ from __future__ import annotations
 import click
 import numpy as np
 
-from .. import CAUTION
-from ..attitudes import CONVENTIONS, Attitudes, read_attitudes
+from ..attitudes import CONVENTIONS, Attitudes
+from ..caution import CAUTION
 from ..errors import AttitudeError, MapLayerError
 from ..foldaxis import MIN_CYLINDRICITY, fold_axis, recommended_azimuth
+from ..readers.attitudes import read_attitudes
 from ._common import warn
 
 

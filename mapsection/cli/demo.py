@@ -7,7 +7,7 @@ from pathlib import Path
 
 import click
 
-from .. import CAUTION
+from ..caution import CAUTION
 from ._common import note, warn
 
 

@@ -10,14 +10,16 @@ import click
 import numpy as np
 import pyproj
 
-from .. import CAUTION
 from .._atomic import atomic_file
-from ..attitudes import CONVENTIONS, read_attitudes, reproject_attitudes
-from ..dem import Dem
+from ..attitudes import CONVENTIONS, reproject_attitudes
+from ..caution import CAUTION
 from ..dips import METHODS, in_corridor, project_attitudes
 from ..errors import OutputError, ParameterError
 from ..foldaxis import fold_axis, recommended_azimuth
-from ..line import projected_line, read_line
+from ..line import projected_line
+from ..readers.attitudes import read_attitudes
+from ..readers.dem import Dem
+from ..readers.line import read_line
 from ._common import note, warn
 
 COLUMNS = ("id", "distance_m", "offset_m", "elevation_m", "strike", "dip", "apparent_dip",

@@ -8,12 +8,12 @@ import click
 import numpy as np
 import pyproj
 
-from .. import CAUTION
 from .._atomic import atomic_file
-from ..dem import Dem
+from ..caution import CAUTION
 from ..errors import OutputError, ParameterError
 from ..line import projected_line
-from ..profile import profile, resolve_line
+from ..readers.dem import Dem
+from ..topo_profile import profile, resolve_line
 from ._common import note, warn
 
 COLUMNS = ["distance_m", "x", "y", "elevation_m"]

@@ -29,8 +29,8 @@ from ..errors import ConstructionError, ParameterError
 from ..geology import SurfaceGeology
 from ..line import SectionLine
 from ..notes import Notes, Warn
-from ..profile import Profile
 from ..stratigraphy import BASE_PREFIX, Column
+from ..topo_profile import Profile
 from .assemble import add_block, add_faults, add_residuals
 from .blocks import (
     FaultBlock,

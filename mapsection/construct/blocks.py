@@ -12,7 +12,7 @@ import numpy as np
 from ..dips import ProjectedDips
 from ..errors import ConstructionError
 from ..notes import Notes
-from ..profile import Profile
+from ..topo_profile import Profile
 from .constraints import Constraints
 from .domains import Domain, dip_arrays, travel_angle
 from .faults import FaultLine

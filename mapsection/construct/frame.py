@@ -11,7 +11,7 @@ import shapely
 from shapely.geometry import LineString, Polygon
 
 from ..errors import ConstructionError
-from ..profile import Profile
+from ..topo_profile import Profile
 
 
 @dataclass(frozen=True)
