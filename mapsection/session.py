@@ -3,7 +3,7 @@
 While choosing a section line the geologist moves it again and again. A
 :class:`SectionSession` reads every file once, keeps the open DEM (which caches
 its decoded blocks), the map with its STRtrees and the attitudes with their
-ground elevations and a spatial index, so that :meth:`SectionSession.move`
+ground elevations and a spatial index, so that :meth:`SectionSession.shift_line`
 re-runs the profile, the surface geology and the dip projection without
 reading any file again::
 
@@ -13,7 +13,7 @@ reading any file again::
     project = load_project("sample_area/project.toml")
     session = SectionSession.from_project(project, project.sections[0])
     data = session.run()                       # the section line of the project file
-    data = session.move([[x1, y1], [x2, y2]])  # a new line, same CRS and name
+    data = session.shift_line([[x1, y1], [x2, y2]])  # a new line, same CRS and name
 """
 
 from __future__ import annotations
@@ -144,7 +144,7 @@ class SectionSession:
 
             attitudes = reproject_attitudes(attitudes, self.crs, warn=self.warn)
         self.attitudes = self._with_elevations(attitudes)
-        # Index of the attitude points: a move only looks at the points near the new line.
+        # Index of the attitude points: a shifted line only looks at the points near the new line.
         self._points = shapely.points(np.asarray(self.attitudes.x, float),
                                       np.asarray(self.attitudes.y, float))
         self._tree = STRtree(self._points)
@@ -169,7 +169,7 @@ class SectionSession:
         return dataclasses.replace(attitudes, z=z)
 
     def _warm_dem(self, budget_bytes: int = 256 * 2**20) -> None:
-        """Decode the DEM blocks under the map once, so that moves within it read no file.
+        """Decode the DEM blocks under the map once, so that shifted lines within it read no file.
 
         Skipped when those blocks would exceed ``budget_bytes``; the DEM's own
         block cache then reads each new block once, the first time a line needs it.
@@ -202,16 +202,14 @@ class SectionSession:
                 warn(f"section {spec.name}: down-plunge projection may mislead: {why}")
         session = cls(inputs.dem, inputs.map_data, inputs.attitudes, spec.corridor,
                       spec.projection, axis, warn=warn)
-        session.line = session._as_line(SectionLine(np.asarray(spec.line, float), project.crs,
-                                                    spec.name))
+        session.line = session._as_line(project.section_line(spec))
         return session
 
     @classmethod
     def from_project(cls, project: Project, spec: SectionSpec | str,
                      warn: Warn | None = None) -> SectionSession:
         """Open the DEM, read the map and the attitudes of a project, for one section."""
-        if isinstance(spec, str):
-            spec = project.section(spec)
+        spec = project.section(spec)
         inputs = load_inputs(project, warn)
         try:
             return cls.from_inputs(inputs, project, spec, warn)
@@ -289,6 +287,6 @@ class SectionSession:
         self.line = line
         return SectionData(line, prof, geology, dips)
 
-    def move(self, new_line: SectionLine | np.ndarray | Sequence) -> SectionData:
-        """Re-run for a moved line (a SectionLine or its vertices); reads no file."""
+    def shift_line(self, new_line: SectionLine | np.ndarray | Sequence) -> SectionData:
+        """Re-run for a shifted line (a SectionLine or its vertices); reads no file."""
         return self.run(self._as_line(new_line))
