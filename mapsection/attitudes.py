@@ -244,3 +244,20 @@ def reproject_attitudes(att: Attitudes, crs: str | pyproj.CRS, *, warn: Warn | N
         f" (strikes rotated to its grid north by up to {float(turn.max(initial=0)):.2f} degrees)"
     )
     return Attitudes(att.id, xt, yt, att.z, new_strike, att.dip, att.overturned, target)
+
+
+def with_ground_elevations(att: Attitudes, dem, crs=None) -> tuple[Attitudes, int]:
+    """Attitudes with z from the DEM where they carry none (sampled once, vectorised), and
+    how many are still without one (off the DEM or on nodata).
+
+    ``dem``: anything with ``sample(x, y, crs=...)`` (an open
+    :class:`mapsection.readers.dem.Dem`); ``crs``: the CRS of the attitudes' x, y
+    (default: their own).
+    """
+    z = np.asarray(att.z, float) if att.z is not None else None
+    if z is not None and len(z) == len(att) and np.all(np.isfinite(z)):
+        return att, 0
+    ground = np.asarray(dem.sample(np.asarray(att.x, float), np.asarray(att.y, float),
+                                   crs=crs if crs is not None else att.crs), float)
+    z = ground if z is None or len(z) != len(att) else np.where(np.isfinite(z), z, ground)
+    return dataclasses.replace(att, z=z), int(np.count_nonzero(~np.isfinite(z)))

@@ -18,7 +18,6 @@ reading any file again::
 
 from __future__ import annotations
 
-import dataclasses
 import os
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -153,20 +152,12 @@ class SectionSession:
     # --- loading --------------------------------------------------------------------------
     def _with_elevations(self, attitudes: Attitudes) -> Attitudes:
         """Attitudes with z from the DEM where they carry none (sampled once, vectorised)."""
-        z = np.asarray(attitudes.z, float) if attitudes.z is not None else None
-        if z is not None and len(z) == len(attitudes) and np.all(np.isfinite(z)):
-            return attitudes
-        ground = np.asarray(self.dem.sample(np.asarray(attitudes.x, float),
-                                            np.asarray(attitudes.y, float),
-                                            crs=getattr(attitudes, "crs", None)), float)
-        if z is None or len(z) != len(attitudes):
-            z = ground
-        else:
-            z = np.where(np.isfinite(z), z, ground)
-        off = int(np.count_nonzero(~np.isfinite(z)))
+        from .attitudes import with_ground_elevations
+
+        attitudes, off = with_ground_elevations(attitudes, self.dem)
         if off:
             self.warn(f"attitudes: {off} of {len(attitudes)} lie off the DEM (no elevation)")
-        return dataclasses.replace(attitudes, z=z)
+        return attitudes
 
     def _warm_dem(self, budget_bytes: int = 256 * 2**20) -> None:
         """Decode the DEM blocks under the map once, so that shifted lines within it read no file.
