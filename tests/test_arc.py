@@ -217,7 +217,7 @@ def test_sample_sections_with_arc_pass_topography_and_recover_the_model():
     root = Path(__file__).resolve().parents[1]
     path = root / "sample_area" / "project.toml"
     assert path.is_file(), f"{path} missing: run sample_area/generate.py"  # never a skip
-    from test_sample_recovery import recovery_errors
+    from conftest import recovery_errors
 
     from mapsection.build import build_section
     from mapsection.checks.topography import check_topography

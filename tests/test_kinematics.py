@@ -5,9 +5,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import KINK_COLUMN as COLUMN
+from conftest import KINK_DEPTHS as DEPTHS
+from conftest import TAN30
+from conftest import flat_draft as restore_draft
 from shapely.geometry import LineString
-from test_restore import COLUMN, DEPTHS, TAN30
-from test_restore import make_draft as restore_draft
 
 from mapsection.checks.fbf import compare_with_draft, fault_bend_fold
 from mapsection.checks.kinematics import check_kinematics, horizon_crossings

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import shapely
+from conftest import no_dips as _no_dips
 from shapely.geometry import LineString, Point
 
 from mapsection.construct import base_name, build_draft
@@ -248,12 +249,6 @@ def test_projected_parts_above_ground_are_stored_apart():
     base = merged(draft, base_name(COLUMN))
     assert sum(u.geometry.area for u in draft.units) == pytest.approx(units.area, rel=1e-9)
     assert base.length > 0
-
-
-# --- bad input -------------------------------------------------------------------------
-def _no_dips() -> ProjectedDips:
-    e = np.zeros(0)
-    return ProjectedDips(e, e, e, e, e, e, e, e, e, np.zeros(0, bool), np.zeros(0, bool))
 
 
 def test_no_dips_and_no_default_is_refused():
