@@ -14,6 +14,7 @@ import shapely
 
 from .._messages import default_warn as _default_warn
 from .._messages import first_line
+from ..crs import same_crs
 from ..errors import MapLayerError
 from ..mapdata import (
     _LINES,
@@ -97,7 +98,7 @@ def read_map(
         if df.crs is None:
             df.set_crs(target, inplace=True)
             assumed.append(name)
-        elif pyproj.CRS(df.crs) != target:
+        elif not same_crs(df.crs, target):
             moved.append(f"{name!r} from {_crs_name(df.crs)}")
             frames[name] = df.to_crs(target)
     if assumed:
