@@ -10,7 +10,11 @@ Two methods:
 
 Both keep the column's thicknesses perpendicular to bedding; both are positioned by
 the map contacts (least squares, residuals kept). Faults split the section into
-blocks built each from its own data (:mod:`mapsection.construct.faults`).
+blocks built each from its own data (:mod:`mapsection.construct.faults`,
+:mod:`mapsection.construct.blocks`). The method is chosen from the table of
+:mod:`mapsection.construct.methods`; both models satisfy its ``BlockModel`` protocol.
+What the construction did goes to one :class:`mapsection.notes.Notes`, whose entries
+become ``draft.log`` (build.log).
 
 Horizons are named by the unit whose top they are; the base of the oldest unit is
 the horizon ``top_of = "base of <oldest unit>"``.
