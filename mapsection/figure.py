@@ -43,9 +43,9 @@ from matplotlib.patches import Polygon as MplPolygon
 from matplotlib.path import Path as MplPath
 from matplotlib.transforms import blended_transform_factory
 
+from . import CAUTION
 from . import colours as C
 from ._atomic import atomic_file
-from .caution import CAUTION
 from .draft import Draft
 from .errors import ParameterError
 from .mapdata import MapData

@@ -20,8 +20,8 @@ from html import escape
 from pathlib import Path
 from typing import Any
 
+from . import CAUTION
 from ._atomic import atomic_file
-from .caution import CAUTION
 
 TITLES = {
     "topography": "Topography: the section against the ground, the map and the dips",

@@ -41,8 +41,8 @@ from typing import Any
 
 import numpy as np
 
+from .. import CAUTION
 from .._atomic import atomic_file
-from ..caution import CAUTION
 from ..draft import Draft
 from ..errors import CheckError
 from ..project import Thresholds

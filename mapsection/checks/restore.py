@@ -25,8 +25,8 @@ from pathlib import Path
 import numpy as np
 from shapely.geometry import LineString, Point, Polygon
 
+from .. import CAUTION
 from .._atomic import atomic_file
-from ..caution import CAUTION
 from ..draft import Draft
 from ..errors import CheckError
 from ..stratigraphy import is_base_name

@@ -24,8 +24,8 @@ from pathlib import Path
 import numpy as np
 from shapely.geometry import LineString
 
+from .. import CAUTION
 from .._atomic import atomic_file
-from ..caution import CAUTION
 from ..draft import Draft
 from ..errors import CheckError, OutputError
 from .restore import Restoration, _colours, _xy, clip_x, fault_blocks, joined_horizons, y_at

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import click
 
-from ..caution import CAUTION
+from .. import CAUTION
 from ..checking import check_section, infer_section, summary_lines, write_html_report
 from ..errors import CheckError
 from ._common import warn

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import click
 
-from ..caution import CAUTION
+from .. import CAUTION
 from ._common import note, warn
 
 
