@@ -7,6 +7,7 @@ The command line passes its own callback that prints ``mapsection: warning: ...`
 
 from __future__ import annotations
 
+import sys
 import warnings
 
 
@@ -16,6 +17,11 @@ class MapsectionWarning(UserWarning):
 
 def default_warn(message: str) -> None:
     warnings.warn(message, MapsectionWarning, stacklevel=3)
+
+
+def default_note(message: str) -> None:
+    """A note (not a warning) for a library caller who gave no callback: one line on stderr."""
+    print(f"mapsection: note: {message}", file=sys.stderr)
 
 
 def first_line(exc: BaseException) -> str:

@@ -1,4 +1,5 @@
-"""Bedding attitudes: reading, validating and converting strike/dip measurements.
+"""Bedding attitudes: the value object, the conventions, and converting strike/dip
+measurements (the file reader is :mod:`mapsection.readers.attitudes`).
 
 Three conventions of the trade are read:
 
@@ -13,28 +14,22 @@ dip (0-90) in degrees from grid north of the working CRS.
 
 from __future__ import annotations
 
-import csv
 import dataclasses
-import os
 import re
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 import pyproj
 
 from ._messages import default_warn as _default_warn
+from .angles import angle_between
+from .crs import same_crs, transformer
 from .errors import AttitudeError
 
 Warn = Callable[[str], None]
 
 CONVENTIONS = ("rhr", "dip-direction", "quadrant")
-CSV_SUFFIXES = (".csv", ".txt", ".tsv")
-LOGICAL_FIELDS = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
-
-_TRUE = {"true", "t", "yes", "y", "1"}
-_FALSE = {"false", "f", "no", "n", "0", ""}
 
 
 @dataclass(frozen=True, eq=False)
@@ -112,12 +107,7 @@ _QUADRANT_RANGE = {
 }
 
 
-def _angle_between(a: float, b: float) -> float:
-    """Smallest angle between two azimuths, 0-180."""
-    return abs((a - b + 180.0) % 360.0 - 180.0)
-
-
-def _parse_quadrant_one(text: str) -> tuple[float, float]:
+def parse_one_quadrant(text: str) -> tuple[float, float]:
     """Parse one quadrant attitude; ValueError with the reason when it is not valid."""
     m = _QUADRANT.match(str(text))
     if not m:
@@ -135,11 +125,11 @@ def _parse_quadrant_one(text: str) -> tuple[float, float]:
     candidates = ((bearing + 90.0) % 360.0, (bearing + 270.0) % 360.0)
     if len(dq) == 1:
         # One letter: the dip direction must lie within 90 degrees of it (and only one can).
-        ok = [c for c in candidates if _angle_between(c, _CARDINAL[dq]) < 90.0 - _EPS]
+        ok = [c for c in candidates if angle_between(c, _CARDINAL[dq]) < 90.0 - _EPS]
     else:
         # Two letters: strictly inside that quadrant (a dip due E is written E, not NE/SE).
         centre = (sum(_QUADRANT_RANGE[dq]) / 2.0)
-        ok = [c for c in candidates if _angle_between(c, centre) < 45.0 - _EPS]
+        ok = [c for c in candidates if angle_between(c, centre) < 45.0 - _EPS]
     if len(ok) != 1:
         raise ValueError(
             f"attitude {text!r}: a bed striking {ns}{a:g}{ew} dips toward "
@@ -158,13 +148,13 @@ def parse_quadrant(text: str | Sequence[str]):
     """
     if isinstance(text, str):
         try:
-            return _parse_quadrant_one(text)
+            return parse_one_quadrant(text)
         except ValueError as exc:
             raise AttitudeError(str(exc)) from None
     out = np.empty((len(text), 2))
     for i, t in enumerate(text):  # text parsing is per item by nature
         try:
-            out[i] = _parse_quadrant_one(t)
+            out[i] = parse_one_quadrant(t)
         except ValueError as exc:
             raise AttitudeError(f"item {i + 1}: {exc}") from None
     return out[:, 0], out[:, 1]
@@ -176,7 +166,7 @@ def _fmt(v: float) -> str:
 
 def _dir_letters(dd: float) -> str:
     for name, az in _CARDINAL.items():
-        if _angle_between(dd, az) < _EPS:
+        if angle_between(dd, az) < _EPS:
             return name
     dd = dd % 360.0
     return "NE" if dd < 90 else "SE" if dd < 180 else "SW" if dd < 270 else "NW"
@@ -195,7 +185,7 @@ def _format_one(strike: float, dip: float) -> str:
     # Dip direction from the rounded strike line, on the side nearest the true one.
     cands = ((line + 90.0) % 360.0, (line + 270.0) % 360.0)
     dd_true = (s + 90.0) % 360.0
-    dd = min(cands, key=lambda c: _angle_between(c, dd_true))
+    dd = min(cands, key=lambda c: angle_between(c, dd_true))
     return f"N{_fmt(q)}{ew} {_fmt(dip)}{_dir_letters(dd)}"
 
 
@@ -212,121 +202,6 @@ def format_quadrant(strike, dip):
     return np.array([_format_one(a, b) for a, b in zip(s.ravel(), d.ravel(), strict=True)]).reshape(
         s.shape
     )
-
-
-# --- reading ---------------------------------------------------------------------------
-
-
-@dataclass
-class _Table:
-    """Raw attribute table: text columns plus the row label of each record."""
-
-    columns: dict[str, list]  # original column name -> values
-    rows: list[str]  # "line 7" or "feature 3"
-    x: np.ndarray | None = None  # from geometry (vector files)
-    y: np.ndarray | None = None
-    z: np.ndarray | None = None
-    crs: pyproj.CRS | None = None
-
-
-def _read_csv(path: Path) -> _Table:
-    try:
-        with open(path, newline="", encoding="utf-8-sig") as fh:
-            sample = fh.read(4096)
-            fh.seek(0)
-            try:
-                dialect = csv.Sniffer().sniff(sample.splitlines()[0] if sample else "", ",;\t")
-            except csv.Error:
-                dialect = csv.excel
-            reader = csv.reader(fh, dialect)
-            header = next(reader, None)
-            if header is None:
-                raise AttitudeError(f"{path}: empty file (expected a header row)")
-            names = [h.strip() for h in header]
-            k = len(names)
-            records: list[list[str]] = []
-            lines: list[int] = []
-            for rec in reader:
-                if not "".join(rec).strip():
-                    continue  # blank line
-                lines.append(reader.line_num)
-                records.append(rec if len(rec) == k else (rec + [""] * k)[:k])
-            columns = list(zip(*records, strict=True)) if records else [()] * k
-            cols = {n: [v.strip() for v in c] for n, c in zip(names, columns, strict=True)}
-            rows = [f"line {n}" for n in lines]
-    except UnicodeDecodeError:
-        raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
-    except OSError as exc:
-        raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
-    return _Table(cols, rows)
-
-
-def _read_vector(path: Path, layer: str | None) -> _Table:
-    import pyogrio
-    import shapely
-
-    from ._messages import first_line
-
-    try:
-        layers = [str(r[0]) for r in pyogrio.list_layers(path)]
-    except Exception as exc:
-        raise AttitudeError(
-            f"{path}: not a CSV or a readable vector file ({first_line(exc)})"
-        ) from None
-    if layer is not None and layer not in layers:
-        raise AttitudeError(f"{path}: no layer {layer!r} (layers: {', '.join(layers)})")
-    if layer is None and len(layers) > 1:
-        raise AttitudeError(f"{path}: holds several layers; name one (layers: {', '.join(layers)})")
-    try:
-        df = pyogrio.read_dataframe(path, layer=layer)
-    except Exception as exc:
-        raise AttitudeError(f"{path}: cannot be read ({first_line(exc)})") from None
-    geom = np.asarray(df.geometry.values, dtype=object) if "geometry" in df else None
-    if geom is None:
-        raise AttitudeError(f"{path}: has no point geometry")
-    types = shapely.get_type_id(geom)
-    # Single-part MultiPoints are accepted as points.
-    multi = types == 4
-    if multi.any():
-        one = shapely.get_num_geometries(geom) == 1
-        geom = np.where(multi & one, shapely.get_geometry(geom, 0), geom)
-        types = shapely.get_type_id(geom)
-    bad = (types != 0) & (types != -1)
-    if bad.any():
-        i = int(np.flatnonzero(bad)[0])
-        raise AttitudeError(
-            f"{path}: feature {i + 1} is a {geom[i].geom_type}; attitudes must be points"
-        )
-    ok = types == 0
-    x = np.full(len(geom), np.nan)
-    y = np.full(len(geom), np.nan)
-    z = np.full(len(geom), np.nan)
-    if ok.any():
-        c = shapely.get_coordinates(geom[ok], include_z=True)
-        x[ok], y[ok], z[ok] = c[:, 0], c[:, 1], c[:, 2]
-    cols = {str(c): [("" if v is None else v) for v in df[c].tolist()]
-            for c in df.columns if c != "geometry"}
-    rows = [f"feature {i + 1}" for i in range(len(df))]
-    crs = pyproj.CRS(df.crs) if df.crs is not None else None
-    return _Table(cols, rows, x, y, z, crs)
-
-
-def _to_float(values: list) -> tuple[np.ndarray, np.ndarray]:
-    """Vectorised number parsing: (floats with NaN for blanks/bad, mask of non-numbers)."""
-    import pandas as pd
-
-    try:  # fast path: every value already a number or numeric text
-        num = np.asarray(values, dtype=float)
-        if np.all(np.isfinite(num)):
-            return num, np.zeros(len(num), bool)
-    except (ValueError, TypeError):
-        pass
-    s = pd.Series(values, dtype=object)
-    text = s.astype(str).str.strip()
-    blank = s.isna().to_numpy() | (text == "").to_numpy() | (text.str.lower() == "nan").to_numpy()
-    num = pd.to_numeric(text.where(~blank, None), errors="coerce").to_numpy(dtype=float)
-    bad = ~blank & ~np.isfinite(num)
-    return num, bad
 
 
 def _rotate_azimuths(tr: pyproj.Transformer, src: pyproj.CRS, x, y, az) -> np.ndarray:
@@ -355,15 +230,15 @@ def reproject_attitudes(att: Attitudes, crs: str | pyproj.CRS, *, warn: Warn | N
     Says so once through ``warn``. Attitudes without a CRS are taken to be in ``crs``.
     """
     target = pyproj.CRS(crs)
-    if att.crs is None or att.crs.equals(target):
+    if same_crs(att.crs, target):
         return dataclasses.replace(att, crs=target)
-    tr = pyproj.Transformer.from_crs(att.crs, target, always_xy=True)
+    tr = transformer(att.crs, target)
     new_strike = _rotate_azimuths(tr, att.crs, att.x, att.y, att.strike)
     xt, yt = tr.transform(att.x, att.y)
     xt, yt = np.asarray(xt, float), np.asarray(yt, float)
     if not np.all(np.isfinite(xt) & np.isfinite(yt)):
         raise AttitudeError(f"{source}: coordinates cannot be transformed to {target.name}")
-    turn = np.abs((new_strike - att.strike + 180.0) % 360.0 - 180.0)
+    turn = angle_between(new_strike, att.strike)
     (warn or _default_warn)(
         f"{source}: attitudes are in {att.crs.name}; reprojected to {target.name}"
         f" (strikes rotated to its grid north by up to {float(turn.max(initial=0)):.2f} degrees)"
@@ -371,165 +246,18 @@ def reproject_attitudes(att: Attitudes, crs: str | pyproj.CRS, *, warn: Warn | N
     return Attitudes(att.id, xt, yt, att.z, new_strike, att.dip, att.overturned, target)
 
 
-def read_attitudes(
-    path: str | os.PathLike,
-    *,
-    convention: str = "rhr",
-    layer: str | None = None,
-    fields: Mapping[str, str] | None = None,
-    crs: str | pyproj.CRS | None = None,
-    warn: Warn | None = None,
-) -> Attitudes:
-    """Read bedding attitudes from a CSV or a point vector file, validating every row.
+def with_ground_elevations(att: Attitudes, dem, crs=None) -> tuple[Attitudes, int]:
+    """Attitudes with z from the DEM where they carry none (sampled once, vectorised), and
+    how many are still without one (off the DEM or on nodata).
 
-    CSV columns: ``x, y`` and, by ``convention``, ``strike, dip`` (``rhr``),
-    ``dip_direction, dip`` (``dip-direction``) or ``attitude`` holding quadrant text
-    (``quadrant``; ``strike`` and ``dip`` columns holding ``N30E`` and ``45SE`` also
-    work). Optional: ``id`` (default: the data row number), ``z`` (elevation),
-    ``overturned`` (true/false/yes/no/1/0). A point vector file (GeoPackage,
-    GeoJSON, Shapefile) takes x, y (and z, when present) from its geometry.
-    ``fields`` maps those logical names to the file's own column names; matching
-    is case-insensitive.
-
-    A row with an impossible value (dip outside 0-90, azimuth outside 0-360, text
-    that is not a number, inconsistent quadrant text) is reported through ``warn``
-    with its CSV line number (or feature number) and reason and dropped; the count
-    of dropped rows is reported once. CSV coordinates are taken to be in ``crs``;
-    a vector file in another CRS is reprojected to ``crs`` (its azimuths rotated to
-    the new grid north) and that is said once.
-
-    Raises :class:`AttitudeError` for a missing file, a missing column (listing the
-    columns there are), an unknown convention, or a file with no usable rows.
+    ``dem``: anything with ``sample(x, y, crs=...)`` (an open
+    :class:`mapsection.readers.dem.Dem`); ``crs``: the CRS of the attitudes' x, y
+    (default: their own).
     """
-    warn = warn or _default_warn
-    path = Path(path)
-    if convention not in CONVENTIONS:
-        raise AttitudeError(
-            f"unknown attitude convention {convention!r} (use {', '.join(CONVENTIONS)})"
-        )
-    if not path.exists():
-        raise AttitudeError(f"{path}: no such attitudes file")
-    if path.is_dir():
-        raise AttitudeError(f"{path}: is a folder, not an attitudes file")
-    target = pyproj.CRS(crs) if crs is not None else None
-    is_csv = path.suffix.lower() in CSV_SUFFIXES
-    table = _read_csv(path) if is_csv else _read_vector(path, layer)
-    n = len(table.rows)
-    existing = list(table.columns)
-    lower = {c.lower(): c for c in existing}
-    fields = dict(fields or {})
-
-    def column(logical: str, required: bool, hint: str = "") -> list | None:
-        name = fields.get(logical) or logical
-        real = lower.get(name.lower())
-        if real is None and required:
-            listed = ", ".join(existing) if existing else "none"
-            raise AttitudeError(
-                f"{path}: no column {name!r}{hint} (columns: {listed})"
-            )
-        return None if real is None else table.columns[real]
-
-    reasons: dict[int, list[str]] = {}  # bad rows only
-
-    def flag(mask: np.ndarray, why: Callable[[int], str]) -> None:
-        for i in np.flatnonzero(mask):  # only the bad rows are visited
-            reasons.setdefault(int(i), []).append(why(int(i)))
-
-    # Coordinates
-    if is_csv:
-        xs, ys = column("x", True), column("y", True)
-        x, bx = _to_float(xs)
-        y, by = _to_float(ys)
-        flag(bx | ~np.isfinite(x), lambda i: f"x {xs[i]!r} is not a number")
-        flag(by | ~np.isfinite(y), lambda i: f"y {ys[i]!r} is not a number")
-        z = np.full(n, np.nan)
-        src_crs = None
-    else:
-        x, y, z = table.x, table.y, table.z
-        flag(~np.isfinite(x), lambda i: "has no point geometry")
-        src_crs = table.crs
-    zs = column("z", False)
-    if zs is not None:
-        zc, bz = _to_float(zs)
-        flag(bz, lambda i: f"z {zs[i]!r} is not a number")
-        z = np.where(np.isfinite(zc), zc, z)
-
-    # Orientation
-    strike = np.full(n, np.nan)
-    dip = np.full(n, np.nan)
-    if convention == "quadrant":
-        att = column("attitude", False)
-        if att is None:
-            s_txt, d_txt = column("strike", False), column("dip", False)
-            if s_txt is None or d_txt is None:
-                column("attitude", True, " with quadrant text such as 'N30E 45SE'")
-            att = [f"{a} {b}" for a, b in zip(s_txt, d_txt, strict=True)]
-        for i, t in enumerate(att):  # text parsing is per row by nature
-            try:
-                strike[i], dip[i] = _parse_quadrant_one(str(t))
-            except ValueError as exc:
-                reasons.setdefault(i, []).append(str(exc))
-    else:
-        az_name = "strike" if convention == "rhr" else "dip_direction"
-        other = "dip_direction" if convention == "rhr" else "strike"
-        hint = (f"; the file has {other!r}: use convention "
-                f"{'dip-direction' if other == 'dip_direction' else 'rhr'}"
-                if (fields.get(other) or other).lower() in lower else "")
-        az_txt = column(az_name, True, hint)
-        d_txt = column("dip", True)
-        az, baz = _to_float(az_txt)
-        dip, bd = _to_float(d_txt)
-        flag(baz | ~np.isfinite(az) & ~baz, lambda i: f"{az_name} {az_txt[i]!r} is not a number")
-        flag(bd | ~np.isfinite(dip) & ~bd, lambda i: f"dip {d_txt[i]!r} is not a number")
-        flag(np.isfinite(az) & ((az < 0) | (az > 360)),
-             lambda i: f"{az_name} {az[i]:g} is outside 0-360")
-        flag(np.isfinite(dip) & ((dip < 0) | (dip > 90)),
-             lambda i: f"dip {dip[i]:g} is outside 0-90")
-        strike = az % 360.0 if convention == "rhr" else dip_direction_to_strike(az)
-
-    # Optional columns
-    ids_txt = column("id", False)
-    ov_txt = column("overturned", False)
-    overturned = np.zeros(n, bool)
-    if ov_txt is not None:
-        low = np.array([str(v).strip().lower() for v in ov_txt], dtype=object)
-        is_true = np.isin(low, list(_TRUE))
-        is_false = np.isin(low, list(_FALSE)) | np.array([v is None for v in ov_txt], bool)
-        overturned = is_true
-        flag(~is_true & ~is_false,
-             lambda i: f"overturned {ov_txt[i]!r} is not true/false/yes/no/1/0")
-    if ids_txt is not None:
-        raw = [str(v).strip() for v in ids_txt]
-        try:
-            ids = np.array([int(v) for v in raw])
-        except ValueError:
-            ids = np.array(raw, dtype=object)
-        flag(np.array([v == "" for v in raw], bool), lambda i: "id is blank")
-    else:
-        ids = np.arange(1, n + 1)
-
-    good = np.ones(n, bool)
-    good[list(reasons)] = False
-    dropped = n - int(good.sum())
-    if dropped:
-        shown = 0
-        for i in np.flatnonzero(~good):
-            if shown == 20:
-                warn(f"{path}: ... and {dropped - 20} more bad rows")
-                break
-            warn(f"{path}, {table.rows[i]}: {'; '.join(reasons[i])}; row dropped")
-            shown += 1
-        warn(f"{path}: dropped {dropped} of {n} rows; kept {n - dropped}")
-    if not good.any():
-        raise AttitudeError(
-            f"{path}: no usable attitude rows"
-            + (f" ({n} rows, all bad)" if n else " (no data rows)")
-        )
-
-    att = Attitudes(
-        id=ids[good], x=x[good], y=y[good], z=z[good], strike=strike[good] % 360.0,
-        dip=dip[good], overturned=overturned[good], crs=target if src_crs is None else src_crs,
-    )
-    if src_crs is not None and target is not None and not src_crs.equals(target):
-        att = reproject_attitudes(att, target, warn=warn, source=str(path))
-    return att
+    z = np.asarray(att.z, float) if att.z is not None else None
+    if z is not None and len(z) == len(att) and np.all(np.isfinite(z)):
+        return att, 0
+    ground = np.asarray(dem.sample(np.asarray(att.x, float), np.asarray(att.y, float),
+                                   crs=crs if crs is not None else att.crs), float)
+    z = ground if z is None or len(z) != len(att) else np.where(np.isfinite(z), z, ground)
+    return dataclasses.replace(att, z=z), int(np.count_nonzero(~np.isfinite(z)))

@@ -37,12 +37,12 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from . import CAUTION, __version__
+from . import __version__
 from ._atomic import atomic_dir, atomic_file
 from ._messages import default_warn as _default_warn
+from .caution import CAUTION
 from .draft import Draft
 from .errors import OutputError, ParameterError
-from .line import SectionLine
 from .project import METHODS, Project, SectionSpec, load_project
 from .session import ProjectInputs, SectionSession, load_inputs
 
@@ -85,17 +85,15 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     from .construct import build_draft
 
     _check_options(method, ve)
-    if isinstance(spec, str):
-        spec = project.section(spec)
+    spec = project.section(spec)
     warn = warn or _default_warn
-    line = SectionLine(np.asarray(spec.line, float), project.crs, spec.name)
     with _stage(timings, "section data"):
         if inputs is None:
             session = SectionSession.from_project(project, spec, warn)
         else:
             session = SectionSession.from_inputs(inputs, project, spec, warn)
         try:
-            data = session.run(line)
+            data = session.run()
         finally:
             if inputs is None:
                 session.close()

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ._messages import default_warn as _default_warn
+from .angles import line_angle_between
 from .attitudes import Attitudes
 from .errors import ParameterError
 from .foldaxis import FoldAxis
@@ -68,11 +69,6 @@ def exaggerated_dip(apparent, ve):
     return np.degrees(np.arctan2(ve_a * np.sin(a), np.cos(a)))
 
 
-def _angle_mod180(a, b):
-    """Angle between two undirected lines given by azimuths, 0-90 degrees."""
-    return np.abs((np.asarray(a, float) - np.asarray(b, float) + 90.0) % 180.0 - 90.0)
-
-
 # --- projection ------------------------------------------------------------------------
 METHODS = ("perpendicular", "strike", "plunge")
 STRIKE_SKIP_DEG = 10.0  # along-strike / down-plunge projection skipped at or below this angle
@@ -121,7 +117,7 @@ def _carry(line: SectionLine, x, y, ux, uy, min_angle: float, direction_az):
     with np.errstate(divide="ignore", invalid="ignore"):
         t = (qx * dv[None, :, 1] - qy * dv[None, :, 0]) / denom
         w = (qx * uy - qy * ux) / denom
-    steep = _angle_mod180(np.broadcast_to(direction_az, x.shape)[:, None],
+    steep = line_angle_between(np.broadcast_to(direction_az, x.shape)[:, None],
                           line.segment_azimuths[None, :]) > min_angle
     eps = 1e-9
     valid = steep & np.isfinite(t) & (w >= -eps) & (w <= 1 + eps)
@@ -206,7 +202,7 @@ def project_attitudes(
     strike = attitudes.strike[sel]
     dip = attitudes.dip[sel]
     app = apparent_dip(strike, dip, az)
-    poor = _angle_mod180(strike, az) <= POORLY_CONSTRAINED_DEG
+    poor = line_angle_between(strike, az) <= POORLY_CONSTRAINED_DEG
     order = np.argsort(distance, kind="stable")
     return ProjectedDips(
         id=attitudes.id[sel][order],

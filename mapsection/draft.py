@@ -14,8 +14,8 @@ from shapely.geometry import LineString, MultiPolygon, Polygon
 from .dips import ProjectedDips
 from .geology import SurfaceGeology
 from .line import SectionLine
-from .profile import Profile
 from .stratigraphy import Column
+from .topo_profile import Profile
 
 
 @dataclass(frozen=True)

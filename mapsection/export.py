@@ -70,8 +70,8 @@ from .draft import AxialSurface, DipDomain, Draft, FaultTrace, Horizon, UnitPoly
 from .errors import MapLayerError, OutputError
 from .geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from .line import SectionLine
-from .profile import Profile
 from .stratigraphy import Column
+from .topo_profile import Profile
 
 if TYPE_CHECKING:
     from .checks.restore import Restoration
@@ -475,10 +475,8 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
     except Exception as exc:
         raise MapLayerError(f"{path}: not a readable GeoPackage "
                             f"({first_line(exc)})") from None
-    from .construct import base_name
-
     # The base of the oldest unit is a horizon too (named by the construction).
-    known = set(column.names) | {base_name(column)}
+    known = set(column.names) | {column.base_name}
     meta = section_info(path, layers)
 
     hz_frame = _read_layer(path, "horizons", layers)

@@ -15,15 +15,15 @@ from dataclasses import dataclass
 import geopandas as gpd
 import numpy as np
 import pandas as pd
-import pyproj
 import shapely
 from shapely import STRtree
 from shapely.geometry import LineString
 
 from ._messages import default_warn as _default_warn
+from .crs import same_crs
 from .line import SectionLine
 from .mapdata import MapData
-from .profile import Profile
+from .topo_profile import Profile
 
 
 @dataclass(frozen=True)
@@ -74,11 +74,6 @@ class SurfaceGeology:
 _TOL = 1e-6  # metres: breakpoints closer than this are one point; pieces shorter are dropped
 
 
-
-
-def same_crs(a, b) -> bool:
-    """True when either CRS is unknown or both are the same (identity checked first: cheap)."""
-    return a is None or b is None or a is b or pyproj.CRS(a) == pyproj.CRS(b)
 
 
 def _map_geoms_for_line(map_data: MapData, line: SectionLine, geoms: np.ndarray,

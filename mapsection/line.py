@@ -8,24 +8,16 @@ from grid north of the line's CRS.
 
 from __future__ import annotations
 
-import os
-import re
-import sys
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 import pyproj
-import shapely
-from shapely.geometry import LineString, MultiLineString
+from shapely.geometry import LineString
 
+from ._messages import default_note
+from .crs import same_crs, transformer
 from .errors import LineError
-
-_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
-_TEXT_LINE = re.compile(
-    rf"^\s*{_NUMBER}\s*,\s*{_NUMBER}\s*(;\s*{_NUMBER}\s*,\s*{_NUMBER}\s*)+;?\s*$"
-)
 
 
 @dataclass(frozen=True)
@@ -147,9 +139,9 @@ class SectionLine:
         return SectionLine(np.asarray(vertices, float), self.crs, self.name)
 
     def to_crs(self, crs: pyproj.CRS) -> SectionLine:
-        if self.crs is None or pyproj.CRS(crs) == self.crs:
+        if same_crs(self.crs, crs):
             return SectionLine(self.vertices, pyproj.CRS(crs), self.name)
-        tr = pyproj.Transformer.from_crs(self.crs, crs, always_xy=True)
+        tr = transformer(self.crs, crs)
         x, y = tr.transform(self.vertices[:, 0], self.vertices[:, 1])
         return SectionLine(np.column_stack([x, y]), pyproj.CRS(crs), self.name)
 
@@ -173,61 +165,14 @@ def projected_line(line: SectionLine, warn: Callable[[str], None] | None = None)
         "section line is in a geographic CRS; "
         f"measuring in metres in {utm.name} (EPSG:{utm.to_epsg()})"
     )
-    (warn or (lambda m: print(f"mapsection: note: {m}", file=sys.stderr)))(msg)
+    (warn or default_note)(msg)
     geod = pyproj.Geod(ellps="WGS84")
     pts = [line.vertices[0]]
     for a, b in zip(line.vertices[:-1], line.vertices[1:], strict=True):
         inner = geod.npts(a[0], a[1], b[0], b[1], 64)
         pts.extend(np.asarray(inner).reshape(-1, 2))
         pts.append(b)
-    tr = pyproj.Transformer.from_crs(line.crs, utm, always_xy=True)
+    tr = transformer(line.crs, utm)
     pts = np.asarray(pts)
     x, y = tr.transform(pts[:, 0], pts[:, 1])
     return SectionLine(np.column_stack([x, y]), utm, line.name)
-
-
-def parse_line_text(text: str, crs: pyproj.CRS | None = None, name: str = "") -> SectionLine:
-    """Parse ``"x1,y1;x2,y2[;...]"`` into a line."""
-    if not _TEXT_LINE.match(text):
-        raise LineError(f"section line text {text!r}: expected 'x1,y1;x2,y2[;...]'")
-    pts = [tuple(float(c) for c in p.split(",")) for p in text.strip().strip(";").split(";")]
-    return SectionLine(np.asarray(pts), crs, name)
-
-
-def read_line(
-    spec: str | os.PathLike, crs: str | pyproj.CRS | None = None, name: str = ""
-) -> SectionLine:
-    """Read a section line from a vector file (one LineString) or ``"x1,y1;x2,y2"`` text.
-
-    ``crs`` is the CRS of text coordinates; for a file it overrides a missing CRS.
-    """
-    crs_obj = pyproj.CRS(crs) if crs is not None else None
-    text = os.fspath(spec)
-    if not Path(text).exists():
-        if ";" in text or "," in text:
-            return parse_line_text(text, crs_obj, name)
-        raise LineError(f"{text}: no such line file")
-    import pyogrio
-
-    try:
-        df = pyogrio.read_dataframe(text)
-    except Exception as exc:  # pyogrio raises several kinds for unreadable files
-        from ._messages import first_line
-
-        raise LineError(f"{text}: not a readable vector file ({first_line(exc)})") from None
-    geoms = [g for g in df.geometry if g is not None and not g.is_empty]
-    lines = []
-    for g in geoms:
-        if isinstance(g, LineString):
-            lines.append(g)
-        elif isinstance(g, MultiLineString) and len(g.geoms) == 1:
-            lines.append(g.geoms[0])
-        else:
-            raise LineError(f"{text}: holds a {g.geom_type}; expected one LineString")
-    if len(lines) != 1:
-        raise LineError(f"{text}: holds {len(lines)} lines; expected exactly one LineString")
-    file_crs = df.crs if df.crs is not None else crs_obj
-    coords = shapely.get_coordinates(lines[0])
-    return SectionLine(
-        coords, pyproj.CRS(file_crs) if file_crs is not None else None, name or Path(text).stem
-    )

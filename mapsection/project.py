@@ -13,12 +13,15 @@ import os
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pyproj
 
 from .errors import ProjectFileError, StratigraphyError
 from .stratigraphy import Column, Unit
+
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from .line import SectionLine
 
 METHODS = ("kink", "arc")
 PROJECTIONS = ("perpendicular", "strike", "plunge")
@@ -113,12 +116,22 @@ class Project:
     fault_fields: dict[str, str] = field(default_factory=dict)
     attitude_fields: dict[str, str] = field(default_factory=dict)
 
-    def section(self, name: str) -> SectionSpec:
+    def section(self, name: str | SectionSpec) -> SectionSpec:
+        """The section named ``name`` (a :class:`SectionSpec` is returned as it is): the one
+        place where a section given by name becomes its settings."""
+        if isinstance(name, SectionSpec):
+            return name
         for s in self.sections:
             if s.name == name:
                 return s
         names = ", ".join(s.name for s in self.sections)
         raise ProjectFileError(f"{self.path.name}: no section named {name!r} (sections: {names})")
+
+    def section_line(self, spec: SectionSpec) -> SectionLine:
+        """The section line of ``spec`` in the project's CRS, named after the section."""
+        from .line import SectionLine
+
+        return SectionLine(spec.line, self.crs, spec.name)
 
 
 class _Reader:

@@ -3,7 +3,7 @@
 While choosing a section line the geologist moves it again and again. A
 :class:`SectionSession` reads every file once, keeps the open DEM (which caches
 its decoded blocks), the map with its STRtrees and the attitudes with their
-ground elevations and a spatial index, so that :meth:`SectionSession.move`
+ground elevations and a spatial index, so that :meth:`SectionSession.shift_line`
 re-runs the profile, the surface geology and the dip projection without
 reading any file again::
 
@@ -13,12 +13,11 @@ reading any file again::
     project = load_project("sample_area/project.toml")
     session = SectionSession.from_project(project, project.sections[0])
     data = session.run()                       # the section line of the project file
-    data = session.move([[x1, y1], [x2, y2]])  # a new line, same CRS and name
+    data = session.shift_line([[x1, y1], [x2, y2]])  # a new line, same CRS and name
 """
 
 from __future__ import annotations
 
-import dataclasses
 import os
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -30,18 +29,20 @@ import shapely
 from shapely import STRtree
 
 from ._messages import default_warn as _default_warn
+from .crs import same_crs
 from .errors import LineError, ParameterError
-from .geology import SurfaceGeology, same_crs, surface_geology
+from .geology import SurfaceGeology, surface_geology
 from .line import SectionLine
-from .mapdata import MapData, read_map
-from .profile import Profile
+from .mapdata import MapData
+from .readers.map import read_map
+from .topo_profile import Profile
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from .attitudes import Attitudes
-    from .dem import Dem
     from .dips import ProjectedDips
     from .foldaxis import FoldAxis
     from .project import Project, SectionSpec
+    from .readers.dem import Dem
 
 Warn = Callable[[str], None]
 PROJECTIONS = ("perpendicular", "strike", "plunge")
@@ -86,8 +87,8 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
 
     Every map unit must be in the project's column.
     """
-    from .attitudes import read_attitudes
-    from .dem import Dem
+    from .readers.attitudes import read_attitudes
+    from .readers.dem import Dem
 
     warn = warn or _default_warn
     map_data = read_map(project.map_path, project.units_layer, project.unit_field,
@@ -103,7 +104,7 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
 class SectionSession:
     """Loaded inputs of one section, ready to be re-run for any line.
 
-    ``dem`` is an open :class:`mapsection.dem.Dem` (or a path, opened here);
+    ``dem`` is an open :class:`mapsection.readers.dem.Dem` (or a path, opened here);
     ``attitudes`` get their ground elevation sampled from the DEM once, here,
     where they have none. ``corridor`` is the half-width in metres of the strip
     of attitudes projected; ``projection`` is ``perpendicular``, ``strike`` or
@@ -115,7 +116,7 @@ class SectionSession:
                  corridor: float, projection: str = "perpendicular",
                  axis: FoldAxis | None = None, step: float | None = None,
                  warn: Warn | None = None) -> None:
-        from .dem import Dem
+        from .readers.dem import Dem
 
         if not (isinstance(corridor, int | float) and np.isfinite(corridor) and corridor > 0):
             raise ParameterError(f"corridor: must be a number > 0 m, got {corridor!r}")
@@ -142,7 +143,7 @@ class SectionSession:
 
             attitudes = reproject_attitudes(attitudes, self.crs, warn=self.warn)
         self.attitudes = self._with_elevations(attitudes)
-        # Index of the attitude points: a move only looks at the points near the new line.
+        # Index of the attitude points: a shifted line only looks at the points near the new line.
         self._points = shapely.points(np.asarray(self.attitudes.x, float),
                                       np.asarray(self.attitudes.y, float))
         self._tree = STRtree(self._points)
@@ -151,23 +152,15 @@ class SectionSession:
     # --- loading --------------------------------------------------------------------------
     def _with_elevations(self, attitudes: Attitudes) -> Attitudes:
         """Attitudes with z from the DEM where they carry none (sampled once, vectorised)."""
-        z = np.asarray(attitudes.z, float) if attitudes.z is not None else None
-        if z is not None and len(z) == len(attitudes) and np.all(np.isfinite(z)):
-            return attitudes
-        ground = np.asarray(self.dem.sample(np.asarray(attitudes.x, float),
-                                            np.asarray(attitudes.y, float),
-                                            crs=getattr(attitudes, "crs", None)), float)
-        if z is None or len(z) != len(attitudes):
-            z = ground
-        else:
-            z = np.where(np.isfinite(z), z, ground)
-        off = int(np.count_nonzero(~np.isfinite(z)))
+        from .attitudes import with_ground_elevations
+
+        attitudes, off = with_ground_elevations(attitudes, self.dem)
         if off:
             self.warn(f"attitudes: {off} of {len(attitudes)} lie off the DEM (no elevation)")
-        return dataclasses.replace(attitudes, z=z)
+        return attitudes
 
     def _warm_dem(self, budget_bytes: int = 256 * 2**20) -> None:
-        """Decode the DEM blocks under the map once, so that moves within it read no file.
+        """Decode the DEM blocks under the map once, so that shifted lines within it read no file.
 
         Skipped when those blocks would exceed ``budget_bytes``; the DEM's own
         block cache then reads each new block once, the first time a line needs it.
@@ -200,16 +193,14 @@ class SectionSession:
                 warn(f"section {spec.name}: down-plunge projection may mislead: {why}")
         session = cls(inputs.dem, inputs.map_data, inputs.attitudes, spec.corridor,
                       spec.projection, axis, warn=warn)
-        session.line = session._as_line(SectionLine(np.asarray(spec.line, float), project.crs,
-                                                    spec.name))
+        session.line = session._as_line(project.section_line(spec))
         return session
 
     @classmethod
     def from_project(cls, project: Project, spec: SectionSpec | str,
                      warn: Warn | None = None) -> SectionSession:
         """Open the DEM, read the map and the attitudes of a project, for one section."""
-        if isinstance(spec, str):
-            spec = project.section(spec)
+        spec = project.section(spec)
         inputs = load_inputs(project, warn)
         try:
             return cls.from_inputs(inputs, project, spec, warn)
@@ -278,7 +269,7 @@ class SectionSession:
 
     def run(self, line: SectionLine | np.ndarray | Sequence | None = None) -> SectionData:
         """Profile, surface geology and projected dips along ``line`` (default: the current one)."""
-        from .profile import profile
+        from .topo_profile import profile
 
         line = self._as_line(line)
         prof = profile(self.dem, line, self.step, warn=self.warn)
@@ -287,6 +278,6 @@ class SectionSession:
         self.line = line
         return SectionData(line, prof, geology, dips)
 
-    def move(self, new_line: SectionLine | np.ndarray | Sequence) -> SectionData:
-        """Re-run for a moved line (a SectionLine or its vertices); reads no file."""
+    def shift_line(self, new_line: SectionLine | np.ndarray | Sequence) -> SectionData:
+        """Re-run for a shifted line (a SectionLine or its vertices); reads no file."""
         return self.run(self._as_line(new_line))

@@ -8,6 +8,15 @@ import numpy as np
 
 from .errors import StratigraphyError
 
+BASE_WORD = "base"
+BASE_PREFIX = f"{BASE_WORD} of "  # the base of the oldest unit is the horizon "base of <unit>"
+
+
+def is_base_name(top_of: str) -> bool:
+    """True for a horizon at the base of the column: ``base of <oldest unit>`` as built, or
+    any name starting with "base" (any case) in a hand-edited section."""
+    return top_of.lower().startswith(BASE_WORD)
+
 
 @dataclass(frozen=True)
 class Unit:
@@ -53,6 +62,11 @@ class Column:
     @property
     def total_thickness(self) -> float:
         return float(self.thicknesses.sum())
+
+    @property
+    def base_name(self) -> str:
+        """The name of the horizon at the base of the column (``base of <oldest unit>``)."""
+        return f"{BASE_PREFIX}{self.names[-1]}"
 
     def index(self, unit: str) -> int:
         try:

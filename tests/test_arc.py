@@ -7,13 +7,16 @@ import pytest
 import shapely
 
 from mapsection.construct import base_name, build_draft
-from mapsection.construct._common import Frame, contact_constraints
 from mapsection.construct.arc import ArcModel
+from mapsection.construct.constraints import contact_constraints
+from mapsection.construct.domains import group_domains
+from mapsection.construct.frame import SectionFrame as Frame
 from mapsection.dips import ProjectedDips
 from mapsection.geology import Contact, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
-from mapsection.profile import Profile
+from mapsection.notes import Notes
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 L = 10000.0
 CENTRE = np.array([5000.0, -1500.0])
@@ -53,10 +56,10 @@ def circular_fold():
 def test_busk_finds_the_centre_and_radii_exactly():
     line, prof, geology, dips = circular_fold()
     frame = Frame(L, -3000.0, 2600.0, 0.0, 0.0)
-    cons = contact_constraints(geology, COLUMN, prof.elevation_at, [])
+    cons = contact_constraints(geology, COLUMN, prof.elevation_at, Notes())
     levels = np.append(COLUMN.depth_to_top, COLUMN.total_thickness)
     model = ArcModel(dips.distance_m, dips.elevation_m, -dips.apparent_dip, cons, frame,
-                     levels, [*COLUMN.names, base_name(COLUMN)], [])
+                     levels, [*COLUMN.names, base_name(COLUMN)], Notes())
     # Busk 1929: the normals to two dips tangent to one circle meet at its centre, and
     # each horizon is the arc of radius (reference radius - stratigraphic depth).
     assert model.kind == ["arc"] * (len(dips) - 1)
@@ -111,10 +114,10 @@ def test_straight_where_adjacent_dips_are_parallel():
     xs = np.array([1000.0, 3000.0, 7000.0, 9000.0])
     a = np.array([-25.0, -25.0, 25.0, 25.0])
     z = np.zeros(4)
-    cons = contact_constraints(geology, COLUMN, prof.elevation_at, [])
+    cons = contact_constraints(geology, COLUMN, prof.elevation_at, Notes())
     model = ArcModel(xs, z, -a, cons, Frame(L, -3000.0, 2600.0, 0.0, 0.0),
                      np.append(COLUMN.depth_to_top, COLUMN.total_thickness),
-                     [*COLUMN.names, base_name(COLUMN)], [])
+                     [*COLUMN.names, base_name(COLUMN)], Notes())
     assert model.kind == ["straight", "arc", "straight"]
     # The middle arc's centre lies on the symmetry axis where the normals of ±25° meet
     # (analytic: 2000 m from each dip along its normal, i.e. 2000·cos25° below ground).
@@ -149,11 +152,13 @@ def kink_anticline(noise: float = 1.5):
 
 def test_busk_arc_joins_two_dip_domains_tangent_to_both():
     line, prof, geology, dips = kink_anticline()
-    cons = contact_constraints(geology, COLUMN, prof.elevation_at, [])
+    cons = contact_constraints(geology, COLUMN, prof.elevation_at, Notes())
     levels = np.append(COLUMN.depth_to_top, COLUMN.total_thickness)
     model = ArcModel(dips.distance_m, dips.elevation_m, -dips.apparent_dip, cons,
                      Frame(L, -3000.0, 2600.0, 0.0, 0.0), levels,
-                     [*COLUMN.names, base_name(COLUMN)], [], tolerance=5.0,
+                     [*COLUMN.names, base_name(COLUMN)], Notes(),
+                     domains=group_domains(dips.distance_m, -dips.apparent_dip,
+                                           np.ones(len(dips)), 5.0),
                      ground=lambda x: np.zeros_like(np.asarray(x, float)))
     # Noisy dips (±1.5°) within the tolerance group into one dip domain per limb.
     assert [dm.n_dips for dm in model.domains] == [7, 7]
@@ -212,7 +217,7 @@ def test_sample_sections_with_arc_pass_topography_and_recover_the_model():
     root = Path(__file__).resolve().parents[1]
     path = root / "sample_area" / "project.toml"
     assert path.is_file(), f"{path} missing: run sample_area/generate.py"  # never a skip
-    from test_sample_recovery import recovery_errors
+    from conftest import recovery_errors
 
     from mapsection.build import build_section
     from mapsection.checks.topography import check_topography

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import TAN30, parallel
+from conftest import flat_draft as make_draft
 from shapely.geometry import LineString, Polygon
-from test_restore import TAN30, make_draft, parallel
 
 from mapsection.checks.area import area_balance, depth_to_detachment
 from mapsection.checks.restore import restore_section

@@ -13,10 +13,10 @@ from mapsection.attitudes import (
     dip_direction_to_strike,
     format_quadrant,
     parse_quadrant,
-    read_attitudes,
     strike_to_dip_direction,
 )
 from mapsection.errors import AttitudeError
+from mapsection.readers.attitudes import read_attitudes
 
 
 def _circ(a, b):

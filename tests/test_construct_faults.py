@@ -13,8 +13,8 @@ from mapsection.construct import build_draft
 from mapsection.dips import ProjectedDips
 from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
-from mapsection.profile import Profile
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 L = 10000.0
 X_FAULT = 5000.0

@@ -8,8 +8,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import fault_draft as make_draft
+from conftest import thrust_draft as thrust
 from shapely import affinity
-from test_kinematics import make_draft, thrust
 
 from mapsection.checks.cutoffs import (
     check_cutoffs,

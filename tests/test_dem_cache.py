@@ -8,10 +8,10 @@ import rasterio
 from rasterio.env import get_gdal_config
 from rasterio.transform import from_origin
 
-import mapsection.dem as dem_module
-from mapsection.dem import Dem
+import mapsection.readers.dem as dem_module
 from mapsection.line import SectionLine
-from mapsection.profile import profile
+from mapsection.readers.dem import Dem
+from mapsection.topo_profile import profile
 
 UTM11 = pyproj.CRS("EPSG:32611")
 X0, Y_TOP, CELL = 500_000.0, 4_000_000.0, 10.0

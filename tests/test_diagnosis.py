@@ -20,8 +20,8 @@ from mapsection.draft import Draft
 from mapsection.errors import ParameterError
 from mapsection.geology import Contact, FaultCrossing, SurfaceGeology
 from mapsection.line import SectionLine
-from mapsection.profile import Profile
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 AREA = Path(__file__).resolve().parents[1] / "sample_area"
 COLUMN = Column((Unit("A", 300.0), Unit("B", 400.0), Unit("C", 200.0), Unit("D", 500.0),

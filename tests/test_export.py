@@ -10,8 +10,8 @@ import numpy as np
 import pyogrio
 import pytest
 import shapely
+from conftest import hand_draft
 from shapely.geometry import LineString
-from test_figure import hand_draft
 
 from mapsection.errors import MapLayerError, OutputError
 from mapsection.export import (

@@ -13,58 +13,16 @@ import xml.etree.ElementTree as ET
 import geopandas as gpd
 import numpy as np
 import pytest
+from conftest import APPARENT, hand_draft
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from PIL import Image
 from shapely.geometry import LineString, box
 
-from mapsection.dips import ProjectedDips
-from mapsection.draft import AxialSurface, Draft, FaultTrace, Horizon, UnitPolygon
-from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
-from mapsection.line import SectionLine
-from mapsection.profile import Profile
+from mapsection.draft import Draft
 from mapsection.render.colours import chart_colour, fault_kind, unit_colours
 from mapsection.render.layout import nice_length, page_layout, ve_text
 from mapsection.render.section import draw_section, section_figure
 from mapsection.stratigraphy import Column, Unit
-
-APPARENT = np.array([10.0, -20.0, 35.0, 0.0, 60.0, -75.0])
-
-
-def hand_draft(ve: float = 1.0) -> Draft:
-    """A small invented draft with a bend, a normal fault, 4 horizons and 6 dips."""
-    line = SectionLine(np.array([[1000.0, 2000.0], [4000.0, 6000.0], [8000.0, 6000.0]]),
-                       "EPSG:32611", "A")
-    d = line.densify(50.0)
-    x, y = line.point_at(d)
-    z = 800 + 60 * np.sin(d / 900.0)
-    prof = Profile(d, x, y, z, line, line.crs, 10.0)
-    col = Column((Unit("Tu", 150.0, age="Eocene", lithology="sandstone"),
-                  Unit("Km", 200.0, "#88cc44"), Unit("Jl", 300.0)))
-    length = line.length
-    slope = math.tan(math.radians(3.0))
-    hz = [Horizon(n, LineString([(0, top), (length, top - length * slope)]), False, 0)
-          for n, top in zip(col.names, [900.0, 750.0, 550.0], strict=True)]
-    hz.append(Horizon("Tu", LineString([(0, 1000), (2000, 950)]), True, 0))
-    units = [UnitPolygon("Tu", box(0, 600, length / 2, 800)),
-             UnitPolygon("Km", box(0, 300, length, 600)),
-             UnitPolygon("Jl", box(0, 0, length, 300), 1)]
-    n = len(APPARENT)
-    dd = np.linspace(500, length - 500, n)
-    dx, dy = line.point_at(dd)
-    dips = ProjectedDips(np.array([f"d{i}" for i in range(n)]), dx, dy, dd,
-                         np.linspace(-200, 200, n), prof.elevation_at(dd), np.full(n, 30.0),
-                         np.abs(APPARENT), APPARENT.copy(),
-                         np.arange(n) == 2, np.zeros(n, bool))
-    zc = float(prof.elevation_at(np.array([3000.0]))[0])
-    zf = float(prof.elevation_at(np.array([4000.0]))[0])
-    geo = SurfaceGeology((UnitInterval(0, 3000, "Tu"), UnitInterval(3000, length, "Km")),
-                         (Contact(3000.0, zc, "Tu", "Km"),),
-                         (FaultCrossing(4000.0, zf, 60.0, 90.0, 55.0, "normal", "Fa"),))
-    fault = FaultTrace("Fa", LineString([(4000, zf), (4700, -200)]), 60.0, 90.0, 55.0,
-                       "normal", {"Km": -120.0})
-    axial = AxialSurface(LineString([(2500, 900), (2600, 0)]), 2510.0, 5.0, 20.0)
-    return Draft("A", "kink", line, prof, geo, dips, col, hz, [fault], units, [], [axial], [],
-                 ve, 0.0, ["built by hand"])
 
 
 def hand_map(draft: Draft):

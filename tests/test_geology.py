@@ -20,8 +20,9 @@ from shapely.geometry import LineString, MultiPolygon, Polygon, box
 from mapsection.errors import MapLayerError
 from mapsection.geology import geology_frames, surface_geology
 from mapsection.line import SectionLine
-from mapsection.mapdata import MapData, read_map
-from mapsection.profile import Profile
+from mapsection.mapdata import MapData
+from mapsection.readers.map import read_map
+from mapsection.topo_profile import Profile
 
 CRS = "EPSG:32611"
 

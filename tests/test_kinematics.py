@@ -5,47 +5,18 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import KINK_DEPTHS as DEPTHS
+from conftest import TAN30
+from conftest import fault_draft as make_draft
+from conftest import thrust_draft as thrust
 from shapely.geometry import LineString
-from test_restore import COLUMN, DEPTHS, TAN30
-from test_restore import make_draft as restore_draft
 
 from mapsection.checks.fbf import compare_with_draft, fault_bend_fold
 from mapsection.checks.kinematics import check_kinematics, horizon_crossings
 from mapsection.checks.restore import restore_section
 from mapsection.checks.sequence import incremental_sequence
-from mapsection.draft import Draft, FaultTrace, Horizon
+from mapsection.draft import FaultTrace, Horizon
 from mapsection.render.sequence import write_sequence
-
-
-def make_draft(horizons, faults=(), length=10000.0, column=COLUMN) -> Draft:
-    return restore_draft(horizons, faults, length=length, column=column, method="edited")
-
-
-def thrust(xf=6000.0, slip=1000.0, toward=-1, name="F1", sense="thrust", hw_dip=0.0,
-           depths=DEPTHS, x0=0.0, x1=10000.0, block0=0):
-    """Flat beds cut by a fault dipping 30 degrees (toward decreasing distance when
-    toward = -1); the hanging wall moved ``slip`` up the fault (analytic cutoffs)."""
-    c, s = np.cos(np.radians(30.0)), np.sin(np.radians(30.0))
-    hz = []
-    for n, t in depths.items():
-        # cutoffs on the plane through (xf, 0); the hanging wall moved up-dip by the slip
-        x_fw = xf + toward * t / TAN30
-        x_hw, y_hw = x_fw - toward * slip * c, -t + slip * s
-        if toward < 0:
-            hw_line = [(x0, y_hw - (x_hw - x0) * np.tan(np.radians(hw_dip))), (x_hw, y_hw)]
-            fw_line = [(x_fw, -t), (x1, -t)]
-            hz += [Horizon(n, LineString(hw_line), block=block0),
-                   Horizon(n, LineString(fw_line), block=block0 + 1)]
-        else:
-            hw_line = [(x_hw, y_hw), (x1, y_hw)]
-            fw_line = [(x0, -t), (x_fw, -t)]
-            hz += [Horizon(n, LineString(fw_line), block=block0),
-                   Horizon(n, LineString(hw_line), block=block0 + 1)]
-    top = (xf - toward * 1500.0 / TAN30, 1500.0)
-    bottom = (xf + toward * 2500.0 / TAN30, -2500.0)
-    fault = FaultTrace(name, LineString([top, bottom]), 30.0, 270.0 if toward < 0 else 90.0,
-                       30.0 * toward, sense, {n: slip for n in depths})
-    return hz, fault
 
 
 def test_consistent_thrust_passes():

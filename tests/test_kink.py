@@ -5,16 +5,20 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import shapely
+from conftest import no_dips as _no_dips
 from shapely.geometry import LineString, Point
 
 from mapsection.construct import base_name, build_draft
-from mapsection.construct._common import Constraints, Domain, Frame, group_domains
+from mapsection.construct.constraints import Constraints
+from mapsection.construct.domains import Domain, group_domains
+from mapsection.construct.frame import SectionFrame as Frame
 from mapsection.construct.kink import fit_kink
 from mapsection.dips import ProjectedDips
 from mapsection.geology import Contact, SurfaceGeology, UnitInterval
 from mapsection.line import SectionLine
-from mapsection.profile import Profile
+from mapsection.notes import Notes
 from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
 
 L = 10000.0
 
@@ -193,7 +197,7 @@ def test_hinge_position_from_the_data_in_a_wide_gap():
     cd = np.array([c.distance_m for c in geology.contacts])
     cons = Constraints(cd, np.zeros(len(cd)), contact_s, np.ones(len(cd)), ("",) * len(cd),
                        np.ones(len(cd), bool))
-    mid = fit_kink(doms, cons, ground, frame, 200.0, [])
+    mid = fit_kink(doms, cons, ground, frame, 200.0, Notes())
     mid_res = mid.depth_at(cd, np.zeros(len(cd))) - contact_s
     assert np.max(np.abs(mid_res)) > 50.0
 
@@ -245,12 +249,6 @@ def test_projected_parts_above_ground_are_stored_apart():
     base = merged(draft, base_name(COLUMN))
     assert sum(u.geometry.area for u in draft.units) == pytest.approx(units.area, rel=1e-9)
     assert base.length > 0
-
-
-# --- bad input -------------------------------------------------------------------------
-def _no_dips() -> ProjectedDips:
-    e = np.zeros(0)
-    return ProjectedDips(e, e, e, e, e, e, e, e, e, np.zeros(0, bool), np.zeros(0, bool))
 
 
 def test_no_dips_and_no_default_is_refused():

@@ -25,7 +25,7 @@ for m in pkgutil.iter_modules(mapsection.checks.__path__):
     importlib.import_module(f"mapsection.checks.{m.name}")
 import mapsection.checking
 sys.path.insert(0, "tests")
-from test_topography import _draft  # a hand-made draft: measured here without matplotlib
+from conftest import homocline_draft as _draft  # a hand-made draft, measured without matplotlib
 from mapsection.checks import key_figures, run_checks
 assert key_figures(run_checks(_draft())).section == "T"
 drawn = sorted(n for n in sys.modules if n.startswith(("mapsection.render", "PIL")))

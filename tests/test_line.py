@@ -8,7 +8,8 @@ import pytest
 import shapely
 
 from mapsection.errors import LineError
-from mapsection.line import SectionLine, parse_line_text, projected_line, read_line, utm_crs_for
+from mapsection.line import SectionLine, projected_line, utm_crs_for
+from mapsection.readers.line import parse_line_text, read_line
 
 # An L-shaped line: 300 m east, then 400 m north (a 3-4-5 right angle; analytic).
 L_SHAPE = np.array([[0.0, 0.0], [300.0, 0.0], [300.0, 400.0]])

@@ -13,10 +13,10 @@ from click.testing import CliRunner
 from rasterio.transform import from_origin
 
 from mapsection.cli.main import cli
-from mapsection.dem import Dem
 from mapsection.errors import DEMError, LineError, ParameterError
 from mapsection.line import SectionLine
-from mapsection.profile import profile
+from mapsection.readers.dem import Dem
+from mapsection.topo_profile import profile
 
 UTM11 = pyproj.CRS("EPSG:32611")
 X0, Y_TOP, CELL = 500_000.0, 4_000_000.0, 10.0
@@ -414,7 +414,7 @@ def test_bench_dispatcher_finds_modules():
 
 def test_package_level_profile_is_callable(tmp_path):
     import mapsection
-    import mapsection.profile  # noqa: F401  (importing the submodule must not shadow the function)
+    import mapsection.topo_profile  # noqa: F401  (importing the submodule must not shadow the function)
 
     path = plane_dem(tmp_path / "plane.tif")
     prof = mapsection.profile(path, f"{X0 + 100},{Y_TOP - 100};{X0 + 900},{Y_TOP - 100}")

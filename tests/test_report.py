@@ -16,7 +16,8 @@ import matplotlib
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 import pytest  # noqa: E402
-from test_topography import TOP_B, TOP_C, _draft  # noqa: E402
+from conftest import TOP_B, TOP_C  # noqa: E402
+from conftest import homocline_draft as _draft  # noqa: E402
 
 from mapsection import CAUTION  # noqa: E402
 from mapsection.checks import run_checks  # noqa: E402

@@ -4,47 +4,15 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import KINK_DEPTHS as DEPTHS
+from conftest import TAN30, parallel
+from conftest import flat_draft as make_draft
 from shapely.geometry import LineString, Polygon
 
 from mapsection.checks.restore import restore_section
-from mapsection.dips import ProjectedDips
-from mapsection.draft import DipDomain, Draft, FaultTrace, Horizon
+from mapsection.draft import DipDomain, FaultTrace, Horizon
 from mapsection.errors import CheckError
 from mapsection.export import restoration_frames
-from mapsection.geology import SurfaceGeology
-from mapsection.line import SectionLine
-from mapsection.profile import Profile
-from mapsection.stratigraphy import Column, Unit
-
-COLUMN = Column((Unit("A", 300.0), Unit("B", 400.0), Unit("C", 500.0), Unit("D", 800.0)))
-DEPTHS = {"A": 0.0, "B": 300.0, "C": 700.0, "D": 1200.0}
-TAN30 = np.tan(np.radians(30.0))
-
-
-def make_draft(horizons, faults=(), domains=(), length=10000.0, column=COLUMN, *,
-               ground=1500.0, method="kink") -> Draft:
-    """A straight east-west draft over flat ground at ``ground`` m (also used by
-    test_area and test_kinematics)."""
-    line = SectionLine(np.array([[0.0, 0.0], [length, 0.0]]), name="T")
-    d = np.linspace(0.0, length, 101)
-    profile = Profile(d, d, np.zeros_like(d), np.full_like(d, ground), line)
-    e = np.array([])
-    dips = ProjectedDips(e, e, e, e, e, e, e, e, e, e.astype(bool), e.astype(bool))
-    return Draft("T", method, line, profile, SurfaceGeology((), (), ()), dips, column,
-                 horizons=list(horizons), faults=list(faults), domains=list(domains))
-
-
-def parallel(ref, t):
-    """Exact parallel of a kinked line at perpendicular distance t below it (mitre joins:
-    each offset vertex lies on the bisector of the two segments, Suppe 1985 kink geometry)."""
-    p = np.asarray(ref, float)
-    d = np.diff(p, axis=0)
-    d /= np.hypot(d[:, 0], d[:, 1])[:, None]
-    n = np.column_stack([d[:, 1], -d[:, 0]])  # right-hand normal: downward for travel +x
-    m = np.vstack([n[:1], (n[:-1] + n[1:]) / (1.0 + np.sum(n[:-1] * n[1:], axis=1))[:, None],
-                   n[-1:]])
-    return p + t * m
-
 
 ANTICLINE = [(0.0, 0.0), (3000.0, 0.0), (4000.0, 1000.0 * TAN30), (6000.0, 1000.0 * TAN30),
              (7000.0, 0.0), (10000.0, 0.0)]

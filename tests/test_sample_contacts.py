@@ -31,9 +31,9 @@ def _true_contacts(model, dem, line, step=1.0):
 
 @pytest.fixture(scope="module")
 def area():
-    from mapsection.dem import Dem
-    from mapsection.mapdata import read_map
     from mapsection.project import load_project
+    from mapsection.readers.dem import Dem
+    from mapsection.readers.map import read_map
 
     project = load_project(SAMPLE)
     map_data = read_map(project.map_path, project.units_layer, project.unit_field,
@@ -45,8 +45,8 @@ def area():
 def test_contacts_within_one_pixel_of_the_model(area):
     from mapsection.geology import surface_geology
     from mapsection.line import SectionLine
-    from mapsection.profile import profile
     from mapsection.sample import SAMPLE_MODEL
+    from mapsection.topo_profile import profile
 
     project, map_data, dem = area
     pixel = dem.pixel_size

@@ -7,13 +7,12 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-import shapely
+from conftest import recovery_errors
 
-from mapsection.construct import BASE_PREFIX, build_draft
+from mapsection.construct import build_draft
 
 ROOT = Path(__file__).resolve().parents[1]
 PROJECT = ROOT / "sample_area" / "project.toml"
-
 
 
 def _drafts():
@@ -38,38 +37,6 @@ def _drafts():
 @pytest.fixture(scope="module")
 def drafts():
     return _drafts()
-
-
-def recovery_errors(draft, model, step: float = 25.0, within: float = 1500.0) -> np.ndarray:
-    """Elevation errors of the below-ground horizons within ``within`` m below the ground,
-    sampled every ``step`` m, against the model's true surface in the same fault block."""
-    ground = draft.profile.elevation_at
-    hw_block = {}
-    for k, f in enumerate(draft.faults):
-        # The hanging wall lies on the side toward which the fault descends.
-        left, right = k, k + 1
-        hw_block[left], hw_block[right] = ((False, True) if f.apparent_dip > 0 else (True, False))
-    errs = []
-    for h in draft.horizons:
-        if h.above_ground:
-            continue
-        geom = h.geometry
-        n = max(int(geom.length // step), 1)
-        pts = shapely.get_coordinates(shapely.line_interpolate_point(
-            geom, np.linspace(0.0, geom.length, n + 1)))
-        d, z = pts[:, 0], pts[:, 1]
-        keep = ground(d) - z <= within
-        if not keep.any():
-            continue
-        x, y = draft.line.point_at(d[keep])
-        name = model.basement if h.top_of.startswith(BASE_PREFIX) else h.top_of
-        block = None
-        if draft.faults:
-            block = "hanging_wall" if hw_block.get(h.block, False) else "footwall"
-        true = model.horizon_elevation(name, x, y, block=block)
-        ok = np.isfinite(true)
-        errs.append(np.abs(z[keep][ok] - true[ok]))
-    return np.concatenate(errs)
 
 
 def test_sample_model_recovered_along_every_section(drafts):

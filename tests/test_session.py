@@ -1,4 +1,4 @@
-"""SectionSession: a moved line gives what a fresh session gives, and reads no file.
+"""SectionSession: a shifted line gives what a fresh session gives, and reads no file.
 
 Self-consistency tests: the session is compared with itself, with a freshly
 loaded session and with the projection run on all attitudes without the
@@ -115,13 +115,13 @@ def _same(a: SectionData, b: SectionData) -> None:
         np.testing.assert_array_equal(getattr(a.dips, f), getattr(b.dips, f))
 
 
-def test_move_equals_a_fresh_session(project):
+def test_shifted_line_equals_a_fresh_session(project):
     spec = project.sections[0]
     with SectionSession.from_project(project, spec, warn=_quiet) as moving:
         first = moving.run()
         assert first.line.name == spec.name and len(first.geology.intervals) > 0
         new = _shifted(first.line, 120.0, -80.0, 4.0)
-        moved = moving.move(new)
+        moved = moving.shift_line(new)
         assert moved.line.name == spec.name and moved.line.crs == project.crs
     with SectionSession.from_project(project, spec, warn=_quiet) as fresh:
         again = fresh.run(SectionLine(new, project.crs, spec.name))
@@ -142,14 +142,14 @@ def test_corridor_index_drops_no_attitude(project):
     np.testing.assert_array_equal(got.apparent_dip, ref.apparent_dip)
 
 
-def test_move_reads_no_file(project, monkeypatch):
+def test_shift_line_reads_no_file(project, monkeypatch):
     spec = project.sections[0]
     with SectionSession.from_project(project, spec, warn=_quiet) as s:
         s.run()
         blocks = s.dem.blocks_read
 
         def refuse(*args, **kwargs):
-            raise AssertionError("a file was read during move()")
+            raise AssertionError("a file was read during shift_line()")
 
         for target, name in [(rasterio, "open"), (pyogrio, "read_dataframe"),
                              (pyogrio, "read_info"), (pyogrio, "list_layers"),
@@ -157,10 +157,10 @@ def test_move_reads_no_file(project, monkeypatch):
                              (rasterio.io.DatasetReader, "read")]:
             monkeypatch.setattr(target, name, refuse)
         for k in range(5):
-            data = s.move(_shifted(s.line, 40.0 * k, -30.0 * k, 2.0 * k))
+            data = s.shift_line(_shifted(s.line, 40.0 * k, -30.0 * k, 2.0 * k))
             assert len(data.profile.z) > 1
         # Rotated by a right angle about its middle: a line in other DEM blocks.
-        data = s.move(_shifted(s.line, 0.0, 0.0, 90.0))
+        data = s.shift_line(_shifted(s.line, 0.0, 0.0, 90.0))
         assert np.isfinite(data.profile.z).any()
         assert s.dem.blocks_read == blocks
         monkeypatch.undo()
@@ -200,8 +200,8 @@ def test_line_in_another_crs_is_reprojected_and_said_once(project):
         lon, lat = lonlat.transform(base.line.vertices[:, 0], base.line.vertices[:, 1])
         geographic = SectionLine(np.column_stack([lon, lat]), pyproj.CRS("EPSG:4326"), spec.name)
         said.clear()
-        got = s.move(geographic)
-        s.move(geographic)
+        got = s.shift_line(geographic)
+        s.shift_line(geographic)
     assert got.line.crs == project.crs
     np.testing.assert_allclose(got.line.vertices, base.line.vertices, atol=1e-3)
     np.testing.assert_array_equal(got.dips.id, base.dips.id)
@@ -214,8 +214,8 @@ def test_attitudes_in_another_crs_are_reprojected(project):
 
     import pyproj
 
-    from mapsection.attitudes import read_attitudes
-    from mapsection.mapdata import read_map
+    from mapsection.readers.attitudes import read_attitudes
+    from mapsection.readers.map import read_map
 
     spec = project.sections[0]
     m = read_map(project.map_path, project.units_layer, project.unit_field,

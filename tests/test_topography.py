@@ -13,109 +13,20 @@ from dataclasses import replace
 import numpy as np
 import pytest
 import shapely
-from shapely.geometry import LineString, Polygon
+from conftest import HOMOCLINE_DIP as DIP
+from conftest import HOMOCLINE_LENGTH as LENGTH
+from conftest import TOP_B, TOP_C, ground_line_of
+from conftest import dips_at as _dips
+from conftest import homocline_draft as _draft
+from conftest import homocline_profile as _profile
+from shapely.geometry import LineString
 
 from mapsection.checks.topography import check_topography, ground_line
-from mapsection.dips import ProjectedDips
-from mapsection.draft import Draft, Horizon, UnitPolygon
+from mapsection.draft import Draft, Horizon
 from mapsection.errors import CheckError
 from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
-from mapsection.line import SectionLine
-from mapsection.profile import Profile
 from mapsection.project import Thresholds
 from mapsection.stratigraphy import Column, Unit
-
-LENGTH = 10_000.0
-DIP = 10.0  # degrees; beds descend toward increasing distance
-TOP_B = 3000.0  # where the top of B meets a flat ground at 100 m
-
-
-def _profile(z_fn, step=5.0, pixel=10.0):
-    d = np.arange(0.0, LENGTH + step / 2, step)
-    line = SectionLine(np.array([[0.0, 0.0], [LENGTH, 0.0]]), name="T")
-    return Profile(d, d.copy(), np.zeros_like(d), z_fn(d), line, None, pixel)
-
-
-def _dips(d, e, app, ids=None):
-    n = len(d)
-    return ProjectedDips(
-        id=np.array(ids if ids is not None else [f"s{i}" for i in range(n)]),
-        x=np.asarray(d, float), y=np.zeros(n), distance_m=np.asarray(d, float),
-        offset_m=np.zeros(n), elevation_m=np.asarray(e, float), strike=np.zeros(n),
-        dip=np.abs(app), apparent_dip=np.asarray(app, float),
-        poorly_constrained=np.zeros(n, bool), overturned=np.zeros(n, bool),
-    )
-
-
-def _no_dips():
-    return _dips(np.empty(0), np.empty(0), np.empty(0))
-
-
-def _stack(tops, profile, column, base=-3000.0):
-    """Horizons (split at the ground) and unit polygons from full-width top lines."""
-    ground = ground_line_of(profile)
-    below = Polygon(list(ground.coords) + [(LENGTH, base), (0.0, base)])
-    horizons, units = [], []
-    for name, line in tops.items():
-        for part in shapely.get_parts(line.intersection(below)):
-            horizons.append(Horizon(name, part, False))
-        for part in shapely.get_parts(line.difference(below)):
-            horizons.append(Horizon(name, part, True))
-    names = column.names
-    region = below
-    for i, name in enumerate(names):
-        nxt = names[i + 1] if i + 1 < len(names) else None
-        if nxt is None or nxt not in tops:
-            poly = region
-        else:
-            c = shapely.get_coordinates(tops[nxt])
-            under = Polygon(list(map(tuple, c)) + [(c[-1, 0], base - 1e4), (c[0, 0], base - 1e4)])
-            poly = region.difference(under)
-            region = region.intersection(under)
-        if not poly.is_empty:
-            units.append(UnitPolygon(name, poly))
-    return horizons, units
-
-
-def ground_line_of(profile):
-    return LineString(np.column_stack([profile.distance, profile.z]))
-
-
-def _straight_tops(column, shift=0.0, dip=DIP, ground=100.0):
-    """Top lines y = ground - tan(dip) (x - x0), x0 of B at TOP_B + shift; parallel below."""
-    t = math.tan(math.radians(dip))
-    tops = {}
-    for i, name in enumerate(column.names[1:], start=1):
-        depth = float(column.depth_to_top[i] - column.depth_to_top[1])  # below the top of B
-        x0 = TOP_B + shift - depth / math.cos(math.radians(dip)) / t
-        xs = np.array([0.0, LENGTH])
-        tops[name] = LineString(np.column_stack([xs, ground - t * (xs - x0)]))
-    return tops
-
-
-def _geology(bounds, units):
-    """Map intervals between the given contact distances (units in map order)."""
-    edges = [0.0, *bounds, LENGTH]
-    iv = tuple(UnitInterval(a, b, u) for a, b, u in zip(edges[:-1], edges[1:], units, strict=True))
-    ct = tuple(Contact(b, 100.0, u0, u1)
-               for b, u0, u1 in zip(bounds, units[:-1], units[1:], strict=True))
-    return SurfaceGeology(iv, ct, ())
-
-
-COLUMN = Column((Unit("A", 200.0), Unit("B", 300.0), Unit("C", 400.0)))
-# Top of C meets flat ground 300 m / sin(10 deg) before the top of B (analytic).
-TOP_C = TOP_B - 300.0 / math.sin(math.radians(DIP))
-
-
-def _draft(shift=0.0, map_bounds=(TOP_C, TOP_B), z_fn=None, dips=None, with_units=True,
-           column=COLUMN, method="kink"):
-    prof = _profile(z_fn or (lambda d: np.full_like(d, 100.0)))
-    horizons, units = _stack(_straight_tops(column, shift), prof, column)
-    return Draft(
-        name="T", method=method, line=prof.line, profile=prof,
-        geology=_geology(list(map_bounds), ["C", "B", "A"]), dips=dips or _no_dips(),
-        column=column, horizons=horizons, units=units if with_units else [],
-    )
 
 
 def test_exact_section_fits_map():

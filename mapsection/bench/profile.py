@@ -7,7 +7,7 @@ cells of 10 m (smooth synthetic terrain, written one row of tiles at a time)
 in a temporary folder, then times, each in a fresh Python process so that no
 method profits from another's GDAL block cache:
 
-- ``mapsection``: :func:`mapsection.profile.profile` at the pixel size (opens the DEM,
+- ``mapsection``: :func:`mapsection.topo_profile.profile` at the pixel size (opens the DEM,
   lays out the samples, reads the blocks it needs, interpolates);
 - ``(a) sample``: rasterio's ``DatasetReader.sample`` on the same points (nearest
   pixel, one small read per point);
@@ -166,7 +166,7 @@ def _run_method(method: str, dem: Path, data: dict) -> np.ndarray | None:
 
 
 def mapsection_profile(*args, **kwargs):
-    from mapsection.profile import profile
+    from mapsection.topo_profile import profile
 
     return profile(*args, **kwargs)
 
@@ -177,7 +177,7 @@ def worker(method: str, dem: Path, data_path: Path, trace: bool) -> dict:
     import pyproj
     import rasterio  # imports are not timed
 
-    import mapsection.profile  # noqa: F401
+    import mapsection.topo_profile  # noqa: F401
     from mapsection.line import SectionLine
 
     npz = np.load(data_path)

@@ -25,6 +25,7 @@ from shapely.geometry import LineString, Polygon
 
 from ..draft import Draft
 from ..errors import CheckError
+from ..stratigraphy import is_base_name
 from .geometry import clip_x, joined_horizons, line_xy, snap_tolerance
 
 __all__ = [
@@ -48,7 +49,7 @@ def restored_elevation(column, top_of: str) -> float:
     """
     if top_of in column.names:
         return -float(column.depth_to_top[column.index(top_of)])
-    if top_of.lower().startswith("base"):
+    if is_base_name(top_of):
         return -column.total_thickness
     raise CheckError(f"horizon top_of {top_of!r}: not a unit of the stratigraphic column")
 

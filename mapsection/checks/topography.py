@@ -35,6 +35,7 @@ import shapely
 from scipy.optimize import linear_sum_assignment
 from shapely.geometry import MultiLineString
 
+from ..angles import wrap90
 from ..draft import Draft
 from ..errors import CheckError
 from ..project import Thresholds, threshold_problem
@@ -456,11 +457,6 @@ def _unit_agreement(draft: Draft) -> dict:
     return dict(share=share, length=total, stretches=stretches, source=source)
 
 
-def _wrap90(a: np.ndarray) -> np.ndarray:
-    """Angles of lines (modulo 180) into (-90, 90]."""
-    return -((-np.asarray(a, float) + 90.0) % 180.0 - 90.0)
-
-
 def _dip_agreement(draft: Draft) -> list[DipMisfit]:
     dips = draft.dips
     if dips is None or len(dips) == 0:
@@ -483,9 +479,9 @@ def _dip_agreement(draft: Draft) -> list[DipMisfit]:
     p0 = shapely.get_coordinates(shapely.line_interpolate_point(near, np.clip(pos - h, 0, length)))
     p1 = shapely.get_coordinates(shapely.line_interpolate_point(near, np.clip(pos + h, 0, length)))
     dx, dy = p1[:, 0] - p0[:, 0], p1[:, 1] - p0[:, 1]
-    section = _wrap90(np.degrees(np.arctan2(-dy, dx)))  # positive: descends toward +distance
+    section = wrap90(np.degrees(np.arctan2(-dy, dx)))  # positive: descends toward +distance
     measured = np.asarray(dips.apparent_dip, float)[ok]
-    mis = _wrap90(section - measured)
+    mis = wrap90(section - measured)
     ids = np.asarray(dips.id)[ok]
     pc = np.asarray(dips.poorly_constrained, bool)[ok]
     rows = np.arange(len(j))

@@ -3,44 +3,12 @@
 from __future__ import annotations
 
 import click
-import numpy as np
 
-from .. import CAUTION
-from ..attitudes import CONVENTIONS, Attitudes, read_attitudes
-from ..errors import AttitudeError, MapLayerError
-from ..foldaxis import MIN_CYLINDRICITY, fold_axis, recommended_azimuth
+from ..attitudes import CONVENTIONS
+from ..caution import CAUTION
+from ..foldaxis import MIN_CYLINDRICITY, recommended_azimuth
+from ..tasks import bedding_axis
 from ._common import warn
-
-
-def _within(att: Attitudes, polygon_file: str) -> np.ndarray:
-    """Mask of attitudes inside the polygons of a vector file."""
-    from pathlib import Path
-
-    import pyogrio
-    import pyproj
-    import shapely
-
-    if not Path(polygon_file).exists():
-        raise MapLayerError(f"{polygon_file}: no such polygon file")
-    try:
-        df = pyogrio.read_dataframe(polygon_file)
-    except Exception as exc:  # the vector driver raises several kinds for unreadable files
-        from .._messages import first_line
-
-        raise MapLayerError(
-            f"{polygon_file}: not a readable vector file ({first_line(exc)})"
-        ) from None
-    geoms = np.asarray(df.geometry.values, dtype=object)
-    geoms = geoms[~shapely.is_missing(geoms)]
-    polys = geoms[np.isin(shapely.get_type_id(geoms), (3, 6))]
-    if len(polys) == 0:
-        raise MapLayerError(f"{polygon_file}: holds no polygons")
-    area = shapely.union_all(polys)
-    x, y = att.x, att.y
-    if df.crs is not None and att.crs is not None and not pyproj.CRS(df.crs).equals(att.crs):
-        tr = pyproj.Transformer.from_crs(att.crs, df.crs, always_xy=True)
-        x, y = tr.transform(x, y)
-    return shapely.contains_xy(area, x, y) | shapely.intersects_xy(area.boundary, x, y)
 
 
 @click.command(
@@ -66,13 +34,7 @@ def command(attitudes, within, convention, layer):
     Example:
       mapsection axis sample_area/attitudes.csv
     """
-    att = read_attitudes(attitudes, convention=convention, layer=layer, warn=warn)
-    if within is not None:
-        mask = _within(att, within)
-        if not mask.any():
-            raise AttitudeError(f"{attitudes}: no attitudes inside the polygons of {within}")
-        att = att.subset(mask)
-    ax = fold_axis(att.strike, att.dip)
+    ax = bedding_axis(attitudes, within=within, convention=convention, layer=layer, warn=warn)
     s1, s2, s3 = ax.eigenvalues
     rec = recommended_azimuth(ax)
     click.echo(f"fold axis (pi-axis, Woodcock 1977) from {ax.n} attitudes")

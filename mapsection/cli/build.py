@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from .. import CAUTION
+from ..caution import CAUTION
 from ..project import METHODS
 from ._common import note, warn
 

@@ -1,7 +1,9 @@
 """Entry point of the ``mapsection`` command.
 
 Each command lives in its own module of this package (``mapsection/cli/<name>.py``)
-and exposes a click command named ``command``; it is imported only when used.
+and exposes a click command named ``command``; it is imported only when used: the
+command list of ``mapsection --help`` comes from :data:`COMMANDS`, so the group's help
+imports no command, no check and no heavy library.
 """
 
 from __future__ import annotations
@@ -11,18 +13,25 @@ import sys
 import textwrap
 
 import click
+from click.utils import make_default_short_help
 
-from .. import CAUTION, __version__
+from .. import __version__
+from ..caution import CAUTION
 from ..errors import MapsectionError
 
-# command name -> module holding it, in the order --help lists them
+# command name -> (module holding it, the first sentence of its help), in the order --help
+# lists them (tests/test_imports.py keeps the sentences equal to the commands' own help)
 COMMANDS = {
-    "profile": "profile",
-    "dips": "dips",
-    "axis": "axis",
-    "build": "build",
-    "check": "check",
-    "demo": "demo",
+    "profile": ("profile", "Sample the DEM along a section line and write the profile as CSV."),
+    "dips": ("dips", "Project the bedding attitudes within a corridor into the section plane."),
+    "axis": ("axis", "Fold axis of the bedding: the pi-axis of the pole orientation tensor "
+                     "(Woodcock 1977)."),
+    "build": ("build", "Construct the draft section of each section line of a project and "
+                       "write its outputs."),
+    "check": ("check", "Run the topography, restoration, area-balance and kinematics tests "
+                       "and print a table."),
+    "demo": ("demo", "Build every section of the sample area (invented data) into OUTDIR, "
+                     "and its flawed variant."),
 }
 
 HELP = f"""Draft geological cross-sections from a geologic map, a DEM and strike/dip data,
@@ -37,18 +46,30 @@ Run 'mapsection COMMAND --help' for each command; the user guide is in docs/.
 
 class _LazyGroup(click.Group):
     def list_commands(self, ctx: click.Context) -> list[str]:
-        return [n for n in COMMANDS if importlib.util.find_spec(f"{__package__}.{COMMANDS[n]}")]
+        return [n for n in COMMANDS
+                if importlib.util.find_spec(f"{__package__}.{COMMANDS[n][0]}")]
 
     def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
         if name not in COMMANDS:
             return None
+        module = f"{__package__}.{COMMANDS[name][0]}"
         try:
-            mod = importlib.import_module(f"{__package__}.{COMMANDS[name]}")
+            mod = importlib.import_module(module)
         except ModuleNotFoundError as exc:
-            if exc.name == f"{__package__}.{COMMANDS[name]}":
+            if exc.name == module:
                 return None
             raise
         return mod.command
+
+    def format_commands(self, ctx: click.Context, formatter: click.HelpFormatter) -> None:
+        """The command list from :data:`COMMANDS`, as click lays it out, importing none."""
+        names = self.list_commands(ctx)
+        if not names:
+            return
+        limit = formatter.width - 6 - max(len(n) for n in names)
+        rows = [(n, make_default_short_help(COMMANDS[n][1], limit)) for n in names]
+        with formatter.section("Commands"):
+            formatter.write_dl(rows)
 
     def invoke(self, ctx: click.Context):
         try:

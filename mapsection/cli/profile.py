@@ -6,17 +6,12 @@ from pathlib import Path
 
 import click
 import numpy as np
-import pyproj
 
-from .. import CAUTION
-from .._atomic import atomic_file
-from ..dem import Dem
+from ..caution import CAUTION
 from ..errors import OutputError, ParameterError
-from ..line import projected_line
-from ..profile import profile, resolve_line
+from ..tables import write_profile_csv
+from ..tasks import line_profile
 from ._common import note, warn
-
-COLUMNS = ["distance_m", "x", "y", "elevation_m"]
 
 
 def _step(text: str | None) -> float | None:
@@ -69,34 +64,12 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
     step_m = _step(step)
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
-    with atomic_file(output) as tmp, Dem.open(dem) as d:
-        given = resolve_line(line, crs, d)
-        prof = profile(d, projected_line(given, warn=note), step_m, warn=warn)
-        x, y = prof.x, prof.y
-        digits = 3
-        if given.crs.is_geographic:
-            # Report positions in the CRS the line was given in.
-            back = pyproj.Transformer.from_crs(prof.crs, given.crs, always_xy=True)
-            x, y = back.transform(x, y)
-            digits = 8
-        _write_csv(tmp, prof.distance, np.asarray(x), np.asarray(y), prof.z, digits)
+    table = line_profile(dem, line, crs=crs, step=step_m, warn=warn, note=note)
+    prof = table.profile
+    write_profile_csv(output, prof.distance, table.x, table.y, prof.z, table.digits)
     gaps = int(np.count_nonzero(~np.isfinite(prof.z)))
     note(
         f"wrote {len(prof.distance)} samples every {step_m or prof.pixel_size:.3g} m "
         f"along {prof.line.length:.1f} m to {output}" + (f" ({gaps} empty)" if gaps else "")
     )
 
-
-def _write_csv(path, distance, x, y, z, digits: int) -> None:
-    import pandas as pd
-
-    frame = pd.DataFrame(
-        {
-            "distance_m": np.round(distance, 3),
-            "x": np.round(x, digits),
-            "y": np.round(y, digits),
-            "elevation_m": np.round(z, 3),
-        },
-        columns=COLUMNS,
-    )
-    frame.to_csv(path, index=False, na_rep="", lineterminator="\n")

@@ -37,7 +37,11 @@ from collections.abc import Callable
 import numpy as np
 from scipy.optimize import least_squares
 
-from ._common import Constraints, Domain, Frame, group_domains, unit_vectors, wrap180
+from ..angles import wrap180
+from ..notes import Notes
+from .constraints import Constraints
+from .domains import Domain, unit_vectors
+from .frame import SectionFrame
 
 _STRAIGHT_DEG = 0.05  # adjacent dips closer than this are drawn as straight, parallel beds
 _MIN_SPAN = 0.02  # narrowest arc, as a fraction of its gap (a sharper hinge is a kink)
@@ -106,31 +110,31 @@ class _Chain:
 class ArcModel(_Chain):
     """A block's Busk construction.
 
-    Called with a block's dips (sorted by distance). With a dip tolerance (``tolerance``,
-    the section's ``dip_tolerance`` when called by the build) the dips are grouped into
-    dip domains and the arcs fitted to the contacts (:func:`fit_busk`); without one,
-    every dip is its own sector boundary (the classic construction through the dips).
+    Called with a block's dips (sorted by distance, one per position). With their dip
+    ``domains`` (grouped by the build at the section's ``dip_tolerance``) the arcs are
+    fitted to the contacts (:func:`fit_busk`); without them, every dip is its own sector
+    boundary (the classic construction through the dips).
     ``ground``: the ground elevation at distances (default: interpolated between the
     contacts, which lie on the ground).
     """
 
-    def __init__(self, distance, elevation, phi, cons: Constraints, frame: Frame,
-                 column_depths: np.ndarray, names: list[str], log: list[str], *,
-                 tolerance: float | None = None, ground: Callable | None = None) -> None:
+    def __init__(self, distance, elevation, phi, cons: Constraints, frame: SectionFrame,
+                 column_depths: np.ndarray, names: list[str], notes: Notes, *,
+                 domains: list[Domain] | None = None, ground: Callable | None = None) -> None:
         d = np.asarray(distance, float)
         z = np.asarray(elevation, float)
         phi = np.asarray(phi, float)
         self.domains: list[Domain] | None = None
-        if tolerance is not None and len(d) > 1:
+        if domains is not None and len(d) > 1:
             ground = ground or _ground_estimate(cons, d, z)
             depths = np.asarray(column_depths, float)
             scale = float(np.min(np.diff(depths))) if len(depths) > 1 else 100.0
-            self.domains = group_domains(d, phi, np.ones(len(d)), tolerance)
+            self.domains = domains
             q, ph = fit_busk(self.domains, cons, ground, frame, scale)
         else:
             q, ph = np.column_stack([d, z]), phi
         super().__init__(q, ph)
-        self.frame, self.log = frame, log
+        self.frame, self.notes = frame, notes
         if len(cons):
             b = self.depth_at(cons.distance, cons.elevation)
             shift = float(np.sum(cons.weight * (cons.depth - b)) / np.sum(cons.weight))
@@ -192,6 +196,10 @@ class ArcModel(_Chain):
         at a point (no area beyond the centre)."""
         return self._walk(s)[1]
 
+    def axial_surfaces(self) -> list[tuple[np.ndarray, float, float, float]]:
+        """Busk's construction has hinges of finite width, no axial surfaces."""
+        return []
+
     def _log_arcs(self) -> None:
         """One line per hinge of the fitted construction: where its arc sits in its gap."""
         if not self.domains or len(self.domains) < 2:
@@ -206,7 +214,7 @@ class ArcModel(_Chain):
                          f"the top of the column {abs(self.radius(i, 0.0)):.0f} m")
             else:
                 shape = "normals do not meet on the beds' side: drawn straight"
-            self.log.append(f"arc between dip domains {left.dip:.1f}° and {right.dip:.1f}°: "
+            self.notes.log(f"arc between dip domains {left.dip:.1f}° and {right.dip:.1f}°: "
                             f"tangent points at {a:.0f} and {b:.0f} m on the ground (gap "
                             f"{left.end:.0f}-{right.start:.0f} m, placed by the contacts); "
                             f"{shape}")
@@ -223,14 +231,14 @@ class ArcModel(_Chain):
             if not cut:
                 continue
             where = "below" if self.e[i] > 0 else "above"
-            self.log.append(
+            self.notes.log(
                 f"arc between normals at {self.q[i, 0]:.0f} and {self.q[i + 1, 0]:.0f} m: centre "
                 f"of curvature at {cx:.0f} m, elevation {cz:.0f} m ({where} the beds); the "
                 f"construction stops at the centre: {', '.join(cut)} end there (limbs drawn "
                 "to where they meet)")
 
 
-def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: Frame,
+def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: SectionFrame,
              scale: float) -> tuple[np.ndarray, np.ndarray]:
     """Busk arcs between successive dip domains, fitted to the contacts.
 
@@ -268,7 +276,7 @@ def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
 
     if not len(cons):
         return points(np.concatenate([0.5 * (lo + hi), np.ones(k_all - 1)])), ph
-    h = fit_kink(domains, cons, ground, frame, scale, []).hinges
+    h = fit_kink(domains, cons, ground, frame, scale, Notes()).hinges
 
     def resid(x):
         r0 = _Chain(points(x), ph).depth_at(cons.distance, cons.elevation) - cons.depth

@@ -19,7 +19,8 @@ import shapely
 from shapely.geometry import LineString, Polygon
 
 from ..geology import FaultCrossing
-from ._common import Frame
+from ..notes import Notes
+from .frame import SectionFrame
 
 _MIN_FAULT_DIP = 1.0  # degrees; a flatter trace cannot bound blocks along the line
 
@@ -39,7 +40,7 @@ class FaultLine:
         """The fault's line through the whole section (for cutoffs and block bounds)."""
         return LineString([self.p0 + reach * self.up, self.p0 + reach * self.down])
 
-    def trace(self, frame: Frame) -> LineString:
+    def trace(self, frame: SectionFrame) -> LineString:
         """From the ground down to ``bottom`` (clipped to the section's ends)."""
         dz = self.p0[1] - self.bottom
         length = dz / max(-self.down[1], 1e-9)
@@ -53,22 +54,24 @@ class FaultLine:
         return bool(self.down[0] > 0)
 
 
-def fault_lines(faults, frame: Frame, ground: Callable, fault_depth: float | None,
-                warn: Callable[[str], None], log: list[str]) -> list[FaultLine]:
+def fault_lines(faults, frame: SectionFrame, ground: Callable, fault_depth: float | None,
+                notes: Notes) -> list[FaultLine]:
+    """The faults the line crosses within the section, as straight traces at their
+    apparent dip from the ground down to ``fault_depth`` below the lowest ground."""
     bottom = frame.base if fault_depth is None else max(frame.base, frame.ground_min - fault_depth)
     out = []
     for f in sorted(faults, key=lambda f: f.distance_m):
         label = f.name or f"at {f.distance_m:.0f} m"
         if not 0.0 < f.distance_m < frame.length:
-            log.append(f"fault {label}: outside the section's ends, left out")
+            notes.log(f"fault {label}: outside the section's ends, left out")
             continue
         a = float(f.apparent_dip)
         if not np.isfinite(a):
-            warn(f"fault {label}: no apparent dip; drawn vertical")
+            notes.warn(f"fault {label}: no apparent dip; drawn vertical", logged=False)
             a = 90.0
         if abs(a) < _MIN_FAULT_DIP:
-            warn(f"fault {label}: apparent dip {a:.1f}° is nearly flat; drawn at "
-                 f"{_MIN_FAULT_DIP:.0f}°")
+            notes.warn(f"fault {label}: apparent dip {a:.1f}° is nearly flat; drawn at "
+                       f"{_MIN_FAULT_DIP:.0f}°", logged=False)
             a = _MIN_FAULT_DIP if a >= 0 else -_MIN_FAULT_DIP
         r = np.radians(a)
         down = np.array([np.cos(r), -np.sin(r)]) * (1.0 if a > 0 else -1.0)
@@ -85,7 +88,7 @@ def _left_half(fl: FaultLine, reach: float) -> Polygon:
     return Polygon([a, b, (x, b[1]), (x, a[1])])
 
 
-def block_polygons(faults: list[FaultLine], frame: Frame) -> list:
+def block_polygons(faults: list[FaultLine], frame: SectionFrame) -> list:
     """Each block's region of the frame between its bounding faults (block 0 first).
     Where faults cross at depth the overlap goes to the block listed first."""
     reach = frame.size

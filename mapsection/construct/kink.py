@@ -32,7 +32,10 @@ import numpy as np
 from scipy.optimize import least_squares
 from shapely.geometry import Point
 
-from ._common import Constraints, Domain, Frame, unit_vectors
+from ..notes import Notes
+from .constraints import Constraints
+from .domains import Domain, unit_vectors
+from .frame import SectionFrame
 
 
 @dataclass
@@ -48,8 +51,9 @@ class KinkModel:
     """A block's fitted dip domains: reference offsets ``c``, hinge ground distances."""
 
     def __init__(self, domains: list[Domain], c: np.ndarray, hinges: np.ndarray,
-                 hinge_z: np.ndarray, frame: Frame, log: list[str]) -> None:
-        self.domains, self.c, self.hinges, self.frame, self.log = domains, c, hinges, frame, log
+                 hinge_z: np.ndarray, frame: SectionFrame, notes: Notes) -> None:
+        self.domains, self.c, self.hinges, self.frame = domains, c, hinges, frame
+        self.notes = notes
         self.hinge_z = hinge_z  # ground elevation at the hinges
         self.t, self.n = unit_vectors([d.phi for d in domains])
         self._sweep()
@@ -130,7 +134,7 @@ class KinkModel:
             w = [a + b * s_pref for a, b in coeffs]
             drop = alive[1 + int(np.argmin(w))]
             dm = self.domains[drop]
-            self.log.append(f"dip domain {dm.start:.0f}-{dm.end:.0f} m (dip {dm.dip:.1f}°) "
+            self.notes.log(f"dip domain {dm.start:.0f}-{dm.end:.0f} m (dip {dm.dip:.1f}°) "
                             "conflicts with its neighbours' axial surfaces and was left out")
             alive.remove(drop)
         self.s0 = s_pref
@@ -171,7 +175,7 @@ class KinkModel:
             where = "at depth" if direction > 0 else "upward"
             p = self._meet(i, j, sz)[0]
             if self.frame.box.covers(Point(p)):
-                self.log.append(f"axial surfaces meet {where} at {p[0]:.0f} m, elevation "
+                self.notes.log(f"axial surfaces meet {where} at {p[0]:.0f} m, elevation "
                                 f"{p[1]:.0f} m: one axial surface continues between dips "
                                 f"{dl.dip:.1f}° and "
                                 f"{dr.dip:.1f}°")
@@ -209,6 +213,12 @@ class KinkModel:
     def horizon_pieces(self, s: float) -> list[np.ndarray]:
         return [self.horizon_path(s)]
 
+    def axial_surfaces(self) -> list[tuple[np.ndarray, float, float, float]]:
+        """Each axial surface: (its two end points, its ground distance, the dips of the
+        domains on its left and right)."""
+        return [(pts, piece.ground_distance, self.domains[piece.left].dip,
+                 self.domains[piece.right].dip) for pts, piece in self.axial_segments()]
+
     def axial_segments(self) -> list[tuple[np.ndarray, AxialPiece]]:
         out = []
         for piece in [*self.pieces.values(), *self.extra]:
@@ -219,8 +229,8 @@ class KinkModel:
         return out
 
 
-def fit_kink(domains: list[Domain], cons: Constraints, ground: Callable, frame: Frame,
-             scale: float, log: list[str], rng_seed: int = 0) -> KinkModel:
+def fit_kink(domains: list[Domain], cons: Constraints, ground: Callable, frame: SectionFrame,
+             scale: float, notes: Notes, rng_seed: int = 0) -> KinkModel:
     """Position the domains' stacks by the constraints (joint least squares over the
     block: one offset plus each hinge's ground position, bounded to its gap)."""
     k_all = len(domains)
@@ -270,4 +280,4 @@ def fit_kink(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
         h = best.x
     r0, c = base_resid(h)
     c = c + c0_of(r0)
-    return KinkModel(domains, c, h, ground(h), frame, log)
+    return KinkModel(domains, c, h, ground(h), frame, notes)

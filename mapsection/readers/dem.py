@@ -12,7 +12,6 @@ from __future__ import annotations
 import contextlib
 import os
 from collections import OrderedDict
-from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -21,7 +20,8 @@ import rasterio
 from rasterio.errors import RasterioIOError
 from rasterio.windows import Window
 
-from .errors import DEMError
+from ..crs import same_crs, transformer
+from ..errors import DEMError
 
 # Strips wider than this are cached in pieces of this many columns, so that a
 # line crossing a strip-organised raster keeps only the parts it needs.
@@ -29,15 +29,6 @@ _MAX_BLOCK_WIDTH = 1024
 _PIECE_WIDTH = 512
 # Rasters with at most this many cache blocks keep a block -> slot lookup array (4 bytes each).
 _MAX_LOOKUP = 1 << 22
-
-
-@lru_cache(maxsize=64)
-def _transformer(src_wkt: str, dst_wkt: str) -> pyproj.Transformer | None:
-    """A transformer between two CRSs, built once per pair; None when they are the same."""
-    src, dst = pyproj.CRS.from_wkt(src_wkt), pyproj.CRS.from_wkt(dst_wkt)
-    if src == dst:
-        return None
-    return pyproj.Transformer.from_crs(src, dst, always_xy=True)
 
 
 class Dem:
@@ -171,9 +162,8 @@ class Dem:
         """The transformer from ``crs`` to the DEM's CRS; None when they are the same CRS."""
         if crs is self._last_crs[0]:  # the same CRS object as last time: skip the lookup
             return self._last_crs[1]
-        crs_obj = crs if isinstance(crs, pyproj.CRS) else pyproj.CRS(crs)
         # The same CRS (the usual case) needs no transformer: even an identity one costs.
-        tr = None if crs_obj == self.crs else _transformer(crs_obj.to_wkt(), self.crs.to_wkt())
+        tr = None if same_crs(crs, self.crs) else transformer(crs, self.crs)
         self._last_crs = (crs, tr)
         return tr
 

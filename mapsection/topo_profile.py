@@ -17,9 +17,10 @@ import shapely
 from shapely.geometry import LineString
 
 from ._messages import default_warn as _default_warn
-from .dem import Dem
 from .errors import DEMError, LineError, ParameterError
-from .line import SectionLine, projected_line, read_line
+from .line import SectionLine, projected_line
+from .readers.dem import Dem
+from .readers.line import read_line
 
 # More samples than this is a mistaken step, not a profile (a 100 km line at 2 mm).
 _MAX_SAMPLES = 50_000_000
@@ -96,7 +97,7 @@ def profile(
     ``line`` is a SectionLine, a shapely LineString, a vector file holding one
     LineString, or the text ``"x1,y1;x2,y2[;...]"``. Its CRS is its own, else
     ``crs``, else the DEM's when that is projected. A line in a geographic CRS
-    is measured in metres in its local UTM zone (said on stderr). Samples lie
+    is measured in metres in its local UTM zone (said through ``warn``, else on stderr). Samples lie
     every ``step`` metres along the line (default: the DEM's pixel size) and at
     every vertex, distance cumulative over bends; elevations are bilinear
     between pixel centres of the DEM (see :meth:`Dem.sample`), in whatever CRS

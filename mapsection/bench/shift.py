@@ -1,11 +1,12 @@
-"""Benchmark: moving the section line in a loaded session (``python -m mapsection.bench move``).
+"""Benchmark: shifting the section line in a loaded session
+(``python -m mapsection.bench shift``).
 
 With the sample area's map and DEM and N (default 100 000) invented attitudes
 scattered over its extent (bedding of the sample model at the ground), it times
 
 * the first run: read the map, read the attitudes CSV, open the DEM, build the
   session (attitude elevations from the DEM, spatial indexes) and run section A;
-* ~50 moves of the line (random shifts of up to 300 m and turns of up to 8
+* ~50 shifts of the line (random shifts of up to 300 m and turns of up to 8
   degrees of section A): the median time to re-project the dips, and the
   median time of the whole re-run (profile, surface geology, dips);
 * for comparison, the dip projection over all attitudes without the index.
@@ -35,7 +36,7 @@ def _default_project() -> Path:
 
 def _write_attitudes(path: Path, project, n: int, rng: np.random.Generator) -> None:
     """N attitudes over the DEM's extent, bedding of the sample model at the ground."""
-    from mapsection.dem import Dem
+    from mapsection.readers.dem import Dem
     from mapsection.sample import SAMPLE_MODEL
 
     with Dem.open(project.dem_path) as dem:
@@ -52,7 +53,7 @@ def _write_attitudes(path: Path, project, n: int, rng: np.random.Generator) -> N
                header="x,y,strike,dip,id", comments="")
 
 
-def _moved(base: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+def _shifted(base: np.ndarray, rng: np.random.Generator) -> np.ndarray:
     c = base.mean(axis=0)
     t = np.radians(rng.uniform(-8.0, 8.0))
     rot = np.array([[np.cos(t), -np.sin(t)], [np.sin(t), np.cos(t)]])
@@ -60,27 +61,27 @@ def _moved(base: np.ndarray, rng: np.random.Generator) -> np.ndarray:
 
 
 def main(argv: list[str] | None = None) -> int:
-    p = argparse.ArgumentParser(prog="python -m mapsection.bench move", description=__doc__,
+    p = argparse.ArgumentParser(prog="python -m mapsection.bench shift", description=__doc__,
                                 formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("--project", type=Path, default=_default_project(),
                    help="project file (default: the sample area's)")
     p.add_argument("--section", default=None, help="section name (default: the first)")
     p.add_argument("--attitudes", type=int, default=100_000, help="number of attitudes")
-    p.add_argument("--moves", type=int, default=50, help="number of moves")
+    p.add_argument("--shifts", type=int, default=50, help="number of line shifts")
     p.add_argument("--seed", type=int, default=11)
     args = p.parse_args(argv)
 
-    from mapsection.attitudes import read_attitudes
-    from mapsection.dem import Dem
     from mapsection.dips import project_attitudes
     from mapsection.geology import surface_geology
-    from mapsection.mapdata import read_map
-    from mapsection.profile import profile
     from mapsection.project import load_project
+    from mapsection.readers.attitudes import read_attitudes
+    from mapsection.readers.dem import Dem
+    from mapsection.readers.map import read_map
     from mapsection.session import SectionSession
+    from mapsection.topo_profile import profile
 
     if not args.project.exists():
-        print(f"mapsection.bench move: error: {args.project}: no project file (generate the "
+        print(f"mapsection.bench shift: error: {args.project}: no project file (generate the "
               "sample area first: python sample_area/generate.py)", file=sys.stderr)
         return 2
     project = load_project(args.project)
@@ -99,14 +100,13 @@ def main(argv: list[str] | None = None) -> int:
         dem = Dem.open(project.dem_path)
         session = SectionSession(dem, map_data, attitudes, spec.corridor, spec.projection,
                                  warn=said.append)
-        from mapsection.line import SectionLine
 
-        base = SectionLine(np.asarray(spec.line, float), project.crs, spec.name)
+        base = project.section_line(spec)
         first_data = session.run(base)
         first = time.perf_counter() - t0
 
-    lines = [session._as_line(_moved(base.vertices, rng)) for _ in range(args.moves)]
-    session.move(lines[0])  # warm-up: first call of each code path
+    lines = [session._as_line(_shifted(base.vertices, rng)) for _ in range(args.shifts)]
+    session.shift_line(lines[0])  # warm-up: first call of each code path
     t_dips, t_whole, t_scan, n_dips, t_prof, t_geo = [], [], [], [], [], []
     for line in lines:
         t = time.perf_counter()
@@ -120,7 +120,7 @@ def main(argv: list[str] | None = None) -> int:
         surface_geology(session.map_data, line, prof, warn=said.append)
         t_geo.append(time.perf_counter() - t)
         t = time.perf_counter()
-        session.move(line)
+        session.shift_line(line)
         t_whole.append(time.perf_counter() - t)
     for line in lines[:10]:
         t = time.perf_counter()
@@ -133,10 +133,10 @@ def main(argv: list[str] | None = None) -> int:
     whole_med = statistics.median(t_whole)
     scan_med = statistics.median(t_scan)
     print(f"project {args.project.name}, section {spec.name}, corridor {spec.corridor:g} m, "
-          f"{args.attitudes} attitudes, {args.moves} moves")
+          f"{args.attitudes} attitudes, {args.shifts} shifts")
     print(f"first run (read map + attitudes CSV + open DEM + session + run): {first:.3f} s; "
           f"{len(first_data.geology.intervals)} unit intervals, {len(first_data.dips)} dips")
-    print(f"median dips re-projection after a move: {1e3 * dips_med:.1f} ms "
+    print(f"median dips re-projection after a shift: {1e3 * dips_med:.1f} ms "
           f"(ratio to first run {dips_med / first:.4f}; target <= {1e3 * DIPS_TARGET_S:.0f} ms;"
           f" median {int(np.median(n_dips))} dips in the corridor)")
     print(f"median whole re-run (profile, surface geology, dips): {1e3 * whole_med:.1f} ms "

@@ -1,0 +1,311 @@
+"""Reading bedding attitudes from a CSV or a point vector file, every row validated.
+
+The value object and the conventions are in :mod:`mapsection.attitudes`.
+"""
+
+from __future__ import annotations
+
+import csv
+import os
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pyproj
+
+from .._messages import default_warn as _default_warn
+from .._messages import first_line
+from ..attitudes import (
+    CONVENTIONS,
+    Attitudes,
+    Warn,
+    dip_direction_to_strike,
+    parse_one_quadrant,
+    reproject_attitudes,
+)
+from ..crs import same_crs
+from ..errors import AttitudeError
+
+CSV_SUFFIXES = (".csv", ".txt", ".tsv")
+LOGICAL_FIELDS = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
+
+_TRUE = {"true", "t", "yes", "y", "1"}
+_FALSE = {"false", "f", "no", "n", "0", ""}
+
+
+@dataclass
+class _Table:
+    """Raw attribute table: text columns plus the row label of each record."""
+
+    columns: dict[str, list]  # original column name -> values
+    rows: list[str]  # "line 7" or "feature 3"
+    x: np.ndarray | None = None  # from geometry (vector files)
+    y: np.ndarray | None = None
+    z: np.ndarray | None = None
+    crs: pyproj.CRS | None = None
+
+
+def _read_csv(path: Path) -> _Table:
+    try:
+        with open(path, newline="", encoding="utf-8-sig") as fh:
+            sample = fh.read(4096)
+            fh.seek(0)
+            try:
+                dialect = csv.Sniffer().sniff(sample.splitlines()[0] if sample else "", ",;\t")
+            except csv.Error:
+                dialect = csv.excel
+            reader = csv.reader(fh, dialect)
+            header = next(reader, None)
+            if header is None:
+                raise AttitudeError(f"{path}: empty file (expected a header row)")
+            names = [h.strip() for h in header]
+            k = len(names)
+            records: list[list[str]] = []
+            lines: list[int] = []
+            for rec in reader:
+                if not "".join(rec).strip():
+                    continue  # blank line
+                lines.append(reader.line_num)
+                records.append(rec if len(rec) == k else (rec + [""] * k)[:k])
+            columns = list(zip(*records, strict=True)) if records else [()] * k
+            cols = {n: [v.strip() for v in c] for n, c in zip(names, columns, strict=True)}
+            rows = [f"line {n}" for n in lines]
+    except UnicodeDecodeError:
+        raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
+    except OSError as exc:
+        raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
+    return _Table(cols, rows)
+
+
+def _read_vector(path: Path, layer: str | None) -> _Table:
+    import pyogrio
+    import shapely
+
+    try:
+        layers = [str(r[0]) for r in pyogrio.list_layers(path)]
+    except Exception as exc:
+        raise AttitudeError(
+            f"{path}: not a CSV or a readable vector file ({first_line(exc)})"
+        ) from None
+    if layer is not None and layer not in layers:
+        raise AttitudeError(f"{path}: no layer {layer!r} (layers: {', '.join(layers)})")
+    if layer is None and len(layers) > 1:
+        raise AttitudeError(f"{path}: holds several layers; name one (layers: {', '.join(layers)})")
+    try:
+        df = pyogrio.read_dataframe(path, layer=layer)
+    except Exception as exc:
+        raise AttitudeError(f"{path}: cannot be read ({first_line(exc)})") from None
+    geom = np.asarray(df.geometry.values, dtype=object) if "geometry" in df else None
+    if geom is None:
+        raise AttitudeError(f"{path}: has no point geometry")
+    types = shapely.get_type_id(geom)
+    # Single-part MultiPoints are accepted as points.
+    multi = types == 4
+    if multi.any():
+        one = shapely.get_num_geometries(geom) == 1
+        geom = np.where(multi & one, shapely.get_geometry(geom, 0), geom)
+        types = shapely.get_type_id(geom)
+    bad = (types != 0) & (types != -1)
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise AttitudeError(
+            f"{path}: feature {i + 1} is a {geom[i].geom_type}; attitudes must be points"
+        )
+    ok = types == 0
+    x = np.full(len(geom), np.nan)
+    y = np.full(len(geom), np.nan)
+    z = np.full(len(geom), np.nan)
+    if ok.any():
+        c = shapely.get_coordinates(geom[ok], include_z=True)
+        x[ok], y[ok], z[ok] = c[:, 0], c[:, 1], c[:, 2]
+    cols = {str(c): [("" if v is None else v) for v in df[c].tolist()]
+            for c in df.columns if c != "geometry"}
+    rows = [f"feature {i + 1}" for i in range(len(df))]
+    crs = pyproj.CRS(df.crs) if df.crs is not None else None
+    return _Table(cols, rows, x, y, z, crs)
+
+
+def _to_float(values: list) -> tuple[np.ndarray, np.ndarray]:
+    """Vectorised number parsing: (floats with NaN for blanks/bad, mask of non-numbers)."""
+    import pandas as pd
+
+    try:  # fast path: every value already a number or numeric text
+        num = np.asarray(values, dtype=float)
+        if np.all(np.isfinite(num)):
+            return num, np.zeros(len(num), bool)
+    except (ValueError, TypeError):
+        pass
+    s = pd.Series(values, dtype=object)
+    text = s.astype(str).str.strip()
+    blank = s.isna().to_numpy() | (text == "").to_numpy() | (text.str.lower() == "nan").to_numpy()
+    num = pd.to_numeric(text.where(~blank, None), errors="coerce").to_numpy(dtype=float)
+    bad = ~blank & ~np.isfinite(num)
+    return num, bad
+
+
+def read_attitudes(
+    path: str | os.PathLike,
+    *,
+    convention: str = "rhr",
+    layer: str | None = None,
+    fields: Mapping[str, str] | None = None,
+    crs: str | pyproj.CRS | None = None,
+    warn: Warn | None = None,
+) -> Attitudes:
+    """Read bedding attitudes from a CSV or a point vector file, validating every row.
+
+    CSV columns: ``x, y`` and, by ``convention``, ``strike, dip`` (``rhr``),
+    ``dip_direction, dip`` (``dip-direction``) or ``attitude`` holding quadrant text
+    (``quadrant``; ``strike`` and ``dip`` columns holding ``N30E`` and ``45SE`` also
+    work). Optional: ``id`` (default: the data row number), ``z`` (elevation),
+    ``overturned`` (true/false/yes/no/1/0). A point vector file (GeoPackage,
+    GeoJSON, Shapefile) takes x, y (and z, when present) from its geometry.
+    ``fields`` maps those logical names to the file's own column names; matching
+    is case-insensitive.
+
+    A row with an impossible value (dip outside 0-90, azimuth outside 0-360, text
+    that is not a number, inconsistent quadrant text) is reported through ``warn``
+    with its CSV line number (or feature number) and reason and dropped; the count
+    of dropped rows is reported once. CSV coordinates are taken to be in ``crs``;
+    a vector file in another CRS is reprojected to ``crs`` (its azimuths rotated to
+    the new grid north) and that is said once.
+
+    Raises :class:`AttitudeError` for a missing file, a missing column (listing the
+    columns there are), an unknown convention, or a file with no usable rows.
+    """
+    warn = warn or _default_warn
+    path = Path(path)
+    if convention not in CONVENTIONS:
+        raise AttitudeError(
+            f"unknown attitude convention {convention!r} (use {', '.join(CONVENTIONS)})"
+        )
+    if not path.exists():
+        raise AttitudeError(f"{path}: no such attitudes file")
+    if path.is_dir():
+        raise AttitudeError(f"{path}: is a folder, not an attitudes file")
+    target = pyproj.CRS(crs) if crs is not None else None
+    is_csv = path.suffix.lower() in CSV_SUFFIXES
+    table = _read_csv(path) if is_csv else _read_vector(path, layer)
+    n = len(table.rows)
+    existing = list(table.columns)
+    lower = {c.lower(): c for c in existing}
+    fields = dict(fields or {})
+
+    def column(logical: str, required: bool, hint: str = "") -> list | None:
+        name = fields.get(logical) or logical
+        real = lower.get(name.lower())
+        if real is None and required:
+            listed = ", ".join(existing) if existing else "none"
+            raise AttitudeError(
+                f"{path}: no column {name!r}{hint} (columns: {listed})"
+            )
+        return None if real is None else table.columns[real]
+
+    reasons: dict[int, list[str]] = {}  # bad rows only
+
+    def flag(mask: np.ndarray, why: Callable[[int], str]) -> None:
+        for i in np.flatnonzero(mask):  # only the bad rows are visited
+            reasons.setdefault(int(i), []).append(why(int(i)))
+
+    # Coordinates
+    if is_csv:
+        xs, ys = column("x", True), column("y", True)
+        x, bx = _to_float(xs)
+        y, by = _to_float(ys)
+        flag(bx | ~np.isfinite(x), lambda i: f"x {xs[i]!r} is not a number")
+        flag(by | ~np.isfinite(y), lambda i: f"y {ys[i]!r} is not a number")
+        z = np.full(n, np.nan)
+        src_crs = None
+    else:
+        x, y, z = table.x, table.y, table.z
+        flag(~np.isfinite(x), lambda i: "has no point geometry")
+        src_crs = table.crs
+    zs = column("z", False)
+    if zs is not None:
+        zc, bz = _to_float(zs)
+        flag(bz, lambda i: f"z {zs[i]!r} is not a number")
+        z = np.where(np.isfinite(zc), zc, z)
+
+    # Orientation
+    strike = np.full(n, np.nan)
+    dip = np.full(n, np.nan)
+    if convention == "quadrant":
+        att = column("attitude", False)
+        if att is None:
+            s_txt, d_txt = column("strike", False), column("dip", False)
+            if s_txt is None or d_txt is None:
+                column("attitude", True, " with quadrant text such as 'N30E 45SE'")
+            att = [f"{a} {b}" for a, b in zip(s_txt, d_txt, strict=True)]
+        for i, t in enumerate(att):  # text parsing is per row by nature
+            try:
+                strike[i], dip[i] = parse_one_quadrant(str(t))
+            except ValueError as exc:
+                reasons.setdefault(i, []).append(str(exc))
+    else:
+        az_name = "strike" if convention == "rhr" else "dip_direction"
+        other = "dip_direction" if convention == "rhr" else "strike"
+        hint = (f"; the file has {other!r}: use convention "
+                f"{'dip-direction' if other == 'dip_direction' else 'rhr'}"
+                if (fields.get(other) or other).lower() in lower else "")
+        az_txt = column(az_name, True, hint)
+        d_txt = column("dip", True)
+        az, baz = _to_float(az_txt)
+        dip, bd = _to_float(d_txt)
+        flag(baz | ~np.isfinite(az) & ~baz, lambda i: f"{az_name} {az_txt[i]!r} is not a number")
+        flag(bd | ~np.isfinite(dip) & ~bd, lambda i: f"dip {d_txt[i]!r} is not a number")
+        flag(np.isfinite(az) & ((az < 0) | (az > 360)),
+             lambda i: f"{az_name} {az[i]:g} is outside 0-360")
+        flag(np.isfinite(dip) & ((dip < 0) | (dip > 90)),
+             lambda i: f"dip {dip[i]:g} is outside 0-90")
+        strike = az % 360.0 if convention == "rhr" else dip_direction_to_strike(az)
+
+    # Optional columns
+    ids_txt = column("id", False)
+    ov_txt = column("overturned", False)
+    overturned = np.zeros(n, bool)
+    if ov_txt is not None:
+        low = np.array([str(v).strip().lower() for v in ov_txt], dtype=object)
+        is_true = np.isin(low, list(_TRUE))
+        is_false = np.isin(low, list(_FALSE)) | np.array([v is None for v in ov_txt], bool)
+        overturned = is_true
+        flag(~is_true & ~is_false,
+             lambda i: f"overturned {ov_txt[i]!r} is not true/false/yes/no/1/0")
+    if ids_txt is not None:
+        raw = [str(v).strip() for v in ids_txt]
+        try:
+            ids = np.array([int(v) for v in raw])
+        except ValueError:
+            ids = np.array(raw, dtype=object)
+        flag(np.array([v == "" for v in raw], bool), lambda i: "id is blank")
+    else:
+        ids = np.arange(1, n + 1)
+
+    good = np.ones(n, bool)
+    good[list(reasons)] = False
+    dropped = n - int(good.sum())
+    if dropped:
+        shown = 0
+        for i in np.flatnonzero(~good):
+            if shown == 20:
+                warn(f"{path}: ... and {dropped - 20} more bad rows")
+                break
+            warn(f"{path}, {table.rows[i]}: {'; '.join(reasons[i])}; row dropped")
+            shown += 1
+        warn(f"{path}: dropped {dropped} of {n} rows; kept {n - dropped}")
+    if not good.any():
+        raise AttitudeError(
+            f"{path}: no usable attitude rows"
+            + (f" ({n} rows, all bad)" if n else " (no data rows)")
+        )
+
+    att = Attitudes(
+        id=ids[good], x=x[good], y=y[good], z=z[good], strike=strike[good] % 360.0,
+        dip=dip[good], overturned=overturned[good], crs=target if src_crs is None else src_crs,
+    )
+    if not same_crs(src_crs, target):
+        att = reproject_attitudes(att, target, warn=warn, source=str(path))
+    return att
+
+
+__all__ = ["CSV_SUFFIXES", "LOGICAL_FIELDS", "read_attitudes"]

@@ -1,0 +1,264 @@
+"""Builders shared by the tests: hand-made drafts and their parts (invented data).
+
+* :func:`flat_draft` -- a straight east-west draft over flat ground, horizons given
+  (restoration, area balance, kinematics); :func:`parallel` offsets a kinked line
+  exactly (Suppe 1985 kink geometry), ``KINK_COLUMN``/``KINK_DEPTHS`` its column.
+* :func:`homocline_draft` -- beds dipping ``HOMOCLINE_DIP`` under flat or shaped ground
+  with the map contacts where the beds meet it (topography check, report).
+* :func:`hand_draft` -- a small draft with a bend, a fault and six dips (figure, export).
+* :func:`recovery_errors` -- elevation errors of a built draft against the sample model.
+
+Import them with ``from conftest import ...`` (the tests folder is on the path).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import shapely
+from shapely.geometry import LineString, Polygon, box
+
+from mapsection.dips import ProjectedDips
+from mapsection.draft import (
+    AxialSurface,
+    Draft,
+    FaultTrace,
+    Horizon,
+    UnitPolygon,
+)
+from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
+from mapsection.line import SectionLine
+from mapsection.stratigraphy import BASE_PREFIX, Column, Unit
+from mapsection.topo_profile import Profile
+
+# --- a draft over flat ground (restoration, area balance, kinematics) ------------------
+
+KINK_COLUMN = Column((Unit("A", 300.0), Unit("B", 400.0), Unit("C", 500.0), Unit("D", 800.0)))
+KINK_DEPTHS = {"A": 0.0, "B": 300.0, "C": 700.0, "D": 1200.0}
+TAN30 = np.tan(np.radians(30.0))
+
+
+def flat_draft(horizons, faults=(), domains=(), length=10000.0, column=KINK_COLUMN, *,
+               ground=1500.0, method="kink") -> Draft:
+    """A straight east-west draft over flat ground at ``ground`` m, no dips, no map."""
+    line = SectionLine(np.array([[0.0, 0.0], [length, 0.0]]), name="T")
+    d = np.linspace(0.0, length, 101)
+    profile = Profile(d, d, np.zeros_like(d), np.full_like(d, ground), line)
+    return Draft("T", method, line, profile, SurfaceGeology((), (), ()), no_dips(), column,
+                 horizons=list(horizons), faults=list(faults), domains=list(domains))
+
+
+def parallel(ref, t):
+    """Exact parallel of a kinked line at perpendicular distance t below it (mitre joins:
+    each offset vertex lies on the bisector of the two segments, Suppe 1985 kink geometry)."""
+    p = np.asarray(ref, float)
+    d = np.diff(p, axis=0)
+    d /= np.hypot(d[:, 0], d[:, 1])[:, None]
+    n = np.column_stack([d[:, 1], -d[:, 0]])  # right-hand normal: downward for travel +x
+    m = np.vstack([n[:1], (n[:-1] + n[1:]) / (1.0 + np.sum(n[:-1] * n[1:], axis=1))[:, None],
+                   n[-1:]])
+    return p + t * m
+
+
+# --- a homocline under the ground, with its map (topography check, report) -----------
+
+HOMOCLINE_LENGTH = 10_000.0
+HOMOCLINE_DIP = 10.0  # degrees; beds descend toward increasing distance
+TOP_B = 3000.0  # where the top of B meets a flat ground at 100 m
+
+
+def homocline_profile(z_fn, step=5.0, pixel=10.0):
+    d = np.arange(0.0, HOMOCLINE_LENGTH + step / 2, step)
+    line = SectionLine(np.array([[0.0, 0.0], [HOMOCLINE_LENGTH, 0.0]]), name="T")
+    return Profile(d, d.copy(), np.zeros_like(d), z_fn(d), line, None, pixel)
+
+
+def dips_at(d, e, app, ids=None):
+    n = len(d)
+    return ProjectedDips(
+        id=np.array(ids if ids is not None else [f"s{i}" for i in range(n)]),
+        x=np.asarray(d, float), y=np.zeros(n), distance_m=np.asarray(d, float),
+        offset_m=np.zeros(n), elevation_m=np.asarray(e, float), strike=np.zeros(n),
+        dip=np.abs(app), apparent_dip=np.asarray(app, float),
+        poorly_constrained=np.zeros(n, bool), overturned=np.zeros(n, bool),
+    )
+
+
+def no_dips():
+    return dips_at(np.empty(0), np.empty(0), np.empty(0))
+
+
+def homocline_stack(tops, profile, column, base=-3000.0):
+    """Horizons (split at the ground) and unit polygons from full-width top lines."""
+    ground = ground_line_of(profile)
+    below = Polygon(list(ground.coords) + [(HOMOCLINE_LENGTH, base), (0.0, base)])
+    horizons, units = [], []
+    for name, line in tops.items():
+        for part in shapely.get_parts(line.intersection(below)):
+            horizons.append(Horizon(name, part, False))
+        for part in shapely.get_parts(line.difference(below)):
+            horizons.append(Horizon(name, part, True))
+    names = column.names
+    region = below
+    for i, name in enumerate(names):
+        nxt = names[i + 1] if i + 1 < len(names) else None
+        if nxt is None or nxt not in tops:
+            poly = region
+        else:
+            c = shapely.get_coordinates(tops[nxt])
+            under = Polygon(list(map(tuple, c)) + [(c[-1, 0], base - 1e4), (c[0, 0], base - 1e4)])
+            poly = region.difference(under)
+            region = region.intersection(under)
+        if not poly.is_empty:
+            units.append(UnitPolygon(name, poly))
+    return horizons, units
+
+
+def ground_line_of(profile):
+    return LineString(np.column_stack([profile.distance, profile.z]))
+
+
+def straight_tops(column, shift=0.0, dip=HOMOCLINE_DIP, ground=100.0):
+    """Top lines y = ground - tan(dip) (x - x0), x0 of B at TOP_B + shift; parallel below."""
+    t = math.tan(math.radians(dip))
+    tops = {}
+    for i, name in enumerate(column.names[1:], start=1):
+        depth = float(column.depth_to_top[i] - column.depth_to_top[1])  # below the top of B
+        x0 = TOP_B + shift - depth / math.cos(math.radians(dip)) / t
+        xs = np.array([0.0, HOMOCLINE_LENGTH])
+        tops[name] = LineString(np.column_stack([xs, ground - t * (xs - x0)]))
+    return tops
+
+
+def map_geology(bounds, units):
+    """Map intervals between the given contact distances (units in map order)."""
+    edges = [0.0, *bounds, HOMOCLINE_LENGTH]
+    iv = tuple(UnitInterval(a, b, u) for a, b, u in zip(edges[:-1], edges[1:], units, strict=True))
+    ct = tuple(Contact(b, 100.0, u0, u1)
+               for b, u0, u1 in zip(bounds, units[:-1], units[1:], strict=True))
+    return SurfaceGeology(iv, ct, ())
+
+
+HOMOCLINE_COLUMN = Column((Unit("A", 200.0), Unit("B", 300.0), Unit("C", 400.0)))
+# Top of C meets flat ground 300 m / sin(10 deg) before the top of B (analytic).
+TOP_C = TOP_B - 300.0 / math.sin(math.radians(HOMOCLINE_DIP))
+
+
+def homocline_draft(shift=0.0, map_bounds=(TOP_C, TOP_B), z_fn=None, dips=None, with_units=True,
+           column=HOMOCLINE_COLUMN, method="kink"):
+    prof = homocline_profile(z_fn or (lambda d: np.full_like(d, 100.0)))
+    horizons, units = homocline_stack(straight_tops(column, shift), prof, column)
+    return Draft(
+        name="T", method=method, line=prof.line, profile=prof,
+        geology=map_geology(list(map_bounds), ["C", "B", "A"]), dips=dips or no_dips(),
+        column=column, horizons=horizons, units=units if with_units else [],
+    )
+
+
+# --- a hand-made draft with a bend, a fault and dips (figure, export) -----------------
+
+APPARENT = np.array([10.0, -20.0, 35.0, 0.0, 60.0, -75.0])
+
+
+def hand_draft(ve: float = 1.0) -> Draft:
+    """A small invented draft with a bend, a normal fault, 4 horizons and 6 dips."""
+    line = SectionLine(np.array([[1000.0, 2000.0], [4000.0, 6000.0], [8000.0, 6000.0]]),
+                       "EPSG:32611", "A")
+    d = line.densify(50.0)
+    x, y = line.point_at(d)
+    z = 800 + 60 * np.sin(d / 900.0)
+    prof = Profile(d, x, y, z, line, line.crs, 10.0)
+    col = Column((Unit("Tu", 150.0, age="Eocene", lithology="sandstone"),
+                  Unit("Km", 200.0, "#88cc44"), Unit("Jl", 300.0)))
+    length = line.length
+    slope = math.tan(math.radians(3.0))
+    hz = [Horizon(n, LineString([(0, top), (length, top - length * slope)]), False, 0)
+          for n, top in zip(col.names, [900.0, 750.0, 550.0], strict=True)]
+    hz.append(Horizon("Tu", LineString([(0, 1000), (2000, 950)]), True, 0))
+    units = [UnitPolygon("Tu", box(0, 600, length / 2, 800)),
+             UnitPolygon("Km", box(0, 300, length, 600)),
+             UnitPolygon("Jl", box(0, 0, length, 300), 1)]
+    n = len(APPARENT)
+    dd = np.linspace(500, length - 500, n)
+    dx, dy = line.point_at(dd)
+    dips = ProjectedDips(np.array([f"d{i}" for i in range(n)]), dx, dy, dd,
+                         np.linspace(-200, 200, n), prof.elevation_at(dd), np.full(n, 30.0),
+                         np.abs(APPARENT), APPARENT.copy(),
+                         np.arange(n) == 2, np.zeros(n, bool))
+    zc = float(prof.elevation_at(np.array([3000.0]))[0])
+    zf = float(prof.elevation_at(np.array([4000.0]))[0])
+    geo = SurfaceGeology((UnitInterval(0, 3000, "Tu"), UnitInterval(3000, length, "Km")),
+                         (Contact(3000.0, zc, "Tu", "Km"),),
+                         (FaultCrossing(4000.0, zf, 60.0, 90.0, 55.0, "normal", "Fa"),))
+    fault = FaultTrace("Fa", LineString([(4000, zf), (4700, -200)]), 60.0, 90.0, 55.0,
+                       "normal", {"Km": -120.0})
+    axial = AxialSurface(LineString([(2500, 900), (2600, 0)]), 2510.0, 5.0, 20.0)
+    return Draft("A", "kink", line, prof, geo, dips, col, hz, [fault], units, [], [axial], [],
+                 ve, 0.0, ["built by hand"])
+
+
+# --- the sample model recovered by a built draft ----------------------------------------
+
+def recovery_errors(draft, model, step: float = 25.0, within: float = 1500.0) -> np.ndarray:
+    """Elevation errors of the below-ground horizons within ``within`` m below the ground,
+    sampled every ``step`` m, against the model's true surface in the same fault block."""
+    ground = draft.profile.elevation_at
+    hw_block = {}
+    for k, f in enumerate(draft.faults):
+        # The hanging wall lies on the side toward which the fault descends.
+        left, right = k, k + 1
+        hw_block[left], hw_block[right] = ((False, True) if f.apparent_dip > 0 else (True, False))
+    errs = []
+    for h in draft.horizons:
+        if h.above_ground:
+            continue
+        geom = h.geometry
+        n = max(int(geom.length // step), 1)
+        pts = shapely.get_coordinates(shapely.line_interpolate_point(
+            geom, np.linspace(0.0, geom.length, n + 1)))
+        d, z = pts[:, 0], pts[:, 1]
+        keep = ground(d) - z <= within
+        if not keep.any():
+            continue
+        x, y = draft.line.point_at(d[keep])
+        name = model.basement if h.top_of.startswith(BASE_PREFIX) else h.top_of
+        block = None
+        if draft.faults:
+            block = "hanging_wall" if hw_block.get(h.block, False) else "footwall"
+        true = model.horizon_elevation(name, x, y, block=block)
+        ok = np.isfinite(true)
+        errs.append(np.abs(z[keep][ok] - true[ok]))
+    return np.concatenate(errs)
+
+
+def fault_draft(horizons, faults=(), length=10000.0, column=KINK_COLUMN) -> Draft:
+    """A flat draft for the kinematic and cutoff checks (method "edited")."""
+    return flat_draft(horizons, faults, length=length, column=column, method="edited")
+
+
+def thrust_draft(xf=6000.0, slip=1000.0, toward=-1, name="F1", sense="thrust", hw_dip=0.0,
+           depths=KINK_DEPTHS, x0=0.0, x1=10000.0, block0=0):
+    """Flat beds cut by a fault dipping 30 degrees (toward decreasing distance when
+    toward = -1); the hanging wall moved ``slip`` up the fault (analytic cutoffs)."""
+    c, s = np.cos(np.radians(30.0)), np.sin(np.radians(30.0))
+    hz = []
+    for n, t in depths.items():
+        # cutoffs on the plane through (xf, 0); the hanging wall moved up-dip by the slip
+        x_fw = xf + toward * t / TAN30
+        x_hw, y_hw = x_fw - toward * slip * c, -t + slip * s
+        if toward < 0:
+            hw_line = [(x0, y_hw - (x_hw - x0) * np.tan(np.radians(hw_dip))), (x_hw, y_hw)]
+            fw_line = [(x_fw, -t), (x1, -t)]
+            hz += [Horizon(n, LineString(hw_line), block=block0),
+                   Horizon(n, LineString(fw_line), block=block0 + 1)]
+        else:
+            hw_line = [(x_hw, y_hw), (x1, y_hw)]
+            fw_line = [(x0, -t), (x_fw, -t)]
+            hz += [Horizon(n, LineString(fw_line), block=block0),
+                   Horizon(n, LineString(hw_line), block=block0 + 1)]
+    top = (xf - toward * 1500.0 / TAN30, 1500.0)
+    bottom = (xf + toward * 2500.0 / TAN30, -2500.0)
+    fault = FaultTrace(name, LineString([top, bottom]), 30.0, 270.0 if toward < 0 else 90.0,
+                       30.0 * toward, sense, {n: slip for n in depths})
+    return hz, fault
