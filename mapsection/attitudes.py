@@ -24,12 +24,11 @@ from pathlib import Path
 import numpy as np
 import pyproj
 
+from ._messages import Warn, human
 from ._messages import default_warn as _default_warn
 from .errors import AttitudeError
+from .settings import CONVENTIONS
 
-Warn = Callable[[str], None]
-
-CONVENTIONS = ("rhr", "dip-direction", "quadrant")
 CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 LOGICAL_FIELDS = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
 
@@ -54,6 +53,7 @@ class Attitudes:
     dip: np.ndarray
     overturned: np.ndarray
     crs: pyproj.CRS | None = None
+    source: str = ""  # where they were read, for messages: "attitudes.csv (99 rows read)"
 
     def __len__(self) -> int:
         return len(self.x)
@@ -63,7 +63,7 @@ class Attitudes:
         m = np.asarray(mask)
         return Attitudes(
             self.id[m], self.x[m], self.y[m], self.z[m], self.strike[m], self.dip[m],
-            self.overturned[m], self.crs,
+            self.overturned[m], self.crs, self.source,
         )
 
     @property
@@ -227,6 +227,8 @@ class _Table:
     y: np.ndarray | None = None
     z: np.ndarray | None = None
     crs: pyproj.CRS | None = None
+    repeated: dict[str, list[int]] = dataclasses.field(default_factory=dict)
+    # lower-case column name -> its column numbers (from 1), for names given more than once
 
 
 def _read_csv(path: Path) -> _Table:
@@ -254,11 +256,15 @@ def _read_csv(path: Path) -> _Table:
             columns = list(zip(*records, strict=True)) if records else [()] * k
             cols = {n: [v.strip() for v in c] for n, c in zip(names, columns, strict=True)}
             rows = [f"line {n}" for n in lines]
+            where: dict[str, list[int]] = {}
+            for j, name in enumerate(names):
+                where.setdefault(name.lower(), []).append(j + 1)
+            repeated = {k: v for k, v in where.items() if len(v) > 1}
     except UnicodeDecodeError:
         raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
     except OSError as exc:
         raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
-    return _Table(cols, rows)
+    return _Table(cols, rows, repeated=repeated)
 
 
 def _read_vector(path: Path, layer: str | None) -> _Table:
@@ -368,7 +374,30 @@ def reproject_attitudes(att: Attitudes, crs: str | pyproj.CRS, *, warn: Warn | N
         f"{source}: attitudes are in {att.crs.name}; reprojected to {target.name}"
         f" (strikes rotated to its grid north by up to {float(turn.max(initial=0)):.2f} degrees)"
     )
-    return Attitudes(att.id, xt, yt, att.z, new_strike, att.dip, att.overturned, target)
+    return Attitudes(att.id, xt, yt, att.z, new_strike, att.dip, att.overturned, target,
+                     att.source)
+
+
+def check_on_dem(att: Attitudes, dem) -> None:
+    """Refuse attitudes that all lie outside the DEM (``dem``: an open Dem).
+
+    Raises :class:`AttitudeError` naming the file and the DEM's extent, and asking
+    whether x and y are swapped when the swapped points would mostly fall on it.
+    """
+    if not len(att):
+        return
+    x, y = np.asarray(att.x, float), np.asarray(att.y, float)
+    if dem.inside(x, y, crs=att.crs).any():
+        return
+    swapped = dem.inside(y, x, crs=att.crs)
+    hint = ("are x and y swapped?" if swapped.mean() > 0.5
+            else "check their coordinates and the project's crs")
+    b = dem.bounds
+    raise AttitudeError(
+        f"{att.source or 'attitudes'}: all {len(att)} attitudes lie outside the DEM "
+        f"{Path(dem.path).name} (x {b.left:.1f} to {b.right:.1f}, y {b.bottom:.1f} to "
+        f"{b.top:.1f}): {hint}"
+    )
 
 
 def read_attitudes(
@@ -427,6 +456,12 @@ def read_attitudes(
             raise AttitudeError(
                 f"{path}: no column {name!r}{hint} (columns: {listed})"
             )
+        if real is not None and real.lower() in table.repeated:
+            nums = table.repeated[real.lower()]
+            raise AttitudeError(
+                f"{path}: column {real!r} appears {len(nums)} times in the header (columns "
+                f"{', '.join(map(str, nums))}); keep one or rename the others"
+            )
         return None if real is None else table.columns[real]
 
     reasons: dict[int, list[str]] = {}  # bad rows only
@@ -482,9 +517,9 @@ def read_attitudes(
         flag(baz | ~np.isfinite(az) & ~baz, lambda i: f"{az_name} {az_txt[i]!r} is not a number")
         flag(bd | ~np.isfinite(dip) & ~bd, lambda i: f"dip {d_txt[i]!r} is not a number")
         flag(np.isfinite(az) & ((az < 0) | (az > 360)),
-             lambda i: f"{az_name} {az[i]:g} is outside 0-360")
+             lambda i: f"{az_name} {human(az[i])} is outside 0-360")
         flag(np.isfinite(dip) & ((dip < 0) | (dip > 90)),
-             lambda i: f"dip {dip[i]:g} is outside 0-90")
+             lambda i: f"dip {human(dip[i])} is outside 0-90")
         strike = az % 360.0 if convention == "rhr" else dip_direction_to_strike(az)
 
     # Optional columns
@@ -523,12 +558,14 @@ def read_attitudes(
     if not good.any():
         raise AttitudeError(
             f"{path}: no usable attitude rows"
-            + (f" ({n} rows, all bad)" if n else " (no data rows)")
+            + (f" ({n} row{'s' if n != 1 else ''}, all bad; {table.rows[0]}: "
+               f"{'; '.join(reasons[0])})" if n else " (no data rows)")
         )
 
     att = Attitudes(
         id=ids[good], x=x[good], y=y[good], z=z[good], strike=strike[good] % 360.0,
         dip=dip[good], overturned=overturned[good], crs=target if src_crs is None else src_crs,
+        source=f"{path} ({n} row{'s' if n != 1 else ''} read, {n - dropped} usable)",
     )
     if src_crs is not None and target is not None and not src_crs.equals(target):
         att = reproject_attitudes(att, target, warn=warn, source=str(path))

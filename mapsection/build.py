@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import contextlib
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -38,14 +38,14 @@ import numpy as np
 
 from . import CAUTION, __version__
 from ._atomic import atomic_dir, atomic_file
+from ._messages import Warn
 from ._messages import default_warn as _default_warn
 from .draft import Draft
-from .errors import OutputError, ParameterError
+from .errors import OutputError
 from .line import SectionLine
-from .project import METHODS, Project, SectionSpec, load_project
+from .project import Project, SectionSpec, load_project
 from .session import ProjectInputs, SectionSession, load_inputs
 
-Warn = Callable[[str], None]
 STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
           "geopackages")
 
@@ -62,10 +62,13 @@ def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
 
 
 def _check_options(method: str | None, ve: float | None) -> None:
-    if method is not None and method not in METHODS:
-        raise ParameterError(f"method {method!r}: must be one of {', '.join(METHODS)}")
-    if ve is not None and not (np.isfinite(ve) and ve > 0):
-        raise ParameterError(f"vertical exaggeration: must be a number > 0, got {ve!r}")
+    """The overrides of the command line, checked against the settings' own rules."""
+    from .settings import check_choice, check_number
+
+    if method is not None:
+        check_choice("method", method)
+    if ve is not None:
+        check_number("ve", ve)
 
 
 def build_section(project: Project, spec: SectionSpec | str, *, method: str | None = None,
@@ -222,7 +225,7 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     _check_options(method, ve)
     warn = warn or _default_warn
     with _stage(timings, "load"):
-        project = load_project(project_path)
+        project = load_project(project_path, warn)
         specs = [project.section(section)] if section is not None else list(project.sections)
         outdir = Path(outdir)
         if outdir.exists() and not outdir.is_dir():

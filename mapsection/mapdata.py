@@ -9,7 +9,6 @@ later query along a section line touches only the features near it.
 from __future__ import annotations
 
 import os
-from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -20,11 +19,9 @@ import pyproj
 import shapely
 from shapely import STRtree
 
+from ._messages import Warn, first_line, human
 from ._messages import default_warn as _default_warn
-from ._messages import first_line
 from .errors import MapLayerError
-
-Warn = Callable[[str], None]
 
 REQUIRED_FAULT_FIELDS = ("dip", "dip_direction")
 OPTIONAL_FAULT_FIELDS = ("sense", "name")
@@ -91,6 +88,32 @@ class MapData:
         if self.faults is None or col is None or col not in self.faults.columns:
             return np.full(len(rows), None, dtype=object)
         return self.faults[col].to_numpy()[rows]
+
+
+def check_on_dem(map_data: MapData, dem, source: str) -> None:
+    """Refuse a map that lies wholly off the DEM (``dem``: an open Dem).
+
+    A point inside each unit polygon and the corners of the map's extent are
+    tried; when none falls on the DEM, :class:`DEMError` names both files and
+    their extents.
+    """
+    from .errors import DEMError
+
+    if not len(map_data.unit_geoms):
+        return
+    inner = shapely.get_coordinates(shapely.point_on_surface(map_data.unit_geoms))
+    left, bottom, right, top = (float(v) for v in map_data.units.total_bounds)
+    corners = np.array([[left, bottom], [left, top], [right, bottom], [right, top],
+                        [(left + right) / 2, (bottom + top) / 2]])
+    pts = np.vstack([inner, corners])
+    if dem.inside(pts[:, 0], pts[:, 1], crs=map_data.crs).any():
+        return
+    b = dem.bounds
+    raise DEMError(
+        f"{Path(dem.path).name}: covers none of the map {source} (DEM x {b.left:.1f} to "
+        f"{b.right:.1f}, y {b.bottom:.1f} to {b.top:.1f}; map x {left:.1f} to {right:.1f}, "
+        f"y {bottom:.1f} to {top:.1f}): is it the DEM of this area, with the right CRS?"
+    )
 
 
 def _missing(value) -> bool:
@@ -185,6 +208,10 @@ def read_map(
     if faults is not None:
         faults = frames[faults_layer]
     units = units[[unit_field, "geometry"]].reset_index(drop=True)
+    if not len(units):
+        raise MapLayerError(f"{path.name}: layer {units_layer!r} has no unit polygons "
+                            "(no features with a geometry)")
+    _warn_overlaps(units, unit_field, f"{path.name}: layer {units_layer!r}", warn)
     if units[unit_field].isna().any():
         n = int(units[unit_field].isna().sum())
         warn(f"{path.name}: layer {units_layer!r}: {n} polygon(s) with no {unit_field!r} value "
@@ -220,6 +247,41 @@ def _clean(df: gpd.GeoDataFrame, kinds: tuple[str, ...], where: str, warn: Warn)
     return df.reset_index(drop=True)
 
 
+def _warn_overlaps(units: gpd.GeoDataFrame, unit_field: str, where: str, warn: Warn,
+                   min_area: float = 1.0, shown: int = 3) -> None:
+    """Warn where unit polygons overlap (by more than ``min_area`` square map units).
+
+    A point of the map then belongs to two units; the section takes the first
+    polygon found. Each of the ``shown`` largest overlaps is named with its two
+    units, its area and a point inside it.
+    """
+    geoms = np.asarray(units.geometry.values, dtype=object)
+    if len(geoms) < 2:
+        return
+    left, right = STRtree(geoms).query(geoms, predicate="intersects")
+    keep = left < right
+    left, right = left[keep], right[keep]
+    if not len(left):
+        return
+    with np.errstate(all="ignore"):
+        inter = shapely.intersection(geoms[left], geoms[right])
+    area = shapely.area(inter)
+    big = np.flatnonzero(area > min_area)
+    if not len(big):
+        return
+    names = units[unit_field].to_numpy()
+    order = big[np.argsort(-area[big])]
+    parts = []
+    for k in order[:shown]:
+        p = shapely.point_on_surface(inter[k])
+        parts.append(f"{names[left[k]]} (feature {left[k] + 1}) and {names[right[k]]} "
+                     f"(feature {right[k] + 1}) overlap by {area[k]:.1f} m² "
+                     f"near ({p.x:.1f}, {p.y:.1f})")
+    more = f"; and {len(big) - shown} more overlap(s)" if len(big) > shown else ""
+    warn(f"{where}: unit polygons overlap: {'; '.join(parts)}{more}; the section takes one "
+         "unit there: fix the map")
+
+
 def _check_fault_values(df: gpd.GeoDataFrame, roles: dict[str, str], where: str) -> None:
     for role, lo, hi in (("dip", 0.0, 90.0), ("dip_direction", 0.0, 360.0)):
         col = roles[role]
@@ -227,9 +289,16 @@ def _check_fault_values(df: gpd.GeoDataFrame, roles: dict[str, str], where: str)
         bad = np.flatnonzero(~np.isfinite(vals) | (vals < lo) | (vals > hi))
         if len(bad):
             i = int(bad[0])
-            raise MapLayerError(f"{where}: feature {i + 1}: {col} = {df[col].iloc[i]!r}, "
+            raise MapLayerError(f"{where}: feature {i + 1}: {col} = {_shown(df[col].iloc[i])}, "
                                 f"expected a number {lo:g}-{hi:g}")
         df[col] = vals
+
+
+def _shown(value) -> str:
+    """A field value for a message: numbers without exponent, anything else quoted."""
+    if isinstance(value, int | float | np.number) and not isinstance(value, bool):
+        return human(float(value))
+    return repr(value if not isinstance(value, np.generic) else value.item())
 
 
 def _crs_name(crs) -> str:

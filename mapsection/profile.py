@@ -17,9 +17,11 @@ import shapely
 from shapely.geometry import LineString
 
 from ._messages import default_warn as _default_warn
+from ._messages import human
 from .dem import Dem
 from .errors import DEMError, LineError, ParameterError
 from .line import SectionLine, projected_line, read_line
+from .settings import check_number
 
 # More samples than this is a mistaken step, not a profile (a 100 km line at 2 mm).
 _MAX_SAMPLES = 50_000_000
@@ -115,12 +117,12 @@ def profile(
             step = float(step)
         except (TypeError, ValueError):
             raise ParameterError(f"step {step!r}: must be a number of metres") from None
-        if not np.isfinite(step) or step <= 0:
-            raise ParameterError(f"step {step:g}: must be a positive number of metres")
+        step = check_number("step", step)
         if sl.length / step > _MAX_SAMPLES:
             raise ParameterError(
-                f"step {step:g}: gives {sl.length / step:.3g} samples along a {sl.length:.0f} m "
-                f"line; use a step of at least {sl.length / _MAX_SAMPLES:.3g} m"
+                f"step {human(step)}: gives {sl.length / step:.0f} samples along a "
+                f"{sl.length:.1f} m line; use a step of at least "
+                f"{human(sl.length / _MAX_SAMPLES)} m"
             )
         distance, x, y = _layout(sl, step)
         z, inside = d._sample(x, y, sl.crs)
@@ -128,8 +130,8 @@ def profile(
         if not inside.any():
             b = d.bounds
             raise DEMError(
-                f"{d.path}: {name} lies wholly outside the DEM (DEM bounds {b.left:.6g}, "
-                f"{b.bottom:.6g}, {b.right:.6g}, {b.top:.6g} in {d.crs.name})"
+                f"{d.path}: {name} lies wholly outside the DEM (DEM bounds {b.left:.1f}, "
+                f"{b.bottom:.1f}, {b.right:.1f}, {b.top:.1f} in {d.crs.name})"
             )
         if not np.isfinite(z).any():
             raise DEMError(f"{d.path}: the DEM has no data along {name}")

@@ -20,7 +20,7 @@ from __future__ import annotations
 
 import dataclasses
 import os
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -29,11 +29,13 @@ import pyproj
 import shapely
 from shapely import STRtree
 
+from ._messages import Warn
 from ._messages import default_warn as _default_warn
 from .errors import LineError, ParameterError
 from .geology import SurfaceGeology, same_crs, surface_geology
 from .line import SectionLine
 from .mapdata import MapData, read_map
+from .mapdata import check_on_dem as map_on_dem
 from .profile import Profile
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -43,8 +45,6 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
     from .foldaxis import FoldAxis
     from .project import Project, SectionSpec
 
-Warn = Callable[[str], None]
-PROJECTIONS = ("perpendicular", "strike", "plunge")
 
 
 
@@ -74,7 +74,8 @@ class ProjectInputs:
             from .foldaxis import fold_axis
 
             self._axis = fold_axis(np.asarray(self.attitudes.strike, float),
-                                   np.asarray(self.attitudes.dip, float))
+                                   np.asarray(self.attitudes.dip, float),
+                                   source=self.attitudes.source)
         return self._axis
 
     def close(self) -> None:
@@ -86,7 +87,7 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
 
     Every map unit must be in the project's column.
     """
-    from .attitudes import read_attitudes
+    from .attitudes import check_on_dem, read_attitudes
     from .dem import Dem
 
     warn = warn or _default_warn
@@ -97,7 +98,14 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
     attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
                                layer=project.attitudes_layer, fields=project.attitude_fields,
                                crs=project.crs, warn=warn)
-    return ProjectInputs(map_data, attitudes, Dem.open(project.dem_path))
+    dem = Dem.open(project.dem_path, vertical_unit=project.dem_vertical_unit, warn=warn)
+    try:
+        map_on_dem(map_data, dem, f"{project.map_path.name}: layer {project.units_layer!r}")
+        check_on_dem(attitudes, dem)
+    except BaseException:
+        dem.close()
+        raise
+    return ProjectInputs(map_data, attitudes, dem)
 
 
 class SectionSession:
@@ -116,16 +124,14 @@ class SectionSession:
                  axis: FoldAxis | None = None, step: float | None = None,
                  warn: Warn | None = None) -> None:
         from .dem import Dem
+        from .settings import check_choice, check_number
 
-        if not (isinstance(corridor, int | float) and np.isfinite(corridor) and corridor > 0):
-            raise ParameterError(f"corridor: must be a number > 0 m, got {corridor!r}")
-        if projection not in PROJECTIONS:
-            raise ParameterError(f"projection: must be one of {', '.join(PROJECTIONS)}, "
-                                 f"got {projection!r}")
+        corridor = check_number("corridor", corridor)
+        check_choice("projection", projection)
         if projection == "plunge" and axis is None:
             raise ParameterError("projection 'plunge': needs a fold axis")
-        if step is not None and not step > 0:
-            raise ParameterError(f"step: must be > 0 m, got {step!r}")
+        if step is not None:
+            step = check_number("step", step)
         self.dem = dem if isinstance(dem, Dem) else Dem.open(dem)
         self.map_data = map_data
         self.corridor = float(corridor)

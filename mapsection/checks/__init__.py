@@ -45,7 +45,7 @@ from .. import CAUTION
 from .._atomic import atomic_file
 from ..draft import Draft
 from ..errors import CheckError
-from ..project import Thresholds
+from ..settings import Thresholds
 from .topography import TopographyCheck, check_topography, validate_thresholds
 
 TESTS = ("topography", "restoration", "area_balance", "kinematics")

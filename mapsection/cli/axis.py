@@ -6,9 +6,10 @@ import click
 import numpy as np
 
 from .. import CAUTION
-from ..attitudes import CONVENTIONS, Attitudes, read_attitudes
+from ..attitudes import Attitudes, read_attitudes
 from ..errors import AttitudeError, MapLayerError
 from ..foldaxis import MIN_CYLINDRICITY, fold_axis, recommended_azimuth
+from ..settings import CONVENTIONS
 from ._common import warn
 
 
@@ -72,7 +73,8 @@ def command(attitudes, within, convention, layer):
         if not mask.any():
             raise AttitudeError(f"{attitudes}: no attitudes inside the polygons of {within}")
         att = att.subset(mask)
-    ax = fold_axis(att.strike, att.dip)
+    where = att.source + (f", {len(att)} inside {within}" if within is not None else "")
+    ax = fold_axis(att.strike, att.dip, source=where)
     s1, s2, s3 = ax.eigenvalues
     rec = recommended_azimuth(ax)
     click.echo(f"fold axis (pi-axis, Woodcock 1977) from {ax.n} attitudes")

@@ -54,7 +54,7 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
     from ..checks import write_checks_json
     from ..project import load_project
 
-    project = load_project(project_file)
+    project = load_project(project_file, warn)
     if section_name is not None:
         specs = [project.section(section_name)]
     elif from_path is not None:

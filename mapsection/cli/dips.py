@@ -12,12 +12,13 @@ import pyproj
 
 from .. import CAUTION
 from .._atomic import atomic_file
-from ..attitudes import CONVENTIONS, read_attitudes, reproject_attitudes
+from ..attitudes import read_attitudes, reproject_attitudes
 from ..dem import Dem
-from ..dips import METHODS, in_corridor, project_attitudes
+from ..dips import in_corridor, project_attitudes
 from ..errors import OutputError, ParameterError
 from ..foldaxis import fold_axis, recommended_azimuth
 from ..line import projected_line, read_line
+from ..settings import CONVENTIONS, PROJECTIONS, check_number
 from ._common import note, warn
 
 COLUMNS = ("id", "distance_m", "offset_m", "elevation_m", "strike", "dip", "apparent_dip",
@@ -58,7 +59,7 @@ def write_dips_csv(dips, path) -> None:
               help="Half-width in metres: attitudes farther from the line are left out.")
 @click.option("-o", "--output", required=True, type=click.Path(dir_okay=False),
               help="Output CSV.")
-@click.option("--projection", type=click.Choice(METHODS), default="perpendicular",
+@click.option("--projection", type=click.Choice(PROJECTIONS), default="perpendicular",
               show_default=True, help="How attitudes are carried onto the line.")
 @click.option("--convention", type=click.Choice(CONVENTIONS), default="rhr", show_default=True,
               help="Attitude convention: right-hand-rule strike, dip direction, or quadrant.")
@@ -87,11 +88,10 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
       mapsection dips sample_area/attitudes.csv "604658,5218819;612195,5213542" \\
           --dem sample_area/dem.tif --corridor 600 -o dips_A.csv
     """
-    if not np.isfinite(corridor) or corridor <= 0:
-        raise ParameterError(f"--corridor {corridor:g} must be a distance in metres > 0")
+    check_number("corridor", corridor)
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
-    with Dem.open(dem_path) as dem:
+    with Dem.open(dem_path, warn=warn) as dem:
         try:
             given = pyproj.CRS(crs) if crs is not None else dem.crs
         except pyproj.exceptions.CRSError:
@@ -114,7 +114,8 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
     axis = None
     if projection == "plunge":
         mask, _ = in_corridor(att.x, att.y, sl, corridor)
-        axis = fold_axis(att.strike[mask], att.dip[mask])
+        axis = fold_axis(att.strike[mask], att.dip[mask],
+                         source=f"{att.source}, {int(mask.sum())} within the corridor")
         note(
             f"fold axis from {axis.n} attitudes in the corridor (pi-axis, Woodcock 1977): "
             f"trend {axis.trend:.1f}, plunge {axis.plunge:.1f}, "

@@ -10,6 +10,7 @@ import pyproj
 
 from .. import CAUTION
 from .._atomic import atomic_file
+from .._messages import human
 from ..dem import Dem
 from ..errors import OutputError, ParameterError
 from ..line import projected_line
@@ -69,7 +70,7 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
     step_m = _step(step)
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
-    with atomic_file(output) as tmp, Dem.open(dem) as d:
+    with atomic_file(output) as tmp, Dem.open(dem, warn=warn) as d:
         given = resolve_line(line, crs, d)
         prof = profile(d, projected_line(given, warn=note), step_m, warn=warn)
         x, y = prof.x, prof.y
@@ -82,7 +83,7 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
         _write_csv(tmp, prof.distance, np.asarray(x), np.asarray(y), prof.z, digits)
     gaps = int(np.count_nonzero(~np.isfinite(prof.z)))
     note(
-        f"wrote {len(prof.distance)} samples every {step_m or prof.pixel_size:.3g} m "
+        f"wrote {len(prof.distance)} samples every {human(step_m or prof.pixel_size)} m "
         f"along {prof.line.length:.1f} m to {output}" + (f" ({gaps} empty)" if gaps else "")
     )
 

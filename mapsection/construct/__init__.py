@@ -35,10 +35,11 @@ from ..draft import (
     Horizon,
     UnitPolygon,
 )
-from ..errors import ConstructionError, ParameterError
+from ..errors import ConstructionError
 from ..geology import SurfaceGeology
 from ..line import SectionLine
 from ..profile import Profile
+from ..settings import DEFAULTS, METHODS, SectionSettings
 from ..stratigraphy import Column
 from ._common import (
     Constraints,
@@ -60,7 +61,6 @@ from .arc import ArcModel
 from .faults import block_polygons, fault_lines, ground_ranges, separations
 from .kink import KinkModel, fit_kink
 
-METHODS = ("kink", "arc")
 BASE_PREFIX = "base of "
 
 
@@ -70,8 +70,9 @@ def base_name(column: Column) -> str:
 
 
 def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
-                dips: ProjectedDips, column: Column, *, name: str = "", method: str = "kink",
-                ve: float = 1.0, dip_tolerance: float = 5.0, depth: float | None = None,
+                dips: ProjectedDips, column: Column, *, name: str = "",
+                method: str = DEFAULTS.method, ve: float = DEFAULTS.ve,
+                dip_tolerance: float = DEFAULTS.dip_tolerance, depth: float | None = None,
                 fault_depth: float | None = None, default_dip: float | None = None,
                 warn: Callable[[str], None] | None = None) -> Draft:
     """Construct the draft section along ``line``.
@@ -209,19 +210,9 @@ def _drop_fault_contacts(cons: Constraints, faults, profile: Profile, log) -> Co
 
 
 def _check_options(method, ve, tol, depth, fault_depth, default_dip) -> None:
-    if method not in METHODS:
-        raise ParameterError(f"method: unknown construction method {method!r} "
-                             f"(use one of {', '.join(METHODS)})")
-    if not (np.isfinite(ve) and ve > 0):
-        raise ParameterError(f"ve: vertical exaggeration must be > 0, got {ve}")
-    if not (np.isfinite(tol) and 0 <= tol < 90):
-        raise ParameterError(f"dip_tolerance: must be within 0-90 degrees, got {tol}")
-    for key, v in (("depth", depth), ("fault_depth", fault_depth)):
-        if v is not None and not (np.isfinite(v) and v > 0):
-            raise ParameterError(f"{key}: must be a number of metres > 0, got {v}")
-    if default_dip is not None and not (np.isfinite(default_dip) and -90 < default_dip < 90):
-        raise ParameterError(f"default_dip: must be a signed apparent dip within ±90°, "
-                             f"got {default_dip}")
+    # The rules are the settings' own (mapsection.settings), written once there.
+    SectionSettings(method=method, ve=ve, dip_tolerance=tol, depth=depth,
+                    fault_depth=fault_depth, default_dip=default_dip)
 
 
 def _frame(profile: Profile, ground, length: float, column: Column, depth) -> Frame:
