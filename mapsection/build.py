@@ -28,6 +28,7 @@ Example::
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import time
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -61,14 +62,10 @@ def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
             timings[name] = timings.get(name, 0.0) + time.perf_counter() - t0
 
 
-def _check_options(method: str | None, ve: float | None) -> None:
-    """The overrides of the command line, checked against the settings' own rules."""
-    from .settings import check_choice, check_number
-
-    if method is not None:
-        check_choice("method", method)
-    if ve is not None:
-        check_number("ve", ve)
+def _overridden(spec: SectionSpec, method: str | None, ve: float | None) -> SectionSpec:
+    """The section with the command line's ``method`` and ``ve``; the settings check them."""
+    given = {k: v for k, v in (("method", method), ("ve", ve)) if v is not None}
+    return dataclasses.replace(spec, **given) if given else spec
 
 
 def build_section(project: Project, spec: SectionSpec | str, *, method: str | None = None,
@@ -83,9 +80,9 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     """
     from .construct import build_draft
 
-    _check_options(method, ve)
     if isinstance(spec, str):
         spec = project.section(spec)
+    spec = _overridden(spec, method, ve)
     warn = warn or _default_warn
     line = SectionLine(np.asarray(spec.line, float), project.crs, spec.name)
     with _stage(timings, "section data"):
@@ -101,7 +98,7 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     with _stage(timings, "construction"):
         return build_draft(
             data.line, data.profile, data.geology, data.dips, project.column,
-            name=spec.name, method=method or spec.method, ve=ve or spec.ve,
+            name=spec.name, method=spec.method, ve=spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
             default_dip=spec.default_dip, warn=warn)
 
@@ -222,11 +219,11 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     fork). All or nothing: the section folders replace earlier builds only once
     every section has been written, so a failure leaves OUTDIR as it was.
     """
-    _check_options(method, ve)
     warn = warn or _default_warn
     with _stage(timings, "load"):
         project = load_project(project_path, warn)
         specs = [project.section(section)] if section is not None else list(project.sections)
+        specs = [_overridden(spec, method, ve) for spec in specs]  # checked once, here
         outdir = Path(outdir)
         if outdir.exists() and not outdir.is_dir():
             raise OutputError(f"{outdir}: exists and is not a folder")
@@ -244,7 +241,7 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
             try:
                 for spec in specs:
                     said: list[str] = []
-                    draft = build_section(project, spec, method=method, ve=ve,
+                    draft = build_section(project, spec,
                                           warn=_section_warn(warn, spec.name, said),
                                           inputs=inputs, timings=timings)
                     target = outdir / _folder_name(spec.name)

@@ -19,9 +19,9 @@ from shapely.geometry import LineString
 from ._messages import default_warn as _default_warn
 from ._messages import human
 from .dem import Dem
-from .errors import DEMError, LineError, ParameterError
+from .errors import DEMError, LineError, ParameterError, SettingError
 from .line import SectionLine, projected_line, read_line
-from .settings import check_number
+from .settings import RANGES
 
 # More samples than this is a mistaken step, not a profile (a 100 km line at 2 mm).
 _MAX_SAMPLES = 50_000_000
@@ -117,7 +117,9 @@ def profile(
             step = float(step)
         except (TypeError, ValueError):
             raise ParameterError(f"step {step!r}: must be a number of metres") from None
-        step = check_number("step", step)
+        problem = RANGES["step"].problem(step)
+        if problem is not None:  # the value first: "step 0: sample step must be ..."
+            raise SettingError(f"step {human(step)}", problem)
         if sl.length / step > _MAX_SAMPLES:
             raise ParameterError(
                 f"step {human(step)}: gives {sl.length / step:.0f} samples along a "
