@@ -378,7 +378,7 @@ def reproject_attitudes(att: Attitudes, crs: str | pyproj.CRS, *, warn: Warn | N
                      att.source)
 
 
-def check_on_dem(att: Attitudes, dem) -> None:
+def check_attitudes_on_dem(att: Attitudes, dem) -> None:
     """Refuse attitudes that all lie outside the DEM (``dem``: an open Dem).
 
     Raises :class:`AttitudeError` naming the file and the DEM's extent, and asking

@@ -90,7 +90,7 @@ class MapData:
         return self.faults[col].to_numpy()[rows]
 
 
-def check_on_dem(map_data: MapData, dem, source: str) -> None:
+def check_map_on_dem(map_data: MapData, dem, source: str) -> None:
     """Refuse a map that lies wholly off the DEM (``dem``: an open Dem).
 
     A point inside each unit polygon and the corners of the map's extent are

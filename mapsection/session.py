@@ -34,8 +34,7 @@ from ._messages import default_warn as _default_warn
 from .errors import LineError, ParameterError
 from .geology import SurfaceGeology, same_crs, surface_geology
 from .line import SectionLine
-from .mapdata import MapData, read_map
-from .mapdata import check_on_dem as map_on_dem
+from .mapdata import MapData, check_map_on_dem, read_map
 from .profile import Profile
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -87,7 +86,7 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
 
     Every map unit must be in the project's column.
     """
-    from .attitudes import check_on_dem, read_attitudes
+    from .attitudes import check_attitudes_on_dem, read_attitudes
     from .dem import Dem
 
     warn = warn or _default_warn
@@ -100,8 +99,8 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
                                crs=project.crs, warn=warn)
     dem = Dem.open(project.dem_path, vertical_unit=project.dem_vertical_unit, warn=warn)
     try:
-        map_on_dem(map_data, dem, f"{project.map_path.name}: layer {project.units_layer!r}")
-        check_on_dem(attitudes, dem)
+        check_map_on_dem(map_data, dem, f"{project.map_path.name}: layer {project.units_layer!r}")
+        check_attitudes_on_dem(attitudes, dem)
     except BaseException:
         dem.close()
         raise

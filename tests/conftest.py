@@ -105,7 +105,12 @@ def write_dem_variant(src: Path, dst: Path, *, crs=..., transform=None, units: s
         data = data.copy()
         valid = data != nd if nd is not None else slice(None)
         data[valid] = data[valid] * scale
-    with rasterio.open(dst, "w", **profile) as out:
+    import warnings
+
+    with warnings.catch_warnings():  # an identity transform is what some cases want
+        warnings.simplefilter("ignore", rasterio.errors.NotGeoreferencedWarning)
+        out = rasterio.open(dst, "w", **profile)
+    with out:
         out.write(data, 1)
         if units is not None:
             out.units = (units,)

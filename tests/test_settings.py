@@ -194,7 +194,7 @@ def test_overlapping_units_warned_with_area_and_place():
 
 
 def test_attitudes_all_off_the_dem(sample_copy: SampleCopy):
-    from mapsection.attitudes import Attitudes, check_on_dem
+    from mapsection.attitudes import Attitudes, check_attitudes_on_dem
     from mapsection.dem import Dem
 
     att = Attitudes.from_arrays([5217000.0, 5216000.0], [608000.0, 609000.0], [10.0, 20.0],
@@ -202,11 +202,12 @@ def test_attitudes_all_off_the_dem(sample_copy: SampleCopy):
     with Dem.open(sample_copy.dem) as dem:
         with pytest.raises(AttitudeError, match="all 2 attitudes lie outside the DEM dem.tif.*"
                                                 "are x and y swapped"):
-            check_on_dem(att, dem)
+            check_attitudes_on_dem(att, dem)
         far = Attitudes.from_arrays([0.0], [0.0], [10.0], [30.0])
         with pytest.raises(AttitudeError, match="check their coordinates"):
-            check_on_dem(far, dem)
-        check_on_dem(Attitudes.from_arrays([608000.0], [5217000.0], [10.0], [30.0]), dem)
+            check_attitudes_on_dem(far, dem)
+        check_attitudes_on_dem(Attitudes.from_arrays([608000.0], [5217000.0], [10.0], [30.0]),
+                               dem)
 
 
 def test_check_from_accepts_a_file_built_along_the_same_line(sample_copy: SampleCopy):
