@@ -224,6 +224,11 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
         project = load_project(project_path, warn)
         specs = [project.section(section)] if section is not None else list(project.sections)
         specs = [_overridden(spec, method, ve) for spec in specs]  # checked once, here
+        if ve is not None:
+            from .settings import large_note
+
+            if (note := large_note("ve", ve)) is not None:
+                warn(f"--ve: {note}")
         outdir = Path(outdir)
         if outdir.exists() and not outdir.is_dir():
             raise OutputError(f"{outdir}: exists and is not a folder")

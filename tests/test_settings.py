@@ -230,3 +230,19 @@ def test_check_from_accepts_a_file_built_along_the_same_line(sample_copy: Sample
     check_recorded_line(path, project, spec)  # no error
     with pytest.raises(CheckError, match="differs from the section line of section B"):
         check_recorded_line(path, project, project.section("B"))
+
+
+def test_dem_unit_of_the_file_wins_over_the_setting(sample_copy: SampleCopy):
+    from mapsection.dem import Dem
+
+    feet = write_dem_variant(sample_copy.dem, sample_copy.root / "ft.tif", units="ft",
+                             scale=1 / 0.3048)
+    metres = write_dem_variant(sample_copy.dem, sample_copy.root / "m.tif", units="metre")
+    said: list[str] = []
+    with Dem.open(feet, vertical_unit="metre", warn=said.append) as f:
+        assert f.vertical_unit == "foot"
+    assert "[dem] vertical_unit = 'metre' is not used" in said[0]
+    said.clear()
+    with Dem.open(metres, warn=said.append) as m:
+        assert m.vertical_unit == "metre"
+    assert said == []

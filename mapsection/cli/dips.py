@@ -18,7 +18,7 @@ from ..dips import in_corridor, project_attitudes
 from ..errors import OutputError, ParameterError
 from ..foldaxis import fold_axis, recommended_azimuth
 from ..line import projected_line, read_line
-from ..settings import CONVENTIONS, PROJECTIONS, check_number
+from ..settings import CONVENTIONS, PROJECTIONS, check_number, large_note
 from ._common import note, warn
 
 COLUMNS = ("id", "distance_m", "offset_m", "elevation_m", "strike", "dip", "apparent_dip",
@@ -89,6 +89,8 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
           --dem sample_area/dem.tif --corridor 600 -o dips_A.csv
     """
     check_number("corridor", corridor)
+    if (large := large_note("corridor", corridor)) is not None:
+        warn(f"--corridor: {large}")
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     with Dem.open(dem_path, warn=warn) as dem:
