@@ -375,17 +375,17 @@ CASES = [
                               profile(str(s.root / "line.gpkg"))(s))[1], ("line.gpkg",)),
     Case("L12", L, profile(LINE_A, "--step", "ten"), ("--step",)),
     # --- check --from ------------------------------------------------------------------
-    Case("C01", C, lambda s: check(s, "--section", "A", "--from", str(s.root / "none.gpkg")),
+    Case("F01", C, lambda s: check(s, "--section", "A", "--from", str(s.root / "none.gpkg")),
          ("none.gpkg",)),
-    Case("C02", C, lambda s: (s.write("section.gpkg", "not a geopackage\n"),
+    Case("F02", C, lambda s: (s.write("section.gpkg", "not a geopackage\n"),
                               check(s, "--section", "A", "--from",
                                     str(s.root / "section.gpkg")))[1], ("section.gpkg",)),
-    Case("C03", C, section_gpkg(None, horizons=False), ("section.gpkg", "'horizons'")),
-    Case("C04", C, section_gpkg(((605000.0, 5219000.0), (612000.0, 5214000.0))),
+    Case("F03", C, section_gpkg(None, horizons=False), ("section.gpkg", "'horizons'")),
+    Case("F04", C, section_gpkg(((605000.0, 5219000.0), (612000.0, 5214000.0))),
          ("section.gpkg", "section line", "project.toml")),
-    Case("C05", C, section_gpkg(None, top_of="Black Tuff"),
+    Case("F05", C, section_gpkg(None, top_of="Black Tuff"),
          ("section.gpkg", "'horizons'", "row 0", "Black Tuff")),
-    Case("C06", C, _several_sections_json, ("--section",)),
+    Case("F06", C, _several_sections_json, ("--section",)),
 ]
 
 
@@ -451,6 +451,9 @@ def test_catalogue_counts():
         by_class[c.cls] = by_class.get(c.cls, 0) + 1
     assert sum(by_class.values()) >= 50
     assert set(by_class) == {P, D, M, A, L, C}
+    # docs/errors.md lists each of these cases once, and no other case of these classes
+    ids = re.findall(r"^\| ([PDMALF]\d\d) \|", DOC.read_text("utf-8"), flags=re.M)
+    assert sorted(ids) == sorted(c.id for c in CASES)
 
 
 def test_project_file_with_byte_order_mark_is_read(sample_copy: SampleCopy):
