@@ -22,6 +22,7 @@ from .errors import ProjectFileError, SettingError, StratigraphyError, Threshold
 from .line import self_crossing
 from .settings import (
     CONVENTIONS,
+    MAX_LINE_LENGTH_M,
     SECTION_SETTING_KEYS,
     THRESHOLD_KEYS,
     SectionSettings,
@@ -126,6 +127,13 @@ class _Reader:
         except SettingError as exc:
             raise self.fail(exc.key, exc.reason) from None
 
+    def text(self, key: str) -> str:
+        """A required name: a string that is not blank."""
+        val = self.get(key, str)
+        if not val.strip():
+            raise self.fail(key, "must not be empty")
+        return val
+
     def choice(self, key: str, default: str) -> str:
         """A named choice (settings.CHOICES[key]), the error naming the choices."""
         try:
@@ -218,7 +226,7 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
         thickness = r.number("thickness")
         units.append(
             Unit(
-                r.get("unit", str),
+                r.text("unit"),
                 thickness,
                 colour,
                 r.get("age", str, None),
@@ -269,7 +277,7 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
 
 
 def _section(r: _Reader, warn: Warn) -> SectionSpec:
-    name = r.get("name", str)
+    name = r.text("name")
     line = r.get("line", list)
     if len(line) < 2:
         raise r.fail("line", "needs at least two vertices [[x1, y1], [x2, y2]]")
@@ -285,6 +293,11 @@ def _section(r: _Reader, warn: Warn) -> SectionSpec:
         pts.append((float(p[0]), float(p[1])))
     if all(p == pts[0] for p in pts):
         raise r.fail("line", "has zero length")
+    length = float(sum(((b[0] - a[0]) ** 2 + (b[1] - a[1]) ** 2) ** 0.5
+                       for a, b in zip(pts[:-1], pts[1:], strict=True)))
+    if length > MAX_LINE_LENGTH_M:
+        raise r.fail("line", f"is {length:.1f} m long; a section line is at most "
+                             f"{MAX_LINE_LENGTH_M:.0f} m long (check the coordinates and the crs)")
     crossing = self_crossing(pts)
     if crossing is not None:
         raise r.fail("line", f"crosses itself at ({human(crossing[0], 1)}, "
@@ -296,8 +309,6 @@ def _section(r: _Reader, warn: Warn) -> SectionSpec:
         spec = SectionSpec(name=name, line=tuple(pts), **given)
     except SettingError as exc:
         raise r.fail(exc.key, exc.reason) from None
-    length = float(sum(((b[0] - a[0]) ** 2 + (b[1] - a[1]) ** 2) ** 0.5
-                       for a, b in zip(pts[:-1], pts[1:], strict=True)))
     for key in ("pin", "loose"):
         value = getattr(spec, key)
         if value is not None and value > length:

@@ -39,6 +39,9 @@ CONVENTIONS = ("rhr", "dip-direction", "quadrant")
 # The DEM's vertical unit -> metres per unit (international foot; US survey foot 1200/3937 m).
 VERTICAL_UNITS = {"metre": 1.0, "foot": 0.3048, "us-foot": 1200.0 / 3937.0}
 
+# The longest section line accepted (the tool's default): 1000 km, far beyond any draft section.
+MAX_LINE_LENGTH_M = 1_000_000.0
+
 # What each choice is, for messages.
 _CHOICE_LABEL = {"method": "construction method", "projection": "projection",
                  "convention": "attitude convention", "vertical_unit": "vertical unit"}
@@ -239,7 +242,7 @@ def threshold_problem(thresholds: Thresholds) -> tuple[str, str] | None:
 SECTION_SETTING_KEYS = frozenset(f.name for f in fields(SectionSettings))
 THRESHOLD_KEYS = frozenset(f.name for f in fields(Thresholds))
 
-__all__ = ["CHOICES", "CONVENTIONS", "DEFAULTS", "METHODS", "PROJECTIONS", "RANGES",
-           "SECTION_SETTING_KEYS", "THRESHOLD_KEYS", "VERTICAL_UNITS", "Range",
-           "SectionSettings", "Thresholds", "check_choice", "check_number", "large_note",
-           "threshold_problem"]
+__all__ = ["CHOICES", "CONVENTIONS", "DEFAULTS", "MAX_LINE_LENGTH_M", "METHODS",
+           "PROJECTIONS", "RANGES", "SECTION_SETTING_KEYS", "THRESHOLD_KEYS", "VERTICAL_UNITS",
+           "Range", "SectionSettings", "Thresholds", "check_choice", "check_number",
+           "large_note", "threshold_problem"]

@@ -297,6 +297,12 @@ CASES = [
     Case("P38", P, lambda s: [*build(s), "--section", "Z"], ("project.toml", "'Z'")),
     Case("P39", P, bom_then(section_key("ve = inf")), ("project.toml", "section[0].ve")),
     Case("P40", P, lambda s: [*build(s), "--ve", "1e4"], ("ve",)),
+    Case("P41", P, edited('unit = "Osk Sandstone"', 'unit = ""'),
+         ("project.toml", "stratigraphy[1].unit")),
+    Case("P42", P, edited('name = "A"', 'name = " "'), ("project.toml", "section[0].name")),
+    Case("P43", P, edited("line = [[604658, 5218819], [612195, 5213542]]",
+                          "line = [[1e20, 5218819], [612195, 5213542]]"),
+         ("project.toml", "section[0].line")),
     # --- DEM ---------------------------------------------------------------------------
     Case("D01", D, edited('path = "dem.tif"', 'path = "nodem.tif"'), ("nodem.tif",)),
     Case("D02", D, lambda s: (s.root.joinpath("demdir").mkdir(),
