@@ -16,20 +16,19 @@ from __future__ import annotations
 
 import dataclasses
 import re
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 import pyproj
 
+from ._messages import Warn
 from ._messages import default_warn as _default_warn
 from .angles import angle_between
 from .crs import same_crs, transformer
 from .errors import AttitudeError
-
-Warn = Callable[[str], None]
-
-CONVENTIONS = ("rhr", "dip-direction", "quadrant")
+from .settings import CONVENTIONS  # noqa: F401  (the conventions, re-exported here)
 
 
 @dataclass(frozen=True, eq=False)
@@ -49,6 +48,7 @@ class Attitudes:
     dip: np.ndarray
     overturned: np.ndarray
     crs: pyproj.CRS | None = None
+    source: str = ""  # where they were read, for messages: "attitudes.csv (99 rows read)"
 
     def __len__(self) -> int:
         return len(self.x)
@@ -58,7 +58,7 @@ class Attitudes:
         m = np.asarray(mask)
         return Attitudes(
             self.id[m], self.x[m], self.y[m], self.z[m], self.strike[m], self.dip[m],
-            self.overturned[m], self.crs,
+            self.overturned[m], self.crs, self.source,
         )
 
     @property
@@ -243,7 +243,30 @@ def reproject_attitudes(att: Attitudes, crs: str | pyproj.CRS, *, warn: Warn | N
         f"{source}: attitudes are in {att.crs.name}; reprojected to {target.name}"
         f" (strikes rotated to its grid north by up to {float(turn.max(initial=0)):.2f} degrees)"
     )
-    return Attitudes(att.id, xt, yt, att.z, new_strike, att.dip, att.overturned, target)
+    return Attitudes(att.id, xt, yt, att.z, new_strike, att.dip, att.overturned, target,
+                     att.source)
+
+
+def check_attitudes_on_dem(att: Attitudes, dem) -> None:
+    """Refuse attitudes that all lie outside the DEM (``dem``: an open Dem).
+
+    Raises :class:`AttitudeError` naming the file and the DEM's extent, and asking
+    whether x and y are swapped when the swapped points would mostly fall on it.
+    """
+    if not len(att):
+        return
+    x, y = np.asarray(att.x, float), np.asarray(att.y, float)
+    if dem.inside(x, y, crs=att.crs).any():
+        return
+    swapped = dem.inside(y, x, crs=att.crs)
+    hint = ("are x and y swapped?" if swapped.mean() > 0.5
+            else "check their coordinates and the project's crs")
+    b = dem.bounds
+    raise AttitudeError(
+        f"{att.source or 'attitudes'}: all {len(att)} attitudes lie outside the DEM "
+        f"{Path(dem.path).name} (x {b.left:.1f} to {b.right:.1f}, y {b.bottom:.1f} to "
+        f"{b.top:.1f}): {hint}"
+    )
 
 
 def with_ground_elevations(att: Attitudes, dem, crs=None) -> tuple[Attitudes, int]:

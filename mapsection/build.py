@@ -29,27 +29,26 @@ Example::
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-import numpy as np
-
 from . import __version__
 from ._atomic import atomic_dir, atomic_file
+from ._messages import Warn
 from ._messages import default_warn as _default_warn
 from .caution import CAUTION
 from .draft import Draft
-from .errors import OutputError, ParameterError
-from .project import METHODS, Project, SectionSpec, load_project
+from .errors import OutputError
+from .project import Project, SectionSpec, load_project
 from .session import ProjectInputs, SectionSession, load_inputs
 
 if TYPE_CHECKING:
     from .checks import CheckReport, KeyFigures
 
-Warn = Callable[[str], None]
 STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
           "geopackages")
 
@@ -65,11 +64,10 @@ def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
             timings[name] = timings.get(name, 0.0) + time.perf_counter() - t0
 
 
-def _check_options(method: str | None, ve: float | None) -> None:
-    if method is not None and method not in METHODS:
-        raise ParameterError(f"method {method!r}: must be one of {', '.join(METHODS)}")
-    if ve is not None and not (np.isfinite(ve) and ve > 0):
-        raise ParameterError(f"vertical exaggeration: must be a number > 0, got {ve!r}")
+def _overridden(spec: SectionSpec, method: str | None, ve: float | None) -> SectionSpec:
+    """The section with the command line's ``method`` and ``ve``; the settings check them."""
+    given = {k: v for k, v in (("method", method), ("ve", ve)) if v is not None}
+    return dataclasses.replace(spec, **given) if given else spec
 
 
 def build_section(project: Project, spec: SectionSpec | str, *, method: str | None = None,
@@ -84,8 +82,7 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     """
     from .construct import build_draft
 
-    _check_options(method, ve)
-    spec = project.section(spec)
+    spec = _overridden(project.section(spec), method, ve)
     warn = warn or _default_warn
     with _stage(timings, "section data"):
         if inputs is None:
@@ -100,7 +97,7 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     with _stage(timings, "construction"):
         return build_draft(
             data.line, data.profile, data.geology, data.dips, project.column,
-            name=spec.name, method=method or spec.method, ve=ve or spec.ve,
+            name=spec.name, method=spec.method, ve=spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
             default_dip=spec.default_dip, warn=warn)
 
@@ -182,11 +179,16 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     ``summaries``, when given, receives the key figures of each section's checks
     (:func:`mapsection.checks.key_figures`) by section folder.
     """
-    _check_options(method, ve)
     warn = warn or _default_warn
     with _stage(timings, "load"):
-        project = load_project(project_path)
+        project = load_project(project_path, warn)
         specs = [project.section(section)] if section is not None else list(project.sections)
+        specs = [_overridden(spec, method, ve) for spec in specs]  # checked once, here
+        if ve is not None:
+            from .settings import large_note
+
+            if (note := large_note("ve", ve)) is not None:
+                warn(f"--ve: {note}")
         outdir = Path(outdir)
         if outdir.exists() and not outdir.is_dir():
             raise OutputError(f"{outdir}: exists and is not a folder")
@@ -204,7 +206,7 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
             try:
                 for spec in specs:
                     said: list[str] = []
-                    draft = build_section(project, spec, method=method, ve=ve,
+                    draft = build_section(project, spec,
                                           warn=_section_warn(warn, spec.name, said),
                                           inputs=inputs, timings=timings)
                     target = outdir / _folder_name(spec.name)

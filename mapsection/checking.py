@@ -139,6 +139,47 @@ def infer_section(project, path: Path):
     )
 
 
+def check_recorded_line(path: Path, project, spec, tol_m: float = 1.0) -> None:
+    """Refuse a section.gpkg built along another line than the project's section line.
+
+    'build' records the ground profile (layer ``profile_points``: distance, x, y);
+    its two ends must lie within ``tol_m`` of the ends of the section line and its
+    length must match. A file without that layer (drawn by hand) is not compared.
+    """
+    import numpy as np
+    import pyogrio
+
+    from ._messages import first_line
+
+    try:
+        layers = {str(r[0]) for r in pyogrio.list_layers(path)}
+        if "profile_points" not in layers:
+            return
+        pts = pyogrio.read_dataframe(path, layer="profile_points", read_geometry=False,
+                                     columns=["distance_m", "x", "y"])
+    except Exception as exc:  # pyogrio raises several kinds for unreadable files
+        raise CheckError(f"{path}: layer 'profile_points' unreadable ({first_line(exc)})") \
+            from None
+    d = pts["distance_m"].to_numpy(float) if "distance_m" in pts else np.empty(0)
+    if not len(d) or not np.isfinite(d).any():
+        return
+    i0, i1 = int(np.nanargmin(d)), int(np.nanargmax(d))
+    x, y = pts["x"].to_numpy(float), pts["y"].to_numpy(float)
+    v = np.asarray(spec.line, float)
+    length = float(np.hypot(*np.diff(v, axis=0).T).sum())
+    start_off = float(np.hypot(x[i0] - v[0, 0], y[i0] - v[0, 1]))
+    end_off = float(np.hypot(x[i1] - v[-1, 0], y[i1] - v[-1, 1]))
+    if max(start_off, end_off, abs(d[i1] - d[i0] - length)) <= tol_m:
+        return
+    raise CheckError(
+        f"{path}: the line recorded in the file, from ({x[i0]:.1f}, {y[i0]:.1f}) to "
+        f"({x[i1]:.1f}, {y[i1]:.1f}), {d[i1] - d[i0]:.1f} m long, differs from the section "
+        f"line of section {spec.name} in {Path(project.path).name}, from ({v[0, 0]:.1f}, "
+        f"{v[0, 1]:.1f}) to ({v[-1, 0]:.1f}, {v[-1, 1]:.1f}), {length:.1f} m long; check the "
+        "file with the project and section it was built from, or build it again"
+    )
+
+
 def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _default_warn,
                  *, inputs: ProjectInputs | None = None):
     """A draft whose horizons and faults come from a section.gpkg, checked against real data.
@@ -154,6 +195,7 @@ def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _de
     if recorded and recorded != spec.name:
         warn_fn(f"{path}: was built for section {recorded!r}; checking it as section "
                 f"{spec.name!r} as asked")
+    check_recorded_line(path, project, spec)
     if inputs is not None:
         data = SectionSession.from_inputs(inputs, project, spec, warn=warn_fn).run()
     else:
@@ -174,12 +216,8 @@ def check_section(project, spec, from_path: Path | None = None,
     this section alone. Returns the draft and its :class:`~mapsection.checks.CheckReport`.
     """
     from .checks import run_checks
-    from .checks.topography import validate_thresholds
 
-    try:  # before any building: a bad threshold is a one-line error naming the project file
-        validate_thresholds(project.thresholds)
-    except CheckError as exc:
-        raise CheckError(f"{project.path}: {exc}") from None
+    # The thresholds were checked once, when the project was read (settings.Thresholds).
     if from_path is None:
         from .build import build_section
 

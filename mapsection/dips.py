@@ -17,6 +17,7 @@ from .attitudes import Attitudes
 from .errors import ParameterError
 from .foldaxis import FoldAxis
 from .line import LinePosition, SectionLine
+from .settings import check_choice, check_number
 
 
 @dataclass(frozen=True, eq=False)
@@ -70,7 +71,6 @@ def exaggerated_dip(apparent, ve):
 
 
 # --- projection ------------------------------------------------------------------------
-METHODS = ("perpendicular", "strike", "plunge")
 STRIKE_SKIP_DEG = 10.0  # along-strike / down-plunge projection skipped at or below this angle
 POORLY_CONSTRAINED_DEG = 15.0  # strike this close to the section azimuth: flagged
 
@@ -83,8 +83,7 @@ def in_corridor(x, y, line: SectionLine, corridor: float) -> tuple[np.ndarray, L
     The corridor is the flat-ended band ``|offset| <= corridor`` beside the line:
     points whose perpendicular foot falls beyond the first or last vertex are out.
     """
-    if not np.isfinite(corridor) or corridor <= 0:
-        raise ParameterError(f"corridor {corridor!r} must be a distance in metres > 0")
+    check_number("corridor", corridor)
     x = np.atleast_1d(np.asarray(x, float))
     y = np.atleast_1d(np.asarray(y, float))
     pos = line.locate(x, y)
@@ -163,8 +162,7 @@ def project_attitudes(
     ``attitudes.z`` (NaN when unknown). Sorted by distance. Vectorised.
     """
     warn = warn or _default_warn
-    if method not in METHODS:
-        raise ParameterError(f"unknown projection {method!r} (use {', '.join(METHODS)})")
+    check_choice("projection", method)
     if method == "plunge" and axis is None:
         raise ParameterError("plunge projection needs a fold axis (trend and plunge)")
     mask, pos = in_corridor(attitudes.x, attitudes.y, line, corridor)

@@ -50,3 +50,20 @@ class OutputError(MapsectionError):
 
 class ParameterError(MapsectionError):
     """A numeric or named option is out of range (a step <= 0, an unknown method)."""
+
+
+class _KeyedError:
+    """An error about one named setting: ``key`` and ``reason`` kept apart, so that the
+    project reader can put the file name and the key path in front."""
+
+    def __init__(self, key: str, reason: str) -> None:
+        self.key, self.reason = key, reason
+        super().__init__(f"{key}: {reason}")
+
+
+class SettingError(_KeyedError, ParameterError):
+    """A section setting (corridor, ve, depth, ...) is out of its documented range."""
+
+
+class ThresholdError(_KeyedError, CheckError):
+    """A pass threshold of the checks is out of its documented range."""

@@ -106,17 +106,18 @@ def _trend_plunge(v: np.ndarray) -> tuple[float, float]:
     return trend, plunge
 
 
-def fold_axis(strike, dip) -> FoldAxis:
+def fold_axis(strike, dip, *, source: str = "") -> FoldAxis:
     """The pi-axis (Woodcock 1977) of bedding attitudes given as RHR strike and dip.
 
     The eigenvector of the least eigenvalue of the orientation tensor of the poles,
     as a lower-hemisphere trend and plunge. Raises :class:`AttitudeError` with fewer
-    than two attitudes.
+    than two attitudes, naming ``source`` (the file and rows read) when given.
     """
     p = poles(strike, dip)
     p = p[np.all(np.isfinite(p), axis=1)]
     if len(p) < 2:
-        raise AttitudeError(f"a fold axis needs at least 2 attitudes, got {len(p)}")
+        where = f"{source}: " if source else ""
+        raise AttitudeError(f"{where}a fold axis needs at least 2 attitudes, got {len(p)}")
     t = p.T @ p / len(p)
     w, vec = np.linalg.eigh(t)  # ascending
     w = np.clip(w, 0.0, None)

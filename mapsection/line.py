@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pyproj
+import shapely
 from shapely.geometry import LineString
 
 from ._messages import default_note
@@ -55,6 +56,10 @@ class SectionLine:
         v = v[keep]
         if len(v) < 2:
             raise LineError(f"{label}: has zero length")
+        crossing = self_crossing(v) if len(v) > 2 else None
+        if crossing is not None:
+            raise LineError(f"{label}: crosses itself at ({crossing[0]:.1f}, {crossing[1]:.1f}); "
+                            "a section line must not")
         object.__setattr__(self, "vertices", v)
         object.__setattr__(
             self, "cumulative", np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(v, axis=0).T))])
@@ -144,6 +149,27 @@ class SectionLine:
         tr = transformer(self.crs, crs)
         x, y = tr.transform(self.vertices[:, 0], self.vertices[:, 1])
         return SectionLine(np.column_stack([x, y]), pyproj.CRS(crs), self.name)
+
+
+def self_crossing(vertices) -> tuple[float, float] | None:
+    """A point where a polyline crosses or retraces itself, or None when it is simple."""
+    ls = shapely.LineString(vertices)
+    if ls.is_simple:  # a closed ring that touches itself only at its ends counts as simple
+        return None
+    # Node the line: a point shared by more pieces than a plain vertex is where it crosses.
+    pieces = shapely.get_parts(shapely.node(ls))
+    ends = np.vstack([shapely.get_coordinates(shapely.get_point(pieces, 0)),
+                      shapely.get_coordinates(shapely.get_point(pieces, -1))])
+    rounded = [tuple(p) for p in ends.round(6)]
+    counts: dict[tuple, int] = {}
+    for p in rounded:
+        counts[p] = counts.get(p, 0) + 1
+    first, last = tuple(ls.coords[0]), tuple(ls.coords[-1])
+    for p, n in counts.items():
+        if n > 2 or (n > 1 and p in (first, last)):
+            return float(p[0]), float(p[1])
+    c = ls.coords[0]
+    return float(c[0]), float(c[1])
 
 
 def utm_crs_for(lon: float, lat: float) -> pyproj.CRS:

@@ -8,8 +8,8 @@ later query along a section line touches only the features near it.
 
 from __future__ import annotations
 
-from collections.abc import Callable
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import geopandas as gpd
 import numpy as np
@@ -19,8 +19,6 @@ import shapely
 from shapely import STRtree
 
 from .errors import MapLayerError
-
-Warn = Callable[[str], None]
 
 REQUIRED_FAULT_FIELDS = ("dip", "dip_direction")
 OPTIONAL_FAULT_FIELDS = ("sense", "name")
@@ -87,6 +85,32 @@ class MapData:
         if self.faults is None or col is None or col not in self.faults.columns:
             return np.full(len(rows), None, dtype=object)
         return self.faults[col].to_numpy()[rows]
+
+
+def check_map_on_dem(map_data: MapData, dem, source: str) -> None:
+    """Refuse a map that lies wholly off the DEM (``dem``: an open Dem).
+
+    A point inside each unit polygon and the corners of the map's extent are
+    tried; when none falls on the DEM, :class:`DEMError` names both files and
+    their extents.
+    """
+    from .errors import DEMError
+
+    if not len(map_data.unit_geoms):
+        return
+    inner = shapely.get_coordinates(shapely.point_on_surface(map_data.unit_geoms))
+    left, bottom, right, top = (float(v) for v in map_data.units.total_bounds)
+    corners = np.array([[left, bottom], [left, top], [right, bottom], [right, top],
+                        [(left + right) / 2, (bottom + top) / 2]])
+    pts = np.vstack([inner, corners])
+    if dem.inside(pts[:, 0], pts[:, 1], crs=map_data.crs).any():
+        return
+    b = dem.bounds
+    raise DEMError(
+        f"{Path(dem.path).name}: covers none of the map {source} (DEM x {b.left:.1f} to "
+        f"{b.right:.1f}, y {b.bottom:.1f} to {b.top:.1f}; map x {left:.1f} to {right:.1f}, "
+        f"y {bottom:.1f} to {top:.1f}): is it the DEM of this area, with the right CRS?"
+    )
 
 
 def _missing(value) -> bool:

@@ -8,7 +8,6 @@ wrong key is reported with its key path and the file's name, e.g.
 
 from __future__ import annotations
 
-import math
 import os
 import tomllib
 from dataclasses import dataclass, field
@@ -17,20 +16,29 @@ from typing import TYPE_CHECKING, Any
 
 import pyproj
 
-from .errors import ProjectFileError, StratigraphyError
+from ._messages import Warn, human
+from ._messages import default_warn as _default_warn
+from .errors import ProjectFileError, SettingError, StratigraphyError, ThresholdError
+from .line import self_crossing
+from .settings import (
+    CONVENTIONS,
+    MAX_LINE_LENGTH_M,
+    SECTION_SETTING_KEYS,
+    THRESHOLD_KEYS,
+    SectionSettings,
+    Thresholds,
+    check_choice,
+    check_number,
+)
 from .stratigraphy import Column, Unit
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from .line import SectionLine
 
-METHODS = ("kink", "arc")
-PROJECTIONS = ("perpendicular", "strike", "plunge")
-CONVENTIONS = ("rhr", "dip-direction", "quadrant")
-
 # Every key each table accepts (anything else is reported as an unknown key).
 TOP_KEYS = frozenset({"crs", "title", "dem", "map", "attitudes", "stratigraphy", "section",
                       "checks"})
-DEM_KEYS = frozenset({"path"})
+DEM_KEYS = frozenset({"path", "vertical_unit"})
 FAULT_ROLES = ("dip", "dip_direction", "sense", "name")
 MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer",
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
@@ -38,64 +46,17 @@ ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overtu
                   "attitude")
 ATTITUDE_KEYS = frozenset({"path", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
 UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology"})
-SECTION_KEYS = frozenset({"name", "line", "corridor", "method", "projection", "ve",
-                          "dip_tolerance", "depth", "fault_depth", "default_dip", "pin", "loose"})
+SECTION_KEYS = frozenset({"name", "line", *SECTION_SETTING_KEYS})
+CHECK_KEYS = THRESHOLD_KEYS
 
 
-@dataclass(frozen=True)
-class Thresholds:
-    """Pass thresholds of the balance checks (defaults are common practice)."""
+@dataclass(frozen=True, kw_only=True)
+class SectionSpec(SectionSettings):
+    """One ``[[section]]`` of the project file: its name, its line and its settings
+    (:class:`~mapsection.settings.SectionSettings`, defaults and ranges defined there)."""
 
-    contact_rms_m: float = 50.0  # the larger of this and 2 DEM pixels
-    contact_rms_pixels: float = 2.0
-    unit_agreement: float = 0.95
-    dip_rms_deg: float = 5.0
-    area_mismatch_pct: float = 5.0
-    line_length_spread_pct: float = 5.0
-
-
-CHECK_KEYS = frozenset(Thresholds.__dataclass_fields__)
-
-
-# [checks] key -> (lowest, highest, lowest allowed itself)
-THRESHOLD_RANGES = {
-    "contact_rms_m": (0.0, math.inf, True),
-    "contact_rms_pixels": (0.0, math.inf, True),
-    "unit_agreement": (0.0, 1.0, True),
-    "dip_rms_deg": (0.0, 90.0, True),
-    "area_mismatch_pct": (0.0, 100.0, False),
-    "line_length_spread_pct": (0.0, 100.0, False),
-}
-
-
-def threshold_problem(thresholds: Thresholds) -> tuple[str, str] | None:
-    """The first threshold out of its range, as (key, what is wrong); None when all are fine."""
-    for key, (lo, hi, lo_ok) in THRESHOLD_RANGES.items():
-        v = getattr(thresholds, key)
-        ok = isinstance(v, int | float) and math.isfinite(v) and v <= hi
-        if not (ok and (v >= lo if lo_ok else v > lo)):
-            rng = (f"{'>=' if lo_ok else '>'} {lo:g}" if math.isinf(hi)
-                   else f"from {lo:g} to {hi:g}" if lo_ok else f"above {lo:g} and at most {hi:g}")
-            return key, f"must be {rng}, got {v!r}"
-    if thresholds.contact_rms_m <= 0 and thresholds.contact_rms_pixels <= 0:
-        return "contact_rms_m", "at least one of it and contact_rms_pixels must be > 0"
-    return None
-
-
-@dataclass(frozen=True)
-class SectionSpec:
     name: str
     line: tuple[tuple[float, float], ...]
-    corridor: float = 500.0
-    method: str = "kink"
-    projection: str = "perpendicular"
-    ve: float = 1.0
-    dip_tolerance: float = 5.0  # degrees; dips closer than this share a dip domain
-    depth: float | None = None  # metres below the lowest ground; default: base of column
-    fault_depth: float | None = None
-    default_dip: float | None = None  # used, with a warning, where no dips fall in the corridor
-    pin: float | None = None  # distance of the pin line along the section, metres
-    loose: float | None = None
 
 
 @dataclass(frozen=True)
@@ -115,6 +76,7 @@ class Project:
     thresholds: Thresholds = field(default_factory=Thresholds)
     fault_fields: dict[str, str] = field(default_factory=dict)
     attitude_fields: dict[str, str] = field(default_factory=dict)
+    dem_vertical_unit: str | None = None  # [dem] vertical_unit: used when the DEM does not say
 
     def section(self, name: str | SectionSpec) -> SectionSpec:
         """The section named ``name`` (a :class:`SectionSpec` is returned as it is): the one
@@ -156,9 +118,8 @@ class _Reader:
             raise self.fail(key, "must be a table")
         return _Reader(self.fname, val, f"{self._key(key)}.")
 
-    def get(
-        self, key: str, kind: type | tuple, default: Any = ..., *, choices=None, positive=False
-    ):
+    def get(self, key: str, kind: type | tuple, default: Any = ...):
+        """The value of ``key`` checked for its type (a missing key: ``default``, or an error)."""
         if key not in self.table:
             if default is ...:
                 raise self.fail(key, "missing key")
@@ -169,11 +130,29 @@ class _Reader:
         if not isinstance(val, kind) or isinstance(val, bool) and kind is not bool:
             name = getattr(kind, "__name__", "value")
             raise self.fail(key, f"must be a {'number' if kind is float else name}, got {val!r}")
-        if kind is float and (not math.isfinite(val) or (positive and val <= 0)):
-            raise self.fail(key, f"must be a number{' > 0' if positive else ''}, got {val!r}")
-        if choices is not None and val not in choices:
-            raise self.fail(key, f"must be one of {', '.join(choices)}, got {val!r}")
         return val
+
+    def number(self, key: str, default: Any = ...) -> float:
+        """A number checked against its documented range (settings.RANGES[key])."""
+        val = self.get(key, float, default)
+        try:
+            return val if val is None else check_number(key, val)
+        except SettingError as exc:
+            raise self.fail(exc.key, exc.reason) from None
+
+    def text(self, key: str) -> str:
+        """A required name: a string that is not blank."""
+        val = self.get(key, str)
+        if not val.strip():
+            raise self.fail(key, "must not be empty")
+        return val
+
+    def choice(self, key: str, default: str) -> str:
+        """A named choice (settings.CHOICES[key]), the error naming the choices."""
+        try:
+            return check_choice(key, self.get(key, str, default))
+        except SettingError as exc:
+            raise self.fail(exc.key, exc.reason) from None
 
     def path(self, key: str, base: Path) -> Path:
         val = self.get(key, str)
@@ -205,17 +184,29 @@ def _array_of_tables(fname: str, raw: dict[str, Any], key: str, what: str,
     return readers
 
 
-def load_project(path: str | os.PathLike) -> Project:
-    """Read and validate a project file."""
+def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
+    """Read and validate a project file.
+
+    Every setting is checked against its documented range
+    (:mod:`mapsection.settings`); a value in range but unusually large is said
+    through ``warn``. A UTF-8 byte-order mark at the start of the file is accepted.
+    """
+    warn = warn or _default_warn
     path = Path(path)
     fname = path.name
     try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+        # utf-8-sig: a byte-order mark, as some editors write, is accepted and dropped.
+        raw = tomllib.loads(path.read_text(encoding="utf-8-sig"))
     except FileNotFoundError:
         raise ProjectFileError(f"{path}: no such project file") from None
     except IsADirectoryError:
         raise ProjectFileError(f"{path}: is a folder, not a project file") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+    except OSError as exc:
+        raise ProjectFileError(f"{path}: cannot be read ({exc.strerror})") from None
+    except UnicodeDecodeError as exc:
+        raise ProjectFileError(f"{fname}: not UTF-8 text (byte {exc.start + 1} of the file); "
+                               "save it as UTF-8") from None
+    except tomllib.TOMLDecodeError as exc:
         raise ProjectFileError(f"{fname}: not valid TOML ({exc})") from None
     base = path.resolve().parent
     top = _Reader(fname, raw)
@@ -245,12 +236,10 @@ def load_project(path: str | os.PathLike) -> Project:
         colour = r.get("colour", str, None) or r.get("color", str, None)
         if colour is not None and not _is_hex_colour(colour):
             raise r.fail("colour", f"must be '#rrggbb', got {colour!r}")
-        thickness = r.get("thickness", float)
-        if thickness <= 0:
-            raise r.fail("thickness", f"must be > 0 m, got {thickness}")
+        thickness = r.number("thickness")
         units.append(
             Unit(
-                r.get("unit", str),
+                r.text("unit"),
                 thickness,
                 colour,
                 r.get("age", str, None),
@@ -262,7 +251,7 @@ def load_project(path: str | os.PathLike) -> Project:
     except StratigraphyError as exc:
         raise ProjectFileError(f"{fname}: {exc}") from None
 
-    sections = [_section(r) for r in _array_of_tables(fname, raw, "section",
+    sections = [_section(r, warn) for r in _array_of_tables(fname, raw, "section",
                                                       "list of section lines", SECTION_KEYS)]
     names = [s.name for s in sections]
     dup = sorted({n for n in names if names.count(n) > 1})
@@ -274,10 +263,10 @@ def load_project(path: str | os.PathLike) -> Project:
     if checks is not None:
         _unknown(checks, CHECK_KEYS)
         vals = {k: checks.get(k, float, dflt) for k, dflt in Thresholds().__dict__.items()}
-        thresholds = Thresholds(**vals)
-        problem = threshold_problem(thresholds)
-        if problem is not None:
-            raise checks.fail(*problem)
+        try:  # the ranges are checked once, by Thresholds itself
+            thresholds = Thresholds(**vals)
+        except ThresholdError as exc:
+            raise checks.fail(exc.key, exc.reason) from None
 
     return Project(
         path=path,
@@ -289,17 +278,19 @@ def load_project(path: str | os.PathLike) -> Project:
         faults_layer=mp.get("faults_layer", str, None),
         attitudes_path=att.path("path", base),
         attitudes_layer=att.get("layer", str, None),
-        convention=att.get("convention", str, "rhr", choices=CONVENTIONS),
+        convention=att.choice("convention", CONVENTIONS[0]),
         column=column,
         sections=tuple(sections),
         thresholds=thresholds,
         fault_fields=fault_fields,
         attitude_fields=attitude_fields,
+        dem_vertical_unit=(dem.choice("vertical_unit", "metre")
+                           if "vertical_unit" in dem.table else None),
     )
 
 
-def _section(r: _Reader) -> SectionSpec:
-    name = r.get("name", str)
+def _section(r: _Reader, warn: Warn) -> SectionSpec:
+    name = r.text("name")
     line = r.get("line", list)
     if len(line) < 2:
         raise r.fail("line", "needs at least two vertices [[x1, y1], [x2, y2]]")
@@ -315,29 +306,30 @@ def _section(r: _Reader) -> SectionSpec:
         pts.append((float(p[0]), float(p[1])))
     if all(p == pts[0] for p in pts):
         raise r.fail("line", "has zero length")
-
-    def opt(key: str, positive=False):
-        return r.get(key, float, None, positive=positive)
-
-    ve = r.get("ve", float, 1.0, positive=True)
-    tol = r.get("dip_tolerance", float, 5.0, positive=True)
-    default_dip = opt("default_dip")
-    if default_dip is not None and not -90 < default_dip < 90:
-        raise r.fail("default_dip", f"must be between -90 and 90 degrees, got {default_dip}")
-    return SectionSpec(
-        name=name,
-        line=tuple(pts),
-        corridor=r.get("corridor", float, 500.0, positive=True),
-        method=r.get("method", str, "kink", choices=METHODS),
-        projection=r.get("projection", str, "perpendicular", choices=PROJECTIONS),
-        ve=ve,
-        dip_tolerance=tol,
-        depth=opt("depth", positive=True),
-        fault_depth=opt("fault_depth", positive=True),
-        default_dip=default_dip,
-        pin=opt("pin"),
-        loose=opt("loose"),
-    )
+    length = float(sum(((b[0] - a[0]) ** 2 + (b[1] - a[1]) ** 2) ** 0.5
+                       for a, b in zip(pts[:-1], pts[1:], strict=True)))
+    if length > MAX_LINE_LENGTH_M:
+        raise r.fail("line", f"is {length:.1f} m long; a section line is at most "
+                             f"{MAX_LINE_LENGTH_M:.0f} m long (check the coordinates and the crs)")
+    crossing = self_crossing(pts)
+    if crossing is not None:
+        raise r.fail("line", f"crosses itself at ({human(crossing[0], 1)}, "
+                             f"{human(crossing[1], 1)}); a section line must not")
+    # The defaults and the ranges are SectionSettings' own (mapsection.settings).
+    given = {k: r.get(k, str if k in ("method", "projection") else float)
+             for k in SECTION_SETTING_KEYS if k in r.table}
+    try:
+        spec = SectionSpec(name=name, line=tuple(pts), **given)
+    except SettingError as exc:
+        raise r.fail(exc.key, exc.reason) from None
+    for key in ("pin", "loose"):
+        value = getattr(spec, key)
+        if value is not None and value > length:
+            raise r.fail(key, f"{value:.1f} m lies beyond the end of the section line "
+                              f"({length:.1f} m long)")
+    for note in spec.notes():
+        warn(f"{r.fname}: {r.prefix}{note}")
+    return spec
 
 
 def _is_hex_colour(text: str) -> bool:

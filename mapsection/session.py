@@ -19,7 +19,7 @@ reading any file again::
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -28,12 +28,13 @@ import pyproj
 import shapely
 from shapely import STRtree
 
+from ._messages import Warn
 from ._messages import default_warn as _default_warn
 from .crs import same_crs
 from .errors import LineError, ParameterError
 from .geology import SurfaceGeology, surface_geology
 from .line import SectionLine
-from .mapdata import MapData
+from .mapdata import MapData, check_map_on_dem
 from .readers.map import read_map
 from .topo_profile import Profile
 
@@ -44,8 +45,6 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
     from .project import Project, SectionSpec
     from .readers.dem import Dem
 
-Warn = Callable[[str], None]
-PROJECTIONS = ("perpendicular", "strike", "plunge")
 
 
 
@@ -75,7 +74,8 @@ class ProjectInputs:
             from .foldaxis import fold_axis
 
             self._axis = fold_axis(np.asarray(self.attitudes.strike, float),
-                                   np.asarray(self.attitudes.dip, float))
+                                   np.asarray(self.attitudes.dip, float),
+                                   source=self.attitudes.source)
         return self._axis
 
     def close(self) -> None:
@@ -87,6 +87,7 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
 
     Every map unit must be in the project's column.
     """
+    from .attitudes import check_attitudes_on_dem
     from .readers.attitudes import read_attitudes
     from .readers.dem import Dem
 
@@ -98,7 +99,14 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
     attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
                                layer=project.attitudes_layer, fields=project.attitude_fields,
                                crs=project.crs, warn=warn)
-    return ProjectInputs(map_data, attitudes, Dem.open(project.dem_path))
+    dem = Dem.open(project.dem_path, vertical_unit=project.dem_vertical_unit, warn=warn)
+    try:
+        check_map_on_dem(map_data, dem, f"{project.map_path.name}: layer {project.units_layer!r}")
+        check_attitudes_on_dem(attitudes, dem)
+    except BaseException:
+        dem.close()
+        raise
+    return ProjectInputs(map_data, attitudes, dem)
 
 
 class SectionSession:
@@ -117,16 +125,14 @@ class SectionSession:
                  axis: FoldAxis | None = None, step: float | None = None,
                  warn: Warn | None = None) -> None:
         from .readers.dem import Dem
+        from .settings import check_choice, check_number
 
-        if not (isinstance(corridor, int | float) and np.isfinite(corridor) and corridor > 0):
-            raise ParameterError(f"corridor: must be a number > 0 m, got {corridor!r}")
-        if projection not in PROJECTIONS:
-            raise ParameterError(f"projection: must be one of {', '.join(PROJECTIONS)}, "
-                                 f"got {projection!r}")
+        corridor = check_number("corridor", corridor)
+        check_choice("projection", projection)
         if projection == "plunge" and axis is None:
             raise ParameterError("projection 'plunge': needs a fold axis")
-        if step is not None and not step > 0:
-            raise ParameterError(f"step: must be > 0 m, got {step!r}")
+        if step is not None:
+            step = check_number("step", step)
         self.dem = dem if isinstance(dem, Dem) else Dem.open(dem)
         self.map_data = map_data
         self.corridor = float(corridor)

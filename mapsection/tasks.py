@@ -75,7 +75,7 @@ def line_profile(dem: str | os.PathLike | Dem, line, *, crs=None, step: float | 
     >>> table.profile.z[:3]  # doctest: +SKIP
     """
     own = not isinstance(dem, Dem)
-    d = Dem.open(dem) if own else dem
+    d = Dem.open(dem, warn=warn) if own else dem
     try:
         given = resolve_line(line, crs, d)
         prof = profile(d, projected_line(given, warn=note), step, warn=warn)
@@ -140,7 +140,7 @@ def corridor_dips(attitudes: str | os.PathLike, line, dem: str | os.PathLike, co
     >>> len(found.dips), found.n_read  # doctest: +SKIP
     """
     warn, note = warn or default_warn, note or default_note
-    with Dem.open(dem) as d:
+    with Dem.open(dem, warn=warn) as d:
         try:
             given = pyproj.CRS(crs) if crs is not None else d.crs
         except pyproj.exceptions.CRSError:
@@ -169,7 +169,8 @@ def corridor_dips(attitudes: str | os.PathLike, line, dem: str | os.PathLike, co
 def _corridor_axis(att: Attitudes, line: SectionLine, corridor: float, warn: Warn,
                    note: Warn) -> FoldAxis:
     mask, _ = in_corridor(att.x, att.y, line, corridor)
-    axis = fold_axis(att.strike[mask], att.dip[mask])
+    axis = fold_axis(att.strike[mask], att.dip[mask],
+                     source=f"{att.source}, {int(mask.sum())} within the corridor")
     note(
         f"fold axis from {axis.n} attitudes in the corridor (pi-axis, Woodcock 1977): "
         f"trend {axis.trend:.1f}, plunge {axis.plunge:.1f}, "
@@ -202,7 +203,8 @@ def bedding_axis(attitudes: str | os.PathLike, *, within: str | os.PathLike | No
         if not mask.any():
             raise AttitudeError(f"{attitudes}: no attitudes inside the polygons of {within}")
         att = att.subset(mask)
-    return fold_axis(att.strike, att.dip)
+    where = att.source + (f", {len(att)} inside {within}" if within is not None else "")
+    return fold_axis(att.strike, att.dip, source=where)
 
 
 __all__ = ["CorridorDips", "ProfileTable", "bedding_axis", "corridor_dips", "line_profile"]

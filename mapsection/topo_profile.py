@@ -17,10 +17,12 @@ import shapely
 from shapely.geometry import LineString
 
 from ._messages import default_warn as _default_warn
-from .errors import DEMError, LineError, ParameterError
+from ._messages import human
+from .errors import DEMError, LineError, ParameterError, SettingError
 from .line import SectionLine, projected_line
 from .readers.dem import Dem
 from .readers.line import read_line
+from .settings import RANGES
 
 # More samples than this is a mistaken step, not a profile (a 100 km line at 2 mm).
 _MAX_SAMPLES = 50_000_000
@@ -116,12 +118,14 @@ def profile(
             step = float(step)
         except (TypeError, ValueError):
             raise ParameterError(f"step {step!r}: must be a number of metres") from None
-        if not np.isfinite(step) or step <= 0:
-            raise ParameterError(f"step {step:g}: must be a positive number of metres")
+        problem = RANGES["step"].problem(step)
+        if problem is not None:  # the value first: "step 0: sample step must be ..."
+            raise SettingError(f"step {human(step)}", problem)
         if sl.length / step > _MAX_SAMPLES:
             raise ParameterError(
-                f"step {step:g}: gives {sl.length / step:.3g} samples along a {sl.length:.0f} m "
-                f"line; use a step of at least {sl.length / _MAX_SAMPLES:.3g} m"
+                f"step {human(step)}: gives {sl.length / step:.0f} samples along a "
+                f"{sl.length:.1f} m line; use a step of at least "
+                f"{human(sl.length / _MAX_SAMPLES)} m"
             )
         distance, x, y = _layout(sl, step)
         z, inside = d._sample(x, y, sl.crs)
@@ -129,8 +133,8 @@ def profile(
         if not inside.any():
             b = d.bounds
             raise DEMError(
-                f"{d.path}: {name} lies wholly outside the DEM (DEM bounds {b.left:.6g}, "
-                f"{b.bottom:.6g}, {b.right:.6g}, {b.top:.6g} in {d.crs.name})"
+                f"{d.path}: {name} lies wholly outside the DEM (DEM bounds {b.left:.1f}, "
+                f"{b.bottom:.1f}, {b.right:.1f}, {b.top:.1f} in {d.crs.name})"
             )
         if not np.isfinite(z).any():
             raise DEMError(f"{d.path}: the DEM has no data along {name}")

@@ -42,7 +42,7 @@ from collections.abc import Callable
 
 from ..draft import Draft
 from ..errors import CheckError
-from ..project import Thresholds
+from ..settings import Thresholds
 from .area import area_balance
 from .kinematics import check_kinematics
 from .restore import restore_section

@@ -38,7 +38,7 @@ from shapely.geometry import MultiLineString
 from ..angles import wrap90
 from ..draft import Draft
 from ..errors import CheckError
-from ..project import Thresholds, threshold_problem
+from ..settings import Thresholds, threshold_problem
 
 PAIRING_RADIUS_M = 500.0  # the pairing radius is the larger of this ...
 PAIRING_RADIUS_PIXELS = 10.0  # ... and this many DEM pixels

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import click
 
-from ..attitudes import CONVENTIONS
 from ..caution import CAUTION
 from ..foldaxis import MIN_CYLINDRICITY, recommended_azimuth
+from ..settings import CONVENTIONS
 from ..tasks import bedding_axis
 from ._common import warn
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import click
 
 from ..caution import CAUTION
-from ..project import METHODS
+from ..settings import METHODS
 from ._common import note, warn
 
 

@@ -58,7 +58,7 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
     from ..render.section_folder import write_check_report, write_checks_json
     from ..session import load_inputs
 
-    project = load_project(project_file)
+    project = load_project(project_file, warn)
     if section_name is not None:
         specs = [project.section(section_name)]
     elif from_path is not None:

@@ -5,12 +5,10 @@ from __future__ import annotations
 from pathlib import Path
 
 import click
-import numpy as np
 
-from ..attitudes import CONVENTIONS
 from ..caution import CAUTION
-from ..dips import METHODS
-from ..errors import OutputError, ParameterError
+from ..errors import OutputError
+from ..settings import CONVENTIONS, PROJECTIONS, check_number, large_note
 from ..tables import write_dips_csv
 from ..tasks import corridor_dips
 from ._common import note, warn
@@ -29,7 +27,7 @@ from ._common import note, warn
               help="Half-width in metres: attitudes farther from the line are left out.")
 @click.option("-o", "--output", required=True, type=click.Path(dir_okay=False),
               help="Output CSV.")
-@click.option("--projection", type=click.Choice(METHODS), default="perpendicular",
+@click.option("--projection", type=click.Choice(PROJECTIONS), default="perpendicular",
               show_default=True, help="How attitudes are carried onto the line.")
 @click.option("--convention", type=click.Choice(CONVENTIONS), default="rhr", show_default=True,
               help="Attitude convention: right-hand-rule strike, dip direction, or quadrant.")
@@ -58,8 +56,9 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
       mapsection dips sample_area/attitudes.csv "604658,5218819;612195,5213542" \\
           --dem sample_area/dem.tif --corridor 600 -o dips_A.csv
     """
-    if not np.isfinite(corridor) or corridor <= 0:
-        raise ParameterError(f"--corridor {corridor:g} must be a distance in metres > 0")
+    check_number("corridor", corridor)
+    if (large := large_note("corridor", corridor)) is not None:
+        warn(f"--corridor: {large}")
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     found = corridor_dips(attitudes, line, dem_path, corridor, projection=projection,

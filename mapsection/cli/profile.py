@@ -7,6 +7,7 @@ from pathlib import Path
 import click
 import numpy as np
 
+from .._messages import human
 from ..caution import CAUTION
 from ..errors import OutputError, ParameterError
 from ..tables import write_profile_csv
@@ -69,7 +70,7 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
     write_profile_csv(output, prof.distance, table.x, table.y, prof.z, table.digits)
     gaps = int(np.count_nonzero(~np.isfinite(prof.z)))
     note(
-        f"wrote {len(prof.distance)} samples every {step_m or prof.pixel_size:.3g} m "
+        f"wrote {len(prof.distance)} samples every {human(step_m or prof.pixel_size)} m "
         f"along {prof.line.length:.1f} m to {output}" + (f" ({gaps} empty)" if gaps else "")
     )
 

@@ -29,10 +29,11 @@ import numpy as np
 
 from ..dips import ProjectedDips
 from ..draft import Draft
-from ..errors import ConstructionError, ParameterError
+from ..errors import ConstructionError
 from ..geology import SurfaceGeology
 from ..line import SectionLine
 from ..notes import Notes, Warn
+from ..settings import DEFAULTS, METHODS, SectionSettings
 from ..stratigraphy import BASE_PREFIX, Column
 from ..topo_profile import Profile
 from .assemble import add_block, add_faults, add_residuals
@@ -48,8 +49,6 @@ from .faults import block_polygons, fault_lines, ground_ranges
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
 
-METHODS = ("kink", "arc")
-
 
 def base_name(column: Column) -> str:
     """The name of the horizon at the base of the column (:attr:`Column.base_name`)."""
@@ -57,8 +56,9 @@ def base_name(column: Column) -> str:
 
 
 def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
-                dips: ProjectedDips, column: Column, *, name: str = "", method: str = "kink",
-                ve: float = 1.0, dip_tolerance: float = 5.0, depth: float | None = None,
+                dips: ProjectedDips, column: Column, *, name: str = "",
+                method: str = DEFAULTS.method, ve: float = DEFAULTS.ve,
+                dip_tolerance: float = DEFAULTS.dip_tolerance, depth: float | None = None,
                 fault_depth: float | None = None, default_dip: float | None = None,
                 warn: Warn | None = None) -> Draft:
     """Construct the draft section along ``line``.
@@ -182,19 +182,9 @@ def _fit_blocks(blocks: list[FaultBlock], fit: Callable[[FaultBlock, BlockSettin
 
 
 def _check_options(method, ve, tol, depth, fault_depth, default_dip) -> None:
-    if method not in METHODS:
-        raise ParameterError(f"method: unknown construction method {method!r} "
-                             f"(use one of {', '.join(METHODS)})")
-    if not (np.isfinite(ve) and ve > 0):
-        raise ParameterError(f"ve: vertical exaggeration must be > 0, got {ve}")
-    if not (np.isfinite(tol) and 0 <= tol < 90):
-        raise ParameterError(f"dip_tolerance: must be within 0-90 degrees, got {tol}")
-    for key, v in (("depth", depth), ("fault_depth", fault_depth)):
-        if v is not None and not (np.isfinite(v) and v > 0):
-            raise ParameterError(f"{key}: must be a number of metres > 0, got {v}")
-    if default_dip is not None and not (np.isfinite(default_dip) and -90 < default_dip < 90):
-        raise ParameterError(f"default_dip: must be a signed apparent dip within ±90°, "
-                             f"got {default_dip}")
+    # The rules are the settings' own (mapsection.settings), written once there.
+    SectionSettings(method=method, ve=ve, dip_tolerance=tol, depth=depth,
+                    fault_depth=fault_depth, default_dip=default_dip)
 
 
 def _frame(profile: Profile, ground, length: float, column: Column, depth

@@ -6,6 +6,7 @@ The value object and the conventions are in :mod:`mapsection.attitudes`.
 from __future__ import annotations
 
 import csv
+import dataclasses
 import os
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
@@ -15,9 +16,8 @@ import numpy as np
 import pyproj
 
 from .._messages import default_warn as _default_warn
-from .._messages import first_line
+from .._messages import first_line, human
 from ..attitudes import (
-    CONVENTIONS,
     Attitudes,
     Warn,
     dip_direction_to_strike,
@@ -26,6 +26,7 @@ from ..attitudes import (
 )
 from ..crs import same_crs
 from ..errors import AttitudeError
+from ..settings import CONVENTIONS
 
 CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 LOGICAL_FIELDS = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
@@ -44,6 +45,8 @@ class _Table:
     y: np.ndarray | None = None
     z: np.ndarray | None = None
     crs: pyproj.CRS | None = None
+    repeated: dict[str, list[int]] = dataclasses.field(default_factory=dict)
+    # lower-case column name -> its column numbers (from 1), for names given more than once
 
 
 def _read_csv(path: Path) -> _Table:
@@ -71,16 +74,21 @@ def _read_csv(path: Path) -> _Table:
             columns = list(zip(*records, strict=True)) if records else [()] * k
             cols = {n: [v.strip() for v in c] for n, c in zip(names, columns, strict=True)}
             rows = [f"line {n}" for n in lines]
+            where: dict[str, list[int]] = {}
+            for j, name in enumerate(names):
+                where.setdefault(name.lower(), []).append(j + 1)
+            repeated = {k: v for k, v in where.items() if len(v) > 1}
     except UnicodeDecodeError:
         raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
     except OSError as exc:
         raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
-    return _Table(cols, rows)
+    return _Table(cols, rows, repeated=repeated)
 
 
 def _read_vector(path: Path, layer: str | None) -> _Table:
     import pyogrio
     import shapely
+
 
     try:
         layers = [str(r[0]) for r in pyogrio.list_layers(path)]
@@ -200,6 +208,12 @@ def read_attitudes(
             raise AttitudeError(
                 f"{path}: no column {name!r}{hint} (columns: {listed})"
             )
+        if real is not None and real.lower() in table.repeated:
+            nums = table.repeated[real.lower()]
+            raise AttitudeError(
+                f"{path}: column {real!r} appears {len(nums)} times in the header (columns "
+                f"{', '.join(map(str, nums))}); keep one or rename the others"
+            )
         return None if real is None else table.columns[real]
 
     reasons: dict[int, list[str]] = {}  # bad rows only
@@ -255,9 +269,9 @@ def read_attitudes(
         flag(baz | ~np.isfinite(az) & ~baz, lambda i: f"{az_name} {az_txt[i]!r} is not a number")
         flag(bd | ~np.isfinite(dip) & ~bd, lambda i: f"dip {d_txt[i]!r} is not a number")
         flag(np.isfinite(az) & ((az < 0) | (az > 360)),
-             lambda i: f"{az_name} {az[i]:g} is outside 0-360")
+             lambda i: f"{az_name} {human(az[i])} is outside 0-360")
         flag(np.isfinite(dip) & ((dip < 0) | (dip > 90)),
-             lambda i: f"dip {dip[i]:g} is outside 0-90")
+             lambda i: f"dip {human(dip[i])} is outside 0-90")
         strike = az % 360.0 if convention == "rhr" else dip_direction_to_strike(az)
 
     # Optional columns
@@ -296,16 +310,15 @@ def read_attitudes(
     if not good.any():
         raise AttitudeError(
             f"{path}: no usable attitude rows"
-            + (f" ({n} rows, all bad)" if n else " (no data rows)")
+            + (f" ({n} row{'s' if n != 1 else ''}, all bad; {table.rows[0]}: "
+               f"{'; '.join(reasons[0])})" if n else " (no data rows)")
         )
 
     att = Attitudes(
         id=ids[good], x=x[good], y=y[good], z=z[good], strike=strike[good] % 360.0,
         dip=dip[good], overturned=overturned[good], crs=target if src_crs is None else src_crs,
+        source=f"{path} ({n} row{'s' if n != 1 else ''} read, {n - dropped} usable)",
     )
-    if not same_crs(src_crs, target):
+    if src_crs is not None and target is not None and not same_crs(src_crs, target):
         att = reproject_attitudes(att, target, warn=warn, source=str(path))
     return att
-
-
-__all__ = ["CSV_SUFFIXES", "LOGICAL_FIELDS", "read_attitudes"]

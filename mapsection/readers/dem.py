@@ -20,8 +20,11 @@ import rasterio
 from rasterio.errors import RasterioIOError
 from rasterio.windows import Window
 
+from .._messages import Warn
+from .._messages import default_warn as _default_warn
 from ..crs import same_crs, transformer
 from ..errors import DEMError
+from ..settings import VERTICAL_UNITS
 
 # Strips wider than this are cached in pieces of this many columns, so that a
 # line crossing a strip-organised raster keeps only the parts it needs.
@@ -29,6 +32,17 @@ _MAX_BLOCK_WIDTH = 1024
 _PIECE_WIDTH = 512
 # Rasters with at most this many cache blocks keep a block -> slot lookup array (4 bytes each).
 _MAX_LOOKUP = 1 << 22
+
+
+# The elevation units a raster may name (GDAL unit type or CRS axis), as settings.VERTICAL_UNITS.
+_UNIT_NAMES = {
+    **dict.fromkeys(("m", "metre", "meter", "metres", "meters"), "metre"),
+    **dict.fromkeys(("ft", "foot", "feet", "international foot", "intl foot"), "foot"),
+    **dict.fromkeys(("us-ft", "us ft", "ftus", "us survey foot", "us-foot", "survey foot",
+                     "foot us", "us foot"), "us-foot"),
+}
+
+_PLURAL = {"metre": "metres", "foot": "feet", "us-foot": "US survey feet"}
 
 
 class Dem:
@@ -41,9 +55,16 @@ class Dem:
 
     ``cache_bytes`` bounds the decoded blocks kept between calls (least recently
     used go first); one call always keeps every block it needs.
+
+    Elevations are returned in metres. The vertical unit is the file's own (GDAL's
+    unit type of the band, else the vertical axis of a compound CRS); where the file
+    does not say, ``vertical_unit`` (a key of ``settings.VERTICAL_UNITS``, default
+    metre). A conversion from feet is said once through ``warn``. The unit used is
+    ``vertical_unit`` afterwards.
     """
 
-    def __init__(self, path: str | os.PathLike, *, cache_bytes: int = 512 * 2**20) -> None:
+    def __init__(self, path: str | os.PathLike, *, cache_bytes: int = 512 * 2**20,
+                 vertical_unit: str | None = None, warn: Warn | None = None) -> None:
         self.path = Path(path)
         if not self.path.exists():
             raise DEMError(f"{self.path}: no such DEM file")
@@ -68,6 +89,10 @@ class Dem:
         self.width, self.height = ds.width, ds.height
         self._scale = float(ds.scales[0]) if ds.scales else 1.0
         self._offset = float(ds.offsets[0]) if ds.offsets else 0.0
+        self.vertical_unit = self._vertical_unit(ds, vertical_unit, warn or _default_warn)
+        to_metres = VERTICAL_UNITS[self.vertical_unit]
+        self._scale *= to_metres
+        self._offset *= to_metres
         bh, bw = ds.block_shapes[0]
         if bw >= self.width and bw > _MAX_BLOCK_WIDTH:
             bw = _PIECE_WIDTH  # a strip: cache it in pieces (GDAL decodes the strip once)
@@ -95,6 +120,31 @@ class Dem:
             with np.errstate(over="ignore"):
                 self._nodata_stored = float(self._dtype.type(self.nodata))
         self._last_crs: tuple[object, pyproj.Transformer | None] = (None, None)
+
+    def _vertical_unit(self, ds, setting: str | None, warn: Warn) -> str:
+        """The unit of the elevations: the file's own, else ``setting``, else metre."""
+        raw = (ds.units[0] if ds.units else "") or ""
+        source = "unit type"
+        if not raw.strip():
+            up = [a for a in self.crs.axis_info if a.direction.lower() == "up"]
+            raw, source = (up[0].unit_name, "vertical CRS axis") if up else ("", "")
+        said = _UNIT_NAMES.get(raw.strip().lower().replace("_", " ")) if raw.strip() else None
+        name = self.path.name
+        if raw.strip() and said is None:
+            if setting is None:
+                raise DEMError(f"{self.path}: elevation unit {raw.strip()!r} ({source}) is not "
+                               "metres or feet; convert the DEM to metres, or set [dem] "
+                               "vertical_unit if the file is wrong")
+            said, source = setting, "[dem] vertical_unit"
+        if said is not None and setting is not None and setting != said:
+            warn(f"{name}: the file gives its elevations in {_PLURAL[said]} ({source}); "
+                 f"[dem] vertical_unit = {setting!r} is not used")
+        unit = said or setting or "metre"
+        if unit != "metre":
+            why = f"the file's {source}" if said else "[dem] vertical_unit"
+            warn(f"{name}: elevations are in {_PLURAL[unit]} ({why}); converted to metres "
+                 f"(x {VERTICAL_UNITS[unit]:.6f})")
+        return unit
 
     @classmethod
     def open(cls, path: str | os.PathLike, **kwargs) -> Dem:

@@ -26,7 +26,11 @@ def parse_line_text(text: str, crs: pyproj.CRS | None = None, name: str = "") ->
     if not _TEXT_LINE.match(text):
         raise LineError(f"section line text {text!r}: expected 'x1,y1;x2,y2[;...]'")
     pts = [tuple(float(c) for c in p.split(",")) for p in text.strip().strip(";").split(";")]
-    return SectionLine(np.asarray(pts), crs, name)
+    try:
+        return SectionLine(np.asarray(pts), crs, name)
+    except LineError as exc:  # name the text the user gave
+        why = str(exc).split(": ", 1)[-1]
+        raise LineError(f"section line text {text!r}: {why}") from None
 
 
 def read_line(
