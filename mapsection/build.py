@@ -44,6 +44,7 @@ from .errors import OutputError, ParameterError
 from .line import SectionLine
 from .project import METHODS, Project, SectionSpec, load_project
 from .session import ProjectInputs, SectionSession, load_inputs
+from .thickness import resolve_map_thicknesses
 
 Warn = Callable[[str], None]
 STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
@@ -86,15 +87,14 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     warn = warn or _default_warn
     line = SectionLine(np.asarray(spec.line, float), project.crs, spec.name)
     with _stage(timings, "section data"):
-        if inputs is None:
-            session = SectionSession.from_project(project, spec, warn)
-        else:
-            session = SectionSession.from_inputs(inputs, project, spec, warn)
+        own = inputs is None
+        inputs = load_inputs(project, warn) if own else inputs
         try:
-            data = session.run(line)
+            project = resolve_map_thicknesses(project, inputs, warn)  # thickness = "map"
+            data = SectionSession.from_inputs(inputs, project, spec, warn).run(line)
         finally:
-            if inputs is None:
-                session.close()
+            if own:
+                inputs.close()
     with _stage(timings, "construction"):
         return build_draft(
             data.line, data.profile, data.geology, data.dips, project.column,
@@ -237,6 +237,11 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
         with contextlib.ExitStack() as folders_in_progress:
             with _stage(timings, "load"):
                 inputs = load_inputs(project, warn)
+                try:
+                    project = resolve_map_thicknesses(project, inputs, warn)
+                except BaseException:
+                    inputs.close()
+                    raise
             jobs = []
             try:
                 for spec in specs:

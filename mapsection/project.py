@@ -232,9 +232,11 @@ def load_project(path: str | os.PathLike) -> Project:
         colour = r.get("colour", str, None) or r.get("color", str, None)
         if colour is not None and not _is_hex_colour(colour):
             raise r.fail("colour", f"must be '#rrggbb', got {colour!r}")
-        thickness = r.get("thickness", float)
+        # "map": measured from the map's contacts when the inputs are loaded (thickness.py)
+        from_map = r.table.get("thickness") == "map"
+        thickness = math.nan if from_map else r.get("thickness", float)
         if thickness <= 0:
-            raise r.fail("thickness", f"must be > 0 m, got {thickness}")
+            raise r.fail("thickness", f"must be > 0 m or \"map\", got {thickness}")
         units.append(
             Unit(
                 r.get("unit", str),
@@ -242,6 +244,7 @@ def load_project(path: str | os.PathLike) -> Project:
                 colour,
                 r.get("age", str, None),
                 r.get("lithology", str, None),
+                from_map,
             )
         )
     try:

@@ -20,6 +20,7 @@ COMMANDS = {
     "profile": "profile",
     "dips": "dips",
     "axis": "axis",
+    "column": "column",
     "build": "build",
     "check": "check",
     "demo": "demo",
