@@ -76,7 +76,7 @@ DOMAIN_TOLERANCE = 10.0  # degrees between poles of one dip domain (the tool's d
 MIN_POINTS = 20  # contact points a plane needs (the tool's default)
 BOOTSTRAP = 200  # bootstrap resamples (the tool's default)
 CHUNK_PIXELS = 10  # run length of the block bootstrap, in sample spacings (the tool's default)
-MIN_PERCENTILE = 90.0  # of outcrop heights, for a lower bound (the tool's default)
+MIN_PERCENTILE = 99.0  # of outcrop heights, for a lower bound (the tool's default)
 
 
 # ---------------------------------------------------------------- closed forms
