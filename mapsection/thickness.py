@@ -793,7 +793,7 @@ def resolve_map_thicknesses(project: Project, inputs: ProjectInputs,
                     and math.isfinite(e.uncertainty)
                     and abs(e.thickness - u.thickness) > e.uncertainty):
                 warn(f"{fname}: stratigraphy[{i}] ({u.name}): thickness {u.thickness:g} m given; "
-                     f"the map's contacts give {e.thickness:.0f} +/- {e.uncertainty:.0f} m "
+                     f"the map's contacts give {e.thickness:.0f} +/- {_m(e.uncertainty)} m "
                      f"({e.n_points} points; see 'mapsection column')")
             units.append(u)
             continue
@@ -808,7 +808,7 @@ def resolve_map_thicknesses(project: Project, inputs: ProjectInputs,
             warn(f"{fname}: stratigraphy[{i}] ({u.name}): thickness \"map\": {e.why}; using "
                  f"{e.thickness:.0f} m, a lower bound")
         elif say:
-            unc = (f" +/- {e.uncertainty:.0f}" if e.uncertainty is not None
+            unc = (f" +/- {_m(e.uncertainty)}" if e.uncertainty is not None
                    and math.isfinite(e.uncertainty) else "")
             warn(f"{fname}: stratigraphy[{i}] ({u.name}): thickness from the map: "
                  f"{e.thickness:.0f}{unc} m ({e.n_points} points)")
@@ -822,7 +822,7 @@ def unit_line(u: Unit, e: UnitThickness) -> list[str]:
     lines = ["[[stratigraphy]]", f"unit = {_toml_str(u.name)}"]
     measured = e.kind == "measured" and e.thickness is not None
     if measured:
-        unc = (f"+/- {e.uncertainty:.0f} m, " if e.uncertainty is not None
+        unc = (f"+/- {_m(e.uncertainty)} m, " if e.uncertainty is not None
                and math.isfinite(e.uncertainty) else "")
         lines.append(f"thickness = {e.thickness:.1f}  # from the map: {unc}{e.n_points} points")
     elif not u.thickness_from_map:
@@ -845,6 +845,11 @@ def stratigraphy_toml(column: Column, estimate: ColumnEstimate) -> str:
     for u in column.units:
         out += unit_line(u, estimate.unit(u.name)) + [""]
     return "\n".join(out)
+
+
+def _m(value: float) -> str:
+    """Metres to show: one decimal below 10 m, none above."""
+    return f"{value:.1f}" if value < 10 else f"{value:.0f}"
 
 
 def _toml_str(text: str) -> str:

@@ -67,7 +67,7 @@ def command(project: str, output: str | None) -> None:
         e = est.unit(u.name)
         given = "map" if u.thickness_from_map else _num(u.thickness)
         value = _num(e.thickness) + (" min" if e.kind == "minimum" else "")
-        rows.append((u.name, given, value if e.kind != "none" else "-", _num(e.uncertainty),
+        rows.append((u.name, given, value if e.kind != "none" else "-", _num(e.uncertainty, 1),
                      str(e.n_points) if e.n_points else "-", _num(e.spread, 1),
                      _num(e.misfit_deg, 1), "; ".join(e.blocks) or "-"))
     widths = [max(len(r[k]) for r in rows) for k in range(len(HEADER))]
