@@ -130,8 +130,15 @@ def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _de
     if recorded and recorded != spec.name:
         warn_fn(f"{path}: was built for section {recorded!r}; checking it as section "
                 f"{spec.name!r} as asked")
-    with SectionSession.from_project(project, spec, warn=warn_fn) as session:
-        data = session.run()
+    from .session import load_inputs
+    from .thickness import resolve_map_thicknesses
+
+    inputs = load_inputs(project, warn_fn)
+    try:
+        project = resolve_map_thicknesses(project, inputs, warn_fn)  # thickness = "map"
+        data = SectionSession.from_inputs(inputs, project, spec, warn_fn).run()
+    finally:
+        inputs.close()
     draft = read_section_gpkg(path, project.column, data.line, spec.name, profile=data.profile,
                               geology=data.geology, dips=data.dips)
     return draft

@@ -142,3 +142,21 @@ def test_sample_area_with_map_thicknesses_passes_like_the_given_ones(tmp_path):
     assert _rows(mapped.stdout) == _rows(given.stdout), mapped.output
     assert mapped.exit_code == 0
     assert "thickness from the map" in mapped.stderr
+
+
+def test_build_library_and_check_from_with_map_thicknesses(tmp_path):
+    # The build library function on a copy of the sample project with "map" thicknesses, then
+    # the written section.gpkg checked back (check --from reads the column the same way).
+    from mapsection.build import build_project
+
+    units = ["Brantel Shale", "Osk Sandstone", "Merrin Siltstone", "Talvo Limestone",
+             "Dunmarrow Dolomite"]
+    project = _copy(tmp_path, lambda t: _map_thickness(t, units))
+    said: list[str] = []
+    folders = build_project(project, tmp_path / "out", section="A", warn=said.append,
+                            workers=1)
+    assert [f.name for f in folders] == ["A"]
+    assert sum("thickness from the map" in m for m in said) == 4  # said once, not per section
+    res = _run("check", project, "--from", folders[0] / "section.gpkg")
+    assert res.exit_code == 0, res.output
+    assert set(_rows(res.stdout).values()) == {"PASS"}
