@@ -38,7 +38,8 @@ are not independent), both planes are refitted and the thickness recomputed, 200
 times with a fixed seed; the uncertainty is twice the standard deviation of
 those thicknesses (about a 95 % interval). Combined over groups (weights: one
 over its square) it is the larger of the weighted mean's own uncertainty and
-twice the standard error from the scatter between groups.
+twice the standard error from the scatter between groups, and at least 1 % of
+the thickness (the tool's default: a map's contacts resolve no better).
 
 Where a unit has only one mapped contact (the youngest unit, whose top is the
 ground, or the oldest exposed unit) the map gives only a lower bound: the unit's
@@ -76,6 +77,7 @@ DOMAIN_TOLERANCE = 10.0  # degrees between poles of one dip domain (the tool's d
 MIN_POINTS = 20  # contact points a plane needs (the tool's default)
 BOOTSTRAP = 200  # bootstrap resamples (the tool's default)
 CHUNK_PIXELS = 10  # run length of the block bootstrap, in sample spacings (the tool's default)
+RESOLUTION = 0.01  # least relative uncertainty of a thickness from the map (the tool's default)
 MIN_PERCENTILE = 99.0  # of outcrop heights, for a lower bound (the tool's default)
 
 
@@ -242,12 +244,12 @@ def _normal(xyz: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 
 def robust_plane(xyz: np.ndarray, floor: float) -> tuple[Plane, np.ndarray]:
-    """Plane fit dropping points beyond 3 robust standard deviations (and ``floor`` m), twice.
+    """Plane fit dropping points beyond 3 robust standard deviations (and ``floor`` m).
 
     Returns the plane and the mask of the points kept.
     """
     keep = np.ones(len(xyz), bool)
-    for _ in range(2):
+    for _ in range(10):  # until no point changes side (a majority plane wins)
         n, c, _ = _normal(xyz[keep])
         r = (xyz - c) @ n
         mad = 1.4826 * float(np.median(np.abs(r[keep] - np.median(r[keep]))))
@@ -443,7 +445,7 @@ def _planes(xyz: np.ndarray, pieces: list[np.ndarray], pixel: float
     else it starts a group. Stretches too small for a plane of their own join
     the group they fit best, if they fit one.
     """
-    floor = 2.0 * pixel
+    floor = 0.5 * pixel
     groups: list[list] = []
     small = []
     for p in sorted(pieces, key=len, reverse=True):
@@ -475,6 +477,97 @@ def _planes(xyz: np.ndarray, pieces: list[np.ndarray], pixel: float
             g[0] = np.concatenate([g[0], p])
             g[1], g[2] = robust_plane(xyz[g[0]], floor)
     return [(g[0], g[1], g[2]) for g in groups if _determined(xyz[g[0]][g[2]], g[1], pixel)]
+
+
+def _refine(xyz: np.ndarray, blocks: np.ndarray, seeds: list, pixel: float) -> list:
+    """Each contact point of a block given to the plane it fits best (k-planes, 3 rounds).
+
+    ``seeds``: (block, domain, indices) of the groups found from the attitudes. Near a
+    hinge the nearest attitude may lie across it; a point goes to the plane of its
+    block within three RMS (at least one pixel) of which it lies closest, and the
+    planes are refitted. Returns (block, domain, indices, plane, kept) of each plane.
+    """
+    out = []
+    floor = 0.5 * pixel
+    for b in dict.fromkeys(s[0] for s in seeds):
+        pts = np.flatnonzero(blocks == b)
+        fitted = []
+        for _, d, idx in (s for s in seeds if s[0] == b):
+            plane, keep = robust_plane(xyz[idx], floor)
+            fitted.append((d, idx, plane, keep))
+        for _ in range(3):
+            if not fitted:
+                break
+            res = np.column_stack([np.abs(f[2].height(*xyz[pts].T)) for f in fitted])
+            thr = np.array([max(3.0 * f[2].rms, 0.5 * pixel) for f in fitted])
+            best = res.argmin(axis=1)
+            ok = res[np.arange(len(pts)), best] <= thr[best]
+            new = []
+            for k, (d, _, _, _) in enumerate(fitted):
+                idx = pts[ok & (best == k)]
+                if len(idx) >= MIN_POINTS:
+                    new.append((d, idx, *robust_plane(xyz[idx], floor)))
+            fitted = new
+        out += [(b, d, idx, plane, keep) for d, idx, plane, keep in fitted
+                if _determined(xyz[idx][keep], plane, pixel)]
+    return out
+
+
+def _attitude_seeds(xyz: np.ndarray, blocks: np.ndarray, means: dict, pixel: float,
+                    most: int = 3) -> list:
+    """Seed groups of contact points that lie on a plane of a domain's mean attitude.
+
+    For each attitude cluster of a block, the points' offsets along its mean pole
+    are binned; the fullest bins (up to ``most``, each with MIN_POINTS points within
+    one pixel) give planes of that attitude through the contact (a Hough-like vote),
+    whatever the nearest attitude of each point.
+    """
+    seeds = []
+    for (b, c), n in means.items():
+        pts = np.flatnonzero(blocks == b)
+        if len(pts) < MIN_POINTS:
+            continue
+        h = xyz[pts] @ n
+        free = np.ones(len(pts), bool)
+        for _ in range(most):
+            if free.sum() < MIN_POINTS:
+                break
+            hs = np.sort(h[free])
+            # the densest window one pixel wide either side
+            counts = np.searchsorted(hs, hs + 2 * pixel) - np.arange(len(hs))
+            k = int(np.argmax(counts))
+            if counts[k] < MIN_POINTS:
+                break
+            centre = hs[k] + pixel
+            near = free & (np.abs(h - centre) <= pixel)
+            seeds.append((b, c, pts[near]))
+            free &= ~near
+    return seeds
+
+
+def _closest_cluster(plane: Plane, block: str, means: dict) -> tuple[int, float | None]:
+    """The attitude cluster of ``block`` closest in orientation to a plane, and the angle."""
+    cands = [(c, _angle(plane.normal, v)) for (b, c), v in means.items() if b == block]
+    if not cands:
+        return -1, None
+    return min(cands, key=lambda t: t[1])
+
+
+def _merge_coplanar(xyz: np.ndarray, planes: list, pixel: float) -> list:
+    """Planes of one domain that are one plane (each one's points within three RMS, at least
+    one pixel, of the other's), merged and refitted."""
+    planes = sorted(planes, key=lambda p: -len(p[0]))
+    out: list = []
+    for idx, plane, keep in planes:
+        for k, (idx2, plane2, _) in enumerate(out):
+            r = plane2.height(*xyz[idx][keep].T)
+            if math.sqrt(float(np.mean(r**2))) <= max(3.0 * max(plane.rms, plane2.rms), pixel):
+                both = np.sort(np.concatenate([idx2, idx]))
+                out[k] = (both, *robust_plane(xyz[both], 0.5 * pixel))
+                break
+        else:
+            out.append((idx, plane, keep))
+    return out
 
 
 def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
@@ -542,7 +635,23 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
         return _domain_name(apoles[(ablock == b) & (acluster == d)]) if d >= 0 else \
             "no attitudes"
 
+    # mean pole of each attitude cluster in each block
+    means = {}
+    for b, c in dict.fromkeys(zip(ablock.tolist(), acluster.tolist(), strict=True)):
+        v = apoles[(ablock == b) & (acluster == c)].sum(axis=0)
+        means[(b, c)] = v / np.linalg.norm(v)
+    ctrees = {k: (cKDTree(np.column_stack([ax[m], ay[m]])), np.flatnonzero(m))
+              for k in means for m in [(ablock == k[0]) & (acluster == k[1])]}
+
+    def near_of(b: str, d: int, pts: np.ndarray) -> np.ndarray:
+        """The attitudes of a domain nearest to points (each point's nearest, once)."""
+        if (b, d) not in ctrees or not len(pts):
+            return np.empty(0, int)
+        tree, rows = ctrees[(b, d)]
+        return np.unique(rows[tree.query(pts[:, :2])[1]])
+
     geoms = {n: map_data.unit_geoms[map_data.unit_names == n] for n in names}
+    everywhere: dict[tuple[str, str], tuple[np.ndarray, np.ndarray]] = {}
     groups: dict[tuple[str, str], list[_Group]] = {}
     fits: list[ContactFit] = []
     for upper, lower in zip(names[:-1], names[1:], strict=True):
@@ -553,26 +662,34 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
         x, y, z, run = x[ok], y[ok], z[ok], run[ok]
         blk, dom, near = label(x, y)
         found = []
+        xyz = np.column_stack([x, y, z])
+        seeds = []
         for b, d in dict.fromkeys(zip(blk.tolist(), dom.tolist(), strict=True)):
             m = np.flatnonzero((blk == b) & (dom == d))
-            xyz = np.column_stack([x[m], y[m], z[m]])
-            planes = _planes(xyz, _pieces(xyz[:, :2], step), pixel_size)
-            kept = []
-            for idx, plane, keep in planes:
-                seen = np.unique(near[m][idx][keep])
-                seen = seen[seen >= 0]
+            seeds += [(b, d, m[idx]) for idx, _, _ in
+                      _planes(xyz[m], _pieces(xyz[m, :2], step), pixel_size)]
+        seeds += _attitude_seeds(xyz, blk, means, pixel_size)
+        by_domain: dict[tuple[str, int], list] = {}
+        for b, _, idx, plane, keep in _refine(xyz, blk, seeds, pixel_size):
+            # The plane's dip domain: the block's attitude cluster closest to it in
+            # orientation; a plane far from all of them (points of two limbs, or a contact
+            # bent in a hinge) measures nothing and is left out.
+            d, angle = _closest_cluster(plane, b, means)
+            if angle is None or angle <= tolerance:
+                by_domain.setdefault((b, d), []).append((idx, plane, keep))
+        owner = np.full(len(x), -1, int)
+        for (b, d), planes in by_domain.items():
+            planes = _merge_coplanar(xyz, planes, pixel_size)
+            for k, (idx, plane, keep) in enumerate(planes):
+                name = domain_name(b, d) + (f" #{k + 1}" if len(planes) > 1 else "")
+                seen = near_of(b, d, xyz[idx][keep])
                 mis = (float(np.mean([_angle(plane.normal, apoles[i]) for i in seen]))
                        if len(seen) else None)
-                # A plane at odds with the attitudes it passes (points of two limbs, or a
-                # contact bent in a hinge) measures nothing: it is left out.
-                if mis is None or mis <= tolerance:
-                    kept.append((idx, plane, keep, seen, mis))
-            for k, (idx, plane, keep, seen, mis) in enumerate(kept):
-                name = domain_name(b, d) + (f" #{k + 1}" if len(kept) > 1 else "")
-                g = _Group(upper, lower, b, d, xyz[idx], run[m][idx], plane, keep, name)
-                found.append(g)
+                owner[idx] = len(found)
+                found.append(_Group(upper, lower, b, d, xyz[idx], run[idx], plane, keep, name))
                 fits.append(ContactFit(upper, lower, b, name, plane, int((~keep).sum()), mis,
                                        len(seen)))
+        everywhere[(upper, lower)] = (xyz, owner)
         groups[(upper, lower)] = found
     fit_of = {id(f.plane): f for f in fits}
 
@@ -580,8 +697,10 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
     for i, name in enumerate(names):
         top = groups.get((names[i - 1], name), []) if i > 0 else []
         base = groups.get((name, names[i + 1]), []) if i + 1 < len(names) else []
+        above = everywhere.get((names[i - 1], name)) if i > 0 else None
+        below = everywhere.get((name, names[i + 1])) if i + 1 < len(names) else None
         units.append(_unit_thickness(name, top, base, fit_of, step, rng, bootstrap,
-                                     geoms[name], elevation, label, tolerance))
+                                     geoms[name], elevation, label, tolerance, above, below))
     return ColumnEstimate(tuple(units), tuple(fits), step)
 
 
@@ -649,7 +768,7 @@ def _facing(tops: list[_Group], bases: list[_Group]) -> list[tuple[_Group, _Grou
 
 
 def _unit_thickness(name, top, base, fit_of, step, rng, bootstrap, unit_geoms,
-                    elevation, label, tolerance) -> UnitThickness:
+                    elevation, label, tolerance, above, below) -> UnitThickness:
     if not len(unit_geoms):
         return UnitThickness(name, "none", why="it is not on the map")
     results, skipped = [], []
@@ -675,6 +794,9 @@ def _unit_thickness(name, top, base, fit_of, step, rng, bootstrap, unit_geoms,
             between = 2.0 * math.sqrt(float(np.sum(w * (th - mean) ** 2))
                                       / ((len(th) - 1) * float(np.sum(w))))
             unc = between if not boot else max(unc, between)
+        # Contacts drawn on a map do not resolve a thickness better than about 1 % (the
+        # tool's default floor), whatever the bootstrap says about a near-perfect map.
+        unc = max(unc, RESOLUTION * mean) if math.isfinite(unc) else unc
         planes = [g.plane for r in results for g in r[:2]]
         spread = math.sqrt(sum(p.rms**2 * p.n_points for p in planes)
                            / sum(p.n_points for p in planes))
@@ -687,7 +809,8 @@ def _unit_thickness(name, top, base, fit_of, step, rng, bootstrap, unit_geoms,
                              tuple(gt))
     one, side = (base, "top") if base else (top, "base")
     if one:
-        bound = _minimum(unit_geoms, one, step, elevation, label, below=not base)
+        bound = _minimum(unit_geoms, one, below if base else above, step, elevation, label,
+                         below=not base)
         if bound is not None:
             value, n, blocks = bound
             return UnitThickness(name, "minimum", value, None, n, None, blocks, None, (),
@@ -695,19 +818,28 @@ def _unit_thickness(name, top, base, fit_of, step, rng, bootstrap, unit_geoms,
                                  f"{value:.0f} m from its other contact")
     if skipped:
         why = "its top and base planes disagree (" + "; ".join(skipped) + ")"
+    elif one:
+        why = (f"only its {'base' if base else 'top'} contact fits a plane, and too little of "
+               "its outcrop lies near it to bound its thickness")
+    elif above is not None and len(above[0]) or below is not None and len(below[0]):
+        n = sum(len(c[0]) for c in (above, below) if c is not None)
+        why = (f"its mapped contacts ({n} points) fit no plane in any fault block and dip "
+               "domain (too few points, points nearly on one line, or planes at odds with "
+               "the attitudes)")
     else:
         why = "no contact with the unit above or below it in the column is mapped"
     return UnitThickness(name, "none", why=why)
 
 
-def _minimum(unit_geoms, groups: list[_Group], step, elevation, label, below: bool
-             ) -> tuple[float, int, tuple[str, ...]] | None:
+def _minimum(unit_geoms, groups: list[_Group], contact: tuple[np.ndarray, np.ndarray], step,
+             elevation, label, below: bool) -> tuple[float, int, tuple[str, ...]] | None:
     """Lower bound of a unit's thickness: how far its outcrop reaches from its one contact.
 
-    The unit's ground is sampled on a grid; each point belongs to the contact plane
-    of its nearest contact point, in its own block and dip domain; the bound is
-    the largest, over planes, of the 90th percentile of the points' distance
-    from the plane (perpendicular to it).
+    The unit's ground is sampled on a grid; a point is measured against the plane
+    of its nearest contact point, in its own fault block (points nearest to a stretch
+    of contact that no plane fits are not measured); the bound is the largest, over
+    planes, of the 99th percentile of the points' distance from the plane
+    (perpendicular to it).
     """
     from scipy.spatial import cKDTree
 
@@ -718,16 +850,15 @@ def _minimum(unit_geoms, groups: list[_Group], step, elevation, label, below: bo
     gx, gy = gx.ravel(), gy.ravel()
     inside = shapely.contains_xy(area, gx, gy)
     gx, gy = gx[inside], gy[inside]
-    if not len(gx):
+    xyz, owner_of = contact
+    if not len(gx) or not len(xyz):
         return None
     gz = np.asarray(elevation(gx, gy), float)
-    blk, dom, _ = label(gx, gy)
-    pts = np.vstack([g.xyz[:, :2] for g in groups])
-    owner = np.concatenate([np.full(len(g.xyz), k) for k, g in enumerate(groups)])
-    _, i = cKDTree(pts).query(np.column_stack([gx, gy]))
+    blk, _, _ = label(gx, gy)
+    owner = owner_of[cKDTree(xyz[:, :2]).query(np.column_stack([gx, gy]))[1]]
     best, count, blocks = None, 0, set()
     for k, g in enumerate(groups):
-        m = (owner[i] == k) & (blk == g.block) & (dom == g.domain) & np.isfinite(gz)
+        m = (owner == k) & (blk == g.block) & np.isfinite(gz)
         if m.sum() < MIN_POINTS:
             continue
         h = g.plane.height(gx[m], gy[m], gz[m])

@@ -81,10 +81,11 @@ def _jacksboro():
     return elev
 
 
-@pytest.fixture(scope="module")
-def layer_cake(tmp_path_factory):
-    """A tilted layer-cake (invented) cut by matplotlib's sample DEM (Jacksboro fault area,
-    real relief), mapped by classifying a grid twice as fine as the DEM and polygonising it."""
+def _drape(folder, depth_below_top, attitude_at):
+    """Map an invented structure on matplotlib's sample DEM (Jacksboro fault area, real
+    relief): ``depth_below_top(x, y, z)`` is the stratigraphic depth below the top of U2;
+    the units are classified on a grid twice as fine as the DEM and polygonised.
+    Returns (column, map, open DEM, attitudes)."""
     import rasterio
     from affine import Affine
     from rasterio.features import shapes
@@ -94,27 +95,19 @@ def layer_cake(tmp_path_factory):
 
     elev = _jacksboro()
     h, w = elev.shape
-    x0, ytop = 700_000.0, 4_070_000.0
-    path = tmp_path_factory.mktemp("cake") / "dem.tif"
+    path = folder / "dem.tif"
     with rasterio.open(path, "w", driver="GTiff", width=w, height=h, count=1, dtype="float32",
-                       crs="EPSG:32616", transform=Affine(CELL, 0, x0, 0, -CELL, ytop)) as ds:
+                       crs="EPSG:32616", transform=Affine(CELL, 0, X0, 0, -CELL, YTOP)) as ds:
         ds.write(elev.astype("float32"), 1)
-    n = _pole(DIP, DIP_DIRECTION)
-    cx, cy, cz = x0 + w * CELL / 2, ytop - h * CELL / 2, float(np.median(elev))
-    # Height of a point above the top of U2 (the first contact), along the bedding normal.
-    tops = np.concatenate([[0.0], -np.cumsum(THICK[1:-1])])
-
-    def unit_index(x, y, z):
-        hgt = (x - cx) * n[0] + (y - cy) * n[1] + (z - cz) * n[2]
-        return np.sum(hgt[..., None] < tops, axis=-1)
-
+    tops = np.concatenate([[0.0], np.cumsum(THICK[1:-1])])
     f = 2
     fine = CELL / f
     cols, rows = np.meshgrid(np.arange(w * f) + 0.5, np.arange(h * f) + 0.5)
     # bilinear DEM between pixel centres, as Dem.sample does (scipy reference)
     z = map_coordinates(elev, [rows / f - 0.5, cols / f - 0.5], order=1, mode="nearest")
-    idx = unit_index(x0 + cols * fine, ytop - rows * fine, z).astype(np.int16)
-    tr = Affine(fine, 0, x0, 0, -fine, ytop)
+    depth = depth_below_top(X0 + cols * fine, YTOP - rows * fine, z)
+    idx = np.sum(depth[..., None] > tops, axis=-1).astype(np.int16)
+    tr = Affine(fine, 0, X0, 0, -fine, YTOP)
     polys: dict[int, list] = {}
     for geom, val in shapes(idx, transform=tr):
         polys.setdefault(int(val), []).append(shapely.geometry.shape(geom))
@@ -123,15 +116,65 @@ def layer_cake(tmp_path_factory):
         np.array([shapely.union_all(polys[k]) for k in keys], dtype=object), fine * 0.5)
     units = gpd.GeoDataFrame({"unit": [NAMES[k] for k in keys]},
                              geometry=[shapely.make_valid(g) for g in merged], crs="EPSG:32616")
-    md = MapData(units, "unit")
     rng = np.random.default_rng(1)
-    ax = rng.uniform(x0, x0 + w * CELL, 40)
-    ay = rng.uniform(ytop - h * CELL, ytop, 40)
-    att = Attitudes.from_arrays(ax, ay, np.full(40, DIP_DIRECTION - 90.0), np.full(40, DIP))
-    dem = Dem.open(path)
+    ax = rng.uniform(X0, X0 + w * CELL, 60)
+    ay = rng.uniform(YTOP - h * CELL, YTOP, 60)
+    strike, dip = attitude_at(ax, ay)
     column = Column(tuple(Unit(nm, t or 500.0) for nm, t in zip(NAMES, THICK, strict=True)))
-    yield column, md, dem, att
-    dem.close()
+    return column, MapData(units, "unit"), Dem.open(path), Attitudes.from_arrays(
+        ax, ay, strike, dip)
+
+
+X0, YTOP = 700_000.0, 4_070_000.0
+CENTRE = np.array([X0 + 403 * CELL / 2, YTOP - 344 * CELL / 2])
+
+
+def _below(x, y, z, dip, dip_direction, z0):
+    """Distance below the plane through (CENTRE, z0) of the given attitude, along its normal."""
+    n = _pole(dip, dip_direction)
+    return -((x - CENTRE[0]) * n[0] + (y - CENTRE[1]) * n[1] + (z - z0) * n[2])
+
+
+@pytest.fixture(scope="module")
+def layer_cake(tmp_path_factory):
+    """A tilted layer-cake (invented): every unit dips DIP toward DIP_DIRECTION."""
+    z0 = float(np.median(_jacksboro()))
+    out = _drape(tmp_path_factory.mktemp("cake"),
+                 lambda x, y, z: _below(x, y, z, DIP, DIP_DIRECTION, z0),
+                 lambda x, y: (np.full(len(x), DIP_DIRECTION - 90.0), np.full(len(x), DIP)))
+    yield out
+    out[2].close()
+
+
+# An anticline (invented) of two planar limbs, kink style: the limbs meet along a hinge
+# through the map's centre, the layers keep their thickness (parallel folding) and the
+# axial surface bisects the limbs (Suppe 1985, Principles of Structural Geology).
+LIMBS = ((15.0, 315.0), (28.0, 135.0))
+
+
+def _fold_depth(x, y, z, z0):
+    # Below a convex-up corner the parallel layer at depth t is where the smaller of the
+    # distances below the two limb planes equals t.
+    return np.minimum(*(_below(x, y, z, d, a, z0) for d, a in LIMBS))
+
+
+@pytest.fixture(scope="module")
+def fold(tmp_path_factory):
+    z0 = float(np.median(_jacksboro())) + 650.0
+
+    def attitude_at(x, y):
+        from scipy.ndimage import map_coordinates
+
+        elev = _jacksboro()
+        z = map_coordinates(elev, [(YTOP - y) / CELL - 0.5, (x - X0) / CELL - 0.5], order=1)
+        first = _below(x, y, z, *LIMBS[0], z0) <= _below(x, y, z, *LIMBS[1], z0)
+        dip = np.where(first, LIMBS[0][0], LIMBS[1][0])
+        return np.where(first, LIMBS[0][1], LIMBS[1][1]) - 90.0, dip
+
+    out = _drape(tmp_path_factory.mktemp("fold"), lambda x, y, z: _fold_depth(x, y, z, z0),
+                 attitude_at)
+    yield out
+    out[2].close()
 
 
 def test_layer_cake_on_a_real_dem_within_5_percent(layer_cake):
@@ -190,3 +233,25 @@ def test_sample_area_thicknesses_within_10_percent(sample_estimate):
     # Both sides of the Kelmby Thrust contribute.
     blocks = {b for u in sample_estimate.units for b in u.blocks}
     assert {"hanging wall of Kelmby Thrust", "footwall of Kelmby Thrust"} <= blocks
+
+
+def test_fold_limbs_get_their_own_planes_within_5_percent(fold):
+    column, md, dem, att = fold
+    est = estimate_column(column, md, dem.sample, att, dem.pixel_size)
+    limbs = {round(d) for d, _ in LIMBS}
+    for c in est.contacts:
+        # every plane is one limb's (dip within 1 degree), never a mixture of the two
+        assert min(abs(c.plane.dip - d) for d in limbs) < 1.0, c
+    for name, true in zip(NAMES, THICK, strict=True):
+        if true is None:
+            continue
+        u = est.unit(name)
+        assert u.kind == "measured", (name, u.why)
+        # truth: the invented fold's thicknesses
+        assert u.thickness == pytest.approx(true, rel=0.05), name
+        dips = {round(est_dip) for g in u.groups
+                for est_dip in [next(c.plane.dip for c in est.contacts
+                                     if c.block == g.block and c.domain == g.domain)]}
+        assert dips == limbs, name  # measured on both limbs
+        for g in u.groups:
+            assert g.thickness == pytest.approx(true, rel=0.05), (name, g.domain)

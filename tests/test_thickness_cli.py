@@ -15,6 +15,8 @@ from mapsection.cli.main import cli
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_area"
 PROJECT = SAMPLE / "project.toml"
+UNITS = ["Brantel Shale", "Osk Sandstone", "Merrin Siltstone", "Talvo Limestone",
+         "Dunmarrow Dolomite", "Hesk Quartzite"]
 
 
 def _run(*args):
@@ -131,11 +133,8 @@ def _rows(output: str) -> dict[str, str]:
 
 
 def test_sample_area_with_map_thicknesses_passes_like_the_given_ones(tmp_path):
-    # Every unit "map" except the oldest: its base is not exposed anywhere, so the map only
-    # bounds it from below (see docs/column.md) and a number must be given.
-    units = ["Brantel Shale", "Osk Sandstone", "Merrin Siltstone", "Talvo Limestone",
-             "Dunmarrow Dolomite"]
-    project = _copy(tmp_path, lambda t: _map_thickness(t, units))
+    # Every unit "map"; the youngest and the oldest take the lower bounds their outcrops give.
+    project = _copy(tmp_path, lambda t: _map_thickness(t, UNITS))
     given = _run("check", PROJECT)
     mapped = _run("check", project)
     assert _rows(given.stdout) and set(_rows(given.stdout).values()) == {"PASS"}
@@ -149,14 +148,14 @@ def test_build_library_and_check_from_with_map_thicknesses(tmp_path):
     # the written section.gpkg checked back (check --from reads the column the same way).
     from mapsection.build import build_project
 
-    units = ["Brantel Shale", "Osk Sandstone", "Merrin Siltstone", "Talvo Limestone",
-             "Dunmarrow Dolomite"]
-    project = _copy(tmp_path, lambda t: _map_thickness(t, units))
+    project = _copy(tmp_path, lambda t: _map_thickness(t, UNITS))
     said: list[str] = []
     folders = build_project(project, tmp_path / "out", section="A", warn=said.append,
                             workers=1)
     assert [f.name for f in folders] == ["A"]
-    assert sum("thickness from the map" in m for m in said) == 4  # said once, not per section
+    # said once for the build, not once per section
+    assert sum("thickness from the map" in m for m in said) == 4
+    assert sum("a lower bound" in m for m in said) == 2
     res = _run("check", project, "--from", folders[0] / "section.gpkg")
     assert res.exit_code == 0, res.output
     assert set(_rows(res.stdout).values()) == {"PASS"}
