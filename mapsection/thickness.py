@@ -15,25 +15,37 @@ Geometrical Techniques* (Cambridge University Press), the chapters on the
 three-point problem and on thickness and depth of strata.
 
 Folded and faulted ground: one plane does not fit a contact that crosses a
-hinge or a fault. The contact points are therefore split into groups first:
+hinge or a fault. Each contact is therefore fitted by several planes:
 
-- *fault blocks*: the side of each mapped fault trace (extended straight past its
-  ends to the map's edge) a point lies on; a side is named the hanging wall where
-  the fault's dip direction points into it;
-- *dip domains*: the bedding attitudes of each block are clustered by orientation
-  (poles within ``tolerance`` degrees, average linkage) and each cluster is split
-  into spatially connected parts (neighbours in the Delaunay triangulation of the
-  block's attitudes); a contact point takes the domain of its nearest attitude in
-  its block.
+- *fault blocks*: a point belongs to the side of each mapped fault trace
+  (extended straight past its ends to the map's edge) it lies on; a side is
+  named the hanging wall where the fault's dip direction points into it. Points
+  within two pixels of a fault trace are left out (units juxtaposed across a
+  fault are no contact).
+- *dip domains*: the bedding attitudes are clustered by orientation (poles
+  within ``tolerance`` degrees, average linkage).
+- *seeds*: in each block the contact points are grouped by the cluster of their
+  nearest attitude, and split into connected stretches that share a plane; and
+  for each cluster, the points lying on a plane of the cluster's mean attitude
+  are found by a vote over their offsets along its pole (a Hough transform), so
+  that a stretch whose nearest attitudes lie across a hinge still finds its limb.
+- *k-planes refinement*: each point of a block goes to the plane it lies closest
+  to (within three RMS, at least half a pixel) and the planes are refitted,
+  three times (the k-planes scheme: Bradley & Mangasarian 2000, J. Global
+  Optimization 16). A plane's dip domain is the attitude cluster closest to it
+  in orientation; a plane more than ``tolerance`` degrees from every cluster
+  (points of two limbs, or a contact bent through a hinge) is left out, and
+  planes of one domain that coincide are merged.
 
-Each contact is fitted by one plane per group (points further than three robust
-standard deviations from it are dropped, twice), and a unit's thickness is
-measured between its top and base planes *of the same group*, then averaged over
-the groups weighted by their uncertainty.
+Each plane is fitted robustly (points further than three robust standard
+deviations, at least half a pixel, are dropped until none changes). A unit's
+top and base planes of one block and domain that are each other's nearest face
+each other across its outcrop; its thickness is measured between them, then
+averaged over such pairs weighted by their uncertainty.
 
 Uncertainty: a moving-block bootstrap (Kunsch 1989, Annals of Statistics 17):
-the points of each contact are resampled in runs of ``chunk`` pixels along the
-trace (neighbouring points share the same DEM and mapping errors, so single points
+the points of each contact are resampled in runs of ten consecutive points along
+the trace (neighbouring points share the same DEM and mapping errors, so single points
 are not independent), both planes are refitted and the thickness recomputed, 200
 times with a fixed seed; the uncertainty is twice the standard deviation of
 those thicknesses (about a 95 % interval). Combined over groups (weights: one
