@@ -255,3 +255,18 @@ def test_fold_limbs_get_their_own_planes_within_5_percent(fold):
         assert dips == limbs, name  # measured on both limbs
         for g in u.groups:
             assert g.thickness == pytest.approx(true, rel=0.05), (name, g.domain)
+
+
+def test_fault_blocks_name_the_hanging_wall_by_dip_direction():
+    # Definition (any structural geology text): the hanging wall lies above the fault plane,
+    # on the side toward which the fault dips. A north-south trace dipping east: points to
+    # the east are in the hanging wall, also beyond the trace's ends (extended straight).
+    from mapsection.thickness import fault_blocks
+
+    trace = shapely.LineString([(0, 0), (0, 1000)])
+    x = np.array([100.0, -100.0, 100.0, -100.0])
+    y = np.array([500.0, 500.0, 3000.0, -2000.0])
+    got = fault_blocks(x, y, [trace], ["F1"], [90.0])
+    assert list(got) == ["hanging wall of F1", "footwall of F1", "hanging wall of F1",
+                         "footwall of F1"]
+    assert set(fault_blocks(x, y, [])) == {"the map"}

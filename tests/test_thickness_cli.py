@@ -55,6 +55,17 @@ def test_column_table_and_pasteable_block(tmp_path):
             assert new.get(key) == old.get(key)
         # truth: the model's column (sample area), within 10 %
         assert new["thickness"] == pytest.approx(old["thickness"], rel=0.10)
+    # pasted in place of the project's column, it loads
+    from mapsection.project import load_project
+
+    text = PROJECT.read_text(encoding="utf-8")
+    head, rest = text.split("[[stratigraphy]]", 1)
+    sections = "# Section A" + rest.split("# Section A", 1)[1]
+    for name in ("dem.tif", "geology.gpkg", "attitudes.csv"):
+        shutil.copy(SAMPLE / name, tmp_path / name)
+    pasted = tmp_path / "pasted.toml"
+    pasted.write_text(head + out.read_text(encoding="utf-8") + "\n" + sections, encoding="utf-8")
+    assert load_project(pasted).column.names == [u["unit"] for u in given]
 
 
 def test_output_onto_an_input_is_refused(tmp_path):
