@@ -237,15 +237,21 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
         with contextlib.ExitStack() as folders_in_progress:
             with _stage(timings, "load"):
                 inputs = load_inputs(project, warn)
+                column_said: list[str] = []  # thickness = "map": said once, and in build.log
+
+                def say(message: str) -> None:
+                    column_said.append(message)
+                    warn(message)
+
                 try:
-                    project = resolve_map_thicknesses(project, inputs, warn)
+                    project = resolve_map_thicknesses(project, inputs, say)
                 except BaseException:
                     inputs.close()
                     raise
             jobs = []
             try:
                 for spec in specs:
-                    said: list[str] = []
+                    said: list[str] = list(column_said)
                     draft = build_section(project, spec, method=method, ve=ve,
                                           warn=_section_warn(warn, spec.name, said),
                                           inputs=inputs, timings=timings)

@@ -234,6 +234,9 @@ def load_project(path: str | os.PathLike) -> Project:
             raise r.fail("colour", f"must be '#rrggbb', got {colour!r}")
         # "map": measured from the map's contacts when the inputs are loaded (thickness.py)
         from_map = r.table.get("thickness") == "map"
+        if isinstance(r.table.get("thickness"), str) and not from_map:
+            raise r.fail("thickness", f'must be a number of metres or "map", '
+                                      f'got {r.table["thickness"]!r}')
         thickness = math.nan if from_map else r.get("thickness", float)
         if thickness <= 0:
             raise r.fail("thickness", f"must be > 0 m or \"map\", got {thickness}")

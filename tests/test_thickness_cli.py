@@ -113,7 +113,7 @@ def test_map_thickness_in_the_project_file_is_accepted(tmp_path):
     bad = _copy(tmp_path, lambda t: t.replace("thickness = 180.0", 'thickness = "mapped"'))
     res = _run("column", bad)
     assert res.exit_code == 2
-    assert "stratigraphy[3].thickness" in res.stderr
+    assert "stratigraphy[3].thickness" in res.stderr and '"map"' in res.stderr
 
 
 def test_given_thickness_far_from_the_map_is_said(tmp_path):
@@ -167,6 +167,8 @@ def test_build_library_and_check_from_with_map_thicknesses(tmp_path):
     # said once for the build, not once per section
     assert sum("thickness from the map" in m for m in said) == 4
     assert sum("a lower bound" in m for m in said) == 2
+    log = (folders[0] / "build.log").read_text(encoding="utf-8")
+    assert "thickness from the map" in log  # the build's record says which figures it used
     res = _run("check", project, "--from", folders[0] / "section.gpkg")
     assert res.exit_code == 0, res.output
     assert set(_rows(res.stdout).values()) == {"PASS"}
