@@ -13,6 +13,7 @@ from ..errors import OutputError
 from ._common import note, warn
 
 HEADER = ("unit", "given_m", "map_m", "+/-_m", "points", "spread_m", "misfit_deg", "blocks")
+PLANES = ("contact", "block", "dip_domain", "strike/dip", "points", "rms_m", "misfit_deg")
 
 
 def _num(value, digits: int = 0) -> str:
@@ -39,7 +40,9 @@ def command(project: str, output: str | None) -> None:
     95 %, block bootstrap), the contact points used, their RMS distance from the
     planes (spread), the mean angle between the planes and the attitudes nearby
     (misfit) and the fault blocks. "min" marks a lower bound: a unit with only
-    one contact mapped is at least as thick as its outcrop reaches.
+    one contact mapped is at least as thick as its outcrop reaches. A second table
+    lists every contact plane: its fault block, dip domain, strike/dip
+    (right-hand rule), points, RMS residual and misfit to the attitudes nearby.
 
     With -o, FILE.toml receives the column as [[stratigraphy]] tables, youngest
     first, with the map's thicknesses and the column's other keys, to paste into
@@ -70,9 +73,15 @@ def command(project: str, output: str | None) -> None:
         rows.append((u.name, given, value if e.kind != "none" else "-", _num(e.uncertainty, 1),
                      str(e.n_points) if e.n_points else "-", _num(e.spread, 1),
                      _num(e.misfit_deg, 1), "; ".join(e.blocks) or "-"))
-    widths = [max(len(r[k]) for r in rows) for k in range(len(HEADER))]
-    for r in rows:
-        click.echo("  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)).rstrip())
+    _table(rows)
+    click.echo("")
+    planes = [PLANES]
+    for c in est.contacts:
+        p = c.plane
+        planes.append((f"{c.upper} / {c.lower}", c.block, c.domain,
+                       f"{p.strike:03.0f}/{p.dip:.1f}", str(p.n_points), _num(p.rms, 1),
+                       _num(c.misfit_deg, 1)))
+    _table(planes)
     for u in proj.column.units:
         e = est.unit(u.name)
         if e.kind != "measured":
@@ -81,6 +90,12 @@ def command(project: str, output: str | None) -> None:
         with atomic_file(output) as tmp:
             tmp.write_text(stratigraphy_toml(proj.column, est), encoding="utf-8")
         note(f"wrote the [[stratigraphy]] block to {output}")
+
+
+def _table(rows: list[tuple[str, ...]]) -> None:
+    widths = [max(len(r[k]) for r in rows) for k in range(len(rows[0]))]
+    for r in rows:
+        click.echo("  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)).rstrip())
 
 
 def _check_output(path: Path, proj) -> None:
