@@ -57,9 +57,10 @@ Where a unit has only one mapped contact (the youngest unit, whose top is the
 ground, or the oldest exposed unit) the map gives only a lower bound: the unit's
 outcrop reaches that far from its one contact, measured perpendicular to it.
 
-This module reads no file: the map, the attitudes and a DEM sampling function
-come in loaded (see :func:`estimate_column`, and :func:`resolve_map_thicknesses`
-for a loaded project).
+The estimator reads no file: the map, the attitudes and a DEM sampling function
+come in loaded (:func:`estimate_column`; :func:`project_estimate` and
+:func:`resolve_map_thicknesses` for a project's loaded inputs). The one edge that
+reads a project's files is :func:`measure_column`.
 """
 
 from __future__ import annotations
@@ -900,6 +901,25 @@ def project_estimate(project: Project, inputs: ProjectInputs) -> ColumnEstimate:
                           float(dem.pixel_size))
     inputs._column_estimate = est
     return est
+
+
+def measure_column(project: Project, warn: Warn | None = None) -> ColumnEstimate:
+    """Read a project's map, attitudes and DEM and measure its column from the map (the edge).
+
+    Examples
+    --------
+    >>> from mapsection.project import load_project
+    >>> est = measure_column(load_project("sample_area/project.toml"))  # doctest: +SKIP
+    >>> est.unit("Talvo Limestone").thickness  # doctest: +SKIP
+    180.0...
+    """
+    from .session import load_inputs
+
+    inputs = load_inputs(project, warn)
+    try:
+        return project_estimate(project, inputs)
+    finally:
+        inputs.close()
 
 
 def suggestion(estimate: ColumnEstimate) -> float | None:

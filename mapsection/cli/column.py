@@ -54,17 +54,12 @@ def command(project: str, output: str | None) -> None:
       mapsection column sample_area/project.toml -o column.toml
     """
     from ..project import load_project
-    from ..session import load_inputs
-    from ..thickness import project_estimate, stratigraphy_toml
+    from ..thickness import measure_column, stratigraphy_toml
 
     proj = load_project(project)
     if output is not None:
         _check_output(Path(output), proj)
-    inputs = load_inputs(proj, warn)
-    try:
-        est = project_estimate(proj, inputs)
-    finally:
-        inputs.close()
+    est = measure_column(proj, warn)
     rows = [HEADER]
     for u in proj.column.units:
         e = est.unit(u.name)
