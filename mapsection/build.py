@@ -45,6 +45,7 @@ from .draft import Draft
 from .errors import OutputError
 from .project import Project, SectionSpec, load_project
 from .session import ProjectInputs, SectionSession, load_inputs
+from .thickness import resolve_map_thicknesses
 
 if TYPE_CHECKING:
     from .checks import CheckReport, KeyFigures
@@ -85,15 +86,14 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     spec = _overridden(project.section(spec), method, ve)
     warn = warn or _default_warn
     with _stage(timings, "section data"):
-        if inputs is None:
-            session = SectionSession.from_project(project, spec, warn)
-        else:
-            session = SectionSession.from_inputs(inputs, project, spec, warn)
+        own = inputs is None
+        inputs = load_inputs(project, warn) if own else inputs
         try:
-            data = session.run()
+            project = resolve_map_thicknesses(project, inputs, warn)  # thickness = "map"
+            data = SectionSession.from_inputs(inputs, project, spec, warn).run()
         finally:
-            if inputs is None:
-                session.close()
+            if own:
+                inputs.close()
     with _stage(timings, "construction"):
         return build_draft(
             data.line, data.profile, data.geology, data.dips, project.column,
@@ -202,10 +202,21 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
         with contextlib.ExitStack() as folders_in_progress:
             with _stage(timings, "load"):
                 inputs = load_inputs(project, warn)
+                column_said: list[str] = []  # thickness = "map": said once, and in build.log
+
+                def say(message: str) -> None:
+                    column_said.append(message)
+                    warn(message)
+
+                try:
+                    project = resolve_map_thicknesses(project, inputs, say)
+                except BaseException:
+                    inputs.close()
+                    raise
             jobs = []
             try:
                 for spec in specs:
-                    said: list[str] = []
+                    said: list[str] = list(column_said)
                     draft = build_section(project, spec,
                                           warn=_section_warn(warn, spec.name, said),
                                           inputs=inputs, timings=timings)

@@ -196,11 +196,17 @@ def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _de
         warn_fn(f"{path}: was built for section {recorded!r}; checking it as section "
                 f"{spec.name!r} as asked")
     check_recorded_line(path, project, spec)
-    if inputs is not None:
+    from .session import load_inputs
+    from .thickness import resolve_map_thicknesses
+
+    own = inputs is None
+    inputs = load_inputs(project, warn_fn) if own else inputs
+    try:
+        project = resolve_map_thicknesses(project, inputs, warn_fn)  # thickness = "map"
         data = SectionSession.from_inputs(inputs, project, spec, warn=warn_fn).run()
-    else:
-        with SectionSession.from_project(project, spec, warn=warn_fn) as session:
-            data = session.run()
+    finally:
+        if own:
+            inputs.close()
     draft = read_section_gpkg(path, project.column, data.line, spec.name, profile=data.profile,
                               geology=data.geology, dips=data.dips)
     return draft

@@ -8,6 +8,7 @@ wrong key is reported with its key path and the file's name, e.g.
 
 from __future__ import annotations
 
+import math
 import os
 import tomllib
 from dataclasses import dataclass, field
@@ -236,7 +237,12 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
         colour = r.get("colour", str, None) or r.get("color", str, None)
         if colour is not None and not _is_hex_colour(colour):
             raise r.fail("colour", f"must be '#rrggbb', got {colour!r}")
-        thickness = r.number("thickness")
+        # "map": measured from the map's contacts when the inputs are loaded (thickness.py)
+        from_map = r.table.get("thickness") == "map"
+        if isinstance(r.table.get("thickness"), str) and not from_map:
+            raise r.fail("thickness", f'must be a number of metres or "map", '
+                                      f'got {r.table["thickness"]!r}')
+        thickness = math.nan if from_map else r.number("thickness")
         units.append(
             Unit(
                 r.text("unit"),
@@ -244,6 +250,7 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
                 colour,
                 r.get("age", str, None),
                 r.get("lithology", str, None),
+                from_map,
             )
         )
     try:

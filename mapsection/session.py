@@ -44,6 +44,7 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
     from .foldaxis import FoldAxis
     from .project import Project, SectionSpec
     from .readers.dem import Dem
+    from .thickness import ColumnEstimate
 
 
 
@@ -67,6 +68,9 @@ class ProjectInputs:
     attitudes: Attitudes
     dem: Dem
     _axis: FoldAxis | None = None
+    # thickness = "map": the map's estimate of the column, made once (mapsection.thickness)
+    _column_estimate: ColumnEstimate | None = None
+    _thickness_said: bool = False
 
     def axis(self) -> FoldAxis:
         """The fold axis of all attitudes (Woodcock 1977), for down-plunge projection."""

@@ -25,6 +25,9 @@ class Unit:
     colour: str | None = None  # "#rrggbb"
     age: str | None = None  # chronostratigraphic name, e.g. "Jurassic" (for chart colours)
     lithology: str | None = None
+    # thickness = "map" in the project file: measured from the map when the inputs are
+    # loaded (mapsection.thickness); thickness is NaN until then.
+    thickness_from_map: bool = False
 
 
 @dataclass(frozen=True)
@@ -41,6 +44,8 @@ class Column:
         if dup:
             raise StratigraphyError(f"stratigraphy: unit(s) listed twice: {', '.join(sorted(dup))}")
         for i, u in enumerate(self.units):
+            if u.thickness_from_map and np.isnan(u.thickness):
+                continue
             if not np.isfinite(u.thickness) or u.thickness <= 0:
                 raise StratigraphyError(
                     f"stratigraphy[{i}] ({u.name}): thickness must be > 0 m, got {u.thickness}"

@@ -26,6 +26,8 @@ COMMANDS = {
     "dips": ("dips", "Project the bedding attitudes within a corridor into the section plane."),
     "axis": ("axis", "Fold axis of the bedding: the pi-axis of the pole orientation tensor "
                      "(Woodcock 1977)."),
+    "column": ("column", "Measure each unit's thickness from the map: contacts on the DEM "
+                         "fitted by planes."),
     "build": ("build", "Construct the draft section of each section line of a project and "
                        "write its outputs."),
     "check": ("check", "Run the topography, restoration, area-balance and kinematics tests "
