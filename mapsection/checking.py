@@ -153,7 +153,10 @@ def check_section(project, spec, from_path: Path | None = None,
         draft = build_section(project, spec, warn=warn_fn)
     else:
         draft = edited_draft(project, spec, from_path, warn_fn)
-    return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
+    from .build import _stage
+
+    with _stage(None, "checks"):  # tells a progress display (see mapsection.build)
+        return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
 
 
 def write_html_report(path: Path, draft, report) -> Path:

@@ -33,7 +33,11 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
     same horizons and faults as 3D lines in the project CRS), section.png/.svg/.pdf
     (the figure), build.log, and the balance checks: checks.json, report.html,
     restored.png/.svg/.pdf, area_depth.png and sequence/ (frames and a GIF).
-    A previous build of a section is replaced only once the new one is complete.
+    A previous build of a section is replaced only once the new one is complete;
+    a folder there that is not a previous build (no build.log of a build) is never
+    replaced, nor one that is or holds an input. A second build into OUTDIR waits
+    for the first. Progress goes to stderr; stdout gets one line per section
+    folder with its tests' PASS or FAIL.
 
     \b
     Example (the sample area):
@@ -41,8 +45,12 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
       mapsection build sample_area/project.toml -o out --section B --method arc --ve 2
     """
     from ..build import build_project
+    from ..checking import summary_from_json
+    from ._progress import Progress
 
-    folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn)
+    with Progress() as progress:
+        folders = build_project(project, outdir, section=section, method=method, ve=ve,
+                                warn=warn, note=note, progress=progress)
     for folder in folders:
-        click.echo(str(folder))
+        click.echo(f"{folder}: {summary_from_json(folder / 'checks.json')}")
     note(f"built {len(folders)} section(s); each is a draft to be reviewed")

@@ -8,7 +8,8 @@ from pathlib import Path
 import click
 
 from .. import CAUTION
-from ._common import note, warn
+from ._common import echo, note, warn
+from ._progress import Progress
 
 
 @click.command(
@@ -35,6 +36,9 @@ def command(outdir: str) -> None:
       mapsection demo -o demo_out
     """
     from ..build import build_project
+    from ..outputs import check_output
+
+    check_output(outdir, ())  # an empty OUTDIR would be the current folder
     from ..checking import summary_from_json
     from ..sample import sample_project
 
@@ -50,9 +54,11 @@ def command(outdir: str) -> None:
         runs = [("sample area", project, out)]
         if flawed.is_file():
             runs.append(("flawed variant (one unit 40 % too thick)", flawed, out / "flawed"))
-        for title, proj, dest in runs:
-            folders = build_project(proj, dest, warn=warn)
-            click.echo(f"{title}: {proj.name}")
-            for folder in folders:
-                click.echo(f"  {folder}: {summary_from_json(Path(folder) / 'checks.json')}")
+        with Progress() as progress:
+            for title, proj, dest in runs:
+                # The header first: this project's warnings follow it.
+                echo(f"{title}: {proj.name}")
+                folders = build_project(proj, dest, warn=warn, note=note, progress=progress)
+                for folder in folders:
+                    echo(f"  {folder}: {summary_from_json(Path(folder) / 'checks.json')}")
     click.echo(f"CAUTION: {CAUTION}")

@@ -18,6 +18,7 @@ from ..dips import METHODS, in_corridor, project_attitudes
 from ..errors import OutputError, ParameterError
 from ..foldaxis import fold_axis, recommended_azimuth
 from ..line import projected_line, read_line
+from ..outputs import check_output, file_inputs
 from ._common import note, warn
 
 COLUMNS = ("id", "distance_m", "offset_m", "elevation_m", "strike", "dip", "apparent_dip",
@@ -89,6 +90,8 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
     """
     if not np.isfinite(corridor) or corridor <= 0:
         raise ParameterError(f"--corridor {corridor:g} must be a distance in metres > 0")
+    check_output(output, file_inputs(("attitudes file", attitudes), ("line file", line),
+                                     ("DEM", dem_path)))
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     with Dem.open(dem_path) as dem:

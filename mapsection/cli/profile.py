@@ -13,6 +13,7 @@ from .._atomic import atomic_file
 from ..dem import Dem
 from ..errors import OutputError, ParameterError
 from ..line import projected_line
+from ..outputs import check_output, file_inputs
 from ..profile import profile, resolve_line
 from ._common import note, warn
 
@@ -67,6 +68,7 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
           -- "-115.6204,47.1146;-115.5224,47.0659"
     """
     step_m = _step(step)
+    check_output(output, file_inputs(("DEM", dem), ("line file", line)))
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     with atomic_file(output) as tmp, Dem.open(dem) as d:

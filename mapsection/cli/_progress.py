@@ -1,0 +1,152 @@
+"""What a long command is doing, on stderr, so that it is never silent for long.
+
+On a terminal one line is redrawn in place (``mapsection: section A: construction 3 s``)
+and cleared at the end. Piped or redirected, plain lines are written instead
+(``mapsection: progress: section A: construction (3 s)``), but only once nothing
+has been said for :data:`QUIET` seconds: a command that is quick, or stops at once
+on bad input, writes no progress line at all.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import sys
+import threading
+import time
+from collections.abc import Iterator
+from typing import TextIO
+
+QUIET = 1.5  # seconds without a line before a plain progress line is written
+TICK = 0.25  # seconds between redraws of the terminal line
+
+
+class Progress:
+    """A ``progress(section, stage)`` callback with a display thread; use as a context."""
+
+    def __init__(self, stream: TextIO | None = None, tty: bool | None = None,
+                 quiet: float = QUIET) -> None:
+        self.stream = stream if stream is not None else sys.stderr
+        if tty is None:
+            isatty = getattr(self.stream, "isatty", None)
+            tty = bool(isatty and isatty())
+        self.tty = tty
+        self.quiet = quiet
+        self._lock = threading.RLock()
+        self._label = ""
+        self._since = time.monotonic()  # start of the current stage
+        self._said = time.monotonic()  # last line written
+        self._shown = 0  # width of the terminal line now shown
+        self._stop = threading.Event()
+        self._thread: threading.Thread | None = None
+
+    # --- the callback --------------------------------------------------------------------
+    def __call__(self, section: str, stage: str) -> None:
+        label = f"section {section}: {stage}" if section and stage else section or stage
+        with self._lock:
+            if label != self._label:
+                self._label, self._since = label, time.monotonic()
+            if self.tty:
+                self._draw()
+
+    # --- messages while the display runs ------------------------------------------------------
+    def echo(self, line: str) -> None:
+        """Write a message line (a warning, a note) without mixing it into the progress line."""
+        with self._lock:
+            self._clear()
+            self._write(line + "\n")
+            self._said = time.monotonic()
+            if self.tty:
+                self._draw()
+
+    def stdout(self, line: str) -> None:
+        """Write a result line on stdout, the progress line cleared first."""
+        import click
+
+        with self._lock:
+            self._clear()
+            click.echo(line)
+            if self.tty:
+                self._draw()
+
+    # --- display -------------------------------------------------------------------------------
+    def _write(self, text: str) -> None:
+        try:
+            self.stream.write(text)
+            self.stream.flush()
+        except (OSError, ValueError):  # a closed stream: progress is not worth a failure
+            pass
+
+    def _clear(self) -> None:
+        if self._shown:
+            self._write("\r\x1b[K")
+            self._shown = 0
+
+    def _draw(self) -> None:
+        if not self._label:
+            self._clear()
+            return
+        secs = int(time.monotonic() - self._since)
+        text = f"mapsection: {self._label}" + (f" {secs} s" if secs else "")
+        self._write("\r\x1b[K" + text)
+        self._shown = len(text)
+
+    def _tick(self) -> None:
+        with self._lock:
+            now = time.monotonic()
+            if self.tty:
+                self._draw()
+            elif self._label and now - self._said >= self.quiet:
+                secs = now - self._since
+                self._write(f"mapsection: progress: {self._label}"
+                            + (f" ({secs:.0f} s)" if secs >= 1 else "") + "\n")
+                self._said = now
+
+    def _run(self) -> None:
+        while not self._stop.wait(TICK):
+            self._tick()
+
+    def start(self) -> None:
+        if self._thread is None:
+            self._stop.clear()
+            self._thread = threading.Thread(target=self._run, name="mapsection-progress",
+                                            daemon=True)
+            self._thread.start()
+
+    def stop(self) -> None:
+        thread, self._thread = self._thread, None
+        if thread is not None:
+            self._stop.set()
+            thread.join()
+        with self._lock:
+            self._clear()
+
+    @contextlib.contextmanager
+    def paused(self) -> Iterator[None]:
+        """No display thread within the block (e.g. while worker processes are forked)."""
+        running = self._thread is not None
+        self.stop()
+        try:
+            yield
+        finally:
+            if running:
+                self.start()
+
+    def __enter__(self) -> Progress:
+        global _ACTIVE
+        _ACTIVE = self
+        self._said = time.monotonic()
+        self.start()
+        return self
+
+    def __exit__(self, *exc) -> None:
+        global _ACTIVE
+        self.stop()
+        _ACTIVE = None
+
+
+_ACTIVE: Progress | None = None
+
+
+def active() -> Progress | None:
+    """The progress display running now, if any (messages go through its ``echo``)."""
+    return _ACTIVE
