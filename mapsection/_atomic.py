@@ -26,7 +26,7 @@ import tempfile
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
-from .errors import OutputError
+from .errors import MapsectionError, OutputError
 
 try:  # POSIX advisory locks; where there are none, folder swaps are not locked
     import fcntl
@@ -205,10 +205,33 @@ def folder_lock(folder: str | os.PathLike, waiting: Callable[[str], None] | None
 
 
 # --- write errors ----------------------------------------------------------------------------
-def write_problem(exc: BaseException) -> str | None:
-    """What a file-system write error says, in a few words; None for any other error."""
+def _disk_full(folder: str | os.PathLike | None) -> bool:
+    """True when the file system of ``folder`` has (almost) no space left for us."""
+    if folder is None or not hasattr(os, "statvfs"):
+        return False
+    try:
+        st = os.statvfs(folder)
+    except OSError:
+        return False
+    return st.f_bavail * st.f_frsize < _NEARLY_FULL
+
+
+_NEARLY_FULL = 1 << 20  # bytes: below this, a failed write is taken for a full disk
+
+
+def write_problem(exc: BaseException, folder: str | os.PathLike | None = None) -> str | None:
+    """What a file-system write error says, in a few words; None for any other error.
+
+    Writer libraries (GDAL, SQLite) do not always say that the disk is full ("Failed
+    to commit transaction"): any failure while the file system of ``folder`` has
+    next to no space left counts as a full disk.
+    """
     if isinstance(exc, OSError) and exc.errno in _WRITE_ERRNOS | _ACCESS_ERRNOS:
         return os.strerror(exc.errno)
+    if isinstance(exc, MapsectionError) and not isinstance(exc, OutputError):
+        return None  # bad input found while the output was being made: not a write error
+    if isinstance(exc, Exception) and _disk_full(folder):
+        return os.strerror(errno.ENOSPC)
     if isinstance(exc, OutputError):
         return None
     text = str(exc).lower()
@@ -220,7 +243,9 @@ def write_problem(exc: BaseException) -> str | None:
 
 def output_error(path: Path, exc: BaseException) -> OutputError | None:
     """An OutputError naming ``path`` for a write error of the file system, else None."""
-    why = write_problem(exc)
+    if isinstance(exc, OutputError) and "nothing was written" in str(exc):
+        return None  # said already
+    why = write_problem(exc, Path(path).parent)
     if why is None:
         return None
     return OutputError(f"{path}: cannot write the output ({why}); nothing was written")

@@ -280,7 +280,13 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     try:
         with contextlib.ExitStack() as folders_in_progress:
             # One build at a time writes into OUTDIR: a second one waits here.
-            folders_in_progress.enter_context(folder_lock(outdir, waiting=note, create=True))
+            def waiting(message: str) -> None:
+                note(message)
+                if progress is not None:
+                    progress("", "waiting for another build into the output folder")
+
+            folders_in_progress.enter_context(folder_lock(outdir, waiting=waiting,
+                                                          create=True))
             for gone in remove_stale(outdir):
                 note(f"removed {gone}, left by a build that was stopped")
             for spec, target in zip(specs, targets, strict=True):
@@ -379,6 +385,9 @@ def _write_job_named(job: _Job, map_data: Any) -> tuple[list[str], dict[str, flo
         err = output_error(job.target, exc)
         if err is not None:
             raise err from None
+        if isinstance(exc, OutputError) and str(job.folder) in str(exc):
+            # name the section folder, not its temporary (which is gone)
+            raise OutputError(str(exc).replace(str(job.folder), str(job.target))) from None
         raise
 
 

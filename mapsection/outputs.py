@@ -174,15 +174,16 @@ def check_output(output: str | os.PathLike | None, inputs: Inputs, *,
     if output is None or str(output).strip() == "":
         raise OutputError(f"{option}: empty output path; give a file or folder name")
     out = Path(output)
+    shown = os.fspath(output)  # as the user wrote it
     for label, inp in inputs:
         if inp is None or str(inp) == "":
             continue
         relation = _relation(out, Path(inp))
         if relation == "is":
-            raise OutputError(f"{option} {out}: is the {label} {inp}; writing it would replace "
+            raise OutputError(f"{option} {shown}: is the {label} {inp}; writing it would replace "
                               f"an input (choose another output path)")
         if relation == "contains":
-            raise OutputError(f"{option} {out}: holds the {label} {inp}; replacing it would "
+            raise OutputError(f"{option} {shown}: holds the {label} {inp}; replacing it would "
                               f"delete an input (choose another output path)")
     return out
 

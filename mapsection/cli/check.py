@@ -25,12 +25,12 @@ from ._progress import Progress
               type=click.Path(dir_okay=False, path_type=Path),
               help="Check the horizons and faults of this section.gpkg (e.g. edited in a GIS) "
                    "instead of building the section.")
-@click.option("--json", "json_path", metavar="FILE", type=click.Path(path_type=Path),
+@click.option("--json", "json_path", metavar="FILE", type=click.Path(),
               help="Also write the results as JSON (one section only).")
-@click.option("--html", "html_path", metavar="FILE", type=click.Path(path_type=Path),
+@click.option("--html", "html_path", metavar="FILE", type=click.Path(),
               help="Also write a self-contained HTML report with its figures (one section only).")
 def command(project_file: str, section_name: str | None, from_path: Path | None,
-            json_path: Path | None, html_path: Path | None) -> None:
+            json_path: str | None, html_path: str | None) -> None:
     """Run the topography, restoration, area-balance and kinematics tests and print a table.
 
     Without --from, each section is built from the project's data exactly as
@@ -72,6 +72,8 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
         if path is not None:
             check_output(path, sources, option=option)
     check_distinct([("--json", json_path), ("--html", html_path)])
+    json_path = Path(json_path) if json_path is not None else None
+    html_path = Path(html_path) if html_path is not None else None
 
     all_passed = True
     with Progress() as progress:
