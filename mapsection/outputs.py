@@ -142,7 +142,7 @@ def _relation(output: Path, inp: Path) -> str | None:
 
 
 def check_output(output: str | os.PathLike | None, inputs: Inputs, *,
-                 option: str = "-o") -> Path:
+                 option: str = "-o", file: bool = False) -> Path:
     """The output path, once it is sure that writing it destroys no input.
 
     Parameters
@@ -153,6 +153,8 @@ def check_output(output: str | os.PathLike | None, inputs: Inputs, *,
         The command's input files, e.g. ``[("DEM", "dem.tif")]``; None paths are skipped.
     option : str
         How the user gave the output (``-o``, ``--json``), for the message.
+    file : bool
+        The output is a file: an existing folder there is refused as such.
 
     Returns
     -------
@@ -175,6 +177,8 @@ def check_output(output: str | os.PathLike | None, inputs: Inputs, *,
         raise OutputError(f"{option}: empty output path; give a file or folder name")
     out = Path(output)
     shown = os.fspath(output)  # as the user wrote it
+    if file and out.is_dir():
+        raise OutputError(f"{option} {shown}: is a folder; give the name of the file to write")
     for label, inp in inputs:
         if inp is None or str(inp) == "":
             continue

@@ -103,7 +103,10 @@ def test_two_builds_into_one_folder_both_finish_whole(tmp_path):
     with folder_lock(out):  # held here: both builds must wait for it, then take turns
         procs = [_build_process(out) for _ in range(2)]
         for p in procs:
-            firsts.append(p.stderr.readline())  # blocks until the build says something
+            line = p.stderr.readline()  # blocks until the build says something
+            while line.startswith("mapsection: progress:"):
+                line = p.stderr.readline()
+            firsts.append(line)
         assert [p.poll() for p in procs] == [None, None]  # waiting, not failed
         assert list(out.iterdir()) == []  # nothing written while the lock is held
     results = [p.communicate(timeout=300) for p in procs]
@@ -152,3 +155,20 @@ def test_lock_is_reentrant_and_leaves_no_file(tmp_path):
         with atomic_dir(tmp_path / "X") as tmp:  # a swap under the build's own lock
             (tmp / "f").write_text("x")
     assert sorted(os.listdir(tmp_path)) == ["X"]
+
+
+def test_a_killed_writers_temporary_file_goes_with_the_next_write(tmp_path):
+    from mapsection._atomic import atomic_file
+
+    done = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True, check=True)
+    host = owner_tag().split("-")[1]
+    dead = tmp_path / f".prof.csv.mstmp-{host}-{int(done.stdout)}-0-abc.csv"
+    dead.write_text("half a profile")
+    live = tmp_path / f".prof.csv.{owner_tag()}def.csv"
+    live.write_text("being written by this process")
+    other = tmp_path / f".dips.csv.mstmp-{host}-{int(done.stdout)}-0-abc.csv"
+    other.write_text("another output's: left for its own next write")
+    with atomic_file(tmp_path / "prof.csv") as tmp:
+        tmp.write_text("distance_m\n")
+    assert sorted(os.listdir(tmp_path)) == sorted([live.name, other.name, "prof.csv"])

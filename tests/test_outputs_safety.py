@@ -76,6 +76,10 @@ OUTPUT_CASES = {
     "profile -o DEM": (["profile", "dem.tif", LINE_A, "-o", "dem.tif"], ["-o dem.tif", "DEM"]),
     "profile -o DEM by another spelling": (
         ["profile", "dem.tif", LINE_A, "-o", "../p/./dem.tif"], ["../p/./dem.tif", "dem.tif"]),
+    "profile -o the data folder": (["profile", "dem.tif", LINE_A, "-o", "."],
+                                   ["-o .", "is a folder"]),
+    "check --json the data folder": (["check", "project.toml", "--section", "A", "--json", "."],
+                                     ["--json .", "is a folder"]),
     "profile -o empty": (["profile", "dem.tif", LINE_A, "-o", ""], ["-o", "empty"]),
     "dips -o attitudes": (["dips", "attitudes.csv", LINE_A, "--dem", "dem.tif", "--corridor",
                            "500", "-o", "attitudes.csv"], ["-o attitudes.csv", "attitudes file"]),

@@ -11,12 +11,18 @@ import json
 import time
 from pathlib import Path
 
+import pytest
 from click.testing import CliRunner
 
 from mapsection.cli._progress import Progress
 from mapsection.cli.main import cli
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_area" / "project.toml"
+
+
+@pytest.fixture(autouse=True)
+def _progress_display_on(monkeypatch):
+    monkeypatch.setenv("MAPSECTION_PROGRESS", "auto")  # conftest turns it off elsewhere
 
 
 class _Tty(io.StringIO):
@@ -36,6 +42,16 @@ def test_plain_lines_only_after_a_quiet_spell():
     assert lines[0] == "mapsection: warning: something"
     assert lines[1].startswith("mapsection: progress: section A: construction")
     assert "\r" not in stream.getvalue()  # piped: plain lines only
+
+
+def test_off_means_off(monkeypatch):
+    monkeypatch.setenv("MAPSECTION_PROGRESS", "off")
+    stream = _Tty()
+    with Progress(stream, quiet=0.0) as progress:
+        progress("A", "construction")
+        time.sleep(0.4)
+        progress.echo("mapsection: warning: still said")
+    assert stream.getvalue() == "mapsection: warning: still said\n"
 
 
 def test_terminal_line_is_redrawn_and_cleared():

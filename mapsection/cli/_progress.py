@@ -4,12 +4,15 @@ On a terminal one line is redrawn in place (``mapsection: section A: constructio
 and cleared at the end. Piped or redirected, plain lines are written instead
 (``mapsection: progress: section A: construction (3 s)``), but only once nothing
 has been said for :data:`QUIET` seconds: a command that is quick, or stops at once
-on bad input, writes no progress line at all.
+on bad input, writes no progress line at all. The environment variable
+``MAPSECTION_PROGRESS=off`` turns the display off (scripts that want stderr to hold
+warnings and errors only; the test suite).
 """
 
 from __future__ import annotations
 
 import contextlib
+import os
 import sys
 import threading
 import time
@@ -31,16 +34,21 @@ class Progress:
             tty = bool(isatty and isatty())
         self.tty = tty
         self.quiet = quiet
+        self.enabled = os.environ.get("MAPSECTION_PROGRESS", "auto").strip().lower() not in (
+            "off", "0", "no", "false")
         self._lock = threading.RLock()
         self._label = ""
         self._since = time.monotonic()  # start of the current stage
         self._said = time.monotonic()  # last line written
         self._shown = 0  # width of the terminal line now shown
+        self._text = ""  # and its text
         self._stop = threading.Event()
         self._thread: threading.Thread | None = None
 
     # --- the callback --------------------------------------------------------------------
     def __call__(self, section: str, stage: str) -> None:
+        if not self.enabled:
+            return
         label = f"section {section}: {stage}" if section and stage else section or stage
         with self._lock:
             if label != self._label:
@@ -65,6 +73,7 @@ class Progress:
         with self._lock:
             self._clear()
             click.echo(line)
+            self._said = time.monotonic()
             if self.tty:
                 self._draw()
 
@@ -87,8 +96,10 @@ class Progress:
             return
         secs = int(time.monotonic() - self._since)
         text = f"mapsection: {self._label}" + (f" {secs} s" if secs else "")
+        if self._shown and text == self._text:
+            return  # unchanged: nothing to redraw
         self._write("\r\x1b[K" + text)
-        self._shown = len(text)
+        self._shown, self._text = len(text), text
 
     def _tick(self) -> None:
         with self._lock:
@@ -106,7 +117,7 @@ class Progress:
             self._tick()
 
     def start(self) -> None:
-        if self._thread is None:
+        if self._thread is None and self.enabled:
             self._stop.clear()
             self._thread = threading.Thread(target=self._run, name="mapsection-progress",
                                             daemon=True)

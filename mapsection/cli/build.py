@@ -44,11 +44,13 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
       mapsection build sample_area/project.toml -o out
       mapsection build sample_area/project.toml -o out --section B --method arc --ve 2
     """
-    from ..build import build_project
-    from ..checking import summary_from_json
     from ._progress import Progress
 
     with Progress() as progress:
+        progress("", "starting")
+        from ..build import build_project
+        from ..checking import summary_from_json
+
         folders = build_project(project, outdir, section=section, method=method, ve=ve,
                                 warn=warn, note=note, progress=progress)
     for folder in folders:

@@ -35,30 +35,31 @@ def command(outdir: str) -> None:
     Example:
       mapsection demo -o demo_out
     """
-    from ..build import build_project
     from ..outputs import check_output
 
     check_output(outdir, ())  # an empty OUTDIR would be the current folder
-    from ..checking import summary_from_json
-    from ..sample import sample_project
-
     out = Path(outdir)
-    with tempfile.TemporaryDirectory(prefix="mapsection-sample-") as tmp:
+    with Progress() as progress, tempfile.TemporaryDirectory(prefix="mapsection-sample-") as tmp:
+        progress("", "starting")
+        from ..build import build_project
+        from ..checking import summary_from_json
+        from ..sample import sample_project
+
         project = sample_project()
         if project is None:
             from ..sample import generate
 
             note("sample_area/ not found beside the package: generating it")
+            progress("", "generating the sample area")
             project = generate(tmp)["project.toml"]
         flawed = project.with_name("project_flawed.toml")
         runs = [("sample area", project, out)]
         if flawed.is_file():
             runs.append(("flawed variant (one unit 40 % too thick)", flawed, out / "flawed"))
-        with Progress() as progress:
-            for title, proj, dest in runs:
-                # The header first: this project's warnings follow it.
-                echo(f"{title}: {proj.name}")
-                folders = build_project(proj, dest, warn=warn, note=note, progress=progress)
-                for folder in folders:
-                    echo(f"  {folder}: {summary_from_json(Path(folder) / 'checks.json')}")
+        for title, proj, dest in runs:
+            # The header first: this project's warnings follow it.
+            echo(f"{title}: {proj.name}")
+            folders = build_project(proj, dest, warn=warn, note=note, progress=progress)
+            for folder in folders:
+                echo(f"  {folder}: {summary_from_json(Path(folder) / 'checks.json')}")
     click.echo(f"CAUTION: {CAUTION}")

@@ -91,7 +91,7 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
     if not np.isfinite(corridor) or corridor <= 0:
         raise ParameterError(f"--corridor {corridor:g} must be a distance in metres > 0")
     check_output(output, file_inputs(("attitudes file", attitudes), ("line file", line),
-                                     ("DEM", dem_path)))
+                                     ("DEM", dem_path)), file=True)
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     with Dem.open(dem_path) as dem:

@@ -68,7 +68,7 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
           -- "-115.6204,47.1146;-115.5224,47.0659"
     """
     step_m = _step(step)
-    check_output(output, file_inputs(("DEM", dem), ("line file", line)))
+    check_output(output, file_inputs(("DEM", dem), ("line file", line)), file=True)
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     with atomic_file(output) as tmp, Dem.open(dem) as d:
