@@ -56,28 +56,40 @@ STAGES = ("load", "section data", "construction", "checks", "check figures", "fi
           "geopackages")
 
 
-# Told the name of each stage as it starts (see reporting); None when nobody listens.
-_stage_hook: Callable[[str], None] | None = None
+# Told (section, stage) as each stage starts (see listen, reporting); None: nobody listens.
+_listener: Progress | None = None
+_section = ""  # the section in progress
+
+
+def listen(progress: Progress | None) -> None:
+    """Tell ``progress`` every stage of every build from now on (None: stop telling).
+
+    This is how the command line shows the progress of ``build``, ``check`` and ``demo``.
+    """
+    global _listener
+    _listener = progress
 
 
 @contextlib.contextmanager
 def reporting(progress: Progress | None, section: str) -> Iterator[None]:
-    """Within the block, tell ``progress`` each stage of ``section`` as it starts."""
-    global _stage_hook
-    before = _stage_hook
+    """Within the block, stages are those of ``section``, told to ``progress`` (when given,
+    else to the listener)."""
+    global _listener, _section
+    before = _listener, _section
     if progress is not None:
-        _stage_hook = lambda stage: progress(section, stage)  # noqa: E731
+        _listener = progress
+    _section = section
     try:
         yield
     finally:
-        _stage_hook = before
+        _listener, _section = before
 
 
 @contextlib.contextmanager
 def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
     """Add the wall time of the block to ``timings[name]`` (when timings are kept)."""
-    if _stage_hook is not None:
-        _stage_hook(name)
+    if _listener is not None:
+        _listener(_section, name)
     t0 = time.perf_counter()
     try:
         yield
@@ -103,11 +115,18 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     ``inputs`` (from :func:`load_inputs`) share the loaded map, attitudes and DEM
     between sections; without them they are read for this section alone.
     """
-    from .construct import build_draft
-
     _check_options(method, ve)
     if isinstance(spec, str):
         spec = project.section(spec)
+    with reporting(None, spec.name):
+        return _build_section(project, spec, method, ve, warn, inputs, timings)
+
+
+def _build_section(project: Project, spec: SectionSpec, method: str | None, ve: float | None,
+                   warn: Warn | None, inputs: ProjectInputs | None,
+                   timings: dict[str, float] | None) -> Draft:
+    from .construct import build_draft
+
     warn = warn or _default_warn
     line = SectionLine(np.asarray(spec.line, float), project.crs, spec.name)
     with _stage(timings, "section data"):
@@ -258,6 +277,7 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     _check_options(method, ve)
     warn = warn or _default_warn
     note = note or (lambda message: None)
+    progress = progress if progress is not None else _listener
     check_output(outdir, ())  # an empty OUTDIR would be the current folder
     with _stage(timings, "load"):
         if progress is not None:
@@ -436,8 +456,8 @@ def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None,
         _QUEUE[0] = None
         if queue is not None:
             queue.close()
-    for job, (said, timings) in zip(jobs, results, strict=True):
-        yield job, said, timings
+    for job, result in zip(jobs, results, strict=True):
+        yield (job, *result)
 
 
 def _folder_name(name: str) -> str:

@@ -153,9 +153,9 @@ def check_section(project, spec, from_path: Path | None = None,
         draft = build_section(project, spec, warn=warn_fn)
     else:
         draft = edited_draft(project, spec, from_path, warn_fn)
-    from .build import _stage
+    from .build import _stage, reporting
 
-    with _stage(None, "checks"):  # tells a progress display (see mapsection.build)
+    with reporting(None, spec.name), _stage(None, "checks"):  # told to a progress display
         return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
 
 

@@ -66,10 +66,17 @@ def test_terminal_line_is_redrawn_and_cleared():
     assert text.endswith("\r\x1b[K")  # the progress line is gone at the end
 
 
-def test_build_prints_the_verdict_of_each_section(tmp_path):
+def test_build_shows_progress_and_prints_the_verdict_of_each_section(tmp_path, monkeypatch):
+    import mapsection.cli._progress as progress_module
+
+    monkeypatch.setattr(progress_module, "QUIET", 0.1)  # a line after 0.1 s without one
     result = CliRunner().invoke(cli, ["build", str(SAMPLE), "-o", str(tmp_path / "o"),
                                       "--section", "A"])
     assert result.exit_code == 0, result.output
+    said = [ln for ln in result.stderr.splitlines() if ln.startswith("mapsection: progress:")]
+    assert any("section A: construction" in ln for ln in said), result.stderr
+    assert any("section A: figures" in ln for ln in said), result.stderr
+    assert "\r" not in result.stderr  # not a terminal: plain lines
     out = result.stdout.splitlines()
     checks = json.loads((tmp_path / "o" / "A" / "checks.json").read_text())
     want = "  ".join(f"{k} {'PASS' if checks[k]['passed'] else 'FAIL'}"

@@ -4,30 +4,28 @@ from __future__ import annotations
 
 import click
 
-from ._progress import active
-
-
-def _say(line: str) -> None:
-    progress = active()
-    if progress is not None:
-        progress.echo(line)  # not mixed into the progress line
-    else:
-        click.echo(line, err=True)
-
 
 def warn(message: str) -> None:
     """One-line warning on stderr."""
-    _say(f"mapsection: warning: {message}")
+    click.echo(f"mapsection: warning: {message}", err=True)
 
 
 def note(message: str) -> None:
-    _say(f"mapsection: note: {message}")
+    click.echo(f"mapsection: note: {message}", err=True)
 
 
-def echo(line: str) -> None:
-    """A result line on stdout (the progress line, if shown, cleared first)."""
-    progress = active()
-    if progress is not None:
-        progress.stdout(line)
-    else:
-        click.echo(line)
+def verdict(folder) -> str:
+    """Each test PASS or FAIL, from the checks.json of a build's section folder."""
+    import json
+    from pathlib import Path
+
+    from ..errors import OutputError
+
+    path = Path(folder) / "checks.json"
+    try:
+        d = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        raise OutputError(f"{path}: cannot read the check results ({exc})") from None
+    tests = ("topography", "restoration", "area_balance", "kinematics")
+    return "  ".join(f"{k} {'PASS' if (d.get(k) or {}).get('passed') else 'FAIL'}"
+                     for k in tests)

@@ -27,13 +27,13 @@ class Progress:
     """A ``progress(section, stage)`` callback with a display thread; use as a context."""
 
     def __init__(self, stream: TextIO | None = None, tty: bool | None = None,
-                 quiet: float = QUIET) -> None:
+                 quiet: float | None = None) -> None:
         self.stream = stream if stream is not None else sys.stderr
         if tty is None:
             isatty = getattr(self.stream, "isatty", None)
             tty = bool(isatty and isatty())
         self.tty = tty
-        self.quiet = quiet
+        self.quiet = QUIET if quiet is None else quiet
         self.enabled = os.environ.get("MAPSECTION_PROGRESS", "auto").strip().lower() not in (
             "off", "0", "no", "false")
         self._lock = threading.RLock()
@@ -62,17 +62,6 @@ class Progress:
         with self._lock:
             self._clear()
             self._write(line + "\n")
-            self._said = time.monotonic()
-            if self.tty:
-                self._draw()
-
-    def stdout(self, line: str) -> None:
-        """Write a result line on stdout, the progress line cleared first."""
-        import click
-
-        with self._lock:
-            self._clear()
-            click.echo(line)
             self._said = time.monotonic()
             if self.tty:
                 self._draw()
@@ -143,21 +132,67 @@ class Progress:
                 self.start()
 
     def __enter__(self) -> Progress:
-        global _ACTIVE
-        _ACTIVE = self
         self._said = time.monotonic()
+        # Whatever else is written (results, warnings) first clears the progress line.
+        self._streams = (sys.stdout, sys.stderr)
+        if self.enabled:
+            sys.stdout, sys.stderr = _Clearing(sys.stdout, self), _Clearing(sys.stderr, self)
         self.start()
         return self
 
     def __exit__(self, *exc) -> None:
-        global _ACTIVE
         self.stop()
-        _ACTIVE = None
+        if isinstance(sys.stdout, _Clearing) and sys.stdout._progress is self:
+            sys.stdout = self._streams[0]
+        if isinstance(sys.stderr, _Clearing) and sys.stderr._progress is self:
+            sys.stderr = self._streams[1]
 
 
-_ACTIVE: Progress | None = None
+class _Clearing:
+    """A text stream that clears the progress line before each write to it."""
+
+    def __init__(self, stream: TextIO, progress: Progress) -> None:
+        self._stream = stream
+        self._progress = progress
+
+    def write(self, text: str) -> int:
+        progress = self._progress
+        with progress._lock:
+            progress._clear()
+            n = self._stream.write(text)
+            if text.endswith("\n"):
+                progress._said = time.monotonic()
+        return n
+
+    def __getattr__(self, name: str):
+        return getattr(self._stream, name)
 
 
-def active() -> Progress | None:
-    """The progress display running now, if any (messages go through its ``echo``)."""
-    return _ACTIVE
+_RUNNING: list[Progress] = []  # the display of the command running now, if any
+
+
+def start_progress(ctx=None) -> Progress:
+    """Show the progress of the running command until it ends (``ctx`` closes; default:
+    the current click context). Started already: the running display.
+
+    The stages of :mod:`mapsection.build` (also when ``check`` builds a section) are
+    reported without being passed the display.
+    """
+    import click
+
+    if _RUNNING:
+        return _RUNNING[0]
+    progress = Progress().__enter__()
+    _RUNNING.append(progress)
+    progress("", "starting")
+    from .. import build  # after the display has started: importing takes a while
+
+    build.listen(progress)
+
+    def end() -> None:
+        build.listen(None)
+        progress.__exit__(None, None, None)
+        _RUNNING.clear()
+
+    (ctx or click.get_current_context()).call_on_close(end)
+    return progress

@@ -6,7 +6,8 @@ import click
 
 from .. import CAUTION
 from ..project import METHODS
-from ._common import note, warn
+from ._common import note, verdict, warn
+from ._progress import start_progress
 
 
 @click.command(
@@ -44,15 +45,11 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
       mapsection build sample_area/project.toml -o out
       mapsection build sample_area/project.toml -o out --section B --method arc --ve 2
     """
-    from ._progress import Progress
+    start_progress()
+    from ..build import build_project
 
-    with Progress() as progress:
-        progress("", "starting")
-        from ..build import build_project
-        from ..checking import summary_from_json
-
-        folders = build_project(project, outdir, section=section, method=method, ve=ve,
-                                warn=warn, note=note, progress=progress)
+    folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn,
+                            note=note)
     for folder in folders:
-        click.echo(f"{folder}: {summary_from_json(folder / 'checks.json')}")
+        click.echo(f"{folder}: {verdict(folder)}")  # the line demo prints for a section
     note(f"built {len(folders)} section(s); each is a draft to be reviewed")

@@ -7,9 +7,24 @@ from pathlib import Path
 import click
 
 from .. import CAUTION
+from ..checking import check_section, infer_section, summary_lines, write_html_report
 from ..errors import CheckError
-from ._common import echo, warn
-from ._progress import Progress
+from ._common import warn
+from ._progress import start_progress
+
+
+def _outputs(project, from_path: Path | None, json_path: str | None, html_path: str | None
+             ) -> tuple[Path | None, Path | None]:
+    """--json and --html as paths, once sure that neither replaces an input or the other."""
+    from ..outputs import check_distinct, check_output, project_inputs
+
+    sources = [*project_inputs(project), ("--from file", from_path)]
+    for option, path in (("--json", json_path), ("--html", html_path)):
+        if path is not None:
+            check_output(path, sources, option=option, file=True)
+    check_distinct([("--json", json_path), ("--html", html_path)])
+    return (None if json_path is None else Path(json_path),
+            None if html_path is None else Path(html_path))
 
 
 @click.command(
@@ -51,54 +66,30 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
       mapsection build sample_area/project.toml -o out
       mapsection check sample_area/project.toml --from out/A/section.gpkg
     """
-    from ..outputs import check_distinct, check_output, project_inputs
-
-    with Progress() as progress:
-        progress("", "starting")
-        from ..project import load_project
-
-        project = load_project(project_file)
-        if section_name is not None:
-            specs = [project.section(section_name)]
-        elif from_path is not None:
-            from ..checking import infer_section
-
-            specs = [infer_section(project, from_path)]
-        else:
-            specs = list(project.sections)
-        if (json_path or html_path) and len(specs) > 1:
-            raise CheckError("--json/--html: write one section at a time; add --section NAME")
-        # Neither output may replace an input, nor the other output.
-        sources = [*project_inputs(project), ("--from file", from_path)]
-        for option, path in (("--json", json_path), ("--html", html_path)):
-            if path is not None:
-                check_output(path, sources, option=option, file=True)
-        check_distinct([("--json", json_path), ("--html", html_path)])
-        json_path = Path(json_path) if json_path is not None else None
-        html_path = Path(html_path) if html_path is not None else None
-        all_passed = _check_all(progress, project, specs, from_path, json_path, html_path)
-    click.echo("all tests pass" if all_passed else "some tests FAIL")
-    click.get_current_context().exit(0 if all_passed else 1)
-
-
-def _check_all(progress: Progress, project, specs, from_path: Path | None,
-               json_path: Path | None, html_path: Path | None) -> bool:
-    """Check each section, print its table, write --json/--html; True when all pass."""
-    from ..build import reporting
-    from ..checking import check_section, summary_lines, write_html_report
     from ..checks import write_checks_json
+    from ..project import load_project
+
+    project = load_project(project_file)
+    if section_name is not None:
+        specs = [project.section(section_name)]
+    elif from_path is not None:
+        specs = [infer_section(project, from_path)]
+    else:
+        specs = list(project.sections)
+    if (json_path or html_path) and len(specs) > 1:
+        raise CheckError("--json/--html: write one section at a time; add --section NAME")
+    json_path, html_path = _outputs(project, from_path, json_path, html_path)
+    start_progress()
 
     all_passed = True
     for spec in specs:
-        with reporting(progress, spec.name):
-            draft, report = check_section(project, spec, from_path, warn)
-            for line in summary_lines(report):
-                echo(line)
-            all_passed &= report.passed
-            if json_path is not None:
-                progress(spec.name, f"writing {json_path}")
-                write_checks_json(report, json_path)
-            if html_path is not None:
-                progress(spec.name, f"writing {html_path}")
-                write_html_report(html_path, draft, report)
-    return all_passed
+        draft, report = check_section(project, spec, from_path, warn)
+        for line in summary_lines(report):
+            click.echo(line)
+        all_passed &= report.passed
+        if json_path is not None:
+            write_checks_json(report, json_path)
+        if html_path is not None:
+            write_html_report(html_path, draft, report)
+    click.echo("all tests pass" if all_passed else "some tests FAIL")
+    click.get_current_context().exit(0 if all_passed else 1)

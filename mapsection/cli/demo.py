@@ -8,8 +8,8 @@ from pathlib import Path
 import click
 
 from .. import CAUTION
-from ._common import echo, note, warn
-from ._progress import Progress
+from ._common import note, warn
+from ._progress import start_progress
 
 
 @click.command(
@@ -38,28 +38,26 @@ def command(outdir: str) -> None:
     from ..outputs import check_output
 
     check_output(outdir, ())  # an empty OUTDIR would be the current folder
-    out = Path(outdir)
-    with Progress() as progress, tempfile.TemporaryDirectory(prefix="mapsection-sample-") as tmp:
-        progress("", "starting")
-        from ..build import build_project
-        from ..checking import summary_from_json
-        from ..sample import sample_project
+    start_progress()
+    from ..build import build_project
+    from ..checking import summary_from_json
+    from ..sample import sample_project
 
+    out = Path(outdir)
+    with tempfile.TemporaryDirectory(prefix="mapsection-sample-") as tmp:
         project = sample_project()
         if project is None:
             from ..sample import generate
 
             note("sample_area/ not found beside the package: generating it")
-            progress("", "generating the sample area")
             project = generate(tmp)["project.toml"]
         flawed = project.with_name("project_flawed.toml")
         runs = [("sample area", project, out)]
         if flawed.is_file():
             runs.append(("flawed variant (one unit 40 % too thick)", flawed, out / "flawed"))
         for title, proj, dest in runs:
-            # The header first: this project's warnings follow it.
-            echo(f"{title}: {proj.name}")
-            folders = build_project(proj, dest, warn=warn, note=note, progress=progress)
+            click.echo(f"{title}: {proj.name}")  # first: this project's warnings follow it
+            folders = build_project(proj, dest, warn=warn, note=note)
             for folder in folders:
-                echo(f"  {folder}: {summary_from_json(Path(folder) / 'checks.json')}")
+                click.echo(f"  {folder}: {summary_from_json(Path(folder) / 'checks.json')}")
     click.echo(f"CAUTION: {CAUTION}")
