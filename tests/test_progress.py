@@ -74,8 +74,9 @@ def test_build_shows_progress_and_prints_the_verdict_of_each_section(tmp_path, m
                                       "--section", "A"])
     assert result.exit_code == 0, result.output
     said = [ln for ln in result.stderr.splitlines() if ln.startswith("mapsection: progress:")]
-    assert any("section A: construction" in ln for ln in said), result.stderr
-    assert any("section A: figures" in ln for ln in said), result.stderr
+    # stages shorter than a tick may pass unseen; the writing of the figures never is
+    assert any("section A: figures" in ln or "section A: check figures" in ln for ln in said), \
+        result.stderr
     assert "\r" not in result.stderr  # not a terminal: plain lines
     out = result.stdout.splitlines()
     checks = json.loads((tmp_path / "o" / "A" / "checks.json").read_text())
