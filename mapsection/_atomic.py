@@ -130,6 +130,13 @@ def remove_stale(folder: str | os.PathLike, name: str | None = None) -> list[Pat
         if owner_alive(int(m["pid"]), int(m["start"])):
             continue
         path = Path(entry.path)
+        prev = path / "prev"
+        target = Path(folder) / m["name"]
+        if (".old." in entry.name and prev.is_dir() and not os.path.lexists(target)
+                and m["name"] == entry.name[1:].split(".old.")[0]):
+            # Killed in the middle of a swap: the previous folder goes back in its place.
+            with contextlib.suppress(OSError):
+                os.replace(prev, target)
         if entry.is_dir(follow_symlinks=False):
             shutil.rmtree(path, ignore_errors=True)
         else:

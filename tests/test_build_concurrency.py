@@ -172,3 +172,18 @@ def test_a_killed_writers_temporary_file_goes_with_the_next_write(tmp_path):
     with atomic_file(tmp_path / "prof.csv") as tmp:
         tmp.write_text("distance_m\n")
     assert sorted(os.listdir(tmp_path)) == sorted([live.name, other.name, "prof.csv"])
+
+
+def test_killed_in_the_middle_of_a_swap_puts_the_previous_folder_back(tmp_path):
+    # killed after the old folder was moved aside and before the new one was moved in
+    done = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True, check=True)
+    host = owner_tag().split("-")[1]
+    aside = tmp_path / f".A.old.mstmp-{host}-{int(done.stdout)}-0-q"
+    (aside / "prev").mkdir(parents=True)
+    (aside / "prev" / "build.log").write_text("mapsection 0.1.0 build of section A\n")
+    new = tmp_path / f".A.mstmp-{host}-{int(done.stdout)}-0-r"
+    new.mkdir()
+    remove_stale(tmp_path)
+    assert sorted(os.listdir(tmp_path)) == ["A"]
+    assert (tmp_path / "A" / "build.log").read_text().startswith("mapsection 0.1.0 build")
