@@ -15,7 +15,11 @@ folder ``OUTDIR/<section name>/`` holding
 
 Each folder is written into a temporary sibling and replaces a previous build
 only once every file of the new one is complete: a failed build leaves the
-previous folder untouched.
+previous folder untouched. A folder is replaced only when it is a previous build
+(it holds the build.log a build writes) or empty, and never when it is or holds an
+input (see :mod:`mapsection.outputs`). A build holds a lock on OUTDIR while it
+writes there (a second build into it waits), and first removes the temporary
+folders a killed build left there (see :mod:`mapsection._atomic`).
 
 The map, the DEM and the attitudes are read once per project and shared by all
 its sections.
@@ -31,13 +35,13 @@ from __future__ import annotations
 import contextlib
 import dataclasses
 import time
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from . import __version__
-from ._atomic import atomic_dir, atomic_file
+from ._atomic import atomic_dir, atomic_file, folder_lock, remove_stale
 from ._messages import Warn
 from ._messages import default_warn as _default_warn
 from .caution import CAUTION
@@ -50,13 +54,46 @@ from .thickness import resolve_map_thicknesses
 if TYPE_CHECKING:
     from .checks import CheckReport, KeyFigures
 
+# progress(section, stage): what a build is doing now ("" for the whole project)
+Progress = Callable[[str, str], None]
 STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
           "geopackages")
+
+
+# Told (section, stage) as each stage starts (see listen, reporting); None: nobody listens.
+_listener: Progress | None = None
+_section = ""  # the section in progress
+
+
+def listen(progress: Progress | None) -> None:
+    """Tell ``progress`` every stage of every build from now on (None: stop telling).
+
+    This is how the command line shows the progress of ``build``, ``check`` and ``demo``.
+    """
+    global _listener
+    _listener = progress
+
+
+@contextlib.contextmanager
+def reporting(progress: Progress | None, section: str) -> Iterator[None]:
+    """Within the block, stages are those of ``section``, told to ``progress`` (when given,
+    else to the listener)."""
+    global _listener, _section
+    before = _listener, _section
+    if progress is not None:
+        _listener = progress
+    _section = section
+    try:
+        yield
+    finally:
+        _listener, _section = before
 
 
 @contextlib.contextmanager
 def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
     """Add the wall time of the block to ``timings[name]`` (when timings are kept)."""
+    if _listener is not None:
+        _listener(_section, name)
     t0 = time.perf_counter()
     try:
         yield
@@ -81,9 +118,15 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
     ``inputs`` (from :func:`load_inputs`) share the loaded map, attitudes and DEM
     between sections; without them they are read for this section alone.
     """
+    spec = _overridden(project.section(spec), method, ve)
+    with reporting(None, spec.name):
+        return _build_section(project, spec, warn, inputs, timings)
+
+
+def _build_section(project: Project, spec: SectionSpec, warn: Warn | None,
+                   inputs: ProjectInputs | None, timings: dict[str, float] | None) -> Draft:
     from .construct import build_draft
 
-    spec = _overridden(project.section(spec), method, ve)
     warn = warn or _default_warn
     with _stage(timings, "section data"):
         own = inputs is None
@@ -166,7 +209,8 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                   method: str | None = None, ve: float | None = None, warn: Warn | None = None,
                   timings: dict[str, float] | None = None,
                   workers: int | None = None,
-                  summaries: dict[Path, KeyFigures] | None = None) -> list[Path]:
+                  summaries: dict[Path, KeyFigures] | None = None,
+                  progress: Progress | None = None, note: Warn | None = None) -> list[Path]:
     """Build every section of a project (or the one named) into ``outdir/<name>/``.
 
     Returns the section folders written. ``timings``, when given, receives the wall
@@ -178,21 +222,40 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
 
     ``summaries``, when given, receives the key figures of each section's checks
     (:func:`mapsection.checks.key_figures`) by section folder.
+
+    ``progress(section, stage)`` is told each stage as it starts; ``note`` receives
+    what the build says that is not a warning (waiting for another build into
+    OUTDIR, temporary folders of a killed build removed).
+
+    Raises OutputError (before anything is read or written) when OUTDIR is empty
+    or a section folder would be, or would hold, an input, or when a section
+    folder is there and is not a previous build (see :mod:`mapsection.outputs`).
     """
+    from .outputs import check_build_target, check_output, project_inputs
+
     warn = warn or _default_warn
+    note = note or (lambda message: None)
+    progress = progress if progress is not None else _listener
+    check_output(outdir, ())  # an empty OUTDIR would be the current folder
     with _stage(timings, "load"):
+        if progress is not None:
+            progress("", "reading the project file")
         project = load_project(project_path, warn)
         specs = [project.section(section)] if section is not None else list(project.sections)
         specs = [_overridden(spec, method, ve) for spec in specs]  # checked once, here
         if ve is not None:
             from .settings import large_note
 
-            if (note := large_note("ve", ve)) is not None:
-                warn(f"--ve: {note}")
+            if (large := large_note("ve", ve)) is not None:
+                warn(f"--ve: {large}")
         outdir = Path(outdir)
         if outdir.exists() and not outdir.is_dir():
             raise OutputError(f"{outdir}: exists and is not a folder")
         created = not outdir.exists()
+        sources = project_inputs(project)
+        targets = [outdir / _folder_name(spec.name) for spec in specs]
+        for spec, target in zip(specs, targets, strict=True):
+            check_build_target(target, sources, spec.name)  # refused before anything is made
         try:
             outdir.mkdir(parents=True, exist_ok=True)
         except OSError as exc:
@@ -200,7 +263,21 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                 from None
     try:
         with contextlib.ExitStack() as folders_in_progress:
+            # One build at a time writes into OUTDIR: a second one waits here.
+            def waiting(message: str) -> None:
+                note(message)
+                if progress is not None:
+                    progress("", "waiting for another build into the output folder")
+
+            folders_in_progress.enter_context(folder_lock(outdir, waiting=waiting,
+                                                          create=True))
+            for gone in remove_stale(outdir):
+                note(f"removed {gone}, left by a build that was stopped")
+            for spec, target in zip(specs, targets, strict=True):
+                check_build_target(target, sources, spec.name)  # again: it may have changed
             with _stage(timings, "load"):
+                if progress is not None:
+                    progress("", "reading the map, the attitudes and the DEM")
                 inputs = load_inputs(project, warn)
                 column_said: list[str] = []  # thickness = "map": said once, and in build.log
 
@@ -215,18 +292,19 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                     raise
             jobs = []
             try:
-                for spec in specs:
+                for spec, target in zip(specs, targets, strict=True):
                     said: list[str] = list(column_said)
-                    draft = build_section(project, spec,
-                                          warn=_section_warn(warn, spec.name, said),
-                                          inputs=inputs, timings=timings)
-                    target = outdir / _folder_name(spec.name)
+                    with reporting(progress, spec.name):
+                        draft = build_section(project, spec,
+                                              warn=_section_warn(warn, spec.name, said),
+                                              inputs=inputs, timings=timings)
                     tmp = folders_in_progress.enter_context(atomic_dir(target))
                     jobs.append(_Job(tmp, draft, project, spec, said, target))
             finally:
                 # Closed before any fork: no GDAL file handle is shared with a worker.
                 inputs.close()
-            for job, said, job_timings, figures in _run_jobs(jobs, inputs.map_data, workers):
+            for job, said, job_timings, figures in _run_jobs(jobs, inputs.map_data, workers,
+                                                             progress):
                 for message in said[len(job.said):]:  # the checks' warnings, said in a worker
                     warn(_named(message, job.spec.name))
                 if timings is not None:
@@ -239,6 +317,8 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
             with contextlib.suppress(OSError):
                 outdir.rmdir()  # only if still empty
         raise
+    if progress is not None:
+        progress("", "")  # done
     return [job.target for job in jobs]
 
 
@@ -281,16 +361,39 @@ def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], K
     return said, timings, key_figures(report)
 
 
-# The jobs of the build in progress, read by forked workers (nothing is pickled but an index).
+# The jobs of the build in progress, read by forked workers (nothing is pickled but an
+# index), and the queue that carries the workers' progress to the parent (or None).
 _JOBS: list[tuple[_Job, Any]] = []
+_QUEUE: list[Any] = [None]
 
 
 def _write_job_at(index: int) -> tuple[list[str], dict[str, float], KeyFigures]:
     job, map_data = _JOBS[index]
-    return _write_job(job, map_data)
+    queue = _QUEUE[0]
+    progress = None if queue is None else (lambda section, stage: queue.put((section, stage)))
+    with reporting(progress, job.spec.name):
+        return _write_job_named(job, map_data)
 
 
-def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None):
+def _write_job_named(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], KeyFigures]:
+    """:func:`_write_job`; a full disk or a folder that cannot be written: OutputError naming
+    the section folder."""
+    from ._atomic import output_error
+
+    try:
+        return _write_job(job, map_data)
+    except Exception as exc:
+        err = output_error(job.target, exc)
+        if err is not None:
+            raise err from None
+        if isinstance(exc, OutputError) and str(job.folder) in str(exc):
+            # name the section folder, not its temporary (which is gone)
+            raise OutputError(str(exc).replace(str(job.folder), str(job.target))) from None
+        raise
+
+
+def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None,
+              progress: Progress | None = None):
     """Yield (job, said, timings, key figures) for each job, writing them in parallel where
     that pays."""
     import multiprocessing
@@ -299,27 +402,49 @@ def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None):
     n = min(len(jobs), workers or os.cpu_count() or 1)
     if n < 2 or "fork" not in multiprocessing.get_all_start_methods():
         for job in jobs:
-            yield (job, *_write_job(job, map_data))
+            with reporting(progress, job.spec.name):
+                result = _write_job_named(job, map_data)
+            yield (job, *result)
         return
-    from concurrent.futures import ProcessPoolExecutor
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
     # Import the drawing and writing code once, here, so that workers inherit it.
     from . import checks, export  # noqa: F401
     from .render import area_depth, report, restoration, section, section_folder  # noqa: F401
     from .render import sequence as render_sequence  # noqa: F401
 
+    context = multiprocessing.get_context("fork")
+    queue = context.SimpleQueue() if progress is not None else None
+
+    def drain() -> None:
+        while queue is not None and not queue.empty():
+            progress(*queue.get())
+
     _JOBS[:] = [(job, map_data) for job in jobs]
+    _QUEUE[0] = queue
+    # A progress display pauses its own thread while the workers are forked.
+    paused = getattr(progress, "paused", None)
     try:
-        with ProcessPoolExecutor(n, mp_context=multiprocessing.get_context("fork")) as pool:
-            results = list(pool.map(_write_job_at, range(len(jobs))))
+        with ProcessPoolExecutor(n, mp_context=context) as pool:
+            with paused() if paused is not None else contextlib.nullcontext():
+                futures = [pool.submit(_write_job_at, i) for i in range(len(jobs))]
+            pending = set(futures)
+            while pending:
+                _, pending = wait(pending, timeout=0.2, return_when=FIRST_COMPLETED)
+                drain()
+            drain()
+            results = [f.result() for f in futures]
     finally:
         _JOBS.clear()
-    for job, (said, timings, figures) in zip(jobs, results, strict=True):
-        yield job, said, timings, figures
+        _QUEUE[0] = None
+        if queue is not None:
+            queue.close()
+    for job, result in zip(jobs, results, strict=True):
+        yield (job, *result)
 
 
 def _folder_name(name: str) -> str:
-    """A section name as a folder name (path separators and the like replaced)."""
-    bad = '<>:"/\\|?*'
-    clean = "".join("_" if c in bad or ord(c) < 32 else c for c in name).strip().strip(".")
-    return clean or "section"
+    """A section name as a folder name (see :func:`mapsection.outputs.folder_name`)."""
+    from .outputs import folder_name
+
+    return folder_name(name)

@@ -230,4 +230,7 @@ def check_section(project, spec, from_path: Path | None = None,
         draft = build_section(project, spec, warn=warn_fn, inputs=inputs)
     else:
         draft = edited_draft(project, spec, from_path, warn_fn, inputs=inputs)
-    return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
+    from .build import _stage, reporting
+
+    with reporting(None, spec.name), _stage(None, "checks"):  # told to a progress display
+        return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)

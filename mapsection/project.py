@@ -264,6 +264,9 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
     dup = sorted({n for n in names if names.count(n) > 1})
     if dup:
         raise ProjectFileError(f"{fname}: section: two sections share the name {dup[0]!r}")
+    from .outputs import check_section_names
+
+    check_section_names(fname, names)  # each section needs a folder of its own
 
     checks = top.sub("checks", required=False)
     thresholds = Thresholds()

@@ -391,3 +391,10 @@ def write_map_variant(src: Path, dst: Path, **layers) -> Path:
         if frame is not None:
             pyogrio.write_dataframe(frame, dst, layer=name, driver="GPKG")
     return dst
+
+
+@pytest.fixture(autouse=True)
+def _no_progress_display(monkeypatch):
+    # Progress lines depend on how fast the machine is; tests that count stderr lines must not
+    # see them. tests/test_progress.py drives the display directly.
+    monkeypatch.setenv("MAPSECTION_PROGRESS", "off")

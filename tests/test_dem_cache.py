@@ -97,3 +97,25 @@ def test_callers_gdal_settings_are_restored(tmp_path):
         with Dem.open(path) as dem:
             dem.sample([X0 + 500.0], [Y_TOP - 500.0])
         assert get_gdal_config("GDAL_CACHEMAX") == 64
+
+
+def test_cache_that_grew_past_its_limit_keeps_working(tmp_path):
+    # Regression (issue 8): one call needing more blocks than the cache holds grows it past
+    # its limit; the next call needing a new block evicted too many slots and failed.
+    # Reference: a plane, which bilinear interpolation reproduces exactly.
+    path = write_tif(tmp_path / "p.tif", plane((256, 256)), block=64)
+    one_block = 64 * 64 * 8  # float64 pixels
+    with Dem(path, cache_bytes=2 * one_block) as d:  # room for 2 blocks
+        assert d._capacity == 2
+        # every block of the first two block rows (8 blocks) in one call
+        x = X0 + CELL * (np.arange(0, 256, 16) + 0.5)
+        y = Y_TOP - CELL * (np.arange(0, 128, 16) + 0.5)
+        xx, yy = np.meshgrid(x, y)
+        np.testing.assert_allclose(d.sample(xx.ravel(), yy.ravel()),
+                                   plane_value(xx.ravel(), yy.ravel()), atol=1e-3)
+        for row in (150.5, 200.5, 250.5, 20.5):  # new blocks, one call each
+            px, py = X0 + CELL * 100.5, Y_TOP - CELL * row
+            np.testing.assert_allclose(d.sample([px], [py]), [plane_value(px, py)], atol=1e-3)
+        assert len(d._slots) <= len(d._pool)
+        # kin: no points at all is no work, not an error
+        assert d.sample(np.empty(0), np.empty(0)).shape == (0,)

@@ -293,3 +293,21 @@ def test_line_in_another_crs_is_measured_in_its_own():
         length = shapely.intersection(line.linestring,
                                       ref.geometry[ref.unit == u].iloc[0]).length
         assert _lengths(geo)[u] == pytest.approx(length, abs=1e-6)
+
+
+def test_line_near_a_fault_that_it_does_not_cross():
+    # Regression (issue 8): the fault's envelope meets the line, the fault does not: the
+    # intersection is empty and the crossing list must be empty too (it raised IndexError).
+    faults = gpd.GeoDataFrame(
+        {"dip": [60.0, 45.0], "dip_direction": [90.0, 270.0], "sense": ["thrust", "normal"],
+         "name": ["Diagonal Fault", "Crossed Fault"]},
+        geometry=[LineString([(0, 200), (200, 0)]), LineString([(250, -50), (250, 250)])],
+        crs=CRS)
+    md = _map(["A"], [box(0, 0, 400, 300)], faults)
+    near = _line((150, 150), (220, 150))  # envelope overlaps the diagonal fault's only
+    assert surface_geology(md, near).faults == ()
+    # with a crossed fault among the candidates, only that one is found (shapely reference)
+    line = _line((150, 150), (300, 150))
+    found = surface_geology(md, line).faults
+    assert [f.name for f in found] == ["Crossed Fault"]
+    assert found[0].distance_m == pytest.approx(100.0)

@@ -13,7 +13,7 @@ from typing import Any
 
 import numpy as np
 
-from .. import CAUTION
+from ..caution import CAUTION
 from ..project import Thresholds
 from .area import AreaBalance
 from .kinematics import Kinematics

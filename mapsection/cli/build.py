@@ -6,7 +6,8 @@ import click
 
 from ..caution import CAUTION
 from ..settings import METHODS
-from ._common import note, warn
+from ._common import note, verdict, warn
+from ._progress import start_progress
 
 
 @click.command(
@@ -33,16 +34,22 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
     same horizons and faults as 3D lines in the project CRS), section.png/.svg/.pdf
     (the figure), build.log, and the balance checks: checks.json, report.html,
     restored.png/.svg/.pdf, area_depth.png and sequence/ (frames and a GIF).
-    A previous build of a section is replaced only once the new one is complete.
+    A previous build of a section is replaced only once the new one is complete;
+    a folder there that is not a previous build (no build.log of a build) is never
+    replaced, nor one that is or holds an input. A second build into OUTDIR waits
+    for the first. Progress goes to stderr; stdout gets one line per section
+    folder with its tests' PASS or FAIL.
 
     \b
     Example (the sample area):
       mapsection build sample_area/project.toml -o out
       mapsection build sample_area/project.toml -o out --section B --method arc --ve 2
     """
+    start_progress()
     from ..build import build_project
 
-    folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn)
+    folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn,
+                            note=note)
     for folder in folders:
-        click.echo(str(folder))
+        click.echo(f"{folder}: {verdict(folder)}")  # the line demo prints for a section
     note(f"built {len(folders)} section(s); each is a draft to be reviewed")

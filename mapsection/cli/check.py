@@ -6,10 +6,25 @@ from pathlib import Path
 
 import click
 
-from .. import CAUTION
+from ..caution import CAUTION
 from ..checking import check_section, infer_section, summary_lines
 from ..errors import CheckError
 from ._common import warn
+from ._progress import start_progress
+
+
+def _outputs(project, from_path: Path | None, json_path: str | None, html_path: str | None
+             ) -> tuple[Path | None, Path | None]:
+    """--json and --html as paths, once sure that neither replaces an input or the other."""
+    from ..outputs import check_distinct, check_output, project_inputs
+
+    sources = [*project_inputs(project), ("--from file", from_path)]
+    for option, path in (("--json", json_path), ("--html", html_path)):
+        if path is not None:
+            check_output(path, sources, option=option, file=True)
+    check_distinct([("--json", json_path), ("--html", html_path)])
+    return (None if json_path is None else Path(json_path),
+            None if html_path is None else Path(html_path))
 
 
 @click.command(
@@ -24,12 +39,12 @@ from ._common import warn
               type=click.Path(dir_okay=False, path_type=Path),
               help="Check the horizons and faults of this section.gpkg (e.g. edited in a GIS) "
                    "instead of building the section.")
-@click.option("--json", "json_path", metavar="FILE", type=click.Path(path_type=Path),
+@click.option("--json", "json_path", metavar="FILE", type=click.Path(),
               help="Also write the results as JSON (one section only).")
-@click.option("--html", "html_path", metavar="FILE", type=click.Path(path_type=Path),
+@click.option("--html", "html_path", metavar="FILE", type=click.Path(),
               help="Also write a self-contained HTML report with its figures (one section only).")
 def command(project_file: str, section_name: str | None, from_path: Path | None,
-            json_path: Path | None, html_path: Path | None) -> None:
+            json_path: str | None, html_path: str | None) -> None:
     """Run the topography, restoration, area-balance and kinematics tests and print a table.
 
     Without --from, each section is built from the project's data exactly as
@@ -67,6 +82,8 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
         specs = list(project.sections)
     if (json_path or html_path) and len(specs) > 1:
         raise CheckError("--json/--html: write one section at a time; add --section NAME")
+    json_path, html_path = _outputs(project, from_path, json_path, html_path)
+    start_progress()
 
     all_passed = True
     # The report's section figure has its location inset on the map, as a build's has.

@@ -7,8 +7,9 @@ from pathlib import Path
 
 import click
 
-from .. import CAUTION
+from ..caution import CAUTION
 from ._common import note, warn
+from ._progress import start_progress
 
 
 @click.command(
@@ -34,6 +35,10 @@ def command(outdir: str) -> None:
     Example:
       mapsection demo -o demo_out
     """
+    from ..outputs import check_output
+
+    check_output(outdir, ())  # an empty OUTDIR would be the current folder
+    start_progress()
     from ..build import build_project
     from ..checking import result_line
     from ..sample import sample_project
@@ -51,9 +56,9 @@ def command(outdir: str) -> None:
         if flawed.is_file():
             runs.append(("flawed variant (one unit 40 % too thick)", flawed, out / "flawed"))
         for title, proj, dest in runs:
+            click.echo(f"{title}: {proj.name}")  # first: this project's warnings follow it
             summaries: dict = {}
-            folders = build_project(proj, dest, warn=warn, summaries=summaries)
-            click.echo(f"{title}: {proj.name}")
+            folders = build_project(proj, dest, warn=warn, note=note, summaries=summaries)
             for folder in folders:
                 click.echo(f"  {folder}: {result_line(summaries[folder])}")
     click.echo(f"CAUTION: {CAUTION}")

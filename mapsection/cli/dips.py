@@ -8,6 +8,7 @@ import click
 
 from ..caution import CAUTION
 from ..errors import OutputError
+from ..outputs import check_output, file_inputs
 from ..settings import CONVENTIONS, PROJECTIONS, check_number, large_note
 from ..tables import write_dips_csv
 from ..tasks import corridor_dips
@@ -59,6 +60,8 @@ def command(attitudes, line, dem_path, corridor, output, projection, convention,
     check_number("corridor", corridor)
     if (large := large_note("corridor", corridor)) is not None:
         warn(f"--corridor: {large}")
+    check_output(output, file_inputs(("attitudes file", attitudes), ("line file", line),
+                                     ("DEM", dem_path)), file=True)
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     found = corridor_dips(attitudes, line, dem_path, corridor, projection=projection,

@@ -46,7 +46,18 @@ Run 'mapsection COMMAND --help' for each command; the user guide is in docs/.
 """
 
 
+# Commands that can run for long: their progress is shown from the start (see _progress).
+_LONG = ("build", "check", "demo")
+
+
 class _LazyGroup(click.Group):
+    def resolve_command(self, ctx: click.Context, args: list[str]):
+        if args and args[0] in _LONG and not {"-h", "--help"} & set(args[1:]):
+            from ._progress import start_progress
+
+            start_progress(ctx)  # before the command's libraries are imported
+        return super().resolve_command(ctx, args)
+
     def list_commands(self, ctx: click.Context) -> list[str]:
         return [n for n in COMMANDS
                 if importlib.util.find_spec(f"{__package__}.{COMMANDS[n][0]}")]

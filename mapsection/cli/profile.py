@@ -10,6 +10,7 @@ import numpy as np
 from .._messages import human
 from ..caution import CAUTION
 from ..errors import OutputError, ParameterError
+from ..outputs import check_output, file_inputs
 from ..tables import write_profile_csv
 from ..tasks import line_profile
 from ._common import note, warn
@@ -63,6 +64,7 @@ def command(dem: str, line: str, output: str, step: str | None, crs: str | None)
           -- "-115.6204,47.1146;-115.5224,47.0659"
     """
     step_m = _step(step)
+    check_output(output, file_inputs(("DEM", dem), ("line file", line)), file=True)
     if Path(output).is_dir():
         raise OutputError(f"{output}: is a folder; give the name of the CSV file to write")
     table = line_profile(dem, line, crs=crs, step=step_m, warn=warn, note=note)

@@ -17,7 +17,8 @@ from pathlib import Path
 import numpy as np
 import pyproj
 import rasterio
-from rasterio.errors import RasterioIOError
+from rasterio._err import CPLE_BaseError
+from rasterio.errors import RasterioError, RasterioIOError
 from rasterio.windows import Window
 
 from .._messages import Warn
@@ -319,7 +320,10 @@ class Dem:
     def _free_slots(self, n: int, keep: int) -> list[int]:
         """``n`` slots for new blocks: evict least recently used, grow the pool if needed."""
         used = len(self._slots)
-        n_evict = max(0, min(used - keep, used + n - self._capacity))
+        # Never more than ``n``: a call that needed more blocks than the cache holds has
+        # grown the pool past its capacity, and evicting down to the capacity would hand
+        # out more slots than blocks to decode.
+        n_evict = max(0, min(used - keep, used + n - self._capacity, n))
         free = []
         for _ in range(n_evict):
             b, slot = self._slots.popitem(last=False)
@@ -357,18 +361,35 @@ class Dem:
         h, w = min(bh, self.height - r0), min(bw, self.width - c0)
         window = Window(c0, r0, w, h)
         out = self._pool[slot]
-        if h == bh and w == bw and self._same_dtype:
-            self._ds.read(1, window=window, out=out)  # decode straight into the cache
-        else:
-            out[:h, :w] = self._ds.read(1, window=window)
-            out[h:, :] = np.nan
-            out[:, w:] = np.nan
+        try:
+            if h == bh and w == bw and self._same_dtype:
+                self._ds.read(1, window=window, out=out)  # decode straight into the cache
+            else:
+                out[:h, :w] = self._ds.read(1, window=window)
+                out[h:, :] = np.nan
+                out[:, w:] = np.nan
+        except (RasterioError, CPLE_BaseError) as exc:  # truncated or corrupt: a block fails
+            first = _gdal_reason(exc)
+            raise DEMError(f"{self.path}: cannot read the pixels of rows {r0}-{r0 + h - 1}, "
+                           f"columns {c0}-{c0 + w - 1}: the file is truncated or corrupt "
+                           f"({first})") from None
         self.blocks_read += 1
+
+
+def _gdal_reason(exc: BaseException) -> str:
+    """GDAL's own reason for a failed read (rasterio's message points to the exception before)."""
+    for e in (exc.__cause__, exc.__context__, exc):
+        text = str(e or "").strip()
+        if text and "see previous exception" not in text.lower():
+            return text.splitlines()[0].rsplit(": ", 1)[-1].rstrip(".")
+    return type(exc).__name__
 
 
 def _distinct(ids: list[np.ndarray], n: int) -> np.ndarray:
     """Sorted distinct values of arrays of non-negative integers below ``n``."""
     size = sum(i.size for i in ids)
+    if size == 0:  # no points (e.g. an empty sample): no blocks
+        return np.zeros(0, np.intp)
     if size * 8 < n:  # few ids among very many blocks: sort them
         s = np.sort(np.concatenate([i.ravel() for i in ids]))
         return s[np.concatenate([[True], s[1:] != s[:-1]])]

@@ -20,8 +20,8 @@ from html import escape
 from pathlib import Path
 from typing import Any
 
-from .. import CAUTION
 from .._atomic import atomic_file
+from ..caution import CAUTION
 from ..checks import TESTS, CheckReport, key_figures
 from ..checks.area import DetachmentFit
 from ..checks.summary import KeyFigures

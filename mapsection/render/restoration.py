@@ -22,8 +22,8 @@ from matplotlib.collections import LineCollection, PathCollection
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
-from .. import CAUTION
 from .._atomic import atomic_file
+from ..caution import CAUTION
 from ..checks.geometry import line_xy
 from ..checks.restore import Restoration
 from .colours import unit_palette

@@ -41,8 +41,8 @@ from matplotlib.patches import PathPatch, Rectangle
 from matplotlib.patches import Polygon as MplPolygon
 from matplotlib.transforms import blended_transform_factory
 
-from .. import CAUTION
 from .._atomic import atomic_file
+from ..caution import CAUTION
 from ..draft import Draft
 from ..errors import ParameterError
 from ..mapdata import MapData

@@ -23,8 +23,8 @@ from matplotlib.collections import LineCollection
 from matplotlib.figure import Figure
 from PIL import Image
 
-from .. import CAUTION
 from .._atomic import atomic_file
+from ..caution import CAUTION
 from ..checks.geometry import line_xy
 from ..checks.sequence import Frame
 from ..errors import CheckError, OutputError
