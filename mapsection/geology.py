@@ -192,6 +192,8 @@ def fault_crossings(map_data: MapData, line: SectionLine, profile: Profile | Non
     pts[is_line] = shapely.line_interpolate_point(parts[is_line], 0.5, normalized=True)
     keep = ~shapely.is_empty(pts)
     pts, owner = pts[keep], owner[keep]
+    if not len(pts):  # the line meets a fault's envelope but not the fault
+        return ()
     dist = shapely.line_locate_point(ls, pts)
     rows = cand[owner]
     # Pieces of one fault meeting at the line give the same point twice: keep one.

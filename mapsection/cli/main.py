@@ -23,6 +23,7 @@ COMMANDS = {
     "build": "build",
     "check": "check",
     "demo": "demo",
+    "view": "view",
 }
 
 HELP = f"""Draft geological cross-sections from a geologic map, a DEM and strike/dip data,
