@@ -176,6 +176,26 @@ def test_section_matches_the_library(state, client):
     assert np.allclose(d["dips"]["apparent_dip"], ref.dips.apparent_dip, atol=0.06)
 
 
+def test_tiled_map_gives_the_same_surface_geology(state):
+    """The page's tiled map (faster moves) gives what the map as read gives."""
+    from mapsection.geology import surface_geology
+    from mapsection.line import SectionLine
+
+    rng = np.random.default_rng(7)
+    base = np.asarray(state.project.section("A").line, float)
+    assert len(state.map_tiles.units) > len(state.inputs.map_data.units)
+    for _ in range(25):
+        v = base + rng.uniform(-2000, 2000, (2, 2))
+        line = SectionLine(v, state.project.crs, "A")
+        a = surface_geology(state.map_tiles, line, warn=lambda m: None)
+        b = surface_geology(state.inputs.map_data, line, warn=lambda m: None)
+        assert [iv.unit for iv in a.intervals] == [iv.unit for iv in b.intervals]
+        assert np.allclose([iv.end_m for iv in a.intervals], [iv.end_m for iv in b.intervals],
+                           atol=1e-6)
+        assert [(c.unit_before, c.unit_after) for c in a.contacts] == \
+            [(c.unit_before, c.unit_after) for c in b.contacts]
+
+
 def test_section_with_draft_and_checks(client, state):
     d = client.post("/api/section", json={"line": _line(state), "section": "A",
                                           "draft": True}).json()
@@ -311,3 +331,47 @@ def test_build_from_the_page(client, project_copy):
 def test_unknown_route_and_method(client):
     assert client.get("/api/nothing").status_code == 404
     assert client.get("/api/section").status_code == 405
+
+
+# --- the command -----------------------------------------------------------------------------
+def test_view_command_serves_and_stops_on_ctrl_c(project_copy):
+    import signal
+    import subprocess
+    import sys
+    import urllib.error
+    import urllib.request
+
+    env = dict(__import__("os").environ)
+    env["PYTHONPATH"] = str(Path(__file__).resolve().parents[1])
+    proc = subprocess.Popen([sys.executable, "-c", "from mapsection.cli.main import cli; cli()", "view",
+                             str(project_copy), "--no-browser", "--port", "0"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    try:
+        url = proc.stdout.readline().strip()
+        assert url.startswith("http://127.0.0.1:") and "?token=" in url
+        for _ in range(300):  # the address is printed as the server starts
+            try:
+                with urllib.request.urlopen(url.replace("/?", "/api/project?"), timeout=30) as r:
+                    assert json.loads(r.read())["sections"]
+                break
+            except urllib.error.URLError:
+                __import__("time").sleep(0.1)
+        else:
+            pytest.fail("the server did not answer")
+        proc.send_signal(signal.SIGINT)
+        assert proc.wait(30) in (0, 1, 130, -signal.SIGINT)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert "Traceback" not in proc.stderr.read()
+
+
+def test_view_command_bad_project_is_one_line(tmp_path):
+    from click.testing import CliRunner
+
+    from mapsection.cli.main import cli
+
+    r = CliRunner().invoke(cli, ["view", str(tmp_path / "none.toml"), "--no-browser"])
+    assert r.exit_code == 2
+    assert r.output.strip().startswith("mapsection: error:") and len(
+        r.output.strip().splitlines()) == 1

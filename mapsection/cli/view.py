@@ -1,4 +1,4 @@
-"""``mapsection view``: the section page, a local web server for drawing and moving section lines."""
+"""``mapsection view``: the section page, a local server for drawing and moving section lines."""
 
 from __future__ import annotations
 
@@ -30,7 +30,8 @@ def free_port(preferred: int = 8765) -> int:
 @click.argument("project", metavar="PROJECT.toml", type=click.Path(dir_okay=False))
 @click.option("--section", metavar="NAME", help="Section shown first [default: the first].")
 @click.option("--port", type=click.IntRange(0, 65535), default=None, metavar="N",
-              help="Port on 127.0.0.1 [default: 8765, or a free one if it is taken].")
+              help="Port on 127.0.0.1; 0 picks a free one [default: 8765, or a free one if "
+                   "it is taken].")
 @click.option("--no-browser", is_flag=True, help="Print the address only; do not open a browser.")
 def command(project: str, section: str | None, port: int | None, no_browser: bool) -> None:
     """Open the section page: draw and move section lines on the map, watch the section redraw.
@@ -50,6 +51,7 @@ def command(project: str, section: str | None, port: int | None, no_browser: boo
     """
     import secrets
     import threading
+    import time
     import webbrowser
 
     import uvicorn
@@ -57,11 +59,17 @@ def command(project: str, section: str | None, port: int | None, no_browser: boo
     from ..web.api import ViewState
     from ..web.app import create_app
 
+    from ..errors import MapsectionError
+
     state = ViewState(project, section, warn=warn)
     try:
+        try:  # the first draft pays for first-call costs: here, not on the page's first request
+            state.warm()
+        except MapsectionError as exc:
+            warn(f"section {state.default_section}: {exc}")
         token = secrets.token_urlsafe(24)
         app = create_app(state, token)
-        port = free_port() if port is None else port
+        port = free_port() if port is None else free_port(0) if port == 0 else port
         url = f"http://127.0.0.1:{port}/?token={token}"
         config = uvicorn.Config(app, host="127.0.0.1", port=port, log_level="warning",
                                 access_log=False, lifespan="off")
@@ -69,7 +77,16 @@ def command(project: str, section: str | None, port: int | None, no_browser: boo
         click.echo(url)
         note("serving the section page on 127.0.0.1 only; Ctrl-C stops it")
         if not no_browser:
-            threading.Timer(0.5, webbrowser.open, (url,)).start()
+            def open_when_ready() -> None:
+                for _ in range(600):
+                    if server.started:
+                        webbrowser.open(url)
+                        return
+                    if server.should_exit:
+                        return
+                    time.sleep(0.05)
+
+            threading.Thread(target=open_when_ready, daemon=True).start()
         server.run()
         if not server.started:
             raise click.ClickException(f"could not listen on 127.0.0.1:{port} (in use?)")

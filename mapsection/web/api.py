@@ -236,8 +236,31 @@ def tiled_map(map_data, cells: int = 24, min_vertices: int = 2000):
     rows, parts = rows[order], parts[poly][order]
     tiles = gpd.GeoDataFrame({map_data.unit_field: units[map_data.unit_field].to_numpy()[rows]},
                              geometry=parts, crs=units.crs)
-    return MapData(tiles, map_data.unit_field, map_data.faults, dict(map_data.fault_fields),
-                   map_data.crs)
+    tiled = MapData(tiles, map_data.unit_field, map_data.faults, dict(map_data.fault_fields),
+                    map_data.crs)
+    object.__setattr__(tiled, "unit_tree", _LineQueryTree(tiled.unit_tree))
+    return tiled
+
+
+class _LineQueryTree:
+    """An STRtree whose plain query with a line keeps only the pieces the line meets.
+
+    The envelope of a diagonal line covers most tiles of a map; the surface
+    geology would intersect the line with each of them. Pieces the line does not
+    meet add nothing to that intersection, so leaving them out changes no result.
+    """
+
+    def __init__(self, tree: STRtree) -> None:
+        self._tree = tree
+
+    def query(self, geometry, predicate=None, **kwargs):
+        if predicate is None and not isinstance(geometry, np.ndarray) \
+                and geometry.geom_type in ("LineString", "MultiLineString"):
+            predicate = "intersects"
+        return self._tree.query(geometry, predicate=predicate, **kwargs)
+
+    def __getattr__(self, name: str):
+        return getattr(self._tree, name)
 
 
 # --- hillshade --------------------------------------------------------------------------

@@ -652,6 +652,8 @@
     window.addEventListener("resize", () => drawSection());
     drawChecks(null, "waiting for the draft");
     selectSection(info.default_section);
+    // For scripted use (tests): set the line in project coordinates, as if drawn.
+    window.__mapsectionSetLine = (pts) => { state.line = pts.map((p) => p.slice()); drawLine(); requestSection(true, performance.now()); };
     document.body.setAttribute("data-ready", "1");
   }
 
