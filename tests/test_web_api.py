@@ -343,7 +343,8 @@ def test_view_command_serves_and_stops_on_ctrl_c(project_copy):
 
     env = dict(__import__("os").environ)
     env["PYTHONPATH"] = str(Path(__file__).resolve().parents[1])
-    proc = subprocess.Popen([sys.executable, "-c", "from mapsection.cli.main import cli; cli()", "view",
+    code = "from mapsection.cli.main import cli; cli()"
+    proc = subprocess.Popen([sys.executable, "-c", code, "view",
                              str(project_copy), "--no-browser", "--port", "0"],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
     try:

@@ -155,8 +155,11 @@ def drag_vertex(page, index: int, dx: float, dy: float, steps: int = 20,
     wait_for_verdicts(page)
 
 
-def browser_timings(url: str, drags: int = 6) -> dict:
-    """Drag-step and drag-end times measured in the page (ms), and what left the machine."""
+def browser_timings(url: str, drags: int = 6, screenshot: Path | None = None) -> dict:
+    """Drag-step and drag-end times measured in the page (ms), and what left the machine.
+
+    With ``screenshot``, the page as first shown (VE 2, the pointer on the map) is saved
+    there as PNG before the drags."""
     from playwright.sync_api import sync_playwright
 
     outside: list[str] = []
@@ -165,6 +168,15 @@ def browser_timings(url: str, drags: int = 6) -> dict:
         browser = launch_browser(p)
         try:
             page = open_page(browser, url, outside, errors)
+            if screenshot is not None:
+                page.fill("#ve", "2")
+                page.dispatch_event("#ve", "input")
+                box = page.locator("#map").bounding_box()
+                page.mouse.move(box["x"] + 0.4 * box["width"], box["y"] + 0.55 * box["height"])
+                page.wait_for_timeout(300)
+                page.screenshot(path=str(screenshot))
+                page.fill("#ve", "1")
+                page.dispatch_event("#ve", "input")
             page.evaluate("() => { const t = window.__mapsectionTimings; "
                           "t.drag_step.length = 0; t.drag_end.length = 0; }")
             for k in range(drags):
@@ -213,6 +225,8 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--attitudes", type=int, default=100_000,
                    help="attitudes in the large variant (0: skip it)")
     p.add_argument("--no-browser", action="store_true", help="skip the browser timings")
+    p.add_argument("--screenshot", type=Path, default=None, metavar="PNG",
+                   help="also save a screenshot of the page (as in docs/view.png)")
     args = p.parse_args(argv)
 
     from mapsection.build import build_project
@@ -253,7 +267,7 @@ def main(argv: list[str] | None = None) -> int:
                 print(f"browser timings skipped: {CHROMIUM} missing (apt-get install chromium)")
             else:
                 try:
-                    bt = browser_timings(server.url)
+                    bt = browser_timings(server.url, screenshot=args.screenshot)
                 except ImportError:
                     print("browser timings skipped: playwright not installed")
                 else:

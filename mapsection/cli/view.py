@@ -56,10 +56,9 @@ def command(project: str, section: str | None, port: int | None, no_browser: boo
 
     import uvicorn
 
+    from ..errors import MapsectionError
     from ..web.api import ViewState
     from ..web.app import create_app
-
-    from ..errors import MapsectionError
 
     state = ViewState(project, section, warn=warn)
     try:

@@ -344,9 +344,12 @@
     d.moved = true;
     // Move the drawn line and handles without rebuilding them.
     state.poly.setLatLngs(state.line.map(toLL));
-    const hs = handleLayer.getLayers();
-    if (d.kind === "vertex") hs[d.index].setLatLng(toLL(p));
-    else state.line.forEach((q, i) => hs[i].setLatLng(toLL(q)));
+    const hs = handleLayer.getLayers(), n = state.line.length;
+    state.line.forEach((q, i) => { if (d.kind !== "vertex" || i === d.index) hs[i].setLatLng(toLL(q)); });
+    for (let i = 0; i + 1 < n && n + i < hs.length; i++) {
+      const a = state.line[i], b = state.line[i + 1];
+      hs[n + i].setLatLng(toLL([(a[0] + b[0]) / 2, (a[1] + b[1]) / 2]));
+    }
     corridorLayer.clearLayers();
     requestSection(false, t);
     clearTimeout(d.timer);
@@ -415,13 +418,17 @@
   }
 
   function drawSection(error) {
-    const svg = $("section");
-    const box = svg.getBoundingClientRect();
-    const W = Math.max(box.width, 200), H = Math.max(box.height, 150);
+    const svg = $("section"), wrap = $("section-wrap");
+    const W = Math.max(wrap.clientWidth, 200);
+    // The pane takes the height the section needs, up to what the side column leaves free.
+    const side = $("side");
+    let others = 0;
+    for (const c of side.children) if (c !== wrap && !c.hidden) others += c.offsetHeight + 8;
+    const Hmax = Math.max(side.clientHeight - others - 4, 180);
     while (svg.firstChild) svg.removeChild(svg.firstChild);
-    svg.setAttribute("viewBox", "0 0 " + W + " " + H);
     const res = state.lastQuick;
     if (!res) {
+      svg.setAttribute("viewBox", "0 0 " + W + " 120"); svg.style.height = "120px";
       const t = el("text", {x: 20, y: 30}, svg); t.textContent = error ? "No section: " + error : "Draw or choose a section line.";
       return;
     }
@@ -436,6 +443,9 @@
     zmax += Math.max(0.03 * length, 100);
     const ml = 52, mr = 14, mt = 16, mb = 30;
     const ve = state.ve;
+    const Hneed = (zmax - zmin) * ve * (W - ml - mr) / length + mt + mb;
+    const H = Math.max(Math.min(Hneed, Hmax), 160);
+    svg.setAttribute("viewBox", "0 0 " + W + " " + H); svg.style.height = H + "px";
     const s = Math.min((W - ml - mr) / length, (H - mt - mb) / ((zmax - zmin) * ve));
     const sx = s, sy = s * ve;
     const X = (d) => ml + d * sx, Y = (e) => mt + (zmax - e) * sy;
@@ -552,7 +562,10 @@
   function markChecksPending() {
     for (const row of document.querySelectorAll("#checks tbody tr")) {
       const v = row.querySelector(".verdict");
-      if (v && !v.classList.contains("pending")) { v.classList.add("pending"); v.setAttribute("data-was", v.textContent); }
+      // The line has moved: the old verdict no longer applies to it.
+      if (v && !v.classList.contains("pending")) {
+        v.classList.add("pending"); v.removeAttribute("data-status"); v.textContent = "checking…";
+      }
     }
   }
 
