@@ -63,8 +63,11 @@ class RequestError(MapsectionError):
 # --- small helpers ------------------------------------------------------------------------
 def _num_list(values, ndigits: int = 2) -> list[float | None]:
     """Floats rounded for JSON, NaN and infinities as null."""
-    return [round(v, ndigits) if math.isfinite(v) else None
-            for v in np.asarray(values, float).tolist()]
+    a = np.round(np.asarray(values, float), ndigits)
+    ok = np.isfinite(a)
+    if ok.all():
+        return a.tolist()
+    return [v if f else None for v, f in zip(a.tolist(), ok.tolist(), strict=True)]
 
 
 def _num(value, ndigits: int = 3) -> float | None:
@@ -327,6 +330,7 @@ class ViewState:
         # small pieces near it instead of whole map-wide polygons (same units and contacts).
         self.map_tiles = tiled_map(self.inputs.map_data)
         self.lock = threading.Lock()
+        self.draft_lock = threading.Lock()
         self.build_lock = threading.Lock()
         self._sessions: dict[str, Any] = {}
         self._cache: dict[str, Any] = {}
@@ -563,10 +567,13 @@ class ViewState:
             session = self._session(name)
             data = shift_line(session, vertices)
             out = self._section_json(data)
-            t1 = time.perf_counter()
-            if draft:
-                out.update(self._draft_json(spec, data))
             out["warnings"] = self.said[n_said:] if len(self.said) > n_said else []
+        t1 = time.perf_counter()
+        if draft:
+            # Construction and checks work on the data alone: outside the session lock, so
+            # that the quick requests of a drag never wait for a draft in progress.
+            with self.draft_lock:
+                out.update(self._draft_json(spec, data))
         t2 = time.perf_counter()
         out["section"] = name
         out["draft"] = draft

@@ -374,6 +374,7 @@
       t: tEvent, why: why || (withDraft ? "click" : "step")};
     const draft = withDraft && $("show-draft").checked;
     if (draft) { state.draftStale = true; markChecksPending(); }
+    else if (withDraft) { state.lastDraft = null; drawChecks(null, "draft and checks are switched off (tick 'draft and checks')"); }
     const lane = draft ? lanes.draft : lanes.quick;
     if (lane.busy) { lane.next = item; return; }
     send(lane, item, draft);
@@ -389,7 +390,8 @@
       if (draft) { state.lastDraft = res; state.shownDraftSeq = item.seq; state.draftStale = false; }
       else if (state.lastDraft) state.draftStale = true;
       drawSection();
-      if (draft) drawChecks(res); else if (state.draftStale && !lanes.draft.busy && !lanes.draft.next) markChecksPending();
+      if (draft) drawChecks(res);
+      else if (state.lastDraft && state.draftStale) markChecksPending();
       const dt = await afterPaint(item.t);
       if (draft && (item.why === "end" || item.why === "pause")) timings.drag_end.push(dt);
       if (!draft && item.why === "step") timings.drag_step.push(dt);
@@ -505,15 +507,20 @@
     // Apparent dips: ticks at the measured dip, steepened by the vertical exaggeration.
     const gd = el("g", {class: "dips"}, body);
     let lastLabel = -1e9;
+    // Many dips (a large attitude set): one path for all ticks, no tooltips, for speed.
+    const many = dips.distance_m.length > 300;
+    let manyD = "";
     for (let i = 0; i < dips.distance_m.length; i++) {
       const dd = dips.distance_m[i], ee = dips.elevation_m[i], a = dips.apparent_dip[i];
       if (dd === null || ee === null || a === null) continue;
       const r = Math.atan(ve * Math.tan(a * Math.PI / 180)), hl = 9;
       const cx = X(dd), cy = Y(ee), ux = Math.cos(r) * hl, uy = Math.sin(r) * hl;
+      if (many) { manyD += "M" + (cx - ux).toFixed(1) + "," + (cy - uy).toFixed(1) + "L" + (cx + ux).toFixed(1) + "," + (cy + uy).toFixed(1); continue; }
       const t = el("line", {x1: cx - ux, y1: cy - uy, x2: cx + ux, y2: cy + uy, class: "dip" + (dips.poorly_constrained[i] ? " poor" : "")}, gd);
       t.appendChild(titleOf("attitude " + dips.id[i] + ": apparent dip " + Math.abs(a).toFixed(0) + "°"));
       if (cx - lastLabel >= 16) { lastLabel = cx; const tx = el("text", {x: cx, y: cy - 8, class: "diplabel", "text-anchor": "middle"}, gd); tx.textContent = Math.abs(a).toFixed(0); }
     }
+    if (many) el("path", {d: manyD, class: "dip many"}, gd);
     drawAxes(svg, {length, zmin, zmax, X, Y, ml, mt, sx, sy});
     const info = length.toFixed(0) + " m long, VE " + ve + "×, " + dips.distance_m.length + " dips in the corridor, " +
       geo.intervals.length + " unit stretches" + (res.timing_ms ? " · server " + res.timing_ms.section + " ms" : "");
