@@ -133,14 +133,20 @@
       const bounds = m.getBounds().pad(0.05);
       this._drawFaults(g, m);
       const vis = this.atts.filter((a) => bounds.contains(a.ll));
-      const many = vis.length > 2500;
-      const labels = !many && vis.length <= 400 && m.getZoom() >= 13.5;
+      // Dense data: one symbol per 22-pixel cell of the screen, so that symbols stay legible.
+      const thin = vis.length > 1500, used = new Set();
+      const labels = vis.length <= 400 && m.getZoom() >= 13.5;
       g.lineCap = "butt";
       for (const a of vis) {
         const p = m.latLngToContainerPoint(a.ll);
-        if (many) { g.fillStyle = "#1a1a8c"; g.fillRect(p.x - 1, p.y - 1, 2, 2); continue; }
+        if (thin) {
+          const key = Math.floor(p.x / 22) + "," + Math.floor(p.y / 22);
+          if (used.has(key)) continue;
+          used.add(key);
+        }
         this._attitude(g, m, a, p, labels);
       }
+      this._c.setAttribute("data-symbols", String(thin ? used.size : vis.length));
     },
     // Screen direction of a map azimuth at a point (grid azimuth of the project CRS).
     _dir: function (m, xy, az, p) {
@@ -510,12 +516,17 @@
     // Many dips (a large attitude set): one path for all ticks, no tooltips, for speed.
     const many = dips.distance_m.length > 300;
     let manyD = "";
+    const seen = new Set();
     for (let i = 0; i < dips.distance_m.length; i++) {
       const dd = dips.distance_m[i], ee = dips.elevation_m[i], a = dips.apparent_dip[i];
       if (dd === null || ee === null || a === null) continue;
       const r = Math.atan(ve * Math.tan(a * Math.PI / 180)), hl = 9;
       const cx = X(dd), cy = Y(ee), ux = Math.cos(r) * hl, uy = Math.sin(r) * hl;
-      if (many) { manyD += "M" + (cx - ux).toFixed(1) + "," + (cy - uy).toFixed(1) + "L" + (cx + ux).toFixed(1) + "," + (cy + uy).toFixed(1); continue; }
+      if (many) {
+        const key = Math.round(cx / 3) + "," + Math.round(cy / 3);
+        if (seen.has(key)) continue;
+        seen.add(key);
+        manyD += "M" + (cx - ux).toFixed(1) + "," + (cy - uy).toFixed(1) + "L" + (cx + ux).toFixed(1) + "," + (cy + uy).toFixed(1); continue; }
       const t = el("line", {x1: cx - ux, y1: cy - uy, x2: cx + ux, y2: cy + uy, class: "dip" + (dips.poorly_constrained[i] ? " poor" : "")}, gd);
       t.appendChild(titleOf("attitude " + dips.id[i] + ": apparent dip " + Math.abs(a).toFixed(0) + "°"));
       if (cx - lastLabel >= 16) { lastLabel = cx; const tx = el("text", {x: cx, y: cy - 8, class: "diplabel", "text-anchor": "middle"}, gd); tx.textContent = Math.abs(a).toFixed(0); }
