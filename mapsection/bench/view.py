@@ -225,6 +225,8 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--attitudes", type=int, default=100_000,
                    help="attitudes in the large variant (0: skip it)")
     p.add_argument("--no-browser", action="store_true", help="skip the browser timings")
+    p.add_argument("--browser-many", action="store_true",
+                   help="also time the browser on the large attitude set (no target)")
     p.add_argument("--screenshot", type=Path, default=None, metavar="PNG",
                    help="also save a screenshot of the page (as in docs/view.png)")
     args = p.parse_args(argv)
@@ -291,6 +293,11 @@ def main(argv: list[str] | None = None) -> int:
                                              args.requests, False)
                 results["section_100k"] = _median_ms(wall)
                 computing["section_100k"] = _median_ms(inside)
+                if args.browser_many and os.path.exists(CHROMIUM):
+                    bt = browser_timings(server.url, drags=3)
+                    print(f"browser with {args.attitudes} attitudes (no target): drag step "
+                          f"median {_median_ms(bt['drag_step'], 1.0):.0f} ms, drag end median "
+                          f"{_median_ms(bt['drag_end'], 1.0):.0f} ms")
             finally:
                 server.stop()
                 state.close()
