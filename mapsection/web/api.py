@@ -49,6 +49,12 @@ MAX_HILLSHADE_PX = 1200  # longest side of the shaded relief sent to the page
 GRID_N = 33  # nodes per side of the lon/lat <-> project CRS interpolation grids
 
 
+try:  # the drawing conventions moved into mapsection.render in later versions
+    from ..render.colours import fault_kind, unit_colours
+except ImportError:  # pragma: no cover - depends on the library version
+    from ..colours import fault_kind, unit_colours
+
+
 class RequestError(MapsectionError):
     """A request the page sent is malformed (not JSON, a missing or wrong field).
 
@@ -133,9 +139,7 @@ def _key_figures(name: str, test: dict) -> dict[str, Any]:
     elif name == "restoration":
         keys = ("shortening_pct", "shortening_m", "line_length_mismatch_pct")
     elif name == "area_balance":
-        from ..checks import units_worst
-
-        unit, worst = units_worst(test.get("units"))
+        unit, worst = _worst_unit(test.get("units"))
         out: dict[str, Any] = {"worst_unit": unit or None, "worst_mismatch_pct": _num(worst, 2)}
         fit = test.get("detachment") or {}
         if fit.get("reliable"):
@@ -146,6 +150,18 @@ def _key_figures(name: str, test: dict) -> dict[str, Any]:
                 "transport": test.get("transport_direction"),
                 "fault_bend_folds": len(test.get("fault_bend_folds") or [])}
     return {k: _num(test.get(k), 3) for k in keys if k in test}
+
+
+def _worst_unit(units) -> tuple[str, float | None]:
+    """The unit with the largest |mismatch_pct| of an area-balance ``units`` entry."""
+    items = units.items() if isinstance(units, dict) else (
+        (u.get("unit", u.get("name", "?")), u) for u in (units or []) if isinstance(u, dict))
+    worst, value = "", None
+    for name, u in items:
+        m = _num(u.get("mismatch_pct") if isinstance(u, dict) else None, 6)
+        if m is not None and (value is None or abs(m) > abs(value)):
+            worst, value = str(name), m
+    return worst, value
 
 
 def _reasons(test: dict) -> list[str]:
@@ -335,8 +351,6 @@ class ViewState:
         self._sessions: dict[str, Any] = {}
         self._cache: dict[str, Any] = {}
         self.reports: dict[str, Path] = {}
-        from ..colours import unit_colours
-
         self.colours = unit_colours(self.project.column, self.inputs.map_data.unit_list)
         self._to_lonlat = pyproj.Transformer.from_crs(self.project.crs, "EPSG:4326",
                                                       always_xy=True)
@@ -479,8 +493,6 @@ class ViewState:
 
     def faults_geojson(self) -> bytes:
         def make() -> dict:
-            from ..colours import fault_kind
-
             md = self.inputs.map_data
             feats: list[dict] = []
             if md.faults is not None and len(md.faults):
@@ -685,7 +697,6 @@ class ViewState:
     def build(self, payload: Any) -> dict:
         """Run the normal build of one saved section into the folder the user names."""
         from ..build import _folder_name, build_project
-        from ..checking import summary_from_json
 
         if not isinstance(payload, dict):
             raise RequestError("request body: must be a JSON object with 'section' and 'output'")
@@ -717,8 +728,19 @@ class ViewState:
         folder = folders[0]
         self.reports[name] = folder / "report.html"
         return {"section": name, "folder": str(folder), "seconds": round(seconds, 2),
-                "summary": summary_from_json(folder / "checks.json"),
+                "summary": _summary(folder / "checks.json"),
                 "report": "/api/report?section=" + _quote(name)}
+
+
+def _summary(path: Path) -> str:
+    """Each test's verdict from a build's checks.json, on one line."""
+    try:
+        d = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        return f"no check results ({exc})"
+    words = {"pass": "pass", "fail": "FAIL", "not_tested": "not tested"}
+    return ", ".join(f"{t.replace('_', ' ')} {words[check_status(d.get(t) or {})]}"
+                     for t in TESTS)
 
 
 def _quote(text: str) -> str:
