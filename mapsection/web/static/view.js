@@ -405,8 +405,12 @@
     } catch (e) {
       timings.errors += 1;
       showMessage(e.message);
-      if (draft) drawChecks(null, e.message);
-      if (item.seq >= state.shownSeq) drawSection(e.message);
+      // The last good section stays, dimmed, with the reason above the checks.
+      if (item.seq >= state.shownSeq) {
+        state.shownSeq = item.seq; $("section").classList.add("failed");
+        $("section-info").textContent = "the last line that gave a section, dimmed";
+      }
+      if (draft) drawChecks(null, "no section for this line (see the message above)");
     } finally {
       lane.busy = false;
       if (lane.next) { const n = lane.next; lane.next = null; send(lane, n, draft); }
@@ -427,6 +431,7 @@
 
   function drawSection(error) {
     const svg = $("section"), wrap = $("section-wrap");
+    svg.classList.remove("failed");
     const W = Math.max(wrap.clientWidth, 200);
     // The pane takes the height the section needs, up to what the side column leaves free.
     const side = $("side");
