@@ -34,6 +34,8 @@ COMMANDS = {
                        "and print a table."),
     "demo": ("demo", "Build every section of the sample area (invented data) into OUTDIR, "
                      "and its flawed variant."),
+    "view": ("view", "Open the section page: draw and move section lines on the map, watch the "
+                     "section redraw."),
 }
 
 HELP = f"""Draft geological cross-sections from a geologic map, a DEM and strike/dip data,
