@@ -52,6 +52,14 @@ class Thresholds:
     dip_rms_deg: float = 5.0
     area_mismatch_pct: float = 5.0
     line_length_spread_pct: float = 5.0
+    # Restoration at each fault (the tool's defaults, not common practice): a restored
+    # cutoff mismatch may reach the larger of this share of the fault's mean separation
+    # and this many DEM pixels; the separations along one straight stretch of a fault may
+    # spread by the larger of this share of their mean and this many pixels.
+    cutoff_mismatch_fraction: float = 0.10
+    cutoff_mismatch_pixels: float = 2.0
+    separation_spread_fraction: float = 0.20
+    separation_spread_pixels: float = 2.0
 
 
 CHECK_KEYS = frozenset(Thresholds.__dataclass_fields__)
@@ -65,6 +73,10 @@ THRESHOLD_RANGES = {
     "dip_rms_deg": (0.0, 90.0, True),
     "area_mismatch_pct": (0.0, 100.0, False),
     "line_length_spread_pct": (0.0, 100.0, False),
+    "cutoff_mismatch_fraction": (0.0, 1.0, True),
+    "cutoff_mismatch_pixels": (0.0, 100.0, True),
+    "separation_spread_fraction": (0.0, 10.0, True),
+    "separation_spread_pixels": (0.0, 100.0, True),
 }
 
 
@@ -79,6 +91,10 @@ def threshold_problem(thresholds: Thresholds) -> tuple[str, str] | None:
             return key, f"must be {rng}, got {v!r}"
     if thresholds.contact_rms_m <= 0 and thresholds.contact_rms_pixels <= 0:
         return "contact_rms_m", "at least one of it and contact_rms_pixels must be > 0"
+    for frac, px in (("cutoff_mismatch_fraction", "cutoff_mismatch_pixels"),
+                     ("separation_spread_fraction", "separation_spread_pixels")):
+        if getattr(thresholds, frac) <= 0 and getattr(thresholds, px) <= 0:
+            return frac, f"at least one of it and {px} must be > 0"
     return None
 
 

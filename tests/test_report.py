@@ -97,8 +97,11 @@ def test_checks_json_keys(checked, tmp_path):
     assert "NaN" not in text and "Infinity" not in text  # RFC 8259
     data = json.loads(text)
     for k in ("topography", "restoration", "area_balance", "kinematics"):
-        assert isinstance(data[k]["passed"], bool)
-    assert set(data) == {"section", "method", "passed", "caution",
+        # three states (issue 12): passed is null exactly when the test was not tested
+        assert data[k]["status"] in ("pass", "fail", "not_tested")
+        assert data[k]["passed"] is {"pass": True, "fail": False}.get(data[k]["status"])
+        assert isinstance(data[k]["reasons"], list)
+    assert set(data) == {"section", "method", "passed", "status", "caution",
                          "topography", "restoration", "area_balance", "kinematics"}
     assert data["topography"]["contact_rms_m"] == pytest.approx(report.topography.contact_rms_m)
     assert 0 <= data["topography"]["unit_agreement"] <= 1

@@ -33,6 +33,9 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
     same horizons and faults as 3D lines in the project CRS), section.png/.svg/.pdf
     (the figure), build.log, and the balance checks: checks.json, report.html,
     restored.png/.svg/.pdf, area_depth.png and sequence/ (frames and a GIF).
+    Each folder is printed with its tests' verdicts (PASS, FAIL or NOT TESTED); a
+    failed test is a result, not an error: the exit code is 0 once the outputs are
+    written (see 'mapsection check' for an exit code that follows the tests).
     A previous build of a section is replaced only once the new one is complete.
 
     \b
@@ -41,8 +44,13 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
       mapsection build sample_area/project.toml -o out --section B --method arc --ve 2
     """
     from ..build import build_project
+    from ..checking import result_line
 
-    folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn)
+    summaries: dict = {}
+    folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn,
+                            summaries=summaries)
     for folder in folders:
-        click.echo(str(folder))
+        # the verdict of each test: PASS, FAIL or NOT TESTED (never a pass unmeasured)
+        click.echo(f"{folder}: {result_line(summaries[folder])}" if folder in summaries
+                   else str(folder))
     note(f"built {len(folders)} section(s); each is a draft to be reviewed")
