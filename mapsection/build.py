@@ -247,7 +247,7 @@ class _Job:
 
 
 def _nearby_attitudes(attitudes, line, corridor_m: float):
-    from .checking import nearby_attitudes
+    from .checks.diagnosis import nearby_attitudes
 
     return nearby_attitudes(attitudes, line, corridor_m)
 
@@ -269,8 +269,8 @@ def _section_warn(warn: Warn, name: str, said: list[str]) -> Warn:
 def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], KeyFigures]:
     """Write one section's folder; returns everything said, the stage timings and the key
     figures of the checks."""
-    from .checking import summary_lines
     from .checks import key_figures
+    from .checks.summary import summary_lines
 
     said = list(job.said)
     timings: dict[str, float] = {}

@@ -3,7 +3,11 @@
 :func:`key_figures` reads them off a :class:`mapsection.checks.CheckReport` (typed
 attributes, never the keys of ``to_dict()``), once, for every summary: the table
 ``mapsection check`` prints, the head of report.html and the lines ``mapsection
-demo`` prints. A figure not measured is NaN (or None), shown as a dash.
+demo`` prints. A figure not measured is NaN (or None), shown as a dash. Every test's
+figures carry its ``status`` ("pass", "fail" or "not_tested") and ``reasons``.
+:func:`summary_lines` (the table of ``mapsection check``, also written to build.log),
+:func:`result_line` (the line ``mapsection demo`` and ``mapsection build`` print per
+section) and :func:`verdict_line` put them in words: PASS, FAIL or NOT TESTED.
 
 Example::
 
@@ -16,10 +20,13 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 from ..project import Thresholds
 from .area import AreaBalance, DetachmentFit
-from .results import CheckReport
+
+if TYPE_CHECKING:
+    from .results import CheckReport
 
 __all__ = [
     "AreaFigures",
@@ -29,6 +36,10 @@ __all__ = [
     "RestorationFigures",
     "TopographyFigures",
     "key_figures",
+    "result_line",
+    "status_word",
+    "summary_lines",
+    "verdict_line",
     "worst_unit",
 ]
 
@@ -179,3 +190,131 @@ def _fault_figures(at_faults) -> list[FaultFigures]:
             tuple(s.separations_m.values()) if s else (),
             s.spread_m if s else NAN, s.threshold_m if s else NAN))
     return out
+
+
+# ---------------------------------------------------------------------------
+# the table of 'mapsection check', the line of 'demo' and 'build'
+
+
+def _num(v, fmt: str) -> str:
+    return "-" if v is None or (isinstance(v, float) and not math.isfinite(v)) else format(v, fmt)
+
+
+def _detachment_text(fit: DetachmentFit | None) -> str:
+    """The area-depth result for the table: a depth only when the fit can be trusted."""
+    if fit is None:
+        return "depth to detachment not measured (fewer than 2 horizons)"
+    r2 = _num(fit.r_squared, ".3f")
+    if not fit.reliable:
+        why = "; ".join(str(i).split(":")[0] for i in fit.issues)
+        return f"depth to detachment not determined ({why}; R² {r2})"
+    return (f"detachment at elevation {_num(fit.detachment_elevation_m, '.0f')} m, "
+            f"{_num(fit.depth_to_detachment_m, '.0f')} m below {fit.datum} "
+            f"(R² {r2})")
+
+
+def _fault_bend_text(fault_bend: dict) -> str:
+    """The fault-bend fold comparison (``Kinematics.fault_bend``): a count only of what was
+    compared."""
+    if fault_bend.get("compared"):
+        return f"{fault_bend['compared']} fault-bend fold(s) compared ({fault_bend.get('status')})"
+    return "fault-bend fold comparison not tested"
+
+
+def _figure_texts(key: KeyFigures) -> dict[str, str]:
+    """Each test's key figures against its thresholds, as the table shows them."""
+    t = key.thresholds
+    topo, rest, area, kin = key.topography, key.restoration, key.area_balance, key.kinematics
+    n_kin = kin.inconsistencies
+    unit = area.worst_unit
+    return {
+        "topography": (
+            f"contact RMS {_num(topo.contact_rms_m, '.1f')} m "
+            f"(<= {_num(topo.contact_threshold_m, '.1f')}), "
+            f"unit agreement {_num(topo.unit_agreement, '.3f')} "
+            f"(>= {t.unit_agreement:.2f}), dip RMS {_num(topo.dip_rms_deg, '.1f')} deg "
+            f"(<= {t.dip_rms_deg:g}), unpaired contacts "
+            f"{topo.unpaired_contacts} (<= {topo.max_unpaired})"
+        ),
+        "restoration": (
+            f"shortening {_num(rest.shortening_pct, '.1f')} % "
+            f"({_num(rest.shortening_m, '.0f')} m), line-length spread "
+            f"{_num(rest.line_length_mismatch_pct, '.2f')} % "
+            f"(<= {t.line_length_spread_pct:g})"
+        ),
+        "area_balance": (
+            f"worst unit mismatch {_num(area.worst_mismatch_pct, '.2f')} %"
+            f"{f' ({unit})' if unit else ''} "
+            f"(<= {t.area_mismatch_pct:g}), {_detachment_text(area.detachment)}"
+        ),
+        "kinematics": (f"{n_kin} inconsistenc{'y' if n_kin == 1 else 'ies'}, transport "
+                       f"{kin.transport_direction or '-'}, "
+                       + _fault_bend_text(kin.fault_bend)),
+    }
+
+
+STATUS_WORDS = {"pass": "PASS", "fail": "FAIL", "not_tested": "NOT TESTED"}
+
+
+def status_word(status: str) -> str:
+    """PASS, FAIL or NOT TESTED."""
+    return STATUS_WORDS.get(status, status.upper())
+
+
+def _restoration_fault_lines(key: KeyFigures) -> list[str]:
+    """Per fault: the worst restored cutoff mismatch and the separations' spread."""
+    out = []
+    for f in key.restoration.faults:
+        if f.cutoff_status != "not_tested":
+            out.append(f"fault {f.fault}: worst cutoff mismatch {_num(f.worst_mismatch_m, '.0f')} m"
+                       f" at the top of {f.worst_top_of} (<= "
+                       f"{_num(f.mismatch_threshold_m, '.0f')} m) "
+                       f"{status_word(f.cutoff_status)}")
+        if f.separation_status != "not_tested":
+            seps = "/".join(f"{v:.0f}" for v in f.separations_m)
+            out.append(f"fault {f.fault}: separations {seps} m, spread "
+                       f"{_num(f.spread_m, '.0f')} m (<= {_num(f.spread_threshold_m, '.0f')} m) "
+                       f"{status_word(f.separation_status)}")
+    return out
+
+
+def summary_lines(report: CheckReport) -> list[str]:
+    """One line per test: name, PASS / FAIL / NOT TESTED and its key figures against the
+    thresholds; then, under a test that did not pass, why (and, for a failed topography
+    test, its likely causes, ranked)."""
+    key = key_figures(report)
+    lines = [f"section {key.section} (method {key.method}, VE {key.ve:g})",
+             f"  {'test':<13} {'result':<10} figures (thresholds)"]
+    verdicts = {"topography": key.topography, "restoration": key.restoration,
+                "area_balance": key.area_balance, "kinematics": key.kinematics}
+    for k, text in _figure_texts(key).items():
+        v = verdicts[k]
+        lines.append(f"  {k:<13} {status_word(v.status):<10} {text}")
+        reasons = list(v.reasons)
+        if k == "restoration":
+            fault_lines = _restoration_fault_lines(key)
+            lines += [f"{'':26}{t}" for t in fault_lines]
+            if fault_lines:  # the per-fault lines say it; keep what they do not
+                reasons = [r for r in reasons if not r.startswith(
+                    ("cutoffs at faults: fault", "separation consistency: fault"))]
+        lines += [f"{'':26}- {r}" for r in reasons]
+        if k == "topography" and key.topography.diagnosis:
+            lines.append(f"{'':26}likely causes, strongest first:")
+            lines += [f"{'':28}{t}" for t in key.topography.diagnosis]
+    return lines
+
+
+def result_line(key: KeyFigures) -> str:
+    """One line: each test PASS, FAIL or NOT TESTED (what ``mapsection demo`` and
+    ``mapsection build`` print per section)."""
+    return "  ".join(f"{k} {status_word(st)}" for k, st in key.statuses.items())
+
+
+def verdict_line(statuses) -> str:
+    """The closing line of ``mapsection check``: how many tests passed, failed and were
+    not tested."""
+    statuses = list(statuses)
+    n = {st: statuses.count(st) for st in ("pass", "fail", "not_tested")}
+    counts = f"{n['pass']} passed, {n['fail']} failed, {n['not_tested']} not tested"
+    return (f"some tests FAIL ({counts})" if n["fail"] else
+            f"no test fails ({counts})")
