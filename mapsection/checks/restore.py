@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 import numpy as np
+import shapely
 from shapely.geometry import LineString, Polygon
 
 from ..draft import Draft
@@ -78,6 +79,9 @@ class RestoredHorizon:
     deformed_x1_m: float
     local_pin_m: float  # the vertical the block was restored about
     geometry: LineString  # restored, section space
+    # Restored x intervals of the bed that lie above the ground in the draft: eroded,
+    # never observed (projected from the dips), drawn apart from preserved rock.
+    eroded: tuple[tuple[float, float], ...] = ()
 
     @property
     def restored_length_m(self) -> float:
@@ -388,10 +392,39 @@ def _lay_flat(draft: Draft, blocks: dict[int, dict[str, LineString]], ys: dict[s
             x0, x1 = s[t], e[t]
             pieces.append(RestoredHorizon(
                 t, b, ys[t], float(p.length), float(x0), float(x1), starts[t], far_x(p),
-                float(xl), LineString([(x0, ys[t]), (x1, ys[t])])))
+                float(xl), LineString([(x0, ys[t]), (x1, ys[t])]),
+                _eroded(draft, p, x0, direction)))
             last_end[t] = x1
             prev_block[t] = b
     return pieces, gaps
+
+
+def _eroded(draft: Draft, piece: LineString, x0: float, direction: int,
+            ) -> tuple[tuple[float, float], ...]:
+    """Where a bed piece lies above the ground in the draft, as restored x intervals: a
+    point at bed length u from the piece's pin-side end restores to x0 + direction * u."""
+    if piece.length <= 0:
+        return ()
+    pixel = float(getattr(draft.profile, "pixel_size", float("nan")))
+    step = max(pixel, 1.0) if np.isfinite(pixel) else 10.0  # about a DEM pixel along the bed
+    c = line_xy(shapely.segmentize(piece, step))
+    if direction < 0:
+        c = c[::-1]  # from the pin side
+    u = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(c, axis=0).T))])
+    ground = draft.profile.elevation_at(c[:, 0])
+    with np.errstate(invalid="ignore"):
+        up = c[:, 1] > ground + 0.5  # half a metre: a bed at the ground is preserved
+    if not up.any():
+        return ()
+    edges = np.flatnonzero(np.diff(np.concatenate([[0], up.astype(np.int8), [0]])))
+    out = []
+    for a, b in zip(edges[::2], edges[1::2], strict=True):
+        # each run's ends halfway between its last point below and first point above
+        ua = 0.5 * (u[a - 1] + u[a]) if a > 0 else u[0]
+        ub = 0.5 * (u[b - 1] + u[b]) if b < len(u) else u[-1]
+        xa, xb = x0 + direction * ua, x0 + direction * ub
+        out.append((float(min(xa, xb)), float(max(xa, xb))))
+    return tuple(out)
 
 
 def _restored_units(column, pieces: list[RestoredHorizon]) -> list[RestoredUnit]:
