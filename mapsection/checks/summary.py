@@ -298,9 +298,12 @@ def summary_lines(report: CheckReport) -> list[str]:
                 reasons = [r for r in reasons if not r.startswith(
                     ("cutoffs at faults: fault", "separation consistency: fault"))]
         lines += [f"{'':26}- {r}" for r in reasons]
-        if k == "topography" and key.topography.diagnosis:
+        diag = key.topography.diagnosis if k == "topography" else ()
+        if diag and diag[0].startswith("no likely cause"):
+            lines.append(f"{'':26}diagnosis: {diag[0]}")
+        elif diag:
             lines.append(f"{'':26}likely causes, strongest first:")
-            lines += [f"{'':28}{t}" for t in key.topography.diagnosis]
+            lines += [f"{'':28}{t}" for t in diag]
     return lines
 
 
