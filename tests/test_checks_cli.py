@@ -306,3 +306,16 @@ def test_fault_threshold_out_of_range_is_one_line(tmp_path):
     lines = res.stderr.strip().splitlines()
     assert len(lines) == 1 and "project.toml" in lines[0]
     assert "separation_spread_fraction" in lines[0] and "Traceback" not in res.stderr
+
+
+def test_build_prints_verdicts_and_logs_the_diagnosis(tmp_path):
+    # Issue 12: 'build' prints each section's verdicts, and build.log carries the check
+    # table with the failed topography test's likely causes (the flawed variant's column
+    # gives the Talvo Limestone 252 m; the invented model has 180 m, mapsection.sample).
+    res = _run("build", FLAWED, "-o", tmp_path / "out", "--section", "A")
+    assert res.exit_code == 0, res.output  # a failed test is a result, not an error
+    assert "A: topography FAIL  restoration FAIL" in res.stdout
+    log = (tmp_path / "out" / "A" / "build.log").read_text("utf-8")
+    assert "likely causes, strongest first:" in log
+    assert "1. Talvo Limestone: the contacts fit" in log
+    assert "restoration   FAIL" in log and "holds by construction" in log
