@@ -145,7 +145,8 @@ def _build_section(project: Project, spec: SectionSpec, warn: Warn | None,
             default_dip=spec.default_dip, warn=warn)
 
 
-def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:
+def write_build_log(draft: Draft, path: Path, warnings: list[str] = (),
+                    checks: list[str] = ()) -> Path:
     lines = [
         f"mapsection {__version__} build of section {draft.name}",
         f"method: {draft.method}; vertical exaggeration: {draft.ve:g}",
@@ -157,6 +158,8 @@ def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:
     ]
     if warnings:
         lines += ["", "warnings:", *[f"  {w}" for w in warnings]]
+    if checks:
+        lines += ["", "checks:", *checks]
     lines += ["", f"CAUTION: {CAUTION}"]
     with atomic_file(path) as tmp:
         tmp.write_text("\n".join(lines) + "\n", encoding="utf-8")
@@ -185,8 +188,8 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
 
 
 def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpec,
-                  warn: Warn | None = None, timings: dict[str, float] | None = None
-                  ) -> CheckReport:
+                  warn: Warn | None = None, timings: dict[str, float] | None = None,
+                  attitude_xy: Any = None) -> CheckReport:
     """CHECKS CALL POINT: run the balance checks and write their outputs into ``folder``.
 
     The outputs are those of :func:`mapsection.render.section_folder.write_check_outputs`
@@ -199,7 +202,7 @@ def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpe
 
     with _stage(timings, "checks"):
         report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
-                            warn=warn)
+                            warn=warn, attitude_xy=attitude_xy, corridor_m=spec.corridor)
     with _stage(timings, "check figures"):
         write_check_outputs(folder, draft, report)
     return report
@@ -299,7 +302,8 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                                               warn=_section_warn(warn, spec.name, said),
                                               inputs=inputs, timings=timings)
                     tmp = folders_in_progress.enter_context(atomic_dir(target))
-                    jobs.append(_Job(tmp, draft, project, spec, said, target))
+                    xy = _nearby_attitudes(inputs.attitudes, draft.line, spec.corridor)
+                    jobs.append(_Job(tmp, draft, project, spec, said, target, xy))
             finally:
                 # Closed before any fork: no GDAL file handle is shared with a worker.
                 inputs.close()
@@ -332,6 +336,13 @@ class _Job:
     spec: SectionSpec
     said: list[str]
     target: Path
+    attitude_xy: Any = None  # attitudes near the line, for a failed test's diagnosis
+
+
+def _nearby_attitudes(attitudes, line, corridor_m: float):
+    from .checks.diagnosis import nearby_attitudes
+
+    return nearby_attitudes(attitudes, line, corridor_m)
 
 
 def _named(message: str, name: str) -> str:
@@ -352,12 +363,15 @@ def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], K
     """Write one section's folder; returns everything said, the stage timings and the key
     figures of the checks."""
     from .checks import key_figures
+    from .checks.summary import summary_lines
 
     said = list(job.said)
     timings: dict[str, float] = {}
     write_section_outputs(job.draft, job.folder, map_data, timings=timings, log=False)
-    report = _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings)
-    write_build_log(job.draft, job.folder / "build.log", said)  # with the checks' notes too
+    report = _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings,
+                           job.attitude_xy)
+    # with the checks' notes and their table (a failure's reasons and diagnosis) too
+    write_build_log(job.draft, job.folder / "build.log", said, summary_lines(report))
     return said, timings, key_figures(report)
 
 

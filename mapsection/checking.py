@@ -17,90 +17,19 @@ writer ``mapsection build`` uses.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 from ._messages import default_warn as _default_warn
-from .checks import CheckReport, KeyFigures, key_figures
-from .checks.area import DetachmentFit
+from .checks.summary import result_line, status_word, summary_lines, verdict_line
 from .errors import CheckError
+
+__all__ = ["check_section", "edited_draft", "gpkg_layers_and_section", "infer_section",
+           "result_line", "status_word", "summary_lines", "verdict_line"]
 
 if TYPE_CHECKING:
     from .session import ProjectInputs
-
-
-def _num(v, fmt: str) -> str:
-    return "-" if v is None or (isinstance(v, float) and not math.isfinite(v)) else format(v, fmt)
-
-
-def _detachment_text(fit: DetachmentFit | None) -> str:
-    """The area-depth result for the table: a depth only when the fit can be trusted."""
-    if fit is None:
-        return "depth to detachment not measured (fewer than 2 horizons)"
-    r2 = _num(fit.r_squared, ".3f")
-    if not fit.reliable:
-        why = "; ".join(str(i).split(":")[0] for i in fit.issues)
-        return f"depth to detachment not determined ({why}; R² {r2})"
-    return (f"detachment at elevation {_num(fit.detachment_elevation_m, '.0f')} m, "
-            f"{_num(fit.depth_to_detachment_m, '.0f')} m below {fit.datum} "
-            f"(R² {r2})")
-
-
-def _fault_bend_text(fault_bend: dict) -> str:
-    """The fault-bend fold comparison (``Kinematics.fault_bend``): a count only of what was
-    compared."""
-    if fault_bend.get("compared"):
-        return f"{fault_bend['compared']} fault-bend fold(s) compared ({fault_bend.get('status')})"
-    return "fault-bend fold comparison not tested"
-
-
-def _figure_texts(key: KeyFigures) -> dict[str, str]:
-    """Each test's key figures against its thresholds, as the table shows them."""
-    t = key.thresholds
-    topo, rest, area, kin = key.topography, key.restoration, key.area_balance, key.kinematics
-    n_kin = kin.inconsistencies
-    unit = area.worst_unit
-    return {
-        "topography": (
-            f"contact RMS {_num(topo.contact_rms_m, '.1f')} m "
-            f"(<= {_num(topo.contact_threshold_m, '.1f')}), "
-            f"unit agreement {_num(topo.unit_agreement, '.3f')} "
-            f"(>= {t.unit_agreement:.2f}), dip RMS {_num(topo.dip_rms_deg, '.1f')} deg "
-            f"(<= {t.dip_rms_deg:g}), unpaired contacts "
-            f"{topo.unpaired_contacts} (<= {topo.max_unpaired})"
-        ),
-        "restoration": (
-            f"shortening {_num(rest.shortening_pct, '.1f')} % "
-            f"({_num(rest.shortening_m, '.0f')} m), line-length spread "
-            f"{_num(rest.line_length_mismatch_pct, '.2f')} % "
-            f"(<= {t.line_length_spread_pct:g})"
-        ),
-        "area_balance": (
-            f"worst unit mismatch {_num(area.worst_mismatch_pct, '.2f')} %"
-            f"{f' ({unit})' if unit else ''} "
-            f"(<= {t.area_mismatch_pct:g}), {_detachment_text(area.detachment)}"
-        ),
-        "kinematics": (f"{n_kin} inconsistenc{'y' if n_kin == 1 else 'ies'}, transport "
-                       f"{kin.transport_direction or '-'}, "
-                       + _fault_bend_text(kin.fault_bend)),
-    }
-
-
-def summary_lines(report: CheckReport) -> list[str]:
-    """One line per test: name, PASS/FAIL and its key figures against the thresholds."""
-    key = key_figures(report)
-    lines = [f"section {key.section} (method {key.method}, VE {key.ve:g})",
-             f"  {'test':<13} {'result':<6} figures (thresholds)"]
-    for k, text in _figure_texts(key).items():
-        lines.append(f"  {k:<13} {'PASS' if key.results[k] else 'FAIL':<6} {text}")
-    return lines
-
-
-def result_line(key: KeyFigures) -> str:
-    """One line: each test PASS or FAIL (what ``mapsection demo`` prints per section)."""
-    return "  ".join(f"{k} {'PASS' if ok else 'FAIL'}" for k, ok in key.results.items())
 
 
 def gpkg_layers_and_section(path: Path) -> tuple[list[str], str]:
@@ -231,6 +160,9 @@ def check_section(project, spec, from_path: Path | None = None,
     else:
         draft = edited_draft(project, spec, from_path, warn_fn, inputs=inputs)
     from .build import _stage, reporting
+    from .checks.diagnosis import nearby_attitudes
 
+    xy = nearby_attitudes(inputs.attitudes, draft.line, spec.corridor) if inputs else None
     with reporting(None, spec.name), _stage(None, "checks"):  # told to a progress display
-        return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose)
+        return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
+                                 attitude_xy=xy, corridor_m=spec.corridor)

@@ -119,6 +119,10 @@ RANGES: dict[str, Range] = {
     "dip_rms_deg": Range(0.0, 90.0, "degrees"),
     "area_mismatch_pct": Range(0.0, 100.0, "%", lo_ok=False),
     "line_length_spread_pct": Range(0.0, 100.0, "%", lo_ok=False),
+    "cutoff_mismatch_fraction": Range(0.0, 1.0),
+    "cutoff_mismatch_pixels": Range(0.0, 100.0, "pixels"),
+    "separation_spread_fraction": Range(0.0, 10.0),
+    "separation_spread_pixels": Range(0.0, 100.0, "pixels"),
 }
 
 _LARGE_WHY = {
@@ -221,6 +225,14 @@ class Thresholds:
     dip_rms_deg: float = 5.0
     area_mismatch_pct: float = 5.0
     line_length_spread_pct: float = 5.0
+    # Restoration at each fault (the tool's defaults, not common practice): a restored
+    # cutoff mismatch may reach the larger of this share of the fault's mean separation
+    # and this many DEM pixels; the separations along one straight stretch of a fault may
+    # spread by the larger of this share of their mean and this many pixels.
+    cutoff_mismatch_fraction: float = 0.10
+    cutoff_mismatch_pixels: float = 2.0
+    separation_spread_fraction: float = 0.20
+    separation_spread_pixels: float = 2.0
 
     def __post_init__(self) -> None:
         problem = threshold_problem(self)
@@ -236,6 +248,10 @@ def threshold_problem(thresholds: Thresholds) -> tuple[str, str] | None:
             return f.name, problem
     if thresholds.contact_rms_m <= 0 and thresholds.contact_rms_pixels <= 0:
         return "contact_rms_m", "at least one of it and contact_rms_pixels must be > 0"
+    for frac, px in (("cutoff_mismatch_fraction", "cutoff_mismatch_pixels"),
+                     ("separation_spread_fraction", "separation_spread_pixels")):
+        if getattr(thresholds, frac) <= 0 and getattr(thresholds, px) <= 0:
+            return frac, f"at least one of it and {px} must be > 0"
     return None
 
 

@@ -398,3 +398,22 @@ def _no_progress_display(monkeypatch):
     # Progress lines depend on how fast the machine is; tests that count stderr lines must not
     # see them. tests/test_progress.py drives the display directly.
     monkeypatch.setenv("MAPSECTION_PROGRESS", "off")
+
+
+@pytest.fixture(scope="session")
+def sample_statuses():
+    """Each test's status for the sample area's sections, as ``mapsection check`` gives them
+    (the library's own verdicts: what the page and other front ends must show)."""
+    from mapsection.checking import check_section
+    from mapsection.project import load_project
+
+    project = load_project(SAMPLE_AREA / "project.toml")
+    cache: dict[str, dict[str, str]] = {}
+
+    def statuses(name: str) -> dict[str, str]:
+        if name not in cache:
+            _, report = check_section(project, project.section(name), warn_fn=lambda m: None)
+            cache[name] = report.statuses
+        return cache[name]
+
+    return statuses

@@ -159,11 +159,11 @@ def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
         assert Path(project).is_file()
         folder = Path(outdir) / "A"
         folder.mkdir(parents=True, exist_ok=True)
-        passed = "flawed" not in Path(project).name
+        status = "fail" if "flawed" in Path(project).name else "pass"
         # the demo prints the key figures the build hands back (it reads no file back)
         kw["summaries"][folder] = KeyFigures(
-            "A", "kink", 1.0, Thresholds(), TopographyFigures(passed),
-            RestorationFigures(passed), AreaFigures(passed), KinematicsFigures(passed))
+            "A", "kink", 1.0, Thresholds(), TopographyFigures(status),
+            RestorationFigures(status), AreaFigures(status), KinematicsFigures("not_tested"))
         return [folder]
 
     monkeypatch.setattr(mapsection.build, "build_project", fake_build)
@@ -174,6 +174,7 @@ def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
     assert calls == [SAMPLE, SAMPLE.with_name("project_flawed.toml")]
     assert "CAUTION" in result.output and str(tmp_path / "d" / "A") in result.output
     assert "topography PASS" in result.output and "topography FAIL" in result.output
+    assert "kinematics NOT TESTED" in result.output  # never shown as a pass
 
     def fake_generate(folder):
         p = Path(folder) / "project.toml"

@@ -103,8 +103,10 @@ def test_fault_without_recorded_separations_says_so():
     (fc,) = r.faults
     assert fc.slip_source == "mean measured separation"
     assert fc.slip_m == pytest.approx(1200.0)
-    assert r.status == "pass"  # measured: the cutoffs agree with one another
+    # no recorded slip to restore by: not tested, with the reason (issue 12, bad input)
+    assert r.status == "not_tested" and fc.status == "not_tested"
     assert any("records no separations" in x for x in fc.reasons)
+    assert any("records no separations" in x for x in r.reasons)
 
 
 def test_not_tested_with_reasons():

@@ -278,6 +278,6 @@ def test_sample_area_fault_bend_comparison_not_tested(sample_kinematics):
     assert any(r.startswith("fault-bend fold comparison: not tested") for r in k.reasons)
     d = k.to_dict()
     assert d["fault_bend"]["compared"] == 0
-    from mapsection.checking import _fault_bend_text
+    from mapsection.checks.summary import _fault_bend_text
 
     assert "compared" not in _fault_bend_text(d["fault_bend"])

@@ -96,7 +96,7 @@ def test_demo_says_each_projects_warnings_after_its_header(tmp_path, monkeypatch
         tests = ("topography", "restoration", "area_balance", "kinematics")
         (folder / "checks.json").write_text(json.dumps({k: {"passed": True} for k in tests}))
         if kw.get("summaries") is not None:  # demo takes the key figures from the build
-            kw["summaries"][folder] = SimpleNamespace(results=dict.fromkeys(tests, True))
+            kw["summaries"][folder] = SimpleNamespace(statuses=dict.fromkeys(tests, "pass"))
         return [folder]
 
     monkeypatch.setattr(mapsection.build, "build_project", fake_build)

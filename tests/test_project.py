@@ -116,6 +116,28 @@ def test_thresholds_out_of_range(tmp_path):
     assert proj.thresholds.dip_rms_deg == 3.0
 
 
+@pytest.mark.parametrize("line, key", [
+    ("cutoff_mismatch_fraction = 1.5", "checks.cutoff_mismatch_fraction: must be from 0 to 1"),
+    ("cutoff_mismatch_pixels = -1", "checks.cutoff_mismatch_pixels: must be from 0 to 100"),
+    ("separation_spread_fraction = nan", "checks.separation_spread_fraction"),
+    ("separation_spread_pixels = 500", "checks.separation_spread_pixels"),
+    ("cutoff_mismatch_fraction = 0\ncutoff_mismatch_pixels = 0",
+     "checks.cutoff_mismatch_fraction: at least one of it and cutoff_mismatch_pixels"),
+])
+def test_fault_restoration_thresholds_out_of_range(tmp_path, line, key):
+    # the tool's own ranges for the restoration-at-faults settings (issue 12)
+    with pytest.raises(ProjectFileError, match=r"project.toml: " + key):
+        load_project(write(tmp_path, GOOD + f"\n[checks]\n{line}\n"))
+
+
+def test_fault_restoration_thresholds_read(tmp_path):
+    proj = load_project(write(tmp_path, GOOD + "\n[checks]\ncutoff_mismatch_fraction = 0.2\n"
+                              "separation_spread_pixels = 4\n"))
+    t = proj.thresholds
+    assert (t.cutoff_mismatch_fraction, t.cutoff_mismatch_pixels) == (0.2, 2.0)
+    assert (t.separation_spread_fraction, t.separation_spread_pixels) == (0.2, 4.0)
+
+
 def test_cli_reports_project_key_through_console_script(tmp_path):
     # The real console script: one line naming the file and the key path, exit code 2.
     import subprocess

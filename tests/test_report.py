@@ -97,8 +97,11 @@ def test_checks_json_keys(checked, tmp_path):
     assert "NaN" not in text and "Infinity" not in text  # RFC 8259
     data = json.loads(text)
     for k in ("topography", "restoration", "area_balance", "kinematics"):
-        assert isinstance(data[k]["passed"], bool)
-    assert set(data) == {"section", "method", "passed", "caution",
+        # three states (issue 12): passed is null exactly when the test was not tested
+        assert data[k]["status"] in ("pass", "fail", "not_tested")
+        assert data[k]["passed"] is {"pass": True, "fail": False}.get(data[k]["status"])
+        assert isinstance(data[k]["reasons"], list)
+    assert set(data) == {"section", "method", "passed", "status", "caution",
                          "topography", "restoration", "area_balance", "kinematics"}
     assert data["topography"]["contact_rms_m"] == pytest.approx(report.topography.contact_rms_m)
     assert 0 <= data["topography"]["unit_agreement"] <= 1
@@ -108,3 +111,27 @@ def test_checks_json_keys(checked, tmp_path):
     rows = units.values() if isinstance(units, dict) else units
     assert rows and all("mismatch_pct" in u for u in rows)
     assert data["passed"] is False and data["topography"]["passed"] is False
+
+
+def test_report_tables_are_for_people(checked, tmp_path):
+    # Issue 12: badges PASS / FAIL / NOT TESTED with reasons, a summary line per test,
+    # labelled columns with units, no raw lists and no "-0".
+    draft, report = checked
+    html = write_report(tmp_path / "report.html", draft, report, {}).read_text("utf-8")
+    assert 'class="nottested">NOT TESTED<' in html  # e.g. no fault on this draft
+    assert "holds by construction" in html
+    assert html.count('class="summary"') == 4
+    assert "Misfit (m)" in html and "Map contact at (m)" in html
+    cells = re.findall(r"<td[^>]*>([^<]*)</td>", html)
+    assert cells and not [c for c in cells if re.fullmatch(r"-0(\.0+)?", c.strip())]
+    assert not [c for c in cells if c.strip().startswith(("[", "{"))]
+
+
+def test_number_and_bearing_formats():
+    from mapsection.render.report import compass, fmt
+
+    assert fmt(-0.04, 1) == "0.0" and fmt(-0.4) == "0" and fmt(-12.34, 1) == "-12.3"
+    assert fmt(float("nan")) == "–" and fmt(None) == "–"
+    # the 16-point compass rose: each point spans 22.5 degrees centred on its bearing
+    assert compass(62.0) == "062° (ENE)" and compass(359.0) == "359° (N)"
+    assert compass(-90.0) == "270° (W)" and compass(191.0) == "191° (S)"

@@ -187,7 +187,15 @@ def test_draw_restoration(tmp_path):
     paths = draw_restoration(r, tmp_path / "restored")
     assert [p.name for p in paths] == ["restored.png", "restored.svg", "restored.pdf"]
     assert all(p.stat().st_size > 1000 for p in paths)
-    assert "pin" in (tmp_path / "restored.svg").read_text()
+    svg = (tmp_path / "restored.svg").read_text()
+    assert "pin" in svg
+    # issue 12: the gaps and overlaps at the fault, hatched and labelled with their size
+    labelled = [g for g in r.gaps if max(abs(g.top_gap_m), abs(g.base_gap_m)) >= 1.0]
+    if labelled:
+        assert "gap between fault blocks" in svg or "overlap between fault blocks" in svg
+        g = labelled[0]
+        worst = g.top_gap_m if abs(g.top_gap_m) >= 1.0 else g.base_gap_m
+        assert f"{abs(worst):.0f} m" in svg
 
 
 @pytest.mark.parametrize("pin,loose,msg", [(-5.0, 9000.0, "outside the section"),
@@ -209,3 +217,22 @@ def test_unknown_horizon_name():
     d = make_draft([Horizon("Zz", LineString([(0, 0), (100, 0)]))])
     with pytest.raises(CheckError, match="'Zz'"):
         restore_section(d)
+
+
+def test_eroded_parts_of_beds_are_known():
+    # A bed above the ground line in the draft is eroded (projected, never observed). In a
+    # homocline dipping 10 degrees under flat ground the top of B is above the ground from
+    # the pin to where it crosses the ground (TOP_B); restored by its length along the bed
+    # (flexural slip, Dahlstrom 1969) that stretch is (TOP_B - pin) / cos(10 deg) long
+    # (analytic).
+    import math
+
+    from conftest import HOMOCLINE_DIP, TOP_B, homocline_draft
+
+    r = restore_section(homocline_draft())
+    (b,) = [p for p in r.pieces if p.top_of == "B"]
+    assert r.direction == 1 and len(b.eroded) == 1
+    a, e = b.eroded[0]
+    assert a == pytest.approx(b.restored_x0_m, abs=1e-6)
+    expected = (TOP_B - b.deformed_x0_m) / math.cos(math.radians(HOMOCLINE_DIP))
+    assert e - a == pytest.approx(expected, abs=15.0)  # within about a profile step

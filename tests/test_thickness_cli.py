@@ -148,9 +148,12 @@ def test_sample_area_with_map_thicknesses_passes_like_the_given_ones(tmp_path):
     project = _copy(tmp_path, lambda t: _map_thickness(t, UNITS))
     given = _run("check", PROJECT)
     mapped = _run("check", project)
-    assert _rows(given.stdout) and set(_rows(given.stdout).values()) == {"PASS"}
-    assert _rows(mapped.stdout) == _rows(given.stdout), mapped.output
-    assert mapped.exit_code == 0
+    # every test the given thicknesses pass, the map's pass too (issue: "pass all the tests the
+    # given thicknesses pass"); the sample's thrust fails restoration either way
+    passed = {k for k, v in _rows(given.stdout).items() if v == "PASS"}
+    assert passed and {k for k, v in _rows(mapped.stdout).items() if v == "PASS"} >= passed, \
+        mapped.output
+    assert mapped.exit_code == given.exit_code
     assert "thickness from the map" in mapped.stderr
 
 
@@ -170,5 +173,7 @@ def test_build_library_and_check_from_with_map_thicknesses(tmp_path):
     log = (folders[0] / "build.log").read_text(encoding="utf-8")
     assert "thickness from the map" in log  # the build's record says which figures it used
     res = _run("check", project, "--from", folders[0] / "section.gpkg")
-    assert res.exit_code == 0, res.output
-    assert set(_rows(res.stdout).values()) == {"PASS"}
+    given = _run("check", PROJECT, "--section", "A")
+    passed = {k for k, v in _rows(given.stdout).items() if v == "PASS"}
+    assert passed and {k for k, v in _rows(res.stdout).items() if v == "PASS"} >= passed, \
+        res.output

@@ -13,7 +13,9 @@
 
 :func:`run_checks` runs all four and returns a :class:`CheckReport`
 (:mod:`mapsection.checks.results`). A test that fails is a result, reported with
-its figures; only input that makes a test impossible (no horizons, a pin line
+its figures. Every test and each of its parts is ``pass``, ``fail`` or ``not_tested``
+with its reasons (:mod:`mapsection.checks.status`): a test passes only when something
+was measured and met its threshold. Only input that makes a test impossible (no horizons, a pin line
 through a fault, thresholds out of range) raises :class:`CheckError`.
 
 The package measures and nothing else: no drawing and no files (it imports without
@@ -33,7 +35,7 @@ Example::
     spec = project.sections[0]
     report = run_checks(build_section(project, spec), project.thresholds)
     write_checks_json(report, "checks.json")
-    print(report.passed, key_figures(report).restoration.shortening_pct)
+    print(report.status, key_figures(report).restoration.shortening_pct)
 """
 
 from __future__ import annotations
@@ -44,8 +46,10 @@ from ..draft import Draft
 from ..errors import CheckError
 from ..settings import Thresholds
 from .area import area_balance
+from .cutoffs import check_fault_restoration
+from .diagnosis import diagnose
 from .kinematics import check_kinematics
-from .restore import restore_section
+from .restore import restore_section, with_fault_checks
 from .results import TESTS, CheckReport, jsonable
 from .summary import KeyFigures, key_figures
 from .topography import TopographyCheck, check_topography, validate_thresholds
@@ -58,14 +62,35 @@ def run_checks(
     loose: float | None = None,
     *,
     warn: Callable[[str], None] | None = None,
+    attitude_xy=None,
+    corridor_m: float | None = None,
 ) -> CheckReport:
     """Run the four tests on a draft section.
 
-    ``pin`` and ``loose`` are distances along the line in metres (default: the
-    pin at the end of the section in the least-dipping domain, the loose line at
-    the other end; chosen by the restoration). A failed test is a result;
-    CheckError (no horizons, pin or loose line outside the section or through a
-    fault, thresholds out of range) propagates.
+    Parameters
+    ----------
+    draft
+        The draft section (built, or read back from a section.gpkg).
+    thresholds
+        The pass thresholds (the project's ``[checks]``; default :class:`Thresholds`).
+    pin, loose
+        Distances along the line in metres (default: the pin at the end of the
+        section in the least-dipping domain, the loose line at the other end;
+        chosen by the restoration).
+    warn
+        Called with one line naming the failed tests, when any fails.
+    attitude_xy, corridor_m
+        Map positions (n, 2) of the attitudes near the line (inside the corridor or
+        not) and the corridor's half-width: when the topography test fails, the
+        diagnosis (:func:`mapsection.checks.diagnosis.diagnose`) uses them to suggest
+        a wider corridor over sparse stretches.
+
+    Returns
+    -------
+    CheckReport
+        Each test pass, fail or not tested with its reasons. A failed test is a
+        result; CheckError (no horizons, pin or loose line outside the section or
+        through a fault, thresholds out of range) propagates.
     """
     thresholds = thresholds or Thresholds()
     validate_thresholds(thresholds)
@@ -73,8 +98,17 @@ def run_checks(
                for h in draft.horizons):
         raise CheckError(f"section {draft.name or '(unnamed)'}: has no horizons below the ground")
     topo = check_topography(draft, thresholds)
+    if topo.status == "fail":  # name the likely fix, ranked (issue 12)
+        topo.diagnosis = diagnose(draft, attitude_xy=attitude_xy, corridor_m=corridor_m)
     restoration = restore_section(draft, pin=pin, loose=loose,
                                   threshold_pct=thresholds.line_length_spread_pct)
+    at_faults = check_fault_restoration(
+        draft, restoration=restoration,
+        cutoff_fraction=thresholds.cutoff_mismatch_fraction,
+        cutoff_pixels=thresholds.cutoff_mismatch_pixels,
+        spread_fraction=thresholds.separation_spread_fraction,
+        spread_pixels=thresholds.separation_spread_pixels)
+    restoration = with_fault_checks(restoration, at_faults)
     area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
     kin = check_kinematics(draft, restoration)
     notes = []
@@ -87,7 +121,7 @@ def run_checks(
     report = CheckReport(draft.name, draft.method, float(draft.ve), thresholds, topo,
                          restoration, area, kin, notes)
     if warn is not None:
-        failed = [k for k, ok in report.results.items() if not ok]
+        failed = [k for k, st in report.statuses.items() if st == "fail"]
         if failed:
             warn(f"section {draft.name}: failed {', '.join(failed)}")
     return report

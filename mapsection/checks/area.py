@@ -5,8 +5,8 @@
   The deformed area is measured from the horizons themselves, closed above the
   ground by their projected (above-ground) parts, so a horizon moved by hand
   that thins or thickens a unit shows at once. A section that mapsection
-  constructs with constant thickness balances by construction; the test earns
-  its keep on edited and imported sections.
+  constructs with constant thickness balances by construction (its verdict says
+  "holds by construction"); the test earns its keep on edited and imported sections.
 * Depth to detachment (Chamberlin 1910; Epard & Groshong 1993, Excess area and
   depth to detachment, AAPG Bulletin 77): the excess area S of each horizon (the
   area uplifted above its regional level between the pin and loose lines) is
@@ -31,6 +31,7 @@ from ..draft import Draft
 from ..errors import CheckError
 from .geometry import clip_x, joined_horizons, line_xy, y_at
 from .restore import Restoration
+from .status import BY_CONSTRUCTION, NOT_TESTED, Part, combine, passed_of
 
 __all__ = [
     "UnitArea",
@@ -147,9 +148,16 @@ class AreaBalance:
     units: list[UnitArea]
     detachment: DetachmentFit | None
     failures: list[str] = field(default_factory=list)
+    # Three states (issue 12); the depth to detachment is a figure, not a part.
+    parts: dict[str, Part] = field(default_factory=dict)
+    status: str = NOT_TESTED
+    reasons: list[str] = field(default_factory=list)
 
     def to_dict(self) -> dict:
-        return {"passed": self.passed, "threshold_pct": self.threshold_pct,
+        return {"passed": passed_of(self.status), "status": self.status,
+                "reasons": list(self.reasons),
+                "parts": {k: p.to_dict() for k, p in self.parts.items()},
+                "threshold_pct": self.threshold_pct,
                 "units": [u.to_dict() for u in self.units],
                 "detachment": self.detachment.to_dict() if self.detachment else None,
                 "failures": list(self.failures)}
@@ -206,11 +214,21 @@ def area_balance(draft: Draft, restoration: Restoration, threshold_pct: float = 
         units.append(UnitArea(unit, float(dA), float(rA), float(mm), ok, tuple(sorted(blocks)),
                               base))
     if not units:
-        failures.append("no unit has both its top and its base horizon between the pin and "
-                        "loose lines")
+        part = Part.not_tested("no unit has both its top and its base horizon between the pin "
+                               "and loose lines")
+    elif failures:
+        part = Part.measured(False, *failures)
+    elif draft.method != "edited":
+        # Constant thickness along the bed: deformed and restored areas agree by construction.
+        part = Part.measured(True, f"{BY_CONSTRUCTION} (a constant-thickness draft built by "
+                             "mapsection keeps each unit's area)")
+    else:
+        part = Part.measured(True)
+    parts = {"unit_areas": part}
+    status, reasons = combine(parts)
     fit = _detachment_fit(draft, restoration)
-    passed = bool(units) and all(u.passed for u in units)
-    return AreaBalance(passed, float(threshold_pct), units, fit, failures)
+    return AreaBalance(status == "pass", float(threshold_pct), units, fit, failures, parts,
+                       status, reasons)
 
 
 def _detachment_fit(draft: Draft, restoration: Restoration) -> DetachmentFit | None:

@@ -14,10 +14,11 @@ y = elevation, metres):
   slip is the mean of the separations the fault records, per straight stretch
   of the fault (the slip changes across a bend; Suppe 1983) (what construction
   measured, or what a hand-edited section.gpkg carries in its ``separations``
-  field); a fault that records none is restored by the mean of its measured
-  separations, and the result says so (a uniform error in slip cannot show
-  then). Horizons cut above the ground (on the fault projected upward, in the
-  eroded part of the section) count too; they are flagged ``projected``. The
+  field); a fault that records none has no slip to be restored by: its
+  mismatches against the mean measured separation are listed, but the fault is
+  ``not_tested`` (they would only repeat the separation spread). Horizons cut
+  above the ground (on the fault projected upward, in the eroded part of the
+  section) count too; they are flagged ``projected``. The
   test fails where a mismatch exceeds the threshold: by default the larger of
   10 % of the fault's mean measured separation and 2 DEM pixels (the tool's
   default, not common practice).
@@ -360,8 +361,9 @@ def check_cutoffs(draft: Draft, *, fraction: float = CUTOFF_FRACTION,
             source = "recorded separations"
         else:
             source = "mean measured separation"
-            reasons.append("the fault records no separations: restored by the mean measured "
-                           "separation, so a uniform error in slip cannot show")
+            reasons.append("the fault records no separations: no slip to restore its hanging "
+                           "wall by (the mismatches against the mean measured separation only "
+                           "repeat the separations' spread)")
         if len(stretch) > 1:
             reasons.append("the fault bends: each straight stretch restored by its own slip "
                            "(Suppe 1983)")
@@ -382,8 +384,10 @@ def check_cutoffs(draft: Draft, *, fraction: float = CUTOFF_FRACTION,
                                     gaps.get(c.top_of)))
         worst = max(hz, key=lambda h: abs(h.mismatch_m))
         bad = [h for h in hz if h.exceeds]
-        status = "fail" if bad else "pass"
-        for h in bad:
+        # Without a recorded slip the mismatch is measured against the separations' own
+        # mean: that is the separation spread again, not a restoration; not tested.
+        status = "not_tested" if not rec_all else "fail" if bad else "pass"
+        for h in bad if rec_all else []:
             reasons.append(f"top of {h.top_of}: restored hanging-wall cutoff "
                            f"{abs(h.mismatch_m):.0f} m from the footwall cutoff "
                            f"({h.kind}; > {thr:.0f} m)")

@@ -59,6 +59,7 @@ __all__ = [
     "contact_outliers",
     "sparse_stretches",
     "diagnose",
+    "nearby_attitudes",
 ]
 
 THICKNESS_FRACTION = 0.10  # a thickness cause differs from the column by more (the tool's default)
@@ -598,3 +599,19 @@ def diagnose(draft: Draft, *, attitude_xy=None,
     measured = (any(t.status != "not_tested" for t in thick) or len(draft.dips.distance_m) > 0)
     status = "fail" if causes else ("pass" if measured else "not_tested")
     return Diagnosis(causes, thick, att, con, sparse, status, reasons)
+
+
+def nearby_attitudes(attitudes, line, corridor_m: float) -> np.ndarray:
+    """Map positions (n, 2) of the attitudes within a generous reach of a section line: the
+    box around the line widened by the larger of 3000 m and 4 corridors (as far as
+    :func:`sparse_stretches` suggests widening the corridor).
+
+    ``attitudes``: anything with ``x`` and ``y`` arrays in the line's CRS (the project's
+    :class:`mapsection.attitudes.Attitudes`); ``line``: a
+    :class:`mapsection.line.SectionLine`.
+    """
+    xy = np.column_stack([np.asarray(attitudes.x, float), np.asarray(attitudes.y, float)])
+    v = np.asarray(line.vertices, float)
+    reach = max(3000.0, 4.0 * float(corridor_m))
+    lo, hi = v.min(axis=0) - reach, v.max(axis=0) + reach
+    return xy[np.all((xy >= lo) & (xy <= hi), axis=1)]

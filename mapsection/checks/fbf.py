@@ -107,8 +107,8 @@ def axial_angle(theta: float, phi: float | None = None) -> float:
                           options={"xatol": 1e-12})
     if -res.fun >= -1e-7:
         return float(np.degrees(res.x))
-    raise ParameterError(f"fault-bend fold: no mode-I solution for cutoff angle {theta:g} and "
-                         f"bend angle {phi:g} degrees (ramps steeper than about 30 degrees "
+    raise ParameterError(f"fault-bend fold: no mode-I solution for cutoff angle {theta:.1f} and "
+                         f"bend angle {phi:.1f} degrees (ramps steeper than about 30 degrees "
                          "have none; Suppe 1983)")
 
 

@@ -39,6 +39,7 @@ from ..errors import ParameterError
 from .fbf import compare_with_draft, fault_bend_fold
 from .geometry import FaultBlocks, fault_blocks, joined_horizons, line_xy, snap_tolerance
 from .restore import Restoration
+from .status import Part
 
 __all__ = ["Kinematics", "check_kinematics", "horizon_crossings", "fbf_tolerance_m"]
 
@@ -74,10 +75,26 @@ class Kinematics:
     fault_bend_folds: list[dict] = field(default_factory=list)
     failures: list[str] = field(default_factory=list)
     # "pass" only when something was measured and nothing failed; "not_tested" when no
-    # part could be measured (``passed`` stays False only on a failure).
+    # part could be measured (``passed`` is True only for "pass"; None in checks.json
+    # when not tested).
     status: str = "pass"
     reasons: list[str] = field(default_factory=list)
     fault_bend: dict = field(default_factory=dict)  # status, reasons, compared (count)
+
+    @property
+    def parts(self) -> dict[str, Part]:
+        """Each sub-test's verdict, as the other tests give theirs."""
+        subs = {"transport": self.transport, "cut_up_section": self.cut_up_section,
+                "separations": self.separations, "crossings": self.crossings,
+                "fault_bend_fold": self.fault_bend}
+        out = {}
+        for k, d in subs.items():
+            st = d.get("status", "not_tested")
+            why = d.get("reasons") or []
+            if st == "fail" and not why and k != "fault_bend_fold":
+                why = [f for f in self.failures if _mentions(f, k)]
+            out[k] = Part(st, tuple(why))
+        return out
 
     @property
     def transport_name(self) -> str | None:
@@ -86,10 +103,11 @@ class Kinematics:
 
     def to_dict(self) -> dict:
         return {
-            "passed": self.passed,
+            "passed": None if self.status == "not_tested" else self.status == "pass",
             "transport_direction": self.transport_name,
             "status": self.status,
             "reasons": list(self.reasons),
+            "parts": {k: p.to_dict() for k, p in self.parts.items()},
             "fault_bend": self.fault_bend,
             "transport": self.transport,
             "cut_up_section": self.cut_up_section,
@@ -395,13 +413,22 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
     if fb_status == "not_tested":
         reasons.append("fault-bend fold comparison: not tested ("
                        + "; ".join(fault_bend["reasons"]) + ")")
-    passed = status != "fail"
+    passed = status == "pass"
     return Kinematics(passed, direction, transport, cut, separations, crossings, fbfs, failures,
                       status, reasons, fault_bend)
+
+
+def _mentions(failure: str, part: str) -> bool:
+    """Whether a failure line belongs to a sub-test (by the words each sub-test uses)."""
+    words = {"transport": " transports ", "cut_up_section": "cuts down-section",
+             "separations": ": separation of top", "crossings": "crosses"}
+    return words.get(part, "\x00") in failure
 
 
 def _part(d: dict, ok: bool, measured: bool, why: str) -> str:
     """Give a sub-test dict its ``status`` and ``reasons``; returns the status."""
     d["status"] = "not_tested" if not measured else ("pass" if ok else "fail")
     d["reasons"] = [why] if not measured else []
+    if not measured:
+        d["passed"] = None  # checks.json: null when not tested
     return d["status"]

@@ -18,15 +18,22 @@ the other end; both at the first/last distance where every horizon exists.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
+import shapely
 from shapely.geometry import LineString, Polygon
 
 from ..draft import Draft
 from ..errors import CheckError
 from ..stratigraphy import is_base_name
 from .geometry import clip_x, joined_horizons, line_xy, snap_tolerance
+from .status import BY_CONSTRUCTION, NOT_TESTED, Part, combine, passed_of
+
+if TYPE_CHECKING:
+    from .cutoffs import FaultRestorationCheck
 
 __all__ = [
     "Restoration",
@@ -36,6 +43,7 @@ __all__ = [
     "RestoredGap",
     "restore_section",
     "restored_elevation",
+    "with_fault_checks",
 ]
 
 
@@ -71,6 +79,9 @@ class RestoredHorizon:
     deformed_x1_m: float
     local_pin_m: float  # the vertical the block was restored about
     geometry: LineString  # restored, section space
+    # Restored x intervals of the bed that lie above the ground in the draft: eroded,
+    # never observed (projected from the dips), drawn apart from preserved rock.
+    eroded: tuple[tuple[float, float], ...] = ()
 
     @property
     def restored_length_m(self) -> float:
@@ -142,6 +153,12 @@ class Restoration:
     failures: list[str] = field(default_factory=list)
     column: object = None
     datum_elevation_m: float = 0.0
+    # Three states (issue 12): line-length balance, gaps between blocks and, once judged
+    # at each fault (with_fault_checks), cutoff mismatches and separation consistency.
+    parts: dict[str, Part] = field(default_factory=dict)
+    status: str = NOT_TESTED
+    reasons: list[str] = field(default_factory=list)
+    at_faults: FaultRestorationCheck | None = None
 
     @property
     def gap_overlap_pct(self) -> float:
@@ -158,7 +175,10 @@ class Restoration:
 
     def to_dict(self) -> dict:
         return {
-            "passed": self.passed,
+            "passed": passed_of(self.status),
+            "status": self.status,
+            "reasons": list(self.reasons),
+            "parts": {k: p.to_dict() for k, p in self.parts.items()},
             "pin_m": self.pin_m,
             "loose_m": self.loose_m,
             "pin_source": self.pin_source,
@@ -178,6 +198,7 @@ class Restoration:
             "restored_units": [{"unit": u.unit, "block": u.block, "area_m2": u.area_m2}
                                for u in self.units],
             "failures": list(self.failures),
+            "faults": self.at_faults.to_dict() if self.at_faults is not None else None,
         }
 
 
@@ -371,10 +392,39 @@ def _lay_flat(draft: Draft, blocks: dict[int, dict[str, LineString]], ys: dict[s
             x0, x1 = s[t], e[t]
             pieces.append(RestoredHorizon(
                 t, b, ys[t], float(p.length), float(x0), float(x1), starts[t], far_x(p),
-                float(xl), LineString([(x0, ys[t]), (x1, ys[t])])))
+                float(xl), LineString([(x0, ys[t]), (x1, ys[t])]),
+                _eroded(draft, p, x0, direction)))
             last_end[t] = x1
             prev_block[t] = b
     return pieces, gaps
+
+
+def _eroded(draft: Draft, piece: LineString, x0: float, direction: int,
+            ) -> tuple[tuple[float, float], ...]:
+    """Where a bed piece lies above the ground in the draft, as restored x intervals: a
+    point at bed length u from the piece's pin-side end restores to x0 + direction * u."""
+    if piece.length <= 0:
+        return ()
+    pixel = float(getattr(draft.profile, "pixel_size", float("nan")))
+    step = max(pixel, 1.0) if np.isfinite(pixel) else 10.0  # about a DEM pixel along the bed
+    c = line_xy(shapely.segmentize(piece, step))
+    if direction < 0:
+        c = c[::-1]  # from the pin side
+    u = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(c, axis=0).T))])
+    ground = draft.profile.elevation_at(c[:, 0])
+    with np.errstate(invalid="ignore"):
+        up = c[:, 1] > ground + 0.5  # half a metre: a bed at the ground is preserved
+    if not up.any():
+        return ()
+    edges = np.flatnonzero(np.diff(np.concatenate([[0], up.astype(np.int8), [0]])))
+    out = []
+    for a, b in zip(edges[::2], edges[1::2], strict=True):
+        # each run's ends halfway between its last point below and first point above
+        ua = 0.5 * (u[a - 1] + u[a]) if a > 0 else u[0]
+        ub = 0.5 * (u[b - 1] + u[b]) if b < len(u) else u[-1]
+        xa, xb = x0 + direction * ua, x0 + direction * ub
+        out.append((float(min(xa, xb)), float(max(xa, xb))))
+    return tuple(out)
 
 
 def _restored_units(column, pieces: list[RestoredHorizon]) -> list[RestoredUnit]:
@@ -511,8 +561,61 @@ def restore_section(draft: Draft, pin: float | None = None, loose: float | None 
         failures.append(f"gaps and overlaps between fault blocks in the restored state: "
                         f"{gap_pct:.2f} % of the restored area (> {threshold_pct:g} %)")
     full = any(h.reaches_loose for h in balances)
-    passed = full and ll.mismatch_pct <= threshold_pct and gap_pct <= threshold_pct
+    parts = _parts(draft, ll, full, gaps, gap_pct, threshold_pct)
+    status, reasons = combine(parts)
     return Restoration(name, float(pin), float(loose), source, direction, float(threshold_pct),
                        pieces, balances, units, gaps, ll.mismatch_pct, ll.loose_spread_m,
                        ll.loose_angle_deg, ll.loose_departure_m, ll.shortening_pct,
-                       ll.shortening_m, passed, failures, draft.column)
+                       ll.shortening_m, status == "pass", failures, draft.column,
+                       parts=parts, status=status, reasons=reasons)
+
+
+def _parts(draft: Draft, ll: _LineLengths, full: bool, gaps: list[RestoredGap],
+           gap_pct: float, threshold_pct: float) -> dict[str, Part]:
+    """Line-length balance and the gaps between fault blocks, each pass, fail or not tested.
+
+    A constant-thickness draft built by mapsection keeps every bed's length through
+    the fold (flexural slip), so its line-length balance holds by construction: it is
+    still measured, and says so when it passes.
+    """
+    if not full:
+        lines = Part.not_tested(ll.failures[0])
+    else:
+        ok = ll.mismatch_pct <= threshold_pct
+        why = [f for f in ll.failures if f.startswith("restored line lengths")]
+        if ok and draft.method != "edited":
+            why = [f"{BY_CONSTRUCTION} (a constant-thickness draft built by mapsection keeps "
+                   "its bed lengths)"]
+        lines = Part.measured(ok, *why)
+    if not gaps:
+        blocks = Part.not_tested("no unit continues across a fault between the pin and loose "
+                                 "lines")
+    else:
+        ok = gap_pct <= threshold_pct
+        blocks = Part.measured(ok, *([] if ok else [
+            f"gaps and overlaps between fault blocks {gap_pct:.2f} % of the restored area "
+            f"(> {threshold_pct:g} %)"]))
+    return {"line_length_balance": lines, "block_gaps": blocks}
+
+
+def with_fault_checks(restoration: Restoration, at_faults: FaultRestorationCheck
+                      ) -> Restoration:
+    """The restoration judged at each fault too: cutoff mismatches and separation
+    consistency (:func:`mapsection.checks.cutoffs.check_fault_restoration`) become parts
+    of its verdict."""
+    def part(check) -> Part:
+        if check.status == "pass":
+            return Part(check.status)
+        return Part(check.status, tuple(check.reasons or check.lines()))
+
+    parts = {**{k: v for k, v in restoration.parts.items()
+                if k not in ("fault_cutoffs", "separation_consistency")},
+             "fault_cutoffs": part(at_faults.cutoffs),
+             "separation_consistency": part(at_faults.separations)}
+    status, reasons = combine(parts)
+    failures = [*restoration.failures,
+                *(r for k in ("fault_cutoffs", "separation_consistency")
+                  if parts[k].status == "fail" for r in parts[k].reasons)]
+    return dataclasses.replace(restoration, parts=parts, status=status, reasons=reasons,
+                               passed=status == "pass", failures=failures,
+                               at_faults=at_faults)

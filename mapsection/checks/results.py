@@ -14,10 +14,11 @@ from typing import Any
 import numpy as np
 
 from ..caution import CAUTION
-from ..project import Thresholds
+from ..settings import Thresholds
 from .area import AreaBalance
 from .kinematics import Kinematics
 from .restore import Restoration
+from .status import passed_of, worst
 from .topography import TopographyCheck
 
 __all__ = ["TESTS", "CheckReport", "jsonable"]
@@ -62,9 +63,14 @@ class CheckReport:
     kinematics: Kinematics
     notes: list[str] = field(default_factory=list)
 
-    # -- each test as a dict with its own "passed" ---------------------------
+    # -- each test as a dict with its own "passed", "status" and "reasons" ---
     def test_dicts(self) -> dict[str, dict]:
-        """Each test's ``to_dict()`` with its pass thresholds: the sections of checks.json."""
+        """Each test's ``to_dict()`` with its pass thresholds: the sections of checks.json.
+
+        Each holds ``passed`` (true, false, or null when not tested), ``status``
+        ("pass", "fail" or "not_tested"), ``reasons`` and ``parts`` (each sub-test's
+        status and reasons).
+        """
         t = self.thresholds
         topo = self.topography.to_dict()
         topo["thresholds"] = {
@@ -76,35 +82,50 @@ class CheckReport:
         }
 
         rest = self.restoration.to_dict()
-        rest["passed"] = bool(rest["passed"])
-        rest["thresholds"] = {"line_length_spread_pct": t.line_length_spread_pct}
+        rest["thresholds"] = {"line_length_spread_pct": t.line_length_spread_pct,
+                              "cutoff_mismatch_fraction": t.cutoff_mismatch_fraction,
+                              "cutoff_mismatch_pixels": t.cutoff_mismatch_pixels,
+                              "separation_spread_fraction": t.separation_spread_fraction,
+                              "separation_spread_pixels": t.separation_spread_pixels}
 
         area = self.area_balance.to_dict()
-        area["passed"] = bool(area["passed"])
         area["thresholds"] = {"area_mismatch_pct": t.area_mismatch_pct}
 
         kin = self.kinematics.to_dict()
-        kin["passed"] = bool(kin["passed"])
-        return {"topography": topo, "restoration": rest, "area_balance": area, "kinematics": kin}
+        out = {"topography": topo, "restoration": rest, "area_balance": area, "kinematics": kin}
+        for name, d in out.items():  # one form for every test
+            st = self.statuses[name]
+            d["status"], d["passed"] = st, passed_of(st)
+            d["reasons"] = list(getattr(self, name).reasons)
+        return out
 
     @property
-    def results(self) -> dict[str, bool]:
-        """Each test's verdict, in the order of :data:`TESTS`."""
-        return {"topography": bool(self.topography.passed),
-                "restoration": bool(self.restoration.passed),
-                "area_balance": bool(self.area_balance.passed),
-                "kinematics": bool(self.kinematics.passed)}
+    def statuses(self) -> dict[str, str]:
+        """Each test's status ("pass", "fail" or "not_tested"), in the order of :data:`TESTS`."""
+        return {k: getattr(self, k).status for k in TESTS}
+
+    @property
+    def results(self) -> dict[str, bool | None]:
+        """Each test's verdict: True (pass), False (fail), None (not tested)."""
+        return {k: passed_of(st) for k, st in self.statuses.items()}
+
+    @property
+    def status(self) -> str:
+        """"fail" when any test fails, else "pass" when any passed, else "not_tested"."""
+        return worst(self.statuses.values())
 
     @property
     def passed(self) -> bool:
-        return all(self.results.values())
+        """True when no test fails (a test not tested is no failure, and no pass either)."""
+        return self.status != "fail"
 
     def to_dict(self) -> dict:
         tests = self.test_dicts()
         out: dict[str, Any] = {
             "section": self.section,
             "method": self.method,
-            "passed": all(v["passed"] for v in tests.values()),
+            "passed": passed_of(self.status),
+            "status": self.status,
             "caution": CAUTION,
         }
         out.update(tests)

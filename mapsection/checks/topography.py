@@ -39,6 +39,7 @@ from ..angles import wrap90
 from ..draft import Draft
 from ..errors import CheckError
 from ..settings import Thresholds, threshold_problem
+from .status import NOT_TESTED, Part, combine, passed_of
 
 PAIRING_RADIUS_M = 500.0  # the pairing radius is the larger of this ...
 PAIRING_RADIUS_PIXELS = 10.0  # ... and this many DEM pixels
@@ -116,9 +117,19 @@ class TopographyCheck:
     dip_misfits: list[DipMisfit]
     construction_residuals: list[dict] = field(default_factory=list)
     failures: list[str] = field(default_factory=list)
+    # Three states (issue 12): each measure's verdict, and the test's.
+    parts: dict[str, Part] = field(default_factory=dict)
+    status: str = NOT_TESTED
+    reasons: list[str] = field(default_factory=list)
+    # Likely causes of a failure (mapsection.checks.diagnosis.Diagnosis), when diagnosed.
+    diagnosis: object = None
 
     def to_dict(self) -> dict:
-        return asdict(self)
+        d = asdict(self)
+        d["passed"] = passed_of(self.status)
+        d["parts"] = {k: p.to_dict() for k, p in self.parts.items()}
+        d["diagnosis"] = self.diagnosis.to_dict() if self.diagnosis is not None else None
+        return d
 
 
 # ---------------------------------------------------------------------------
@@ -524,25 +535,12 @@ def check_topography(draft: Draft, thresholds: Thresholds | None = None) -> Topo
     max_unpaired = int(math.floor(UNMATCHED_SHARE * c["n_map"]))
     n_unpaired = len(c["un_map"]) + len(c["un_sec"])
     rms, drms = _rms(mis), _rms(dmis)
-    failures = []
-    if len(mis) and not rms <= limit:
-        failures.append(f"contact misfit RMS {rms:.1f} m exceeds {limit:.1f} m")
-    if n_unpaired > max_unpaired:
-        failures.append(
-            f"{n_unpaired} unpaired contact(s) ({len(c['un_map'])} on the map, "
-            f"{len(c['un_sec'])} in the section); at most {max_unpaired} allowed"
-        )
-    if not math.isfinite(ua["share"]):
-        failures.append("no stretch of the line has a unit both on the map and in the section")
-    elif ua["share"] < thresholds.unit_agreement:
-        failures.append(
-            f"unit agreement {ua['share']:.3f} below {thresholds.unit_agreement:.3f}"
-        )
-    if len(dmis) and not drms <= thresholds.dip_rms_deg:
-        failures.append(f"dip misfit RMS {drms:.1f} deg exceeds {thresholds.dip_rms_deg:.1f} deg")
+    parts = _parts(c, ua, len(dmis), rms, limit, n_unpaired, max_unpaired, drms, thresholds)
+    status, reasons = combine(parts)
+    failures = [r for p in parts.values() if p.status == "fail" for r in p.reasons]
 
     return TopographyCheck(
-        passed=not failures,
+        passed=status == "pass",
         contact_rms_m=rms,
         contact_worst_m=float(mis[worst]) if worst >= 0 else float("nan"),
         contact_worst_distance_m=c["misfits"][worst].map_distance_m if worst >= 0 else float("nan"),
@@ -568,7 +566,45 @@ def check_topography(draft: Draft, thresholds: Thresholds | None = None) -> Topo
         dip_misfits=dm,
         construction_residuals=[asdict(r) for r in draft.residuals],
         failures=failures,
+        parts=parts,
+        status=status,
+        reasons=reasons,
     )
+
+
+def _parts(c: dict, ua: dict, n_dips: int, rms: float, limit: float, n_unpaired: int,
+           max_unpaired: int, drms: float, thresholds: Thresholds) -> dict[str, Part]:
+    """The verdict of each measure: pass or fail where measured, else not tested and why."""
+    if c["misfits"]:
+        contacts = Part.measured(rms <= limit, *([] if rms <= limit else [
+            f"contact misfit RMS {rms:.1f} m exceeds {limit:.1f} m"]))
+    else:
+        contacts = Part.not_tested("no map contact on the line" if not c["n_map"] else
+                                   "no map contact has a section contact within "
+                                   f"{c['radius']:.0f} m")
+    if c["n_map"] or c["un_sec"]:
+        ok = n_unpaired <= max_unpaired
+        unpaired = Part.measured(ok, *([] if ok else [
+            f"{n_unpaired} unpaired contact(s) ({len(c['un_map'])} on the map, "
+            f"{len(c['un_sec'])} in the section); at most {max_unpaired} allowed"]))
+    else:
+        unpaired = Part.not_tested("no contact on the map or in the section along the line")
+    share = ua["share"]
+    if math.isfinite(share):
+        ok = share >= thresholds.unit_agreement
+        units = Part.measured(ok, *([] if ok else [
+            f"unit agreement {share:.3f} below {thresholds.unit_agreement:.3f}"]))
+    else:
+        units = Part.not_tested("no stretch of the line has a unit both on the map and in "
+                                "the section")
+    if n_dips:
+        ok = drms <= thresholds.dip_rms_deg
+        dips = Part.measured(ok, *([] if ok else [
+            f"dip misfit RMS {drms:.1f} deg exceeds {thresholds.dip_rms_deg:.1f} deg"]))
+    else:
+        dips = Part.not_tested("no attitude projected onto the section")
+    return {"contact_misfit": contacts, "unpaired_contacts": unpaired,
+            "unit_agreement": units, "dip_misfit": dips}
 
 
 __all__ = [

@@ -6,7 +6,7 @@ import click
 
 from ..caution import CAUTION
 from ..settings import METHODS
-from ._common import note, verdict, warn
+from ._common import note, warn
 from ._progress import start_progress
 
 
@@ -38,7 +38,9 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
     a folder there that is not a previous build (no build.log of a build) is never
     replaced, nor one that is or holds an input. A second build into OUTDIR waits
     for the first. Progress goes to stderr; stdout gets one line per section
-    folder with its tests' PASS or FAIL.
+    folder with its tests' verdicts (PASS, FAIL or NOT TESTED); a failed test is a
+    result, not an error: the exit code is 0 once the outputs are written (see
+    'mapsection check' for an exit code that follows the tests).
 
     \b
     Example (the sample area):
@@ -47,9 +49,13 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
     """
     start_progress()
     from ..build import build_project
+    from ..checking import result_line
 
+    summaries: dict = {}
     folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn,
-                            note=note)
+                            note=note, summaries=summaries)
     for folder in folders:
-        click.echo(f"{folder}: {verdict(folder)}")  # the line demo prints for a section
+        # the line demo prints for a section: PASS, FAIL or NOT TESTED (never a pass unmeasured)
+        click.echo(f"{folder}: {result_line(summaries[folder])}" if folder in summaries
+                   else str(folder))
     note(f"built {len(folders)} section(s); each is a draft to be reviewed")

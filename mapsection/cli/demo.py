@@ -28,8 +28,9 @@ def command(outdir: str) -> None:
     restored.png/.svg/.pdf, the incremental sequence, build.log, checks.json and
     report.html, as 'mapsection build' writes them. OUTDIR/flawed/ holds the same for
     sample_area/project_flawed.toml, whose column has one unit 40 % too thick: its
-    sections fail the topography test, as they should. The summary lines say which
-    tests each section passes.
+    sections fail the topography test, as they should. The summary lines give each
+    test's verdict per section: PASS, FAIL or NOT TESTED (nothing to measure; never
+    counted as a pass).
 
     \b
     Example:
