@@ -102,7 +102,7 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
             data.line, data.profile, data.geology, data.dips, project.column,
             name=spec.name, method=method or spec.method, ve=ve or spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
-            default_dip=spec.default_dip, warn=warn)
+            default_dip=spec.default_dip, keep_readings=project.keep_readings, warn=warn)
 
 
 def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:
@@ -111,10 +111,15 @@ def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:
         f"method: {draft.method}; vertical exaggeration: {draft.ve:g}",
         f"section line: {len(draft.line.vertices)} vertices, {draft.line.length:.1f} m",
         f"horizons: {len(draft.horizons)}; faults: {len(draft.faults)}; "
-        f"unit polygons: {len(draft.units)}; dip domains: {len(draft.domains)}",
+        f"unit polygons: {len(draft.units)}; dip domains: {len(draft.domains)}; "
+        f"outliers: {sum(o.kind == 'outlier' for o in draft.outliers)}",
         "",
         *draft.log,
     ]
+    if draft.outliers:
+        lines += ["", "readings kept out of the dip domains (id, distance, dip, misfit, why):"]
+        lines += [f"  {o.id}  {o.distance_m:.0f} m  {o.apparent_dip:.1f}°  "
+                  f"{o.misfit_deg:+.1f}°  {o.kind}: {o.why}" for o in draft.outliers]
     if warnings:
         lines += ["", "warnings:", *[f"  {w}" for w in warnings]]
     lines += ["", f"CAUTION: {CAUTION}"]

@@ -36,7 +36,8 @@ MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer",
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
 ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
                   "attitude")
-ATTITUDE_KEYS = frozenset({"path", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
+ATTITUDE_KEYS = frozenset({"path", "layer", "convention", "keep_readings",
+                           *(f"{r}_field" for r in ATTITUDE_ROLES)})
 UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology"})
 SECTION_KEYS = frozenset({"name", "line", "corridor", "method", "projection", "ve",
                           "dip_tolerance", "depth", "fault_depth", "default_dip", "pin", "loose"})
@@ -115,6 +116,7 @@ class Project:
     thresholds: Thresholds = field(default_factory=Thresholds)
     fault_fields: dict[str, str] = field(default_factory=dict)
     attitude_fields: dict[str, str] = field(default_factory=dict)
+    keep_readings: tuple[str, ...] = ()  # ids kept in the dip domains whatever they say
 
     def section(self, name: str | SectionSpec) -> SectionSpec:
         """The section named ``name`` (a :class:`SectionSpec` is returned as it is): the one
@@ -295,7 +297,19 @@ def load_project(path: str | os.PathLike) -> Project:
         thresholds=thresholds,
         fault_fields=fault_fields,
         attitude_fields=attitude_fields,
+        keep_readings=_keep_readings(att),
     )
+
+
+def _keep_readings(att: _Reader) -> tuple[str, ...]:
+    """``[attitudes] keep_readings``: ids (strings or integers) of readings kept in the dip
+    domains even where their neighbours disagree with them."""
+    ids = att.get("keep_readings", list, [])
+    for j, v in enumerate(ids):
+        if isinstance(v, bool) or not isinstance(v, str | int):
+            raise att.fail(f"keep_readings[{j}]", f"must be a reading id (text or integer), "
+                                                   f"got {v!r}")
+    return tuple(str(v) for v in ids)
 
 
 def _section(r: _Reader) -> SectionSpec:

@@ -65,3 +65,13 @@ def test_sample_draft_is_complete(drafts):
         mapped = {iv.unit for iv in draft.geology.intervals if iv.unit}
         assert {u.unit for u in draft.units} >= mapped
         assert draft.residuals
+
+
+def test_no_sample_dip_domain_rests_on_one_reading(drafts):
+    # Common practice: a dip domain rests on more than one reading (the sample area's
+    # lone -9° reading among -12° neighbours made a domain of its own before).
+    _, built = drafts
+    for draft in built:
+        assert draft.domains
+        assert all(dm.n_dips > 1 for dm in draft.domains), draft.name
+        assert not [o for o in draft.outliers if o.kind == "outlier"], draft.name

@@ -23,7 +23,7 @@ the horizon ``top_of = "base of <oldest unit>"``.
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 
 import numpy as np
 
@@ -47,6 +47,7 @@ from .constraints import contact_constraints, interval_constraints
 from .faults import block_polygons, fault_lines, ground_ranges
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
+from .outliers import screen_dips
 
 METHODS = ("kink", "arc")
 
@@ -60,7 +61,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                 dips: ProjectedDips, column: Column, *, name: str = "", method: str = "kink",
                 ve: float = 1.0, dip_tolerance: float = 5.0, depth: float | None = None,
                 fault_depth: float | None = None, default_dip: float | None = None,
-                warn: Warn | None = None) -> Draft:
+                keep_readings: Iterable[str] = (), warn: Warn | None = None) -> Draft:
     """Construct the draft section along ``line``.
 
     Parameters
@@ -84,6 +85,9 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     default_dip
         Signed apparent dip (degrees, + descends toward increasing distance) used,
         with a warning, where no dips fall within the corridor.
+    keep_readings
+        Ids of readings kept in the dip domains even where their neighbours disagree
+        with them (see docs/dips.md, "Outliers").
     warn
         Called with each warning (default: a :class:`~mapsection._messages.MapsectionWarning`).
 
@@ -91,7 +95,8 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     -------
     Draft
         Horizons, unit polygons, faults, dip domains, axial surfaces and contact
-        residuals in section space; ``draft.log`` says what the construction did.
+        residuals in section space; ``draft.log`` says what the construction did and
+        ``draft.outliers`` lists the readings kept out of the dip domains.
 
     Examples
     --------
@@ -119,7 +124,8 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     ranges = ground_ranges(faults, frame.length)
     regions = [p.intersection(frame.box) for p in block_polygons(faults, frame)]
 
-    dipset = section_dips(dips, notes)
+    screened, outliers = screen_dips(dips, ranges, dip_tolerance, keep_readings, notes)
+    dipset = section_dips(screened, notes)
     if len(dipset) == 0:
         if default_dip is None:
             raise ConstructionError(
@@ -146,7 +152,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
 
     draft = Draft(name=label, method=method, line=line, profile=profile, geology=geology,
                   dips=dips, column=column, ve=float(ve), base_elevation_m=frame.base,
-                  log=notes.entries)
+                  log=notes.entries, outliers=outliers)
     ground_poly = ground_below_polygon(profile, frame)
     block_lines = []
     for b, block in enumerate(blocks):
