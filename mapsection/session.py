@@ -39,6 +39,7 @@ from .topo_profile import Profile
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from .attitudes import Attitudes
+    from .corridor import CorridorContacts
     from .dips import ProjectedDips
     from .foldaxis import FoldAxis
     from .project import Project, SectionSpec
@@ -58,6 +59,7 @@ class SectionData:
     profile: Profile
     geology: SurfaceGeology
     dips: ProjectedDips
+    corridor_contacts: CorridorContacts | None = None  # map contacts beside the line
 
 
 @dataclass(eq=False)
@@ -267,16 +269,40 @@ class SectionSession:
         return project_attitudes(self.attitudes.subset(self.near(line)), line, self.corridor,
                                  method=self.projection, axis=self.axis, warn=self.warn)
 
+    def contacts_beside(self, line: SectionLine) -> CorridorContacts:
+        """The map's contacts within the corridor of ``line``, projected into the section
+        by the session's projection (:func:`mapsection.corridor.corridor_contacts`); each
+        point's elevation from the DEM; along strike, the strike of the nearest attitude."""
+        from .corridor import corridor_contacts
+
+        if not same_crs(line.crs, self.crs):
+            line = line.to_crs(self.crs)
+        strike = np.asarray(self.attitudes.strike, float)
+
+        def strike_at(x, y):
+            if not len(strike):
+                return np.full(len(x), np.nan)
+            return strike[self._tree.nearest(shapely.points(x, y))]
+
+        px = float(self.dem.pixel_size)
+        spacing = max(25.0, px) if np.isfinite(px) else 25.0
+        return corridor_contacts(self.map_data, line, self.corridor,
+                                 lambda x, y: self.dem.sample(x, y, crs=self.crs),
+                                 method=self.projection, axis=self.axis, strike_at=strike_at,
+                                 spacing=spacing)
+
     def run(self, line: SectionLine | np.ndarray | Sequence | None = None) -> SectionData:
-        """Profile, surface geology and projected dips along ``line`` (default: the current one)."""
+        """Profile, surface geology, projected dips and the contacts beside the line along
+        ``line`` (default: the current one)."""
         from .topo_profile import profile
 
         line = self._as_line(line)
         prof = profile(self.dem, line, self.step, warn=self.warn)
         geology = surface_geology(self.map_data, line, prof, warn=self.warn)
         dips = self.project_dips(line)
+        beside = self.contacts_beside(line)
         self.line = line
-        return SectionData(line, prof, geology, dips)
+        return SectionData(line, prof, geology, dips, beside)
 
     def shift_line(self, new_line: SectionLine | np.ndarray | Sequence) -> SectionData:
         """Re-run for a shifted line (a SectionLine or its vertices); reads no file."""

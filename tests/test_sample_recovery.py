@@ -30,6 +30,7 @@ def _drafts():
                                name=spec.name, method=spec.method,
                                dip_tolerance=spec.dip_tolerance, depth=spec.depth,
                                fault_depth=spec.fault_depth, default_dip=spec.default_dip,
+                               corridor_contacts=data.corridor_contacts,
                                warn=lambda m: None))
     return project, out
 

@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Callable, Iterable
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -43,11 +44,19 @@ from .blocks import (
     section_dips,
     split_blocks,
 )
-from .constraints import contact_constraints, interval_constraints
+from .constraints import (
+    Constraints,
+    contact_constraints,
+    corridor_constraints,
+    interval_constraints,
+)
 from .faults import block_polygons, fault_lines, ground_ranges
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
 from .outliers import screen_dips
+
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from ..corridor import CorridorContacts
 
 METHODS = ("kink", "arc")
 
@@ -61,7 +70,9 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                 dips: ProjectedDips, column: Column, *, name: str = "", method: str = "kink",
                 ve: float = 1.0, dip_tolerance: float = 5.0, depth: float | None = None,
                 fault_depth: float | None = None, default_dip: float | None = None,
-                keep_readings: Iterable[str] = (), warn: Warn | None = None) -> Draft:
+                keep_readings: Iterable[str] = (),
+                corridor_contacts: CorridorContacts | None = None,
+                warn: Warn | None = None) -> Draft:
     """Construct the draft section along ``line``.
 
     Parameters
@@ -88,6 +99,12 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     keep_readings
         Ids of readings kept in the dip domains even where their neighbours disagree
         with them (see docs/dips.md, "Outliers").
+    corridor_contacts
+        The map's contacts beside the line, projected into the section
+        (:func:`mapsection.corridor.corridor_contacts`): they position each block's
+        horizons with the line's own contacts, weighted by their distance from the
+        line; a block with no contact on the line is positioned by them before any
+        fallback.
     warn
         Called with each warning (default: a :class:`~mapsection._messages.MapsectionWarning`).
 
@@ -136,6 +153,9 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
         notes.log(f"no dips within the corridor: default dip {default_dip:g}° used throughout")
     contacts = drop_fault_contacts(contact_constraints(geology, column, ground, notes), faults,
                                    profile, notes)
+    beside = corridor_constraints(corridor_contacts, column)
+    _log_corridor(beside, contacts, ranges, notes)
+    contacts = Constraints.concat([contacts, beside])
     if len(contacts) == 0 and not geology.intervals:
         raise ConstructionError(f"section {label}: the line crosses no mapped "
                                 "contact or unit: nothing positions the horizons")
@@ -185,6 +205,33 @@ def _fit_blocks(blocks: list[FaultBlock], fit: Callable[[FaultBlock, BlockSettin
             block = blocks[b] = dataclasses.replace(block, constraints=cons)
         models[b] = fit(block, st)
     return [models[b] for b in range(len(blocks))]
+
+
+def _log_corridor(beside: Constraints, on_line: Constraints, ranges: list[tuple[float, float]],
+                  notes: Notes) -> None:
+    """Which map contacts beside the line each block uses."""
+    if not len(beside):
+        return
+    notes.log(f"{len(beside)} point(s) of map contacts beside the line (within the corridor) "
+              "projected into the section; weighted by their distance from the line")
+    for b, (lo, hi) in enumerate(ranges):
+        m = (beside.distance >= lo) & (beside.distance < hi)
+        if not m.any():
+            continue
+        sub = beside.subset(m)
+        pairs: dict[tuple[str, str], list[float]] = {}
+        for i in range(len(sub)):
+            key = tuple(sorted((str(sub.before[i]), str(sub.after[i]))))
+            pairs.setdefault(key, []).append(float(sub.distance[i]))
+        what = "; ".join(f"{a}|{c} ({len(v)} point(s), projected to {min(v):.0f}-{max(v):.0f} m)"
+                         for (a, c), v in sorted(pairs.items()))
+        n_line = int(((on_line.distance >= lo) & (on_line.distance < hi)).sum())
+        if n_line:
+            notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m): beside its {n_line} contact(s) on the "
+                      f"line, contacts from the corridor used: {what}")
+        else:
+            notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m) has no map contact on the line: "
+                      f"positioned by contacts from the corridor: {what}")
 
 
 def _check_options(method, ve, tol, depth, fault_depth, default_dip) -> None:
