@@ -97,13 +97,16 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
         finally:
             if inputs is None:
                 session.close()
+    plunge_axis = spec.fold_axis
+    if plunge_axis is None and session.axis is not None:
+        plunge_axis = (float(session.axis.trend), float(session.axis.plunge))
     with _stage(timings, "construction"):
         return build_draft(
             data.line, data.profile, data.geology, data.dips, project.column,
             name=spec.name, method=method or spec.method, ve=ve or spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
             default_dip=spec.default_dip, keep_readings=project.keep_readings,
-            corridor_contacts=data.corridor_contacts, warn=warn)
+            corridor_contacts=data.corridor_contacts, plunge_axis=plunge_axis, warn=warn)
 
 
 def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:

@@ -40,7 +40,8 @@ ATTITUDE_KEYS = frozenset({"path", "layer", "convention", "keep_readings",
                            *(f"{r}_field" for r in ATTITUDE_ROLES)})
 UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology"})
 SECTION_KEYS = frozenset({"name", "line", "corridor", "method", "projection", "ve",
-                          "dip_tolerance", "depth", "fault_depth", "default_dip", "pin", "loose"})
+                          "dip_tolerance", "depth", "fault_depth", "default_dip", "pin", "loose",
+                          "fold_axis"})
 
 
 @dataclass(frozen=True)
@@ -97,6 +98,7 @@ class SectionSpec:
     default_dip: float | None = None  # used, with a warning, where no dips fall in the corridor
     pin: float | None = None  # distance of the pin line along the section, metres
     loose: float | None = None
+    fold_axis: tuple[float, float] | None = None  # (trend, plunge): given, not computed
 
 
 @dataclass(frozen=True)
@@ -351,7 +353,21 @@ def _section(r: _Reader) -> SectionSpec:
         default_dip=default_dip,
         pin=opt("pin"),
         loose=opt("loose"),
+        fold_axis=_fold_axis(r),
     )
+
+
+def _fold_axis(r: _Reader) -> tuple[float, float] | None:
+    """``fold_axis = [trend, plunge]`` (degrees) of a [[section]], or None."""
+    val = r.get("fold_axis", list, None)
+    if val is None:
+        return None
+    ok = len(val) == 2 and all(isinstance(v, int | float) and not isinstance(v, bool)
+                               and math.isfinite(v) for v in val)
+    if not ok or not (0.0 <= val[0] <= 360.0 and 0.0 <= val[1] <= 90.0):
+        raise r.fail("fold_axis", f"must be [trend, plunge] in degrees (trend 0-360, plunge "
+                                  f"0-90), got {val!r}")
+    return float(val[0]) % 360.0, float(val[1])
 
 
 def _is_hex_colour(text: str) -> bool:

@@ -51,6 +51,13 @@ PROJECTIONS = ("perpendicular", "strike", "plunge")
 
 
 
+def given_axis(trend: float, plunge: float) -> FoldAxis:
+    """A fold axis given by the geologist (no fabric: nothing to judge its cylindricity by)."""
+    from .foldaxis import FoldAxis
+
+    return FoldAxis(float(trend), float(plunge), (float("nan"),) * 3, float("nan"), 0)
+
+
 @dataclass(frozen=True, eq=False)
 class SectionData:
     """Everything the map, the DEM and the attitudes say along one section line."""
@@ -189,7 +196,9 @@ class SectionSession:
         """A session for one section over inputs already loaded (shared, not owned)."""
         warn = warn or _default_warn
         axis = None
-        if spec.projection == "plunge":
+        if spec.projection == "plunge" and spec.fold_axis is not None:
+            axis = given_axis(*spec.fold_axis)
+        elif spec.projection == "plunge":
             axis = inputs.axis()
             for why in axis.cylindrical_problems():
                 warn(f"section {spec.name}: down-plunge projection may mislead: {why}")

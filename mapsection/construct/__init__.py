@@ -54,6 +54,7 @@ from .faults import block_polygons, fault_lines, ground_ranges
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
 from .outliers import screen_dips
+from .plunge import MIN_ANGLE_DEG, PlungeMap, from_profile, inner_depth, plunge_map, to_profile
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from ..corridor import CorridorContacts
@@ -72,6 +73,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                 fault_depth: float | None = None, default_dip: float | None = None,
                 keep_readings: Iterable[str] = (),
                 corridor_contacts: CorridorContacts | None = None,
+                plunge_axis: tuple[float, float] | None = None,
                 warn: Warn | None = None) -> Draft:
     """Construct the draft section along ``line``.
 
@@ -105,6 +107,12 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
         horizons with the line's own contacts, weighted by their distance from the
         line; a block with no contact on the line is positioned by them before any
         fallback.
+    plunge_axis
+        ``(trend, plunge)`` of the fold axis, degrees: the section is constructed in
+        the down-plunge view (true thicknesses and dips) and carried back, so that each
+        unit has its apparent thickness ``t / cos θ`` in the section, θ the angle
+        between the axis and the section plane's normal
+        (:mod:`mapsection.construct.plunge`).
     warn
         Called with each warning (default: a :class:`~mapsection._messages.MapsectionWarning`).
 
@@ -128,6 +136,18 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     See docs/construction.md.
     """
     _check_options(method, ve, dip_tolerance, depth, fault_depth, default_dip)
+    if plunge_axis is not None:
+        pm = plunge_map(line, *plunge_axis)
+        if pm is not None:
+            return _build_plunging(pm, line, profile, geology, dips, column, name=name,
+                                   method=method, ve=ve, dip_tolerance=dip_tolerance,
+                                   depth=depth, fault_depth=fault_depth,
+                                   default_dip=default_dip, keep_readings=keep_readings,
+                                   corridor_contacts=corridor_contacts, warn=warn)
+        Notes(warn).warn(f"section {name or line.name}: the line runs within "
+                         f"{MIN_ANGLE_DEG:g}° of the fold axis' trend "
+                         f"({plunge_axis[0]:g}°): no down-plunge view; built without the "
+                         "plunge correction", logged=False)
     map_units = [iv.unit for iv in geology.intervals]
     map_units += [u for c in geology.contacts for u in (c.unit_before, c.unit_after)]
     column.check_map_units(map_units, source="map")
@@ -205,6 +225,33 @@ def _fit_blocks(blocks: list[FaultBlock], fit: Callable[[FaultBlock, BlockSettin
             block = blocks[b] = dataclasses.replace(block, constraints=cons)
         models[b] = fit(block, st)
     return [models[b] for b in range(len(blocks))]
+
+
+def _build_plunging(pm: PlungeMap, line: SectionLine, profile: Profile, geology: SurfaceGeology,
+                    dips: ProjectedDips, column: Column, *, depth: float | None,
+                    fault_depth: float | None, default_dip: float | None, corridor_contacts,
+                    **options) -> Draft:
+    """Build in the down-plunge view and carry the draft back into the section."""
+    pline, pprof, pgeo, pdips, pcc = to_profile(pm, line, profile, geology, dips,
+                                                corridor_contacts)
+    zs = np.asarray(profile.z, float)
+    zmin = float(np.nanmin(zs))
+    base = zmin - (depth if depth is not None else 1.1 * column.total_thickness / pm.cos_theta)
+    inner = build_draft(pline, pprof, pgeo, pdips, column,
+                        depth=inner_depth(pm, line, profile, base),
+                        fault_depth=None if fault_depth is None else fault_depth * pm.m[1, 1],
+                        default_dip=None if default_dip is None else float(pm.dip(default_dip)),
+                        corridor_contacts=pcc, plunge_axis=None, **options)
+    bent = " (a bent line: the azimuth from its first to its last vertex)" \
+        if len(line.vertices) > 2 else ""
+    note = (f"plunge: fold axis {pm.trend:.1f}/{pm.plunge:.1f} (trend/plunge), section "
+            f"azimuth {pm.azimuth:.1f}°{bent}: constructed in the down-plunge view (true "
+            f"thicknesses and dips; Ragan) and carried back; angle between the axis and the "
+            f"section plane's normal {np.degrees(np.arccos(min(pm.cos_theta, 1.0))):.1f}°, "
+            f"so each unit spans t / cos θ = {1.0 / pm.cos_theta:.4f} t in the section; "
+            "distances, dips and depths in the lines below are those of the down-plunge view")
+    log = [inner.log[0], note, *inner.log[1:]] if inner.log else [note]
+    return from_profile(pm, inner, line, profile, geology, dips, base, log)
 
 
 def _log_corridor(beside: Constraints, on_line: Constraints, ranges: list[tuple[float, float]],

@@ -1,0 +1,224 @@
+"""Plunging folds: the section constructed in the down-plunge view and carried back.
+
+In a cylindrical fold the beds contain the fold axis, and their true thickness and
+true dips are seen in the *profile plane*, normal to the axis. A vertical section is
+the profile seen obliquely: projecting the section along the axis onto the profile
+(the down-plunge view, Ragan, Structural Geology: An Introduction to Geometrical
+Techniques, "orthographic projection" / "down-plunge projection") is a linear map of
+section coordinates ``(u, z)`` (distance along the line, elevation) to profile
+coordinates ``(u', w)``. With the axis trending ``T`` and plunging ``p``, the line's
+azimuth ``A``, the horizontal profile direction ``b = ±(cos T, -sin T, 0)`` and the
+profile's "up" ``w = (sin T sin p, cos T sin p, cos p)``:
+
+    u' = |sin(A - T)| u
+    w  = sin p cos(A - T) s_b u + cos p z        (s_b = sign of sin(A - T))
+
+Derivation: a section point is ``u l + z e_z`` with ``l = (sin A, cos A, 0)``; its
+profile coordinates are its components along ``b`` and ``w`` (the component along
+the axis is what the projection removes): ``l . b = |sin(A - T)|``, ``e_z . b = 0``,
+``l . w = sin p cos(A - T)``, ``e_z . w = cos p``. The map's determinant,
+``|sin(A - T)| cos p``, is ``cos θ``, θ the angle between the axis and the section
+plane's normal ``n = (cos A, -sin A, 0)`` (``a . n = cos p sin(T - A)``): areas, and
+the thickness of beds normal to the axis' trace in the section, are ``1 / cos θ``
+times larger in the section than in the profile. For a line normal to the trend the
+map is a vertical shortening by ``cos p``, and a unit of true thickness ``t`` spans
+``t / cos p`` vertically more than it would without the plunge (1/cos 15° = 3.5 %).
+
+So the construction (kink or arc, with true thicknesses) is done in the profile view,
+from the section's data carried there (ground, contacts, dips, faults), and its
+horizons, units, faults and axial surfaces are carried back into the section: the
+section then holds each unit at its apparent thickness ``t / cos θ``.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import shapely
+from shapely import affinity
+
+from ..draft import AxialSurface, ContactResidual, DipDomain, DipOutlier, Draft, FaultTrace
+from ..geology import SurfaceGeology
+from ..line import SectionLine
+from ..topo_profile import Profile
+
+MIN_ANGLE_DEG = 10.0  # a line this close to the axis' trend has no useful profile view
+
+
+@dataclasses.dataclass(frozen=True)
+class PlungeMap:
+    """The linear map of section coordinates to down-plunge (profile) coordinates."""
+
+    m: np.ndarray  # 2x2, lower triangular: [[m11, 0], [m21, m22]]
+    trend: float
+    plunge: float
+    azimuth: float
+
+    @property
+    def cos_theta(self) -> float:
+        """cos of the angle between the axis and the section plane's normal."""
+        return float(self.m[0, 0] * self.m[1, 1])
+
+    @property
+    def inverse(self) -> np.ndarray:
+        return np.linalg.inv(self.m)
+
+    def points(self, u, z) -> tuple[np.ndarray, np.ndarray]:
+        u, z = np.asarray(u, float), np.asarray(z, float)
+        return self.m[0, 0] * u, self.m[1, 0] * u + self.m[1, 1] * z
+
+    def dip(self, apparent) -> np.ndarray:
+        """An apparent dip in the section (degrees, + descending toward larger u) as
+        seen in the profile."""
+        a = np.radians(np.asarray(apparent, float))
+        vx, vz = np.cos(a), -np.sin(a)
+        px = self.m[0, 0] * vx
+        pz = self.m[1, 0] * vx + self.m[1, 1] * vz
+        return np.degrees(np.arctan2(-pz, px))
+
+    def dip_back(self, apparent) -> np.ndarray:
+        inv = PlungeMap(self.inverse, self.trend, self.plunge, self.azimuth)
+        return inv.dip(apparent)
+
+    def geometry_back(self, g):
+        a = self.inverse
+        return affinity.affine_transform(g, [a[0, 0], a[0, 1], a[1, 0], a[1, 1], 0.0, 0.0])
+
+
+def plunge_map(line: SectionLine, trend: float, plunge: float) -> PlungeMap | None:
+    """The down-plunge map for a line (its azimuth from the first to the last vertex),
+    or None where the line runs within ``MIN_ANGLE_DEG`` of the axis' trend."""
+    v = line.vertices
+    az = float(np.degrees(np.arctan2(v[-1, 0] - v[0, 0], v[-1, 1] - v[0, 1])) % 360.0)
+    d = np.radians(az - trend)
+    sb = np.sin(d)
+    if abs(sb) < np.sin(np.radians(MIN_ANGLE_DEG)):
+        return None
+    p = np.radians(plunge)
+    m = np.array([[abs(sb), 0.0], [np.sin(p) * np.cos(d) * np.sign(sb), np.cos(p)]])
+    return PlungeMap(m, float(trend), float(plunge), az)
+
+
+def to_profile(pm: PlungeMap, line: SectionLine, profile: Profile, geology: SurfaceGeology,
+               dips, corridor_contacts):
+    """The section's inputs carried into the down-plunge view."""
+    length = float(line.length) * pm.m[0, 0]
+    pline = SectionLine(np.array([[0.0, 0.0], [length, 0.0]]), line.crs, line.name)
+    d, z = pm.points(profile.distance, profile.z)
+    pprof = Profile(d, np.asarray(profile.x), np.asarray(profile.y), z, pline, profile.crs,
+                    profile.pixel_size)
+
+    def pt(dist, elev):
+        a, b = pm.points([dist], [elev])
+        return float(a[0]), float(b[0])
+
+    ivs = tuple(dataclasses.replace(iv, start_m=iv.start_m * pm.m[0, 0],
+                                    end_m=iv.end_m * pm.m[0, 0]) for iv in geology.intervals)
+    cts = []
+    for c in geology.contacts:
+        dd, zz = pt(c.distance_m, c.elevation_m)
+        cts.append(dataclasses.replace(c, distance_m=dd, elevation_m=zz))
+    fts = []
+    for f in geology.faults:
+        dd, zz = pt(f.distance_m, f.elevation_m)
+        fts.append(dataclasses.replace(f, distance_m=dd, elevation_m=zz,
+                                       apparent_dip=float(pm.dip(f.apparent_dip))))
+    pgeo = SurfaceGeology(ivs, tuple(cts), tuple(fts))
+    pdips = dips
+    if dips is not None and len(dips):
+        dd, zz = pm.points(dips.distance_m, dips.elevation_m)
+        pdips = dataclasses.replace(dips, distance_m=dd, elevation_m=zz,
+                                    apparent_dip=pm.dip(dips.apparent_dip))
+    pcc = corridor_contacts
+    if corridor_contacts is not None and len(corridor_contacts):
+        dd, zz = pm.points(corridor_contacts.distance_m, corridor_contacts.elevation_m)
+        pcc = dataclasses.replace(corridor_contacts, distance_m=dd, elevation_m=zz)
+    return pline, pprof, pgeo, pdips, pcc
+
+
+def inner_depth(pm: PlungeMap, line: SectionLine, profile: Profile, base: float) -> float:
+    """The depth below the lowest ground of the profile view that covers the section down
+    to ``base`` (its frame is a sheared copy of the section's)."""
+    _, w = pm.points(profile.distance, profile.z)
+    lowest = pm.m[1, 1] * base + min(0.0, pm.m[1, 0] * float(line.length))
+    return float(np.nanmin(w)) - lowest + 1.0
+
+
+def from_profile(pm: PlungeMap, inner: Draft, line: SectionLine, profile: Profile,
+                 geology: SurfaceGeology, dips, base: float, log: list[str]) -> Draft:
+    """The draft built in the down-plunge view, carried back into the section (clipped
+    to the section's frame, from ``base`` up)."""
+    sx = 1.0 / pm.m[0, 0]
+    back = pm.geometry_back
+    top = float(np.nanmax(profile.z)) + inner.column.total_thickness / pm.cos_theta
+    box = shapely.box(0.0, base, float(line.length), top)
+
+    def clip(g):
+        return back(g).intersection(box)
+
+    horizons = []
+    for h in inner.horizons:
+        for part in _lines(clip(h.geometry)):
+            horizons.append(dataclasses.replace(h, geometry=part))
+    units = []
+    for un in inner.units:
+        g = clip(un.geometry)
+        if not g.is_empty and g.area > 1e-6:
+            units.append(dataclasses.replace(un, geometry=_polys(g)))
+    faults = []
+    for f in inner.faults:
+        c = np.asarray(f.geometry.coords)
+        unit = (c[-1] - c[0]) / max(np.hypot(*(c[-1] - c[0])), 1e-12)
+        stretch = float(np.hypot(*(pm.inverse @ unit)))  # profile length -> section length
+        geom = back(f.geometry)
+        seps = {k: v * stretch for k, v in f.separations.items()}
+        faults.append(FaultTrace(f.name, geom, f.dip, f.dip_direction, f.apparent_dip,
+                                 f.sense, seps))
+    axial = []
+    for a in inner.axial_surfaces:
+        parts = _lines(clip(a.geometry))
+        for part in parts:
+            axial.append(AxialSurface(part, a.ground_distance_m * sx,
+                                      float(pm.dip_back(a.dip_left)),
+                                      float(pm.dip_back(a.dip_right))))
+    domains = [DipDomain(dm.start_m * sx, dm.end_m * sx, float(pm.dip_back(dm.dip)), dm.n_dips,
+                         dm.block) for dm in inner.domains]
+    inv = pm.inverse
+
+    def pt_back(d, z):
+        v = inv @ np.array([d, z])
+        return float(v[0]), float(v[1])
+
+    residuals = [ContactResidual(*pt_back(r.distance_m, r.elevation_m), r.top_of, r.residual_m)
+                 for r in inner.residuals]
+    outliers = [DipOutlier(o.id, *pt_back(o.distance_m, o.elevation_m),
+                           float(pm.dip_back(o.apparent_dip)),
+                           float(pm.dip_back(o.expected_dip)),
+                           float(pm.dip_back(o.apparent_dip) - pm.dip_back(o.expected_dip)),
+                           o.kind, o.why, o.block) for o in inner.outliers]
+    return Draft(name=inner.name, method=inner.method, line=line, profile=profile,
+                 geology=geology, dips=dips, column=inner.column, horizons=horizons,
+                 faults=faults, units=units, domains=domains, axial_surfaces=axial,
+                 residuals=residuals, ve=inner.ve, base_elevation_m=base, log=log,
+                 outliers=outliers)
+
+
+def _lines(g) -> list:
+    out = []
+    for part in shapely.get_parts(g):
+        if part.geom_type == "LineString" and part.length > 1e-6:
+            out.append(part)
+        elif part.geom_type in ("MultiLineString", "GeometryCollection"):
+            out.extend(_lines(part))
+    return out
+
+
+def _polys(g):
+    if g.geom_type in ("Polygon", "MultiPolygon"):
+        return g
+    polys = [p for p in shapely.get_parts(g) if p.geom_type in ("Polygon", "MultiPolygon")]
+    return shapely.union_all(polys)
+
+
+__all__ = ["PlungeMap", "from_profile", "inner_depth", "plunge_map", "to_profile"]
