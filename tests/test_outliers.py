@@ -37,7 +37,7 @@ def _dips(dist, app, ids):
                          np.zeros(n, bool))
 
 
-def _homocline():
+def _homocline(odd_reading=None):
     """A homocline at 30° (every reading 020/30 seen in a section of azimuth 110) but
     one reading 40° off; its contacts where the analytic tops meet the flat ground."""
     line = SectionLine(np.array([[0.0, 0.0], [L * math.sin(math.radians(110)),
@@ -45,7 +45,7 @@ def _homocline():
     dist = np.arange(300.0, L, 400.0)
     app = np.full(len(dist), float(apparent_dip(20.0, DIP, 110.0)))  # 30° (Ragan's relation)
     odd = 7
-    app[odd] -= 40.0
+    app[odd] = app[odd] - 40.0 if odd_reading is None else float(apparent_dip(*odd_reading, 110.0))
     ids = [f"r{i:02d}" for i in range(len(dist))]
     # The top of unit i meets the flat ground Δs / sin(dip) before the top of B (older
     # units crop out toward smaller distance: the beds descend toward larger distance).
@@ -78,6 +78,16 @@ def test_homocline_with_one_odd_reading_is_drafted_without_a_fold():
     pts = np.vstack([np.asarray(g.coords) for g in top_b])
     want = Z0 - math.tan(math.radians(DIP)) * (pts[:, 0] - x_top_b)
     assert np.max(np.abs(pts[:, 1] - want)) < 1.0
+
+
+def test_a_reading_145_60_among_020_30_draws_no_anticline():
+    # The reading 145/60 seen in a section of azimuth 110: -44.8° (Ragan's relation).
+    line, geology, dips, odd_id, _ = _homocline((145.0, 60.0))
+    draft = build_draft(line, _profile(line), geology, dips, COLUMN, depth=2000.0,
+                        warn=lambda m: None)
+    assert len(draft.domains) == 1 and not draft.axial_surfaces
+    assert [o.id for o in draft.outliers] == [odd_id]
+    assert draft.outliers[0].apparent_dip == pytest.approx(-44.8, abs=0.1)
 
 
 def test_a_kept_reading_stays_in_the_domains():
