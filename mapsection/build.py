@@ -94,6 +94,7 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
             session = SectionSession.from_inputs(inputs, project, spec, warn)
         try:
             data = session.run()
+            beside = data.corridor_contacts  # found while the session is open
         finally:
             if inputs is None:
                 session.close()
@@ -106,7 +107,7 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
             name=spec.name, method=method or spec.method, ve=ve or spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
             default_dip=spec.default_dip, keep_readings=project.keep_readings,
-            corridor_contacts=data.corridor_contacts, plunge_axis=plunge_axis, warn=warn)
+            corridor_contacts=beside, plunge_axis=plunge_axis, warn=warn)
 
 
 def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:

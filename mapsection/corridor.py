@@ -72,37 +72,54 @@ def boundary_lines(map_data: MapData, band, fault_margin: float = 1.0
     if len(cand) < 2:
         return []
     geoms = map_data.unit_geoms[cand]
-    tree = STRtree(geoms)
-    left, right = tree.query(geoms, predicate="intersects")
+    # Each polygon's boundary cut to the band first: the pairs then meet on short lines.
+    bnd = shapely.intersection(shapely.clip_by_rect(shapely.boundary(geoms), *band.bounds),
+                               band)
+    tree = STRtree(bnd)
+    left, right = tree.query(bnd, predicate="intersects")
     pairs = [(i, j) for i, j in zip(left, right, strict=True) if i < j and names[i] != names[j]]
     faults = None
     if map_data.fault_tree is not None and len(map_data.fault_geoms):
         # Near a fault the map's boundaries are cut-offs against it: left out.
-        faults = shapely.union_all(map_data.fault_geoms).buffer(fault_margin)
+        near = map_data.fault_geoms[map_data.fault_tree.query(band)]
+        if len(near):
+            faults = shapely.union_all(near).buffer(fault_margin)
+    if not pairs:
+        return []
+    a = bnd[[i for i, _ in pairs]]
+    b = bnd[[j for _, j in pairs]]
+    shared = shapely.intersection(a, b)
+    if faults is not None:
+        shared = shapely.difference(shared, faults)
     out = []
-    for i, j in pairs:
-        shared = shapely.intersection(geoms[i].boundary, geoms[j].boundary)
-        shared = shapely.intersection(shared, band)
-        if faults is not None:
-            shared = shapely.difference(shared, faults)
-        parts = [g for g in shapely.get_parts(shapely.line_merge(_lines_only(shared)))
-                 if g.length > 0]
-        out.extend((g, str(names[i]), str(names[j])) for g in parts)
+    for (i, j), g in zip(pairs, shared, strict=True):
+        merged = _lines_only(g)
+        if merged.is_empty:
+            continue
+        out.extend((part, str(names[i]), str(names[j]))
+                   for part in shapely.get_parts(shapely.line_merge(merged)) if part.length > 0)
     return out
 
 
 def _lines_only(geom):
-    """The line parts of an overlay result (points and empty parts dropped)."""
-    parts, todo = [], list(shapely.get_parts(geom))
-    while todo:
-        g = todo.pop()
-        if g.is_empty:
-            continue
-        if g.geom_type in ("MultiLineString", "GeometryCollection"):
-            todo.extend(shapely.get_parts(g))
-        elif g.geom_type in ("LineString", "LinearRing") and g.length > 0:
-            parts.append(shapely.LineString(g.coords))
-    return shapely.MultiLineString(parts) if parts else shapely.MultiLineString()
+    """The line parts of an overlay result (points and empty parts dropped), as one
+    MultiLineString."""
+    parts = shapely.get_parts(geom)
+    while True:
+        kind = shapely.get_type_id(parts)
+        multi = (kind == 5) | (kind == 7)  # MultiLineString, GeometryCollection
+        if not multi.any():
+            break
+        parts = np.concatenate([parts[~multi], shapely.get_parts(parts[multi])])
+    kind = shapely.get_type_id(parts)
+    lines = parts[(kind == 1) | (kind == 2)]
+    lines = lines[~shapely.is_empty(lines)]
+    if not len(lines):
+        return shapely.MultiLineString()
+    lines = shapely.linestrings(shapely.get_coordinates(lines),
+                                indices=np.repeat(np.arange(len(lines)),
+                                                  shapely.get_num_coordinates(lines)))
+    return shapely.multilinestrings(lines)
 
 
 def corridor_contacts(map_data: MapData, line: SectionLine, corridor: float,

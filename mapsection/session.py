@@ -20,7 +20,8 @@ from __future__ import annotations
 
 import os
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import cached_property
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -66,7 +67,15 @@ class SectionData:
     profile: Profile
     geology: SurfaceGeology
     dips: ProjectedDips
-    corridor_contacts: CorridorContacts | None = None  # map contacts beside the line
+    # The map contacts beside the line are found on first use (a moving line rarely needs
+    # them): ``beside`` computes them, while the session is open.
+    beside: Callable[[], CorridorContacts] | None = field(default=None, repr=False)
+
+    @cached_property
+    def corridor_contacts(self) -> CorridorContacts | None:
+        """The map's contacts within the corridor, projected into the section
+        (:meth:`SectionSession.contacts_beside`); None without a session."""
+        return None if self.beside is None else self.beside()
 
 
 @dataclass(eq=False)
@@ -309,9 +318,8 @@ class SectionSession:
         prof = profile(self.dem, line, self.step, warn=self.warn)
         geology = surface_geology(self.map_data, line, prof, warn=self.warn)
         dips = self.project_dips(line)
-        beside = self.contacts_beside(line)
         self.line = line
-        return SectionData(line, prof, geology, dips, beside)
+        return SectionData(line, prof, geology, dips, lambda: self.contacts_beside(line))
 
     def shift_line(self, new_line: SectionLine | np.ndarray | Sequence) -> SectionData:
         """Re-run for a shifted line (a SectionLine or its vertices); reads no file."""

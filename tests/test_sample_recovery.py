@@ -26,11 +26,12 @@ def _drafts():
     for spec in project.sections:
         with SectionSession.from_project(project, spec) as session:
             data = session.run()
+            beside = data.corridor_contacts
         out.append(build_draft(data.line, data.profile, data.geology, data.dips, project.column,
                                name=spec.name, method=spec.method,
                                dip_tolerance=spec.dip_tolerance, depth=spec.depth,
                                fault_depth=spec.fault_depth, default_dip=spec.default_dip,
-                               corridor_contacts=data.corridor_contacts,
+                               corridor_contacts=beside,
                                warn=lambda m: None))
     return project, out
 
