@@ -242,13 +242,19 @@ def _build_plunging(pm: PlungeMap, line: SectionLine, profile: Profile, geology:
                         fault_depth=None if fault_depth is None else fault_depth * pm.m[1, 1],
                         default_dip=None if default_dip is None else float(pm.dip(default_dip)),
                         corridor_contacts=pcc, plunge_axis=None, **options)
-    bent = " (a bent line: the azimuth from its first to its last vertex)" \
-        if len(line.vertices) > 2 else ""
+    bent = ""
+    if len(line.vertices) > 2:
+        d = np.radians(np.asarray(line.segment_azimuths, float) - pm.trend)
+        k = 1.0 / (np.abs(np.sin(d)) * np.cos(np.radians(pm.plunge)))
+        bent = (f" (a bent line: the azimuth from its first to its last vertex; its "
+                f"segments alone would give t / cos θ = {k.min():.4f}-{k.max():.4f} t)")
     note = (f"plunge: fold axis {pm.trend:.1f}/{pm.plunge:.1f} (trend/plunge), section "
             f"azimuth {pm.azimuth:.1f}°{bent}: constructed in the down-plunge view (true "
             f"thicknesses and dips; Ragan) and carried back; angle between the axis and the "
             f"section plane's normal {np.degrees(np.arccos(min(pm.cos_theta, 1.0))):.1f}°, "
-            f"so each unit spans t / cos θ = {1.0 / pm.cos_theta:.4f} t in the section; "
+            f"so a unit spans t / cos θ = {1.0 / pm.cos_theta:.4f} t in the section "
+            "(exactly so, vertically, for a line normal to the trend; in general the "
+            "section's areas are 1 / cos θ times the profile's); "
             "distances, dips and depths in the lines below are those of the down-plunge view")
     log = [inner.log[0], note, *inner.log[1:]] if inner.log else [note]
     return from_profile(pm, inner, line, profile, geology, dips, base, log)

@@ -18,16 +18,17 @@ profile coordinates are its components along ``b`` and ``w`` (the component alon
 the axis is what the projection removes): ``l . b = |sin(A - T)|``, ``e_z . b = 0``,
 ``l . w = sin p cos(A - T)``, ``e_z . w = cos p``. The map's determinant,
 ``|sin(A - T)| cos p``, is ``cos θ``, θ the angle between the axis and the section
-plane's normal ``n = (cos A, -sin A, 0)`` (``a . n = cos p sin(T - A)``): areas, and
-the thickness of beds normal to the axis' trace in the section, are ``1 / cos θ``
-times larger in the section than in the profile. For a line normal to the trend the
-map is a vertical shortening by ``cos p``, and a unit of true thickness ``t`` spans
-``t / cos p`` vertically more than it would without the plunge (1/cos 15° = 3.5 %).
+plane's normal ``n = (cos A, -sin A, 0)`` (``a . n = cos p sin(T - A)``): areas are
+``1 / cos θ`` times larger in the section than in the profile. For a line normal to
+the trend the map is a vertical shortening by ``cos p = cos θ``, and a unit of true
+thickness ``t`` spans ``t / cos θ`` vertically (1/cos 15° = 3.5 % more); for an
+oblique line the map also stretches and shears horizontally, and the apparent
+thickness depends on the beds' dip.
 
 So the construction (kink or arc, with true thicknesses) is done in the profile view,
 from the section's data carried there (ground, contacts, dips, faults), and its
 horizons, units, faults and axial surfaces are carried back into the section: the
-section then holds each unit at its apparent thickness ``t / cos θ``.
+section then holds each unit at its apparent thickness.
 """
 
 from __future__ import annotations
