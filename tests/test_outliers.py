@@ -142,3 +142,48 @@ def test_outliers_are_listed_in_the_build_log(tmp_path):
     text = write_build_log(draft, tmp_path / "build.log").read_text()
     assert "outliers: 1" in text and odd_id in text
     assert shapely.is_valid(draft.units[0].geometry)
+
+
+def test_a_lone_reading_the_contacts_need_stays():
+    # A 30° homocline with a flat panel 2800-3400 m (a kink-band step, Suppe 1985) read
+    # by one reading only: the contacts beyond the panel lie 300 m of section higher than
+    # a plain homocline puts them, so they need the panel (at the ground the
+    # stratigraphic depth falls at sin 30° per metre, and not at all in the panel).
+    column = Column(tuple(Unit(n, 400.0) for n in "ABCDEFGH"))
+    line = SectionLine(np.array([[0.0, 0.0], [L, 0.0]]), name="M")
+
+    def depth(x):  # stratigraphic depth at the flat ground
+        x = np.asarray(x, float)
+        run = np.clip(x, None, 2800.0) + np.clip(x - 3400.0, 0.0, None)
+        return 3000.0 - 0.5 * run
+
+    names = column.names
+    contacts, edges, units = [], [0.0], []
+    for i in range(1, len(names)):
+        s = column.depth_to_top[i]
+        lo = 3000.0 - s  # the run at which depth == s
+        x = lo * 2.0 if lo * 2.0 <= 2800.0 else lo * 2.0 + 600.0
+        if 0.0 < x < L and not 2800.0 < x < 3400.0:
+            contacts.append(Contact(float(x), Z0, names[i], names[i - 1]))
+    contacts.sort(key=lambda c: c.distance_m)
+    for c in contacts:
+        units.append(c.unit_before)
+        edges.append(c.distance_m)
+    units.append(contacts[-1].unit_after)
+    edges.append(L)
+    intervals = tuple(UnitInterval(a, b, u) for a, b, u in zip(edges[:-1], edges[1:], units,
+                                                               strict=True))
+    geology = SurfaceGeology(intervals, tuple(contacts), ())
+    dist = np.array([300.0, 800.0, 1400.0, 2000.0, 2500.0, 3100.0, 3800.0, 4400.0, 5000.0,
+                     5600.0])
+    app = np.where(dist == 3100.0, 0.0, DIP)
+    dips = _dips(dist, app, [f"m{i}" for i in range(len(dist))])
+    assert np.allclose(depth([c.distance_m for c in contacts]),
+                       [column.depth_to_top[names.index(c.unit_before)] for c in contacts])
+    draft = build_draft(line, _profile(line), geology, dips, column, depth=3500.0,
+                        warn=lambda m: None)
+    assert not draft.outliers
+    assert [round(dm.dip) for dm in draft.domains] == [30, 0, 30]
+    assert any("m5" in e and "contacts need it" in e for e in draft.log)
+    rms = [e for e in draft.log if "RMS residual" in e]
+    assert rms and float(rms[0].split("RMS residual ")[1].split(" m")[0]) < 1.0

@@ -50,6 +50,7 @@ from .constraints import (
     corridor_constraints,
     interval_constraints,
 )
+from .domains import group_domains
 from .faults import block_polygons, fault_lines, ground_ranges
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
@@ -161,7 +162,12 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     ranges = ground_ranges(faults, frame.length)
     regions = [p.intersection(frame.box) for p in block_polygons(faults, frame)]
 
-    screened, outliers = screen_dips(dips, ranges, dip_tolerance, keep_readings, notes)
+    contacts = drop_fault_contacts(contact_constraints(geology, column, ground, notes), faults,
+                                   profile, notes)
+    support = _contact_support(dips, contacts, ground, frame, float(column.thicknesses.min()),
+                               dip_tolerance)
+    screened, outliers = screen_dips(dips, ranges, dip_tolerance, keep_readings, notes,
+                                     support)
     dipset = section_dips(screened, notes)
     if len(dipset) == 0:
         if default_dip is None:
@@ -171,8 +177,6 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
         notes.warn(f"section {label}: no dips within the corridor; built from the contacts at "
                    f"the default dip {default_dip:g}°", logged=False)
         notes.log(f"no dips within the corridor: default dip {default_dip:g}° used throughout")
-    contacts = drop_fault_contacts(contact_constraints(geology, column, ground, notes), faults,
-                                   profile, notes)
     beside = corridor_constraints(corridor_contacts, column)
     _log_corridor(beside, contacts, ranges, notes)
     contacts = Constraints.concat([contacts, beside])
@@ -225,6 +229,42 @@ def _fit_blocks(blocks: list[FaultBlock], fit: Callable[[FaultBlock, BlockSettin
             block = blocks[b] = dataclasses.replace(block, constraints=cons)
         models[b] = fit(block, st)
     return [models[b] for b in range(len(blocks))]
+
+
+SUPPORT_GAIN = 0.5  # the tool's default: the contacts' RMS must at least halve ...
+SUPPORT_MIN = 0.1  # ... and drop by 10 % of the thinnest unit for a lone reading to stay
+
+
+def _contact_support(dips: ProjectedDips, contacts: Constraints, ground, frame: SectionFrame,
+                     scale: float, tolerance: float):
+    """Whether a block's map contacts need a lone reading as a dip domain of its own: the
+    block's kink construction (Suppe 1985) fitted to its contacts with and without it;
+    the reading stays where it halves the contacts' RMS residual and gains more than
+    a tenth of the thinnest unit."""
+    from .kink import fit_kink
+    from .outliers import subset_dips
+
+    def rms(mask, cons, lo, hi) -> float:
+        ds = section_dips(subset_dips(dips, mask), Notes(lambda m: None)).within(lo, hi)
+        if len(ds) == 0:
+            return float("inf")
+        doms = group_domains(ds.distance, ds.phi, ds.weight, tolerance)
+        model = fit_kink(doms, cons, ground, frame, scale, Notes(lambda m: None))
+        r = model.depth_at(cons.distance, cons.elevation) - cons.depth
+        return float(np.sqrt(np.mean(r * r)))
+
+    def support(lo: float, hi: float, used: np.ndarray, i: int) -> bool:
+        cons = contacts.subset((contacts.distance >= lo) & (contacts.distance < hi)
+                               & contacts.is_contact)
+        if len(cons) < 3:  # two contacts and one dip fit any stack: nothing to judge by
+            return False
+        without = rms(used, cons, lo, hi)
+        with_it = used.copy()
+        with_it[i] = True
+        gained = rms(with_it, cons, lo, hi)
+        return gained < SUPPORT_GAIN * without and without - gained > SUPPORT_MIN * scale
+
+    return support
 
 
 def _build_plunging(pm: PlungeMap, line: SectionLine, profile: Profile, geology: SurfaceGeology,

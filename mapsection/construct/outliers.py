@@ -10,7 +10,7 @@ The geologist keeps a reading in anyway by its id (``keep``; the project's
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 
 import numpy as np
 
@@ -27,9 +27,12 @@ def subset_dips(dips: ProjectedDips, mask) -> ProjectedDips:
                                         for f in dataclasses.fields(dips)})
 
 
+Support = Callable[[float, float, np.ndarray, int], bool]
+
+
 def screen_dips(dips: ProjectedDips, ranges: list[tuple[float, float]], tolerance: float,
-                keep: Iterable[str] = (), notes: Notes | None = None
-                ) -> tuple[ProjectedDips, list[DipOutlier]]:
+                keep: Iterable[str] = (), notes: Notes | None = None,
+                support: Support | None = None) -> tuple[ProjectedDips, list[DipOutlier]]:
     """The readings that make dip domains, and those kept out of them.
 
     Parameters
@@ -44,6 +47,11 @@ def screen_dips(dips: ProjectedDips, ranges: list[tuple[float, float]], toleranc
         Ids of readings the geologist keeps whatever their neighbours say.
     notes
         Where the log lines go (one per reading left out).
+    support
+        ``support(start, end, used, i)``: whether the map contacts of the block
+        ``start``-``end`` need reading ``i`` as a dip domain of its own, given the readings
+        ``used`` (a mask) without it; such a reading stays (a domain "supported by a
+        contact").
 
     Returns
     -------
@@ -85,8 +93,16 @@ def screen_dips(dips: ProjectedDips, ranges: list[tuple[float, float]], toleranc
             continue
         sc = screen_readings(d[idx], phi[idx], tolerance, kept_mark[idx])
         for k in np.flatnonzero(sc.left_out):
+            out_mask[idx[k]] = True
+        for k in np.flatnonzero(sc.left_out):
             i = idx[k]
-            out_mask[i] = True
+            if support is not None and support(lo, hi, ~out_mask, int(i)):
+                out_mask[i] = False
+                if notes is not None:
+                    notes.log(f"reading {ids[i]} at {d[i]:.0f} m (block {b}): "
+                              f"{sc.why[k]}; kept: the map contacts need it (a dip domain "
+                              "supported by the contacts)")
+                continue
             exp = float(plane_dip(sc.expected[k]))
             app = float(plane_dip(phi[i]))
             found.append(DipOutlier(str(ids[i]), float(d[i]), float(dips.elevation_m[i]),
