@@ -117,3 +117,72 @@ def test_concentric_fold_plunging_15_degrees():
     flat = _errors(build_draft(LINE, prof, geology, dips, COLUMN, **opts))
     assert flat.max() > 0.15 * thinnest
     assert err.max() < 0.5 * flat.max()
+
+
+def test_concentric_fold_plunging_15_degrees_under_a_bent_line():
+    # The same fold in 3-D: a map point (x, y, z) lies at profile coordinates
+    # (x, y sin p + z cos p) (axis trending 000: Ragan's down-plunge view), so the top
+    # at depth s is z = (WC + sqrt(r² - (x - X0)²) - y sin p) / cos p. The line bends:
+    # azimuth 080 then 100, each segment carried by its own azimuth.
+    sp = math.sin(math.radians(P))
+    a1, a2 = math.radians(80.0), math.radians(100.0)
+    # (the bend at y = 0, over the crest)
+    v = np.array([[0.0, -5000.0 * math.cos(a1)], [5000.0 * math.sin(a1), 0.0]])
+    v = np.vstack([v, v[-1] + 5000.0 * np.array([math.sin(a2), math.cos(a2)])])
+    line = SectionLine(v, name="Q")
+    d = np.linspace(0.0, line.length, 2001)
+    x, y = line.point_at(d)
+    prof = Profile(d, x, y, np.full_like(d, Z_GROUND), line, None, 10.0)
+
+    def true_z(s, dist):
+        xx, yy = line.point_at(np.asarray(dist, float))
+        r = R0 - s
+        root = np.sqrt(np.clip(r * r - (xx - X0) ** 2, 0.0, None))
+        return np.where(np.abs(xx - X0) < r, (WC + root - yy * sp) / COS, np.nan)
+
+    # The top of B at the ground: where its true elevation crosses the ground.
+    zb = true_z(200.0, d) - Z_GROUND
+    cross = np.flatnonzero(np.diff(np.sign(np.nan_to_num(zb, nan=-1.0))) != 0)
+    xs = [float(d[j] - zb[j] * (d[j + 1] - d[j]) / (zb[j + 1] - zb[j])) for j in cross]
+    assert len(xs) == 2
+    geology = SurfaceGeology((UnitInterval(0.0, xs[0], "A"), UnitInterval(xs[0], xs[1], "B"),
+                              UnitInterval(xs[1], line.length, "A")),
+                             (Contact(xs[0], Z_GROUND, "A", "B"),
+                              Contact(xs[1], Z_GROUND, "B", "A")), ())
+    du = np.arange(2600.0, 7401.0, 400.0)
+    px, py = line.point_at(du)
+    att = []
+    for xx, yy in zip(px, py, strict=True):
+        nrm = (xx - X0) * np.array([1.0, 0.0, 0.0]) + (
+            yy * sp + Z_GROUND * COS - WC) * np.array([0.0, sp, COS])
+        nrm /= np.linalg.norm(nrm)
+        dip = math.degrees(math.acos(nrm[2]))
+        att.append(((math.degrees(math.atan2(nrm[0], nrm[1])) - 90.0) % 360.0, dip))
+    strike, dip = (np.array(c) for c in zip(*att, strict=True))
+    app = apparent_dip(strike, dip, line.azimuth_at(du))  # Ragan, per segment
+    n = len(du)
+    dips = ProjectedDips(np.array([f"q{i}" for i in range(n)]), px, py, du, np.zeros(n),
+                         np.full(n, Z_GROUND), strike, dip, app, np.zeros(n, bool),
+                         np.zeros(n, bool))
+    draft = build_draft(line, prof, geology, dips, COLUMN, plunge_axis=(0.0, P), method="arc",
+                        dip_tolerance=1.0, depth=2000.0, warn=lambda m: None)
+    errs = []
+    for h in draft.horizons:
+        if h.above_ground or h.top_of not in LEVELS:
+            continue
+        c = np.asarray(h.geometry.coords)
+        t = true_z(LEVELS[h.top_of], c[:, 0])
+        # Only under the readings: where the radius through the true point (Busk: the
+        # normals meet at the centre) reaches the ground between the first and last one;
+        # beyond them the construction continues straight, as it must.
+        xx, yy = line.point_at(c[:, 0])
+        w = yy * sp + t * COS
+        wg = yy * sp + Z_GROUND * COS
+        with np.errstate(invalid="ignore", divide="ignore"):
+            xg = X0 + (xx - X0) * (wg - WC) / (w - WC)
+        keep = (Z_GROUND - c[:, 1] <= 1500.0) & (xg >= px.min()) & (xg <= px.max())
+        ok = keep & np.isfinite(t)
+        errs.append(np.abs(c[ok, 1] - t[ok]))
+    err = np.concatenate(errs)
+    assert len(err) > 100
+    assert err.max() < 0.15 * float(COLUMN.thicknesses.min()), err.max()

@@ -145,10 +145,10 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                                    depth=depth, fault_depth=fault_depth,
                                    default_dip=default_dip, keep_readings=keep_readings,
                                    corridor_contacts=corridor_contacts, warn=warn)
-        Notes(warn).warn(f"section {name or line.name}: the line runs within "
-                         f"{MIN_ANGLE_DEG:g}° of the fold axis' trend "
-                         f"({plunge_axis[0]:g}°): no down-plunge view; built without the "
-                         "plunge correction", logged=False)
+        Notes(warn).warn(f"section {name or line.name}: the line (or a segment of it) runs "
+                         f"within {MIN_ANGLE_DEG:g}° of the fold axis' trend "
+                         f"({plunge_axis[0]:g}°) or turns across it: no down-plunge view; "
+                         "built without the plunge correction", logged=False)
     map_units = [iv.unit for iv in geology.intervals]
     map_units += [u for c in geology.contacts for u in (c.unit_before, c.unit_after)]
     column.check_map_units(map_units, source="map")
@@ -276,26 +276,26 @@ def _build_plunging(pm: PlungeMap, line: SectionLine, profile: Profile, geology:
                                                 corridor_contacts)
     zs = np.asarray(profile.z, float)
     zmin = float(np.nanmin(zs))
-    base = zmin - (depth if depth is not None else 1.1 * column.total_thickness / pm.cos_theta)
+    lo_ct, hi_ct = pm.cos_theta_range
+    base = zmin - (depth if depth is not None else 1.1 * column.total_thickness / lo_ct)
     inner = build_draft(pline, pprof, pgeo, pdips, column,
                         depth=inner_depth(pm, line, profile, base),
-                        fault_depth=None if fault_depth is None else fault_depth * pm.m[1, 1],
+                        fault_depth=None if fault_depth is None else fault_depth * pm.cos_p,
                         default_dip=None if default_dip is None else float(pm.dip(default_dip)),
                         corridor_contacts=pcc, plunge_axis=None, **options)
-    bent = ""
+    theta = np.degrees(np.arccos(min(pm.cos_theta, 1.0)))
     if len(line.vertices) > 2:
-        d = np.radians(np.asarray(line.segment_azimuths, float) - pm.trend)
-        k = 1.0 / (np.abs(np.sin(d)) * np.cos(np.radians(pm.plunge)))
-        bent = (f" (a bent line: the azimuth from its first to its last vertex; its "
-                f"segments alone would give t / cos θ = {k.min():.4f}-{k.max():.4f} t)")
+        factor = (f"{1.0 / hi_ct:.4f}-{1.0 / lo_ct:.4f} t along its {len(pm.m11)} segments "
+                  "(a bent line: each segment carried by its own azimuth)")
+    else:
+        factor = f"{1.0 / pm.cos_theta:.4f} t"
     note = (f"plunge: fold axis {pm.trend:.1f}/{pm.plunge:.1f} (trend/plunge), section "
-            f"azimuth {pm.azimuth:.1f}°{bent}: constructed in the down-plunge view (true "
+            f"azimuth {pm.azimuth:.1f}°: constructed in the down-plunge view (true "
             f"thicknesses and dips; Ragan) and carried back; angle between the axis and the "
-            f"section plane's normal {np.degrees(np.arccos(min(pm.cos_theta, 1.0))):.1f}°, "
-            f"so a unit spans t / cos θ = {1.0 / pm.cos_theta:.4f} t in the section "
-            "(exactly so, vertically, for a line normal to the trend; in general the "
-            "section's areas are 1 / cos θ times the profile's); "
-            "distances, dips and depths in the lines below are those of the down-plunge view")
+            f"section plane's normal {theta:.1f}°, so a unit spans t / cos θ = {factor} in "
+            "the section (exactly so, vertically, for a line normal to the trend; in general "
+            "the section's areas are 1 / cos θ times the profile's); distances, dips and "
+            "depths in the lines below are those of the down-plunge view")
     log = [inner.log[0], note, *inner.log[1:]] if inner.log else [note]
     return from_profile(pm, inner, line, profile, geology, dips, base, log)
 

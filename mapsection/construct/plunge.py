@@ -25,6 +25,10 @@ thickness ``t`` spans ``t / cos θ`` vertically (1/cos 15° = 3.5 % more); for a
 oblique line the map also stretches and shears horizontally, and the apparent
 thickness depends on the beds' dip.
 
+On a bent line each straight segment has its own map (its own ``A``), continuous at
+the bends: the profile coordinate ``u'`` and the offset of ``w`` are sums over the
+segments.
+
 So the construction (kink or arc, with true thicknesses) is done in the profile view,
 from the section's data carried there (ground, contacts, dips, faults), and its
 horizons, units, faults and axial surfaces are carried back into the section: the
@@ -37,7 +41,6 @@ import dataclasses
 
 import numpy as np
 import shapely
-from shapely import affinity
 
 from ..draft import AxialSurface, ContactResidual, DipDomain, DipOutlier, Draft, FaultTrace
 from ..geology import SurfaceGeology
@@ -45,66 +48,133 @@ from ..line import SectionLine
 from ..topo_profile import Profile
 
 MIN_ANGLE_DEG = 10.0  # a line this close to the axis' trend has no useful profile view
+SEGMENTIZE_M = 10.0  # geometry is densified to this before it is carried back (bent lines)
 
 
 @dataclasses.dataclass(frozen=True)
 class PlungeMap:
-    """The linear map of section coordinates to down-plunge (profile) coordinates."""
+    """The map of section coordinates to down-plunge (profile) coordinates: linear on
+    each straight segment of the line (``knots``: distances of the line's vertices),
+    continuous across its bends.
 
-    m: np.ndarray  # 2x2, lower triangular: [[m11, 0], [m21, m22]]
+    On segment ``i`` (azimuth ``A_i``): ``du' = |sin(A_i - T)| du`` and
+    ``w = G(u) + cos p z`` with ``dG = sin p cos(A_i - T) sign(sin(A_i - T)) du``.
+    """
+
+    knots: np.ndarray  # distances of the line's vertices
+    m11: np.ndarray  # per segment
+    g: np.ndarray  # per segment
     trend: float
     plunge: float
-    azimuth: float
+    azimuth: float  # of the whole line (first to last vertex)
+
+    @property
+    def cos_p(self) -> float:
+        return float(np.cos(np.radians(self.plunge)))
+
+    @property
+    def up_knots(self) -> np.ndarray:
+        return np.concatenate([[0.0], np.cumsum(self.m11 * np.diff(self.knots))])
+
+    @property
+    def g_knots(self) -> np.ndarray:
+        return np.concatenate([[0.0], np.cumsum(self.g * np.diff(self.knots))])
+
+    @property
+    def m(self) -> np.ndarray:
+        """The linear map of the first segment (of the whole line, when straight)."""
+        return np.array([[self.m11[0], 0.0], [self.g[0], self.cos_p]])
 
     @property
     def cos_theta(self) -> float:
-        """cos of the angle between the axis and the section plane's normal."""
-        return float(self.m[0, 0] * self.m[1, 1])
+        """cos of the angle between the axis and the section plane's normal (the
+        length-weighted mean over the segments of a bent line)."""
+        return float(np.average(self.m11, weights=np.diff(self.knots)) * self.cos_p)
 
     @property
-    def inverse(self) -> np.ndarray:
-        return np.linalg.inv(self.m)
+    def cos_theta_range(self) -> tuple[float, float]:
+        return float(self.m11.min() * self.cos_p), float(self.m11.max() * self.cos_p)
+
+    def _seg(self, u) -> np.ndarray:
+        i = np.searchsorted(self.knots, np.asarray(u, float), side="right") - 1
+        return np.clip(i, 0, len(self.m11) - 1)
+
+    def _seg_back(self, up) -> np.ndarray:
+        i = np.searchsorted(self.up_knots, np.asarray(up, float), side="right") - 1
+        return np.clip(i, 0, len(self.m11) - 1)
+
+    def _along(self, u):
+        u = np.asarray(u, float)
+        i = self._seg(u)
+        du = u - self.knots[i]
+        return self.up_knots[i] + self.m11[i] * du, self.g_knots[i] + self.g[i] * du
 
     def points(self, u, z) -> tuple[np.ndarray, np.ndarray]:
-        u, z = np.asarray(u, float), np.asarray(z, float)
-        return self.m[0, 0] * u, self.m[1, 0] * u + self.m[1, 1] * z
+        up, gu = self._along(u)
+        return up, gu + self.cos_p * np.asarray(z, float)
 
-    def dip(self, apparent) -> np.ndarray:
-        """An apparent dip in the section (degrees, + descending toward larger u) as
-        seen in the profile."""
+    def points_back(self, up, w) -> tuple[np.ndarray, np.ndarray]:
+        up = np.asarray(up, float)
+        i = self._seg_back(up)
+        u = self.knots[i] + (up - self.up_knots[i]) / self.m11[i]
+        _, gu = self._along(u)
+        return u, (np.asarray(w, float) - gu) / self.cos_p
+
+    def dip(self, apparent, u=0.0) -> np.ndarray:
+        """An apparent dip in the section at distance ``u`` (degrees, + descending toward
+        larger u) as seen in the profile."""
+        i = self._seg(u)
         a = np.radians(np.asarray(apparent, float))
         vx, vz = np.cos(a), -np.sin(a)
-        px = self.m[0, 0] * vx
-        pz = self.m[1, 0] * vx + self.m[1, 1] * vz
+        px, pz = self.m11[i] * vx, self.g[i] * vx + self.cos_p * vz
         return np.degrees(np.arctan2(-pz, px))
 
-    def dip_back(self, apparent) -> np.ndarray:
-        inv = PlungeMap(self.inverse, self.trend, self.plunge, self.azimuth)
-        return inv.dip(apparent)
+    def dip_back(self, apparent, up=0.0) -> np.ndarray:
+        """A dip of the profile at profile distance ``up``, as seen in the section."""
+        i = self._seg_back(up)
+        a = np.radians(np.asarray(apparent, float))
+        px, pz = np.cos(a), -np.sin(a)
+        vx = px / self.m11[i]
+        vz = (pz - self.g[i] * vx) / self.cos_p
+        return np.degrees(np.arctan2(-vz, vx))
 
-    def geometry_back(self, g):
-        a = self.inverse
-        return affinity.affine_transform(g, [a[0, 0], a[0, 1], a[1, 0], a[1, 1], 0.0, 0.0])
+    def stretch_back(self, direction, up) -> float:
+        """Section length of a unit profile length along ``direction`` at ``up``."""
+        i = int(self._seg_back(up))
+        px, pz = direction
+        vx = px / self.m11[i]
+        vz = (pz - self.g[i] * vx) / self.cos_p
+        return float(np.hypot(vx, vz))
+
+    def geometry_back(self, geom):
+        if len(self.m11) > 1:
+            geom = shapely.segmentize(geom, SEGMENTIZE_M)
+
+        def back(c):
+            u, z = self.points_back(c[:, 0], c[:, 1])
+            return np.column_stack([u, z])
+
+        return shapely.transform(geom, back)
 
 
 def plunge_map(line: SectionLine, trend: float, plunge: float) -> PlungeMap | None:
-    """The down-plunge map for a line (its azimuth from the first to the last vertex),
-    or None where the line runs within ``MIN_ANGLE_DEG`` of the axis' trend."""
+    """The down-plunge map for a line, or None where a segment runs within
+    ``MIN_ANGLE_DEG`` of the axis' trend or the line turns across it."""
     v = line.vertices
     az = float(np.degrees(np.arctan2(v[-1, 0] - v[0, 0], v[-1, 1] - v[0, 1])) % 360.0)
-    d = np.radians(az - trend)
+    d = np.radians(np.asarray(line.segment_azimuths, float) - trend)
     sb = np.sin(d)
-    if abs(sb) < np.sin(np.radians(MIN_ANGLE_DEG)):
+    if np.any(np.abs(sb) < np.sin(np.radians(MIN_ANGLE_DEG))) or len(set(np.sign(sb))) > 1:
         return None
     p = np.radians(plunge)
-    m = np.array([[abs(sb), 0.0], [np.sin(p) * np.cos(d) * np.sign(sb), np.cos(p)]])
-    return PlungeMap(m, float(trend), float(plunge), az)
+    return PlungeMap(np.asarray(line.cumulative, float), np.abs(sb),
+                     np.sin(p) * np.cos(d) * np.sign(sb), float(trend), float(plunge), az)
 
 
 def to_profile(pm: PlungeMap, line: SectionLine, profile: Profile, geology: SurfaceGeology,
                dips, corridor_contacts):
     """The section's inputs carried into the down-plunge view."""
-    length = float(line.length) * pm.m[0, 0]
+    length = float(pm.up_knots[-1])
     pline = SectionLine(np.array([[0.0, 0.0], [length, 0.0]]), line.crs, line.name)
     d, z = pm.points(profile.distance, profile.z)
     pprof = Profile(d, np.asarray(profile.x), np.asarray(profile.y), z, pline, profile.crs,
@@ -114,8 +184,9 @@ def to_profile(pm: PlungeMap, line: SectionLine, profile: Profile, geology: Surf
         a, b = pm.points([dist], [elev])
         return float(a[0]), float(b[0])
 
-    ivs = tuple(dataclasses.replace(iv, start_m=iv.start_m * pm.m[0, 0],
-                                    end_m=iv.end_m * pm.m[0, 0]) for iv in geology.intervals)
+    ivs = tuple(dataclasses.replace(iv, start_m=float(pm.points(iv.start_m, 0.0)[0]),
+                                    end_m=float(pm.points(iv.end_m, 0.0)[0]))
+                for iv in geology.intervals)
     cts = []
     for c in geology.contacts:
         dd, zz = pt(c.distance_m, c.elevation_m)
@@ -124,13 +195,14 @@ def to_profile(pm: PlungeMap, line: SectionLine, profile: Profile, geology: Surf
     for f in geology.faults:
         dd, zz = pt(f.distance_m, f.elevation_m)
         fts.append(dataclasses.replace(f, distance_m=dd, elevation_m=zz,
-                                       apparent_dip=float(pm.dip(f.apparent_dip))))
+                                       apparent_dip=float(pm.dip(f.apparent_dip,
+                                                                 f.distance_m))))
     pgeo = SurfaceGeology(ivs, tuple(cts), tuple(fts))
     pdips = dips
     if dips is not None and len(dips):
         dd, zz = pm.points(dips.distance_m, dips.elevation_m)
         pdips = dataclasses.replace(dips, distance_m=dd, elevation_m=zz,
-                                    apparent_dip=pm.dip(dips.apparent_dip))
+                                    apparent_dip=pm.dip(dips.apparent_dip, dips.distance_m))
     pcc = corridor_contacts
     if corridor_contacts is not None and len(corridor_contacts):
         dd, zz = pm.points(corridor_contacts.distance_m, corridor_contacts.elevation_m)
@@ -142,7 +214,7 @@ def inner_depth(pm: PlungeMap, line: SectionLine, profile: Profile, base: float)
     """The depth below the lowest ground of the profile view that covers the section down
     to ``base`` (its frame is a sheared copy of the section's)."""
     _, w = pm.points(profile.distance, profile.z)
-    lowest = pm.m[1, 1] * base + min(0.0, pm.m[1, 0] * float(line.length))
+    lowest = pm.cos_p * base + float(pm.g_knots.min())
     return float(np.nanmin(w)) - lowest + 1.0
 
 
@@ -150,9 +222,11 @@ def from_profile(pm: PlungeMap, inner: Draft, line: SectionLine, profile: Profil
                  geology: SurfaceGeology, dips, base: float, log: list[str]) -> Draft:
     """The draft built in the down-plunge view, carried back into the section (clipped
     to the section's frame, from ``base`` up)."""
-    sx = 1.0 / pm.m[0, 0]
     back = pm.geometry_back
-    top = float(np.nanmax(profile.z)) + inner.column.total_thickness / pm.cos_theta
+    top = float(np.nanmax(profile.z)) + inner.column.total_thickness / pm.cos_theta_range[0]
+
+    def u_back(up):
+        return float(pm.points_back(up, 0.0)[0])
     box = shapely.box(0.0, base, float(line.length), top)
 
     def clip(g):
@@ -171,7 +245,7 @@ def from_profile(pm: PlungeMap, inner: Draft, line: SectionLine, profile: Profil
     for f in inner.faults:
         c = np.asarray(f.geometry.coords)
         unit = (c[-1] - c[0]) / max(np.hypot(*(c[-1] - c[0])), 1e-12)
-        stretch = float(np.hypot(*(pm.inverse @ unit)))  # profile length -> section length
+        stretch = pm.stretch_back(unit, c[0, 0])  # profile length -> section length
         geom = back(f.geometry)
         seps = {k: v * stretch for k, v in f.separations.items()}
         faults.append(FaultTrace(f.name, geom, f.dip, f.dip_direction, f.apparent_dip,
@@ -180,23 +254,27 @@ def from_profile(pm: PlungeMap, inner: Draft, line: SectionLine, profile: Profil
     for a in inner.axial_surfaces:
         parts = _lines(clip(a.geometry))
         for part in parts:
-            axial.append(AxialSurface(part, a.ground_distance_m * sx,
-                                      float(pm.dip_back(a.dip_left)),
-                                      float(pm.dip_back(a.dip_right))))
-    domains = [DipDomain(dm.start_m * sx, dm.end_m * sx, float(pm.dip_back(dm.dip)), dm.n_dips,
+            gd = a.ground_distance_m
+            axial.append(AxialSurface(part, u_back(gd) if np.isfinite(gd) else gd,
+                                      float(pm.dip_back(a.dip_left, gd if np.isfinite(gd)
+                                                        else 0.0)),
+                                      float(pm.dip_back(a.dip_right, gd if np.isfinite(gd)
+                                                        else 0.0))))
+    domains = [DipDomain(u_back(dm.start_m), u_back(dm.end_m),
+                         float(pm.dip_back(dm.dip, 0.5 * (dm.start_m + dm.end_m))), dm.n_dips,
                          dm.block) for dm in inner.domains]
-    inv = pm.inverse
 
     def pt_back(d, z):
-        v = inv @ np.array([d, z])
-        return float(v[0]), float(v[1])
+        u, zz = pm.points_back(d, z)
+        return float(u), float(zz)
 
     residuals = [ContactResidual(*pt_back(r.distance_m, r.elevation_m), r.top_of, r.residual_m)
                  for r in inner.residuals]
     outliers = [DipOutlier(o.id, *pt_back(o.distance_m, o.elevation_m),
-                           float(pm.dip_back(o.apparent_dip)),
-                           float(pm.dip_back(o.expected_dip)),
-                           float(pm.dip_back(o.apparent_dip) - pm.dip_back(o.expected_dip)),
+                           float(pm.dip_back(o.apparent_dip, o.distance_m)),
+                           float(pm.dip_back(o.expected_dip, o.distance_m)),
+                           float(pm.dip_back(o.apparent_dip, o.distance_m)
+                                 - pm.dip_back(o.expected_dip, o.distance_m)),
                            o.kind, o.why, o.block) for o in inner.outliers]
     return Draft(name=inner.name, method=inner.method, line=line, profile=profile,
                  geology=geology, dips=dips, column=inner.column, horizons=horizons,
