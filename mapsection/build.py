@@ -133,16 +133,22 @@ def _build_section(project: Project, spec: SectionSpec, warn: Warn | None,
         inputs = load_inputs(project, warn) if own else inputs
         try:
             project = resolve_map_thicknesses(project, inputs, warn)  # thickness = "map"
-            data = SectionSession.from_inputs(inputs, project, spec, warn).run()
+            session = SectionSession.from_inputs(inputs, project, spec, warn)
+            data = session.run()
+            beside = data.corridor_contacts  # found while the inputs are open
         finally:
             if own:
                 inputs.close()
+    plunge_axis = spec.fold_axis
+    if plunge_axis is None and session.axis is not None:
+        plunge_axis = (float(session.axis.trend), float(session.axis.plunge))
     with _stage(timings, "construction"):
         return build_draft(
             data.line, data.profile, data.geology, data.dips, project.column,
             name=spec.name, method=spec.method, ve=spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
-            default_dip=spec.default_dip, warn=warn)
+            default_dip=spec.default_dip, keep_readings=project.keep_readings,
+            corridor_contacts=beside, plunge_axis=plunge_axis, warn=warn)
 
 
 def write_build_log(draft: Draft, path: Path, warnings: list[str] = (),
@@ -152,10 +158,15 @@ def write_build_log(draft: Draft, path: Path, warnings: list[str] = (),
         f"method: {draft.method}; vertical exaggeration: {draft.ve:g}",
         f"section line: {len(draft.line.vertices)} vertices, {draft.line.length:.1f} m",
         f"horizons: {len(draft.horizons)}; faults: {len(draft.faults)}; "
-        f"unit polygons: {len(draft.units)}; dip domains: {len(draft.domains)}",
+        f"unit polygons: {len(draft.units)}; dip domains: {len(draft.domains)}; "
+        f"outliers: {sum(o.kind == 'outlier' for o in draft.outliers)}",
         "",
         *draft.log,
     ]
+    if draft.outliers:
+        lines += ["", "readings kept out of the dip domains (id, distance, dip, misfit, why):"]
+        lines += [f"  {o.id}  {o.distance_m:.0f} m  {o.apparent_dip:.1f}°  "
+                  f"{o.misfit_deg:+.1f}°  {o.kind}: {o.why}" for o in draft.outliers]
     if warnings:
         lines += ["", "warnings:", *[f"  {w}" for w in warnings]]
     if checks:

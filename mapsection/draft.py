@@ -67,6 +67,27 @@ class DipDomain:
 
 
 @dataclass(frozen=True)
+class DipOutlier:
+    """A reading kept out of the dip domains: one reading that would have made a domain
+    of its own (see docs/dips.md, "Outliers").
+
+    ``kind`` is ``"outlier"`` (it disagrees with neighbours that agree with each other)
+    or ``"hinge"`` (between two dip domains, fitting neither). ``misfit_deg`` is its
+    apparent dip minus the one its neighbours give (``expected_dip``).
+    """
+
+    id: str
+    distance_m: float
+    elevation_m: float
+    apparent_dip: float  # signed, section plane, degrees
+    expected_dip: float
+    misfit_deg: float
+    kind: str
+    why: str
+    block: int = 0
+
+
+@dataclass(frozen=True)
 class AxialSurface:
     geometry: LineString  # section space, from its upper to its lower end
     ground_distance_m: float  # where it meets the ground (NaN if it does not)
@@ -104,3 +125,4 @@ class Draft:
     ve: float = 1.0
     base_elevation_m: float = float("nan")  # the section's lower edge
     log: list[str] = field(default_factory=list)
+    outliers: list[DipOutlier] = field(default_factory=list)  # readings kept out of domains

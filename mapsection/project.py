@@ -45,9 +45,10 @@ MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer",
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
 ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
                   "attitude")
-ATTITUDE_KEYS = frozenset({"path", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
+ATTITUDE_KEYS = frozenset({"path", "layer", "convention", "keep_readings",
+                           *(f"{r}_field" for r in ATTITUDE_ROLES)})
 UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology"})
-SECTION_KEYS = frozenset({"name", "line", *SECTION_SETTING_KEYS})
+SECTION_KEYS = frozenset({"name", "line", "fold_axis", *SECTION_SETTING_KEYS})
 CHECK_KEYS = THRESHOLD_KEYS
 
 
@@ -58,6 +59,7 @@ class SectionSpec(SectionSettings):
 
     name: str
     line: tuple[tuple[float, float], ...]
+    fold_axis: tuple[float, float] | None = None  # (trend, plunge): given, not computed
 
 
 @dataclass(frozen=True)
@@ -78,6 +80,7 @@ class Project:
     fault_fields: dict[str, str] = field(default_factory=dict)
     attitude_fields: dict[str, str] = field(default_factory=dict)
     dem_vertical_unit: str | None = None  # [dem] vertical_unit: used when the DEM does not say
+    keep_readings: tuple[str, ...] = ()  # ids kept in the dip domains whatever they say
 
     def section(self, name: str | SectionSpec) -> SectionSpec:
         """The section named ``name`` (a :class:`SectionSpec` is returned as it is): the one
@@ -296,7 +299,19 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
         attitude_fields=attitude_fields,
         dem_vertical_unit=(dem.choice("vertical_unit", "metre")
                            if "vertical_unit" in dem.table else None),
+        keep_readings=_keep_readings(att),
     )
+
+
+def _keep_readings(att: _Reader) -> tuple[str, ...]:
+    """``[attitudes] keep_readings``: ids (strings or integers) of readings kept in the dip
+    domains even where their neighbours disagree with them."""
+    ids = att.get("keep_readings", list, [])
+    for j, v in enumerate(ids):
+        if isinstance(v, bool) or not isinstance(v, str | int):
+            raise att.fail(f"keep_readings[{j}]", f"must be a reading id (text or integer), "
+                                                   f"got {v!r}")
+    return tuple(str(v) for v in ids)
 
 
 def _section(r: _Reader, warn: Warn) -> SectionSpec:
@@ -329,7 +344,7 @@ def _section(r: _Reader, warn: Warn) -> SectionSpec:
     given = {k: r.get(k, str if k in ("method", "projection") else float)
              for k in SECTION_SETTING_KEYS if k in r.table}
     try:
-        spec = SectionSpec(name=name, line=tuple(pts), **given)
+        spec = SectionSpec(name=name, line=tuple(pts), fold_axis=_fold_axis(r), **given)
     except SettingError as exc:
         raise r.fail(exc.key, exc.reason) from None
     for key in ("pin", "loose"):
@@ -340,6 +355,19 @@ def _section(r: _Reader, warn: Warn) -> SectionSpec:
     for note in spec.notes():
         warn(f"{r.fname}: {r.prefix}{note}")
     return spec
+
+
+def _fold_axis(r: _Reader) -> tuple[float, float] | None:
+    """``fold_axis = [trend, plunge]`` (degrees) of a [[section]], or None."""
+    val = r.get("fold_axis", list, None)
+    if val is None:
+        return None
+    ok = len(val) == 2 and all(isinstance(v, int | float) and not isinstance(v, bool)
+                               and math.isfinite(v) for v in val)
+    if not ok or not (0.0 <= val[0] <= 360.0 and 0.0 <= val[1] <= 90.0):
+        raise r.fail("fold_axis", f"must be [trend, plunge] in degrees (trend 0-360, plunge "
+                                  f"0-90), got {val!r}")
+    return float(val[0]) % 360.0, float(val[1])
 
 
 def _is_hex_colour(text: str) -> bool:

@@ -19,8 +19,9 @@ reading any file again::
 from __future__ import annotations
 
 import os
-from collections.abc import Sequence
-from dataclasses import dataclass
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from functools import cached_property
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -40,6 +41,7 @@ from .topo_profile import Profile
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from .attitudes import Attitudes
+    from .corridor import CorridorContacts
     from .dips import ProjectedDips
     from .foldaxis import FoldAxis
     from .project import Project, SectionSpec
@@ -50,6 +52,13 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
 
 
 
+def given_axis(trend: float, plunge: float) -> FoldAxis:
+    """A fold axis given by the geologist (no fabric: nothing to judge its cylindricity by)."""
+    from .foldaxis import FoldAxis
+
+    return FoldAxis(float(trend), float(plunge), (float("nan"),) * 3, float("nan"), 0)
+
+
 @dataclass(frozen=True, eq=False)
 class SectionData:
     """Everything the map, the DEM and the attitudes say along one section line."""
@@ -58,6 +67,15 @@ class SectionData:
     profile: Profile
     geology: SurfaceGeology
     dips: ProjectedDips
+    # The map contacts beside the line are found on first use (a moving line rarely needs
+    # them): ``beside`` computes them, while the session is open.
+    beside: Callable[[], CorridorContacts] | None = field(default=None, repr=False)
+
+    @cached_property
+    def corridor_contacts(self) -> CorridorContacts | None:
+        """The map's contacts within the corridor, projected into the section
+        (:meth:`SectionSession.contacts_beside`); None without a session."""
+        return None if self.beside is None else self.beside()
 
 
 @dataclass(eq=False)
@@ -197,7 +215,9 @@ class SectionSession:
         """A session for one section over inputs already loaded (shared, not owned)."""
         warn = warn or _default_warn
         axis = None
-        if spec.projection == "plunge":
+        if spec.projection == "plunge" and spec.fold_axis is not None:
+            axis = given_axis(*spec.fold_axis)
+        elif spec.projection == "plunge":
             axis = inputs.axis()
             for why in axis.cylindrical_problems():
                 warn(f"section {spec.name}: down-plunge projection may mislead: {why}")
@@ -277,8 +297,31 @@ class SectionSession:
         return project_attitudes(self.attitudes.subset(self.near(line)), line, self.corridor,
                                  method=self.projection, axis=self.axis, warn=self.warn)
 
+    def contacts_beside(self, line: SectionLine) -> CorridorContacts:
+        """The map's contacts within the corridor of ``line``, projected into the section
+        by the session's projection (:func:`mapsection.corridor.corridor_contacts`); each
+        point's elevation from the DEM; along strike, the strike of the nearest attitude."""
+        from .corridor import corridor_contacts
+
+        if not same_crs(line.crs, self.crs):
+            line = line.to_crs(self.crs)
+        strike = np.asarray(self.attitudes.strike, float)
+
+        def strike_at(x, y):
+            if not len(strike):
+                return np.full(len(x), np.nan)
+            return strike[self._tree.nearest(shapely.points(x, y))]
+
+        px = float(self.dem.pixel_size)
+        spacing = max(25.0, px) if np.isfinite(px) else 25.0
+        return corridor_contacts(self.map_data, line, self.corridor,
+                                 lambda x, y: self.dem.sample(x, y, crs=self.crs),
+                                 method=self.projection, axis=self.axis, strike_at=strike_at,
+                                 spacing=spacing)
+
     def run(self, line: SectionLine | np.ndarray | Sequence | None = None) -> SectionData:
-        """Profile, surface geology and projected dips along ``line`` (default: the current one)."""
+        """Profile, surface geology, projected dips and the contacts beside the line along
+        ``line`` (default: the current one)."""
         from .topo_profile import profile
 
         line = self._as_line(line)
@@ -286,7 +329,7 @@ class SectionSession:
         geology = surface_geology(self.map_data, line, prof, warn=self.warn)
         dips = self.project_dips(line)
         self.line = line
-        return SectionData(line, prof, geology, dips)
+        return SectionData(line, prof, geology, dips, lambda: self.contacts_beside(line))
 
     def shift_line(self, new_line: SectionLine | np.ndarray | Sequence) -> SectionData:
         """Re-run for a shifted line (a SectionLine or its vertices); reads no file."""

@@ -76,6 +76,9 @@ def test_keys_as_written(tmp_path):
         ("thickness = 250.0", 'thickness = "thick"', "stratigraphy[0].thickness"),
         ("[505000.0, 4001000.0]", "[505000.0]", "section[0].line[1]"),
         ('[dem]\npath = "dem.tif"', '[dem]\nfile = "dem.tif"', "dem.file"),
+        ("corridor = 500.0", "corridor = 500.0\nfold_axis = [10.0]", "section[0].fold_axis"),
+        ("corridor = 500.0", "corridor = 500.0\nfold_axis = [10.0, 95.0]",
+         "section[0].fold_axis"),
     ],
 )
 def test_bad_key_named(tmp_path, old, new, key):
@@ -183,3 +186,15 @@ def test_documented_keys_are_exactly_the_accepted_keys():
     assert set(documented) == set(accepted)
     for table, keys in accepted.items():
         assert documented[table] == set(keys), table
+
+
+def test_keep_readings_and_fold_axis(tmp_path):
+    # self-consistency: the keys documented in docs/index.md load as written
+    text = GOOD.replace("corridor = 500.0", "corridor = 500.0\nfold_axis = [10, 15]", 1)
+    text = text.replace("[attitudes]\n", '[attitudes]\nkeep_readings = ["VR076", 12]\n', 1)
+    proj = load_project(write(tmp_path, text))
+    assert proj.keep_readings == ("VR076", "12")
+    assert proj.sections[0].fold_axis == (10.0, 15.0)
+    bad = GOOD.replace("[attitudes]\n", "[attitudes]\nkeep_readings = [1.5]\n", 1)
+    with pytest.raises(ProjectFileError, match=r"^project.toml: attitudes.keep_readings\[0\]"):
+        load_project(write(tmp_path, bad))

@@ -23,7 +23,8 @@ the horizon ``top_of = "base of <oldest unit>"``.
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -44,10 +45,21 @@ from .blocks import (
     section_dips,
     split_blocks,
 )
-from .constraints import contact_constraints, interval_constraints
+from .constraints import (
+    Constraints,
+    contact_constraints,
+    corridor_constraints,
+    interval_constraints,
+)
+from .domains import group_domains
 from .faults import block_polygons, fault_lines, ground_ranges
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
+from .outliers import screen_dips
+from .plunge import MIN_ANGLE_DEG, PlungeMap, from_profile, inner_depth, plunge_map, to_profile
+
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from ..corridor import CorridorContacts
 
 
 def base_name(column: Column) -> str:
@@ -60,6 +72,9 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                 method: str = DEFAULTS.method, ve: float = DEFAULTS.ve,
                 dip_tolerance: float = DEFAULTS.dip_tolerance, depth: float | None = None,
                 fault_depth: float | None = None, default_dip: float | None = None,
+                keep_readings: Iterable[str] = (),
+                corridor_contacts: CorridorContacts | None = None,
+                plunge_axis: tuple[float, float] | None = None,
                 warn: Warn | None = None) -> Draft:
     """Construct the draft section along ``line``.
 
@@ -84,6 +99,21 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     default_dip
         Signed apparent dip (degrees, + descends toward increasing distance) used,
         with a warning, where no dips fall within the corridor.
+    keep_readings
+        Ids of readings kept in the dip domains even where their neighbours disagree
+        with them (see docs/dips.md, "Outliers").
+    corridor_contacts
+        The map's contacts beside the line, projected into the section
+        (:func:`mapsection.corridor.corridor_contacts`): they position each block's
+        horizons with the line's own contacts, weighted by their distance from the
+        line; a block with no contact on the line is positioned by them before any
+        fallback.
+    plunge_axis
+        ``(trend, plunge)`` of the fold axis, degrees: the section is constructed in
+        the down-plunge view (true thicknesses and dips) and carried back, so that each
+        unit has its apparent thickness ``t / cos θ`` in the section, θ the angle
+        between the axis and the section plane's normal
+        (:mod:`mapsection.construct.plunge`).
     warn
         Called with each warning (default: a :class:`~mapsection._messages.MapsectionWarning`).
 
@@ -91,7 +121,8 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     -------
     Draft
         Horizons, unit polygons, faults, dip domains, axial surfaces and contact
-        residuals in section space; ``draft.log`` says what the construction did.
+        residuals in section space; ``draft.log`` says what the construction did and
+        ``draft.outliers`` lists the readings kept out of the dip domains.
 
     Examples
     --------
@@ -106,6 +137,18 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     See docs/construction.md.
     """
     _check_options(method, ve, dip_tolerance, depth, fault_depth, default_dip)
+    if plunge_axis is not None:
+        pm = plunge_map(line, *plunge_axis)
+        if pm is not None:
+            return _build_plunging(pm, line, profile, geology, dips, column, name=name,
+                                   method=method, ve=ve, dip_tolerance=dip_tolerance,
+                                   depth=depth, fault_depth=fault_depth,
+                                   default_dip=default_dip, keep_readings=keep_readings,
+                                   corridor_contacts=corridor_contacts, warn=warn)
+        Notes(warn).warn(f"section {name or line.name}: the line (or a segment of it) runs "
+                         f"within {MIN_ANGLE_DEG:g}° of the fold axis' trend "
+                         f"({plunge_axis[0]:g}°) or turns across it: no down-plunge view; "
+                         "built without the plunge correction", logged=False)
     map_units = [iv.unit for iv in geology.intervals]
     map_units += [u for c in geology.contacts for u in (c.unit_before, c.unit_after)]
     column.check_map_units(map_units, source="map")
@@ -119,7 +162,13 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     ranges = ground_ranges(faults, frame.length)
     regions = [p.intersection(frame.box) for p in block_polygons(faults, frame)]
 
-    dipset = section_dips(dips, notes)
+    contacts = drop_fault_contacts(contact_constraints(geology, column, ground, notes), faults,
+                                   profile, notes)
+    support = _contact_support(dips, contacts, ground, frame, float(column.thicknesses.min()),
+                               dip_tolerance)
+    screened, outliers = screen_dips(dips, ranges, dip_tolerance, keep_readings, notes,
+                                     support)
+    dipset = section_dips(screened, notes)
     if len(dipset) == 0:
         if default_dip is None:
             raise ConstructionError(
@@ -128,8 +177,9 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
         notes.warn(f"section {label}: no dips within the corridor; built from the contacts at "
                    f"the default dip {default_dip:g}°", logged=False)
         notes.log(f"no dips within the corridor: default dip {default_dip:g}° used throughout")
-    contacts = drop_fault_contacts(contact_constraints(geology, column, ground, notes), faults,
-                                   profile, notes)
+    beside = corridor_constraints(corridor_contacts, column)
+    _log_corridor(beside, contacts, ranges, notes)
+    contacts = Constraints.concat([contacts, beside])
     if len(contacts) == 0 and not geology.intervals:
         raise ConstructionError(f"section {label}: the line crosses no mapped "
                                 "contact or unit: nothing positions the horizons")
@@ -146,7 +196,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
 
     draft = Draft(name=label, method=method, line=line, profile=profile, geology=geology,
                   dips=dips, column=column, ve=float(ve), base_elevation_m=frame.base,
-                  log=notes.entries)
+                  log=notes.entries, outliers=outliers)
     ground_poly = ground_below_polygon(profile, frame)
     block_lines = []
     for b, block in enumerate(blocks):
@@ -179,6 +229,102 @@ def _fit_blocks(blocks: list[FaultBlock], fit: Callable[[FaultBlock, BlockSettin
             block = blocks[b] = dataclasses.replace(block, constraints=cons)
         models[b] = fit(block, st)
     return [models[b] for b in range(len(blocks))]
+
+
+SUPPORT_GAIN = 0.5  # the tool's default: the contacts' RMS must at least halve ...
+SUPPORT_MIN = 0.1  # ... and drop by 10 % of the thinnest unit for a lone reading to stay
+
+
+def _contact_support(dips: ProjectedDips, contacts: Constraints, ground, frame: SectionFrame,
+                     scale: float, tolerance: float):
+    """Whether a block's map contacts need a lone reading as a dip domain of its own: the
+    block's kink construction (Suppe 1985) fitted to its contacts with and without it;
+    the reading stays where it halves the contacts' RMS residual and gains more than
+    a tenth of the thinnest unit."""
+    from .kink import fit_kink
+    from .outliers import subset_dips
+
+    def rms(mask, cons, lo, hi) -> float:
+        ds = section_dips(subset_dips(dips, mask), Notes(lambda m: None)).within(lo, hi)
+        if len(ds) == 0:
+            return float("inf")
+        doms = group_domains(ds.distance, ds.phi, ds.weight, tolerance)
+        model = fit_kink(doms, cons, ground, frame, scale, Notes(lambda m: None))
+        r = model.depth_at(cons.distance, cons.elevation) - cons.depth
+        return float(np.sqrt(np.mean(r * r)))
+
+    def support(lo: float, hi: float, used: np.ndarray, i: int) -> bool:
+        cons = contacts.subset((contacts.distance >= lo) & (contacts.distance < hi)
+                               & contacts.is_contact)
+        if len(cons) < 3:  # two contacts and one dip fit any stack: nothing to judge by
+            return False
+        without = rms(used, cons, lo, hi)
+        with_it = used.copy()
+        with_it[i] = True
+        gained = rms(with_it, cons, lo, hi)
+        return gained < SUPPORT_GAIN * without and without - gained > SUPPORT_MIN * scale
+
+    return support
+
+
+def _build_plunging(pm: PlungeMap, line: SectionLine, profile: Profile, geology: SurfaceGeology,
+                    dips: ProjectedDips, column: Column, *, depth: float | None,
+                    fault_depth: float | None, default_dip: float | None, corridor_contacts,
+                    **options) -> Draft:
+    """Build in the down-plunge view and carry the draft back into the section."""
+    pline, pprof, pgeo, pdips, pcc = to_profile(pm, line, profile, geology, dips,
+                                                corridor_contacts)
+    zs = np.asarray(profile.z, float)
+    zmin = float(np.nanmin(zs))
+    lo_ct, hi_ct = pm.cos_theta_range
+    base = zmin - (depth if depth is not None else 1.1 * column.total_thickness / lo_ct)
+    inner = build_draft(pline, pprof, pgeo, pdips, column,
+                        depth=inner_depth(pm, line, profile, base),
+                        fault_depth=None if fault_depth is None else fault_depth * pm.cos_p,
+                        default_dip=None if default_dip is None else float(pm.dip(default_dip)),
+                        corridor_contacts=pcc, plunge_axis=None, **options)
+    theta = np.degrees(np.arccos(min(pm.cos_theta, 1.0)))
+    if len(line.vertices) > 2:
+        factor = (f"{1.0 / hi_ct:.4f}-{1.0 / lo_ct:.4f} t along its {len(pm.m11)} segments "
+                  "(a bent line: each segment carried by its own azimuth)")
+    else:
+        factor = f"{1.0 / pm.cos_theta:.4f} t"
+    note = (f"plunge: fold axis {pm.trend:.1f}/{pm.plunge:.1f} (trend/plunge), section "
+            f"azimuth {pm.azimuth:.1f}°: constructed in the down-plunge view (true "
+            f"thicknesses and dips; Ragan) and carried back; angle between the axis and the "
+            f"section plane's normal {theta:.1f}°, so a unit spans t / cos θ = {factor} in "
+            "the section (exactly so, vertically, for a line normal to the trend; in general "
+            "the section's areas are 1 / cos θ times the profile's); distances, dips and "
+            "depths in the lines below are those of the down-plunge view")
+    log = [inner.log[0], note, *inner.log[1:]] if inner.log else [note]
+    return from_profile(pm, inner, line, profile, geology, dips, base, log)
+
+
+def _log_corridor(beside: Constraints, on_line: Constraints, ranges: list[tuple[float, float]],
+                  notes: Notes) -> None:
+    """Which map contacts beside the line each block uses."""
+    if not len(beside):
+        return
+    notes.log(f"{len(beside)} point(s) of map contacts beside the line (within the corridor) "
+              "projected into the section; weighted by their distance from the line")
+    for b, (lo, hi) in enumerate(ranges):
+        m = (beside.distance >= lo) & (beside.distance < hi)
+        if not m.any():
+            continue
+        sub = beside.subset(m)
+        pairs: dict[tuple[str, str], list[float]] = {}
+        for i in range(len(sub)):
+            key = tuple(sorted((str(sub.before[i]), str(sub.after[i]))))
+            pairs.setdefault(key, []).append(float(sub.distance[i]))
+        what = "; ".join(f"{a}|{c} ({len(v)} point(s), projected to {min(v):.0f}-{max(v):.0f} m)"
+                         for (a, c), v in sorted(pairs.items()))
+        n_line = int(((on_line.distance >= lo) & (on_line.distance < hi)).sum())
+        if n_line:
+            notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m): beside its {n_line} contact(s) on the "
+                      f"line, contacts from the corridor used: {what}")
+        else:
+            notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m) has no map contact on the line: "
+                      f"positioned by contacts from the corridor: {what}")
 
 
 def _check_options(method, ve, tol, depth, fault_depth, default_dip) -> None:

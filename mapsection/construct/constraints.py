@@ -86,6 +86,45 @@ def contact_constraints(geology: SurfaceGeology, column: Column, ground: Callabl
                        tuple(top), np.ones(n, bool), tuple(b), tuple(a))
 
 
+_SCALE_FRAC = 0.25
+CORRIDOR_WEIGHT = 0.25  # the tool's default: a boundary crossing near the line weighs
+# about as much as one contact on the line (the weights of its points sum to ~0.8)
+
+
+def corridor_constraints(cc, column: Column) -> Constraints:
+    """Map contacts beside the line (:class:`mapsection.corridor.CorridorContacts`) as
+    constraints, each the top of the older of its two units, weighted by its distance
+    from the line: ``w = CORRIDOR_WEIGHT (spacing / L) / (1 + (offset / L)^2)`` with
+    ``L`` a quarter of the corridor (at least one spacing), so that a boundary's points
+    together weigh about as much as one contact on the line and points far off count
+    little. They are not residual-checked contacts (``is_contact`` False)."""
+    if cc is None or len(cc) == 0:
+        return empty_constraints()
+    names = set(column.names)
+    crosses = (np.zeros(len(cc), bool) if cc.crosses_line is None
+               else np.asarray(cc.crosses_line, bool))
+    # A boundary the line crosses is already there as the line's own contact: its points
+    # beside the line add projection error and no information.
+    rows = [k for k in range(len(cc)) if cc.unit_a[k] in names and cc.unit_b[k] in names
+            and not crosses[k]]
+    if not rows:
+        return empty_constraints()
+    k = np.array(rows)
+    ia = np.array([column.index(cc.unit_a[i]) for i in rows])
+    ib = np.array([column.index(cc.unit_b[i]) for i in rows])
+    older = np.maximum(ia, ib)
+    spacing = float(cc.spacing_m)
+    corridor = float(cc.corridor_m) if np.isfinite(cc.corridor_m) else 4.0 * spacing
+    scale = max(_SCALE_FRAC * corridor, spacing)
+    off = np.asarray(cc.offset_m, float)[k]
+    w = CORRIDOR_WEIGHT * (spacing / scale) / (1.0 + (off / scale) ** 2)
+    n = len(rows)
+    top = tuple(column.names[i] for i in older)
+    return Constraints(np.asarray(cc.distance_m, float)[k], np.asarray(cc.elevation_m, float)[k],
+                       column.depth_to_top[older].astype(float), w, top, np.zeros(n, bool),
+                       tuple(cc.unit_a[i] for i in rows), tuple(cc.unit_b[i] for i in rows))
+
+
 def interval_constraints(geology: SurfaceGeology, column: Column, ground: Callable,
                          lo: float, hi: float, weight: float = 0.1) -> Constraints:
     """Fallback where a block has no contact: the middle of each mapped unit's stretch of

@@ -52,26 +52,172 @@ class Domain:
         return float(plane_dip(self.phi))
 
 
+def _sorted(distance, phi, weight):
+    """The readings in one order whatever order they came in: by distance, ties by angle
+    then weight."""
+    d, p, w = (np.asarray(v, float) for v in (distance, phi, weight))
+    order = np.lexsort((w, p, d))
+    return order, d[order], p[order], w[order]
+
+
+def _unwrapped(p: np.ndarray) -> np.ndarray:
+    """Travel angles made continuous along the line (steps wrapped into ±180°), so that
+    means and spreads need no wrapping."""
+    if len(p) == 0:
+        return p
+    return p[0] + np.concatenate([[0.0], np.cumsum(wrap180(np.diff(p)))])
+
+
 def group_domains(distance, phi, weight, tolerance: float) -> list[Domain]:
-    """Dip domains: walk the dips by distance; a dip joins the current domain when it
-    lies within ``tolerance`` degrees of the domain's running (weighted) mean."""
-    order = np.argsort(distance, kind="stable")
-    d, p, w = (np.asarray(v, float)[order] for v in (distance, phi, weight))
-    domains: list[Domain] = []
-    start = 0
-    ref = p[0]  # angles are averaged relative to the domain's first dip (no wrap trouble)
-    sw = w[0]
-    sx = 0.0
-    for i in range(1, len(d)):  # sequential by nature: each dip compares with the running mean
-        mean = ref + sx / sw
-        if abs(float(wrap180(p[i] - mean))) <= tolerance:
-            sx += w[i] * float(wrap180(p[i] - ref))
-            sw += w[i]
-            continue
-        domains.append(Domain(d[start], d[i - 1], float(wrap180(mean)), i - start))
-        start, ref, sw, sx = i, p[i], w[i], 0.0
-    domains.append(Domain(d[start], d[-1], float(wrap180(ref + sx / sw)), len(d) - start))
+    """Dip domains: the fewest runs of consecutive dips (along the line) in which every
+    dip lies within ``tolerance`` degrees of its run's weighted mean.
+
+    An exact segmentation by dynamic programming (the classic optimal partition of a
+    sequence, Bellman 1961 "On the approximation of curves by line segments using
+    dynamic programming"): fewest domains first, then the least weighted spread
+    (sum of squared departures from each domain's mean). It depends on the set of
+    readings only, not on the order they are listed in (ties in distance are ordered
+    by angle). Readings that one reading alone would turn into a domain are screened
+    out before (:func:`screen_readings`).
+    """
+    _, d, p, w = _sorted(distance, phi, weight)
+    n = len(d)
+    u = _unwrapped(p)
+    big = 1e9  # one more domain always costs more than any spread
+    best = np.full(n + 1, np.inf)
+    best[0] = 0.0
+    back = np.zeros(n + 1, int)
+    for i in range(n):  # best[i] is final here: every run ending before i was tried
+        seg = u[i:]
+        ww = w[i:]
+        sw = np.cumsum(ww)
+        s1 = np.cumsum(ww * seg)
+        s2 = np.cumsum(ww * seg * seg)
+        mean = s1 / sw
+        spread = np.maximum(np.maximum.accumulate(seg) - mean, mean - np.minimum.accumulate(seg))
+        sse = np.maximum(s2 - s1 * s1 / sw, 0.0)
+        cost = best[i] + big + sse
+        ok = (spread <= tolerance + 1e-9) & (cost < best[i + 1:])
+        j = np.flatnonzero(ok)
+        best[i + 1 + j] = cost[j]
+        back[i + 1 + j] = i
+    cuts = [n]
+    while cuts[-1] > 0:
+        cuts.append(back[cuts[-1]])
+    cuts = cuts[::-1]
+    domains = []
+    for a, b in zip(cuts[:-1], cuts[1:], strict=True):
+        mean = float(np.sum(w[a:b] * u[a:b]) / np.sum(w[a:b]))
+        domains.append(Domain(float(d[a]), float(d[b - 1]), float(wrap180(mean)), b - a))
     return merge_parallel(domains)
+
+
+def _fits_run(u: np.ndarray, k: int, side: list[int], tol: float) -> bool:
+    """Reading ``k`` and the readings ``side`` (two) could make one dip domain."""
+    if len(side) < 2:
+        return False
+    v = u[[k, *side]]
+    return bool(np.max(np.abs(v - v.mean())) <= tol)
+
+
+@dataclass(frozen=True)
+class Screened:
+    """What :func:`screen_readings` says of each reading (in the order given).
+
+    ``left_out``: kept out of the dip domains; ``kind``: ``"outlier"`` (disagrees with
+    neighbours that agree with each other) or ``"hinge"`` (between two dip domains,
+    fitting neither: left out of both, not an error); ``expected``: the travel angle
+    its neighbours give; ``why``: a sentence for the log.
+    """
+
+    left_out: np.ndarray
+    kind: tuple[str, ...]
+    expected: np.ndarray
+    why: tuple[str, ...]
+
+
+def screen_readings(distance, phi, tolerance: float, keep=None) -> Screened:
+    """Readings that one reading alone would make into a dip domain.
+
+    A reading is *supported* when a reading next to it along the line (either side)
+    lies within ``tolerance`` of it, or it could share a dip domain with the two
+    nearest readings on one side (all three within ``tolerance`` of their mean), or
+    the geologist marked it to be kept (``keep``).
+    An unsupported reading is left out where its neighbours agree on something else:
+
+    * the nearest readings on either side agree with each other: an outlier in a
+      domain (misfit against their mean);
+    * the two nearest readings on each side agree among themselves but the two sides
+      differ (two domains) and the reading lies between their dips: a reading in the
+      hinge, left out of both (not an outlier); outside them: an outlier;
+    * at an end of the line (or of a fault block) after two readings that agree: the
+      change does not persist (no further reading), an outlier.
+
+    Elsewhere (too few readings to judge) the reading stays. Depends on the set of
+    readings only, not on their order (common practice: a domain rests on more than
+    one reading; the rule itself is the tool's own).
+    """
+    d = np.asarray(distance, float)
+    n = len(d)
+    keep = np.zeros(n, bool) if keep is None else np.asarray(keep, bool)
+    order, _, p, _ = _sorted(d, phi, np.zeros(n))
+    u = _unwrapped(p)
+    kp = keep[order]
+    tol = tolerance + 1e-9
+    left_out = np.zeros(n, bool)
+    kinds = [""] * n
+    why = [""] * n
+    expected = np.full(n, np.nan)
+
+    def agree(a, b):
+        return abs(u[a] - u[b]) <= tol
+
+    def dip_of(v):
+        return float(plane_dip(wrap180(v)))
+
+    for k in range(n):
+        left = [j for j in (k - 1, k - 2) if j >= 0]
+        right = [j for j in (k + 1, k + 2) if j < n]
+        near = left[:1] + right[:1]
+        if kp[k] or not near or any(agree(k, j) for j in near) or _fits_run(u, k, left, tol) \
+                or _fits_run(u, k, right, tol):
+            continue
+        lc = len(left) == 2 and agree(*left)
+        rc = len(right) == 2 and agree(*right)
+        here = dip_of(u[k])
+        verdict = None
+        if left and right:
+            l1, r1 = left[0], right[0]
+            if agree(l1, r1):
+                exp = 0.5 * (u[l1] + u[r1])
+                verdict = ("outlier", exp, f"its neighbours agree on {dip_of(exp):.1f}°")
+            elif lc and rc:
+                lo, hi = sorted((u[l1], u[r1]))
+                if lo <= u[k] <= hi:
+                    exp = u[l1] if abs(u[k] - u[l1]) < abs(u[k] - u[r1]) else u[r1]
+                    verdict = ("hinge", exp, f"between dip domains {dip_of(u[l1]):.1f}° and "
+                               f"{dip_of(u[r1]):.1f}°, fitting neither: taken as a reading in "
+                               "the hinge")
+                else:
+                    exp = lo if u[k] < lo else hi
+                    verdict = ("outlier", exp, f"outside the dips of both neighbouring "
+                               f"domains ({dip_of(u[l1]):.1f}° and {dip_of(u[r1]):.1f}°)")
+        elif (lc and not right) or (rc and not left):
+            side = left if lc else right
+            exp = 0.5 * (u[side[0]] + u[side[1]])
+            verdict = ("outlier", exp, f"the last reading, after readings that agree on "
+                       f"{dip_of(exp):.1f}°: the change does not persist")
+        if verdict is None:
+            continue
+        kind, exp, reason = verdict
+        i = order[k]
+        left_out[i] = True
+        kinds[i] = kind
+        expected[i] = float(wrap180(exp))
+        why[i] = (f"dip {here:.1f}° differs by {abs(u[k] - exp):.1f}° (> tolerance "
+                  f"{tolerance:g}°) from its neighbours and no neighbour supports it; "
+                  f"{reason}")
+    return Screened(left_out, tuple(kinds), expected, tuple(why))
 
 
 def merge_parallel(domains: list[Domain], min_angle: float = 0.5) -> list[Domain]:
