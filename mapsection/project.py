@@ -29,11 +29,12 @@ CONVENTIONS = ("rhr", "dip-direction", "quadrant")
 
 # Every key each table accepts (anything else is reported as an unknown key).
 TOP_KEYS = frozenset({"crs", "title", "dem", "map", "attitudes", "stratigraphy", "section",
-                      "checks"})
+                      "fault", "checks"})
 DEM_KEYS = frozenset({"path"})
 FAULT_ROLES = ("dip", "dip_direction", "sense", "name")
-MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer",
+MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer", "default_fault_dip",
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
+FAULT_KEYS = frozenset({"name", "dip", "detachment", "radius", "cuts"})
 ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
                   "attitude")
 ATTITUDE_KEYS = frozenset({"path", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
@@ -99,6 +100,24 @@ class SectionSpec:
 
 
 @dataclass(frozen=True)
+class FaultSpec:
+    """What the project says of one mapped fault (a ``[[fault]]`` table), matched by the
+    faults layer's name field.
+
+    ``dip``: true dip (degrees) where the layer has none; ``detachment``: the elevation
+    (m) of the flat the fault soles into, or the name of the footwall unit along whose
+    base the flat runs; ``radius``: metres, the curvature of the bend into the flat
+    (listric; default a sharp bend); ``cuts``: the faults this one cuts (it is younger).
+    """
+
+    name: str
+    dip: float | None = None
+    detachment: float | str | None = None
+    radius: float | None = None
+    cuts: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
 class Project:
     path: Path
     crs: pyproj.CRS
@@ -115,6 +134,8 @@ class Project:
     thresholds: Thresholds = field(default_factory=Thresholds)
     fault_fields: dict[str, str] = field(default_factory=dict)
     attitude_fields: dict[str, str] = field(default_factory=dict)
+    faults: tuple[FaultSpec, ...] = ()
+    default_fault_dip: float | None = None  # true dip for faults with no dip anywhere
 
     def section(self, name: str | SectionSpec) -> SectionSpec:
         """The section named ``name`` (a :class:`SectionSpec` is returned as it is): the one
@@ -269,6 +290,12 @@ def load_project(path: str | os.PathLike) -> Project:
     if dup:
         raise ProjectFileError(f"{fname}: section: two sections share the name {dup[0]!r}")
 
+    faults = _faults(fname, raw, column)
+    default_fault_dip = mp.get("default_fault_dip", float, None, positive=True)
+    if default_fault_dip is not None and default_fault_dip > 90:
+        raise mp.fail("default_fault_dip",
+                      f"must be a dip of 0-90 degrees, got {default_fault_dip}")
+
     checks = top.sub("checks", required=False)
     thresholds = Thresholds()
     if checks is not None:
@@ -295,7 +322,41 @@ def load_project(path: str | os.PathLike) -> Project:
         thresholds=thresholds,
         fault_fields=fault_fields,
         attitude_fields=attitude_fields,
+        faults=faults,
+        default_fault_dip=default_fault_dip,
     )
+
+
+def _faults(fname: str, raw: dict[str, Any], column: Column) -> tuple[FaultSpec, ...]:
+    """The optional ``[[fault]]`` tables."""
+    if "fault" not in raw:
+        return ()
+    out = []
+    for r in _array_of_tables(fname, raw, "fault", "list of faults", FAULT_KEYS):
+        dip = r.get("dip", float, None, positive=True)
+        if dip is not None and dip > 90:
+            raise r.fail("dip", f"must be a dip of 0-90 degrees, got {dip}")
+        det = r.get("detachment", (float, int, str), None)
+        if isinstance(det, int | float):
+            det = float(det)
+            if not math.isfinite(det):
+                raise r.fail("detachment", f"must be a finite elevation, got {det!r}")
+        elif isinstance(det, str) and det not in column.names:
+            raise r.fail("detachment", f"unit {det!r} is not in the stratigraphic column "
+                                       f"({', '.join(column.names)})")
+        cuts = r.get("cuts", list, [])
+        if not all(isinstance(c, str) for c in cuts):
+            raise r.fail("cuts", f"must be a list of fault names, got {cuts!r}")
+        out.append(FaultSpec(r.get("name", str), dip, det,
+                             r.get("radius", float, None, positive=True), tuple(cuts)))
+    names = [f.name for f in out]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise ProjectFileError(f"{fname}: fault: two [[fault]] tables share the name {dup[0]!r}")
+    for i, f in enumerate(out):
+        if f.name in f.cuts:
+            raise ProjectFileError(f"{fname}: fault[{i}].cuts: a fault cannot cut itself")
+    return tuple(out)
 
 
 def _section(r: _Reader) -> SectionSpec:
