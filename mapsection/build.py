@@ -102,7 +102,8 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
             data.line, data.profile, data.geology, data.dips, project.column,
             name=spec.name, method=method or spec.method, ve=ve or spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
-            default_dip=spec.default_dip, warn=warn)
+            default_dip=spec.default_dip, faults=project.faults,
+            default_fault_dip=project.default_fault_dip, warn=warn)
 
 
 def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:

@@ -23,7 +23,7 @@ the horizon ``top_of = "base of <oldest unit>"``.
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 
 import numpy as np
 
@@ -44,7 +44,15 @@ from .blocks import (
     split_blocks,
 )
 from .constraints import contact_constraints, interval_constraints
-from .faults import block_polygons, fault_lines, ground_ranges
+from .faults import (
+    FaultLine,
+    block_polygons,
+    check_crossings,
+    detach_on_horizon,
+    fault_lines,
+    fault_settings,
+    ground_ranges,
+)
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
 
@@ -60,6 +68,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                 dips: ProjectedDips, column: Column, *, name: str = "", method: str = "kink",
                 ve: float = 1.0, dip_tolerance: float = 5.0, depth: float | None = None,
                 fault_depth: float | None = None, default_dip: float | None = None,
+                faults: Sequence = (), default_fault_dip: float | None = None,
                 warn: Warn | None = None) -> Draft:
     """Construct the draft section along ``line``.
 
@@ -84,6 +93,11 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     default_dip
         Signed apparent dip (degrees, + descends toward increasing distance) used,
         with a warning, where no dips fall within the corridor.
+    faults
+        The project's ``[[fault]]`` tables (:class:`mapsection.project.FaultSpec`:
+        name, dip, detachment, radius, cuts), matched to the mapped faults by name.
+    default_fault_dip
+        True dip (degrees) of a fault with no dip on the map nor in its ``[[fault]]``.
     warn
         Called with each warning (default: a :class:`~mapsection._messages.MapsectionWarning`).
 
@@ -115,9 +129,10 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
 
     ground = ground_function(profile)
     frame = _frame(profile, ground, float(line.length), column, depth)
-    faults = fault_lines(geology.faults, frame, ground, fault_depth, notes)
+    settings = fault_settings(faults)
+    faults = fault_lines(geology.faults, frame, ground, fault_depth, notes, settings=settings,
+                         default_fault_dip=default_fault_dip, azimuth=line.azimuth_at)
     ranges = ground_ranges(faults, frame.length)
-    regions = [p.intersection(frame.box) for p in block_polygons(faults, frame)]
 
     dipset = section_dips(dips, notes)
     if len(dipset) == 0:
@@ -143,6 +158,9 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                            np.append(column.depth_to_top, column.total_thickness),
                            [*column.names, base_name(column)], dip_tolerance, notes)
     models = _fit_blocks(blocks, chosen.fit, setting, geology, column, faults)
+    faults = _detach_on_units(faults, models, column, frame, notes)
+    check_crossings(faults, frame, notes)
+    regions = [p.intersection(frame.box) for p in block_polygons(faults, frame)]
 
     draft = Draft(name=label, method=method, line=line, profile=profile, geology=geology,
                   dips=dips, column=column, ve=float(ve), base_elevation_m=frame.base,
@@ -179,6 +197,23 @@ def _fit_blocks(blocks: list[FaultBlock], fit: Callable[[FaultBlock, BlockSettin
             block = blocks[b] = dataclasses.replace(block, constraints=cons)
         models[b] = fit(block, st)
     return [models[b] for b in range(len(blocks))]
+
+
+def _detach_on_units(faults: list[FaultLine], models: list[BlockModel], column: Column,
+                     frame: SectionFrame, notes: Notes) -> list[FaultLine]:
+    """Faults whose detachment is a unit: the flat runs along the base of that unit in
+    the footwall block, as that block was constructed."""
+    out = []
+    for k, fl in enumerate(faults):
+        st = fl.setting
+        if st is not None and isinstance(st.detachment, str):
+            fw = k if fl.hanging_wall_right else k + 1
+            level = float(column.depth_to_top[column.index(st.detachment)]
+                          + column.thicknesses[column.index(st.detachment)])
+            fl = detach_on_horizon(fl, models[fw].horizon_path(level), st.detachment, frame,
+                                   notes)
+        out.append(fl)
+    return out
 
 
 def _check_options(method, ve, tol, depth, fault_depth, default_dip) -> None:
