@@ -1,0 +1,313 @@
+"""Fault geometry in the construction: ramps that flatten into a detachment (at an
+elevation or along the base of a footwall unit), listric faults of known radius, several
+faults, fault dips from the project, and the bad inputs.
+
+Truths are analytic (invented data): a layer-cake whose stratigraphic depth is a linear
+function of position in each block. A planar fault's hanging wall translated rigidly
+along the fault separates every horizon by the slip; a circular (listric) fault's hanging
+wall rotated rigidly about the circle's centre slides along the fault, separating every
+horizon cut on the arc by radius x angle (the geometry of a rotational fault; e.g. the
+circular-arc listric model in Groshong, 3-D Structural Geology, 2006, chapter on
+extensional structures, "from memory")."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import shapely
+from shapely.geometry import LineString, Point
+
+from mapsection.construct import build_draft
+from mapsection.dips import ProjectedDips
+from mapsection.errors import ConstructionError
+from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
+from mapsection.line import SectionLine
+from mapsection.project import FaultSpec
+from mapsection.stratigraphy import Column, Unit
+from mapsection.topo_profile import Profile
+
+L = 10000.0
+THIN = 200.0
+COLUMN = Column(tuple(Unit(n, t) for n, t in zip(
+    ("Ant", "Bex", "Cal", "Dor", "Eve", "Fal", "Gim", "Hal"),
+    (250.0, 300.0, THIN, 350.0, 250.0, 300.0, 250.0, 400.0), strict=True)))
+LEVELS = np.append(COLUMN.depth_to_top, COLUMN.total_thickness)
+NAMES = [*COLUMN.names, COLUMN.base_name]
+
+
+def _normal(app_dip: float) -> np.ndarray:
+    """Younging normal of upright beds with signed apparent dip ``app_dip`` (positive
+    descends toward +x)."""
+    a = np.radians(app_dip)
+    return np.array([np.sin(a), np.cos(a)])
+
+
+class Field:
+    """Stratigraphic depth S(p) = c - n . p (a layer-cake, linear in position)."""
+
+    def __init__(self, n: np.ndarray, c: float):
+        self.n, self.c = np.asarray(n, float), float(c)
+
+    def depth(self, p) -> np.ndarray:
+        return self.c - np.atleast_2d(p) @ self.n
+
+    def moved(self, shift) -> Field:
+        """The field carried rigidly by ``shift``."""
+        return Field(self.n, self.c + self.n @ np.asarray(shift, float))
+
+    def rotated(self, centre, angle_deg: float) -> Field:
+        """The field carried by a rigid rotation of ``angle_deg`` (counter-clockwise)
+        about ``centre``."""
+        a = np.radians(angle_deg)
+        rot = np.array([[np.cos(a), -np.sin(a)], [np.sin(a), np.cos(a)]])
+        n2 = rot @ self.n
+        o = np.asarray(centre, float)
+        # S'(p) = S(R^-1 (p - o) + o) = c - n . o - (R n) . (p - o)
+        return Field(n2, self.c - self.n @ o + n2 @ o)
+
+    def elevation(self, x, s) -> np.ndarray:
+        """Elevation of level ``s`` at distances ``x``."""
+        return (self.c - s - self.n[0] * np.asarray(x, float)) / self.n[1]
+
+    @property
+    def app_dip(self) -> float:
+        return float(np.degrees(np.arctan2(self.n[0], self.n[1])))
+
+
+def section_data(fields: list[Field], faults: list[FaultCrossing], n_dips: int = 5):
+    """Line, flat profile at 0 m, geology (contacts of each block at the ground) and dips
+    of a layer-cake in blocks ``fields`` between ``faults`` (sorted by distance)."""
+    line = SectionLine(np.array([[0.0, 0.0], [L, 0.0]]), name="G")
+    d = np.linspace(0.0, L, 2001)
+    prof = Profile(d, d, np.zeros_like(d), np.zeros_like(d), line, None, 5.0)
+    cuts = [0.0, *[f.distance_m for f in faults], L]
+    contacts, dx, da = [], [], []
+    for (lo, hi), fld in zip(zip(cuts[:-1], cuts[1:], strict=True), fields, strict=True):
+        x = np.linspace(lo + 1.0, hi - 1.0, 20001)
+        s = fld.depth(np.column_stack([x, np.zeros_like(x)]))
+        for i, top in enumerate(COLUMN.depth_to_top[1:], start=1):
+            for k in np.flatnonzero(np.diff(np.sign(s - top)) != 0):
+                xc = x[k] + (top - s[k]) * (x[k + 1] - x[k]) / (s[k + 1] - s[k])
+                older_before = s[k] > top
+                a, b = COLUMN.names[i], COLUMN.names[i - 1]
+                contacts.append(Contact(float(xc), 0.0, *((a, b) if older_before else (b, a))))
+        xs = np.linspace(lo + 0.1 * (hi - lo), hi - 0.1 * (hi - lo), n_dips)
+        dx.extend(xs)
+        da.extend([fld.app_dip] * n_dips)
+    contacts.sort(key=lambda c: c.distance_m)
+    geology = SurfaceGeology((UnitInterval(0.0, L, "Ant"),), tuple(contacts), tuple(faults))
+    xs, ap = np.array(dx), np.array(da)
+    z = np.zeros(len(xs))
+    dips = ProjectedDips(np.arange(len(xs)), xs, z, xs, z, z, np.abs(ap), ap, ap,
+                         np.zeros(len(xs), bool), np.zeros(len(xs), bool))
+    return line, prof, geology, dips
+
+
+def horizon_errors(draft, fields: list[Field]) -> dict[int, float]:
+    """Largest vertical miss of the below-ground horizons of each block against the truth."""
+    out: dict[int, float] = {}
+    for h in draft.horizons:
+        if h.above_ground:
+            continue
+        s = LEVELS[NAMES.index(h.top_of)]
+        g = h.geometry
+        pts = shapely.get_coordinates(shapely.line_interpolate_point(
+            g, np.linspace(0.0, g.length, max(int(g.length // 20), 2))))
+        err = np.abs(pts[:, 1] - fields[h.block].elevation(pts[:, 0], s))
+        out[h.block] = max(out.get(h.block, 0.0), float(err.max()))
+    return out
+
+
+def quiet(_m):
+    return None
+
+
+# --- a thrust that flattens into a detachment -----------------------------------------
+
+X_T = 6000.0
+RAMP = 30.0  # degrees, descending toward -x: the hanging wall is the left block
+BEDS = -10.0  # beds descend toward -x (the hanging wall side)
+
+
+def thrust_data(slip: float = 600.0):
+    fw = Field(_normal(BEDS), 1000.0 + X_T * _normal(BEDS)[0])
+    r = np.radians(RAMP)
+    hw = fw.moved(slip * np.array([np.cos(r), np.sin(r)]))  # up the ramp, toward +x
+    fault = FaultCrossing(X_T, 0.0, RAMP, 270.0, -RAMP, "thrust", "Flat Thrust")
+    return [hw, fw], section_data([hw, fw], [fault])
+
+
+def test_thrust_soles_into_a_detachment_elevation():
+    fields, (line, prof, geo, dips) = thrust_data()
+    zd = -1500.0
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                        faults=[FaultSpec("Flat Thrust", detachment=zd)])
+    (f,) = draft.faults
+    c = np.asarray(f.geometry.coords)
+    # ramp from the ground at its dip to the detachment, then the flat to the section's start
+    bend_x = X_T - (0.0 - zd) / np.tan(np.radians(RAMP))  # analytic
+    assert c[0] == pytest.approx([X_T, 0.0])
+    assert c[1] == pytest.approx([bend_x, zd])
+    assert c[-1] == pytest.approx([0.0, zd])
+    kinds = [k for k, _ in f.segments]
+    assert kinds == ["ramp", "flat"]
+    assert f.segments[0][1] == pytest.approx(-zd / np.sin(np.radians(RAMP)))
+    assert f.segments[1][1] == pytest.approx(bend_x)
+    # Hanging-wall horizons never cross the fault; footwall ones stay below it.
+    fault = LineString(c)
+    hw_region = shapely.Polygon(np.vstack([c, [[0.0, 5000.0], [X_T + 5000 / np.tan(
+        np.radians(RAMP)), 5000.0]]]))
+    ends = 0
+    for h in draft.horizons:
+        if h.block == 0:
+            assert hw_region.buffer(1e-6).covers(h.geometry), h.top_of
+        else:
+            assert not hw_region.buffer(-1e-6).intersects(h.geometry), h.top_of
+        c_h = h.geometry.coords
+        ends += sum(fault.distance(Point(p)) < 1e-6 for p in (c_h[0], c_h[-1]))
+    assert ends >= 10  # horizons of both blocks end at the fault (counted by hand: 11)
+    # each block from its own data: exact layer-cakes
+    errs = horizon_errors(draft, fields)
+    assert max(errs.values()) < 1e-6
+    assert any("detachment flat at elevation -1500 m" in e for e in draft.log)
+
+
+def test_thrust_soles_along_the_base_of_a_footwall_unit():
+    fields, (line, prof, geo, dips) = thrust_data()
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                        faults=[FaultSpec("Flat Thrust", detachment="Fal")])
+    (f,) = draft.faults
+    c = np.asarray(f.geometry.coords)
+    assert [k for k, _ in f.segments] == ["ramp", "flat"]
+    # the flat lies on the footwall's base of Fal (= top of Gim) from the bend on
+    s = LEVELS[NAMES.index("Gim")]
+    flat = c[1:]
+    assert np.allclose(flat[:, 1], fields[1].elevation(flat[:, 0], s), atol=1e-6)
+    assert flat[:, 0].max() < X_T and flat[-1, 0] == pytest.approx(0.0)
+    assert any("base of Fal" in e for e in draft.log)
+
+
+def test_detachment_above_the_trace_is_refused():
+    _, (line, prof, geo, dips) = thrust_data()
+    with pytest.raises(ConstructionError, match=r"^fault Flat Thrust: detachment at 50 m "
+                                                "lies above the fault's surface trace"):
+        build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                    faults=[FaultSpec("Flat Thrust", detachment=50.0)])
+    # the base of Ant lies above the ground at the fault (the footwall shows Bex-Cal there)
+    with pytest.raises(ConstructionError, match="base of Ant lies above the fault's surface"):
+        build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                    faults=[FaultSpec("Flat Thrust", detachment="Ant")])
+
+
+# --- the project's fault dip -----------------------------------------------------------
+
+
+def test_fault_without_dip_takes_the_project_default():
+    fields, (line, prof, geo, dips) = thrust_data()
+    nodip = tuple(FaultCrossing(f.distance_m, f.elevation_m, float("nan"), 270.0,
+                                float("nan"), f.sense, f.name) for f in geo.faults)
+    geo = SurfaceGeology(geo.intervals, geo.contacts, nodip)
+    with pytest.raises(ConstructionError, match="gives no dip.*default_fault_dip"):
+        build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet)
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                        default_fault_dip=RAMP)
+    (f,) = draft.faults
+    # a plane dipping 30 toward 270 in an east-west section: apparent dip -30 (the
+    # apparent-dip relation tan a = tan d sin(A - strike), Ragan)
+    assert f.apparent_dip == pytest.approx(-RAMP) and f.dip == RAMP
+    c = np.asarray(f.geometry.coords)
+    assert np.degrees(np.arctan2(c[0, 1] - c[-1, 1], c[0, 0] - c[-1, 0])) == pytest.approx(RAMP)
+    assert any("default_fault_dip" in e for e in draft.log)
+    assert max(horizon_errors(draft, fields).values()) < 1e-6
+    # a [[fault]] dip wins over the default
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                        default_fault_dip=60.0, faults=[FaultSpec("Flat Thrust", dip=RAMP)])
+    assert draft.faults[0].apparent_dip == pytest.approx(-RAMP)
+    assert any("its [[fault]] dip" in e for e in draft.log)
+
+
+# --- a listric normal fault of known radius --------------------------------------------
+
+X_L = 7000.0
+RADIUS = 4000.0
+DELTA = 60.0  # surface dip of the listric fault, descending toward -x
+OMEGA = -6.0  # degrees: the hanging wall rotates clockwise, sliding down the arc
+
+
+def test_listric_fault_of_known_radius():
+    d = np.radians(DELTA)
+    centre = np.array([X_L - RADIUS * np.sin(d), RADIUS * np.cos(d)])  # analytic
+    zd = -RADIUS * (1 - np.cos(d))  # where the circle is horizontal
+    fw = Field(_normal(-8.0), 900.0 + X_L * _normal(-8.0)[0])
+    hw = fw.rotated(centre, OMEGA)
+    fault = FaultCrossing(X_L, 0.0, DELTA, 270.0, -DELTA, "normal", "Curl Fault")
+    line, prof, geo, dips = section_data([hw, fw], [fault])
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3500.0, warn=quiet,
+                        faults=[FaultSpec("Curl Fault", detachment=float(zd), radius=RADIUS)])
+    (f,) = draft.faults
+    c = np.asarray(f.geometry.coords)
+    on_arc = [k for k, _ in f.segments] == ["bend", "flat"]
+    assert on_arc
+    arc = c[: int(np.argmin(np.abs(c[:, 1] - zd))) + 1]
+    assert np.hypot(*(arc - centre).T) == pytest.approx(RADIUS, rel=1e-9)
+    # horizons within 15 % of the thinnest unit in every block (the issue's tolerance)
+    errs = horizon_errors(draft, [hw, fw])
+    assert set(errs) == {0, 1}
+    assert max(errs.values()) <= 0.15 * THIN, errs
+    # separations within 5 % of the true slip R * |omega| (arc length), normal sense;
+    # compared where both cutoffs lie on the arc
+    slip = RADIUS * np.radians(abs(OMEGA))
+    arc_line = LineString(arc)
+    checked = 0
+    for top, sep in f.separations.items():
+        s = LEVELS[NAMES.index(top)]
+        fw_line = LineString([[0.0, fw.elevation(0.0, s)], [L, fw.elevation(L, s)]])
+        x = arc_line.intersection(fw_line)
+        if x.is_empty or arc_line.project(x) + slip > arc_line.length - 1.0:
+            continue
+        assert sep == pytest.approx(-slip, rel=0.05), top
+        checked += 1
+    assert checked >= 4
+    assert any("listric" in e for e in draft.log)
+
+
+# --- a pair of planar normal faults ------------------------------------------------------
+
+PAIR = ((3500.0, 200.0), (7000.0, 350.0))  # (distance, throw); both dip 60 toward +x
+
+
+def test_planar_normal_fault_pair_with_known_throws():
+    dip = 60.0
+    r = np.radians(dip)
+    down_dip = np.array([np.cos(r), -np.sin(r)])  # descending toward +x
+    f0 = Field(_normal(-10.0), 300.0 + 2000.0 * _normal(-10.0)[0])
+    fields = [f0]
+    for _, throw in PAIR:
+        fields.append(fields[-1].moved(throw / np.sin(r) * down_dip))  # hanging wall down
+    faults = [FaultCrossing(x, 0.0, dip, 90.0, dip, "normal", f"N{k}")
+              for k, (x, _) in enumerate(PAIR)]
+    line, prof, geo, dips = section_data(fields, faults)
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet)
+    errs = horizon_errors(draft, fields)
+    assert set(errs) == {0, 1, 2}
+    assert max(errs.values()) <= 0.15 * THIN, errs
+    for f, (_, throw) in zip(draft.faults, PAIR, strict=True):
+        slip = throw / np.sin(r)
+        assert f.separations, f.name
+        for top, sep in f.separations.items():
+            assert sep == pytest.approx(-slip, rel=0.05), (f.name, top)
+
+
+def test_crossing_faults_need_an_order():
+    # a graben whose faults meet at depth: refused without an order, built with one
+    fl = Field(_normal(-10.0), 300.0 + 2000.0 * _normal(-10.0)[0])
+    faults = [FaultCrossing(4000.0, 0.0, 60.0, 90.0, 60.0, "normal", "West"),
+              FaultCrossing(6000.0, 0.0, 60.0, 270.0, -60.0, "normal", "East")]
+    line, prof, geo, dips = section_data([fl, fl, fl], faults)
+    with pytest.raises(ConstructionError, match="^faults West and East cross in the section "
+                                                ".* no order is given"):
+        build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet)
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                        faults=[FaultSpec("East", cuts=("West",))])
+    assert any("fault East cuts fault West" in e for e in draft.log)
+    assert Point(5000.0, -1732.05).distance(draft.faults[0].geometry) < 1.0
