@@ -12,6 +12,8 @@ extensional structures, "from memory")."""
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 import shapely
@@ -311,3 +313,72 @@ def test_crossing_faults_need_an_order():
                         faults=[FaultSpec("East", cuts=("West",))])
     assert any("fault East cuts fault West" in e for e in draft.log)
     assert Point(5000.0, -1732.05).distance(draft.faults[0].geometry) < 1.0
+
+
+# --- the project's [[fault]] tables and a map without fault dips (sample area) ----------
+
+SAMPLE = Path(__file__).resolve().parents[1] / "sample_area"
+
+
+def _sample_project(tmp_path: Path, extra: str = "", *, map_path: Path | None = None) -> Path:
+    """The sample project with its paths made absolute, plus ``extra`` TOML."""
+    text = (SAMPLE / "project.toml").read_text("utf-8")
+    for name in ("dem.tif", "attitudes.csv"):
+        text = text.replace(f'"{name}"', f'"{(SAMPLE / name).as_posix()}"')
+    text = text.replace('"geology.gpkg"', f'"{(map_path or SAMPLE / "geology.gpkg").as_posix()}"')
+    text = text.replace("[attitudes]", extra + "\n[attitudes]", 1) if extra.startswith(
+        "default_fault_dip") else text + "\n" + extra
+    p = tmp_path / "project.toml"
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def test_detachment_unit_not_in_the_column(tmp_path):
+    from mapsection.errors import ProjectFileError
+    from mapsection.project import load_project
+
+    p = _sample_project(tmp_path, '[[fault]]\nname = "Kelmby Thrust"\ndetachment = "Nope"\n')
+    with pytest.raises(ProjectFileError, match=r"^project.toml: fault\[0\].detachment: unit "
+                                               r"'Nope' is not in the stratigraphic column"):
+        load_project(p)
+
+
+def test_fault_table_matching_no_mapped_fault_exits_2(tmp_path):
+    import os
+    import subprocess
+    import sys
+
+    p = _sample_project(tmp_path, '[[fault]]\nname = "Kelby Thrust"\ndip = 30.0\n')
+    env = {**os.environ, "PYTHONPATH": str(Path(__file__).resolve().parents[1])}
+    res = subprocess.run([sys.executable, "-c", "from mapsection.cli.main import cli; cli()",
+                          "build", str(p), "-o",
+                          str(tmp_path / "out")], capture_output=True, text=True, env=env,
+                         timeout=300)
+    assert res.returncode == 2, res.stderr
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and "Traceback" not in res.stderr
+    assert lines[0].startswith("mapsection: error: project.toml: fault[0].name: 'Kelby Thrust' "
+                               "matches no fault of layer 'faults' (fault names: Kelmby Thrust)")
+    assert not (tmp_path / "out").exists()
+
+
+def test_sample_map_without_fault_dips_uses_the_default(tmp_path):
+    import geopandas as gpd
+
+    from mapsection.build import build_section
+    from mapsection.project import load_project
+
+    gpkg = tmp_path / "geology.gpkg"
+    units = gpd.read_file(SAMPLE / "geology.gpkg", layer="units")
+    faults = gpd.read_file(SAMPLE / "geology.gpkg", layer="faults").drop(columns=["dip"])
+    units.to_file(gpkg, layer="units", driver="GPKG")
+    faults.to_file(gpkg, layer="faults", driver="GPKG")
+    # the model's fault dip (sample_area/model.json: 32.06 degrees)
+    p = _sample_project(tmp_path, "default_fault_dip = 32.06\n", map_path=gpkg)
+    draft = build_section(load_project(p), "A", warn=quiet)
+    (f,) = draft.faults
+    assert f.dip == pytest.approx(32.06)
+    assert any("no dip on the map: 32.06° from the project's default_fault_dip" in e
+               for e in draft.log)
+    ref = build_section(load_project(SAMPLE / "project.toml"), "A", warn=quiet)
+    assert f.apparent_dip == pytest.approx(ref.faults[0].apparent_dip, abs=0.1)
