@@ -143,12 +143,15 @@ def sample_a():
 
 def test_sample_area_separations_measured(sample_a):
     # The three horizons the Kelmby Thrust cuts below the ground in section A: separations
-    # of 376, 415 and 520 m (figures reported for the current draft; the model's slip is
-    # 400 m, sample_area/README.md).
+    # of 375, 391 and 488 m (figures reported for the current draft; the model's slip is
+    # 400 m, sample_area/README.md). The limb either side of the fault is drawn at the mean
+    # of its dips on both sides; the lone -9° reading VR076 among -12° neighbours still
+    # makes a dip domain of its own in the hanging wall and bends the deepest horizon (without
+    # it every horizon separates by 424 m, tests/test_fault_geometry.py).
     s = check_separations(sample_a)
     (fs,) = s.faults
     below = {t: v for t, v in fs.separations_m.items() if t not in fs.projected}
-    assert sorted(round(v) for v in below.values()) == [376, 415, 520]
+    assert sorted(round(v) for v in below.values()) == [375, 391, 488]
     assert fs.threshold_m == pytest.approx(max(0.2 * abs(fs.mean_m), 2 * 25.0))
 
 

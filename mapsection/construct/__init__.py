@@ -40,6 +40,7 @@ from .blocks import (
     FaultBlock,
     drop_fault_contacts,
     neighbour_constraint,
+    pool_across_faults,
     section_dips,
     split_blocks,
 )
@@ -154,6 +155,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                           prepare=lambda ds: chosen.prepare(ds, ground),
                           group=lambda ds: chosen.group(ds, dip_tolerance),
                           default_dip=default_dip, ground=ground, notes=notes)
+    blocks = pool_across_faults(blocks, faults, dip_tolerance, notes)
     setting = BlockSetting(frame, ground, float(column.thicknesses.min()),
                            np.append(column.depth_to_top, column.total_thickness),
                            [*column.names, base_name(column)], dip_tolerance, notes)
