@@ -34,7 +34,8 @@ DEM_KEYS = frozenset({"path"})
 FAULT_ROLES = ("dip", "dip_direction", "sense", "name")
 MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer", "default_fault_dip",
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
-FAULT_KEYS = frozenset({"name", "dip", "detachment", "radius", "cuts"})
+FAULT_KEYS = frozenset({"name", "dip", "detachment", "radius", "cuts", "fold"})
+FAULT_FOLDS = ("fault-bend",)
 ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
                   "attitude")
 ATTITUDE_KEYS = frozenset({"path", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
@@ -115,6 +116,7 @@ class FaultSpec:
     detachment: float | str | None = None
     radius: float | None = None
     cuts: tuple[str, ...] = ()
+    fold: str | None = None
 
 
 @dataclass(frozen=True)
@@ -347,8 +349,12 @@ def _faults(fname: str, raw: dict[str, Any], column: Column) -> tuple[FaultSpec,
         cuts = r.get("cuts", list, [])
         if not all(isinstance(c, str) for c in cuts):
             raise r.fail("cuts", f"must be a list of fault names, got {cuts!r}")
+        fold = r.get("fold", str, None, choices=FAULT_FOLDS)
+        if fold is not None and det is None:
+            raise r.fail("fold", "a fault-bend fold needs the fault's detachment (its lower "
+                                 "flat): set detachment")
         out.append(FaultSpec(r.get("name", str), dip, det,
-                             r.get("radius", float, None, positive=True), tuple(cuts)))
+                             r.get("radius", float, None, positive=True), tuple(cuts), fold))
     names = [f.name for f in out]
     dup = sorted({n for n in names if names.count(n) > 1})
     if dup:

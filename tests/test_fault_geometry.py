@@ -432,3 +432,16 @@ def test_sample_thrust_separations_as_built():
     below = [v for t, v in fs.separations_m.items() if t not in fs.projected]
     assert len(below) == 3
     assert all(v == pytest.approx(slip, rel=0.15) for v in below), below
+
+
+def test_fault_bend_fold_needs_a_detachment(tmp_path):
+    from mapsection.errors import ProjectFileError
+    from mapsection.project import load_project
+
+    p = _sample_project(tmp_path, '[[fault]]\nname = "Kelmby Thrust"\nfold = "fault-bend"\n')
+    with pytest.raises(ProjectFileError, match=r"^project.toml: fault\[0\].fold: a fault-bend "
+                                               "fold needs the fault's detachment"):
+        load_project(p)
+    p = _sample_project(tmp_path, '[[fault]]\nname = "Kelmby Thrust"\nfold = "bent"\n')
+    with pytest.raises(ProjectFileError, match=r"fault\[0\].fold: must be one of fault-bend"):
+        load_project(p)

@@ -40,13 +40,14 @@ class FaultSetting:
     """What the project says of one fault (see :class:`mapsection.project.FaultSpec`):
     its true ``dip`` where the map has none, its ``detachment`` (elevation in metres, or
     the unit along whose base the flat runs), the ``radius`` of the bend into the flat,
-    and the faults it ``cuts``."""
+    the faults it ``cuts`` and its hanging wall's ``fold`` model (``"fault-bend"``)."""
 
     name: str
     dip: float | None = None
     detachment: float | str | None = None
     radius: float | None = None
     cuts: tuple[str, ...] = ()
+    fold: str | None = None
 
 
 @dataclass(frozen=True)
@@ -128,9 +129,10 @@ class FaultLine:
 
 def fault_settings(specs: Sequence) -> dict[str, FaultSetting]:
     """The project's ``[[fault]]`` tables (objects with name, dip, detachment, radius,
-    cuts) by name."""
+    cuts, fold) by name."""
     return {s.name: FaultSetting(s.name, s.dip, s.detachment, getattr(s, "radius", None),
-                                 tuple(getattr(s, "cuts", ()))) for s in specs}
+                                 tuple(getattr(s, "cuts", ())), getattr(s, "fold", None))
+            for s in specs}
 
 
 def fault_lines(faults, frame: SectionFrame, ground: Callable, fault_depth: float | None,
