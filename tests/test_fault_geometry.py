@@ -20,6 +20,7 @@ import shapely
 from shapely.geometry import LineString, Point
 
 from mapsection.construct import build_draft
+from mapsection.construct.faults import FaultSetting
 from mapsection.dips import ProjectedDips
 from mapsection.errors import ConstructionError
 from mapsection.geology import Contact, FaultCrossing, SurfaceGeology, UnitInterval
@@ -311,8 +312,67 @@ def test_crossing_faults_need_an_order():
         build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet)
     draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
                         faults=[FaultSpec("East", cuts=("West",))])
-    assert any("fault East cuts fault West" in e for e in draft.log)
-    assert Point(5000.0, -1732.05).distance(draft.faults[0].geometry) < 1.0
+    assert any("fault East cuts fault West" in e and "order from the project" in e
+               for e in draft.log)
+    # the older fault ends where the younger cuts it (analytic crossing: x = 5000,
+    # z = -1000 tan 60°)
+    west, east = draft.faults
+    assert west.geometry.coords[-1] == pytest.approx((5000.0, -1000 * np.sqrt(3)), abs=1e-6)
+    assert np.asarray(east.geometry.coords)[-1, 1] < -2000.0
+    assert max(horizon_errors(draft, [fl, fl, fl]).values()) < 1e-6
+    # below the crossing, the ground beyond the older fault belongs to the younger fault's
+    # footwall (block 2)
+    from mapsection.construct.faults import block_polygons, fault_lines, order_crossings
+    from mapsection.construct.frame import SectionFrame
+    from mapsection.notes import Notes
+
+    frame = SectionFrame(L, -3000.0, 3000.0, 0.0, 0.0)
+    lines = fault_lines(geo.faults, frame, lambda x: np.zeros_like(np.asarray(x, float)),
+                        None, Notes(quiet), settings={"East": FaultSetting("East",
+                                                                           cuts=("West",))})
+    lines, older = order_crossings(lines, frame, Notes(quiet))
+    regions = [r.intersection(frame.box) for r in block_polygons(lines, frame, older)]
+    wedge = Point(5000.0, -2400.0)  # right of East, left of West's continuation
+    assert [r.covers(wedge) for r in regions] == [False, False, True]
+    assert [r.covers(Point(2000.0, -2400.0)) for r in regions] == [True, False, False]
+    assert [r.covers(Point(5000.0, -500.0)) for r in regions] == [False, True, False]
+    assert sum(r.area for r in regions) == pytest.approx(frame.box.area)
+
+
+def test_order_from_the_map_a_trace_ending_against_another_is_older():
+    # Two fault traces on a map: "West" is drawn ending on "East" (it is the older).
+    import geopandas as gpd
+    import pyproj
+    from shapely.geometry import box
+
+    from mapsection.geology import surface_geology
+    from mapsection.mapdata import MapData
+
+    crs = "EPSG:32611"
+    faults = gpd.GeoDataFrame(
+        {"name": ["West", "East"], "dip": [60.0, 60.0], "dip_direction": [90.0, 270.0],
+         "sense": ["normal", "normal"]},
+        geometry=[LineString([(4000, -3000), (4000, 300)]),
+                  LineString([(6000, -3000), (6000, 3000)])], crs=crs)
+    # West's north end swings onto East
+    faults.loc[0, "geometry"] = LineString([(4000, -3000), (4000, 300), (6000, 600)])
+    units = gpd.GeoDataFrame({"unit": ["Ant"]}, geometry=[box(-100, -4000, 10100, 4000)],
+                             crs=crs)
+    fields = {"dip": "dip", "dip_direction": "dip_direction", "sense": "sense",
+              "name": "name"}
+    md = MapData(units, "unit", faults, fields, pyproj.CRS(crs))
+    line = SectionLine(np.array([[0.0, 0.0], [L, 0.0]]), pyproj.CRS(crs), "G")
+    geo = surface_geology(md, line)
+    west, east = geo.faults
+    assert west.ends_against == ("East",) and east.ends_against == ()
+    # the section then knows the order without a [[fault]] table
+    fl = Field(_normal(-10.0), 300.0 + 2000.0 * _normal(-10.0)[0])
+    _, prof, g2, dips = section_data([fl, fl, fl], [
+        FaultCrossing(4000.0, 0.0, 60.0, 90.0, 60.0, "normal", "West", ("East",)),
+        FaultCrossing(6000.0, 0.0, 60.0, 270.0, -60.0, "normal", "East")])
+    draft = build_draft(line, prof, g2, dips, COLUMN, depth=3000.0, warn=quiet)
+    assert any("fault East cuts fault West" in e and "order from the map" in e
+               for e in draft.log)
 
 
 # --- the project's [[fault]] tables and a map without fault dips (sample area) ----------

@@ -48,11 +48,11 @@ from .constraints import contact_constraints, interval_constraints
 from .faults import (
     FaultLine,
     block_polygons,
-    check_crossings,
     detach_on_horizon,
     fault_lines,
     fault_settings,
     ground_ranges,
+    order_crossings,
 )
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
@@ -162,8 +162,8 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     models = _fit_blocks(blocks, chosen.fit, setting, geology, column, faults)
     faults = _detach_on_units(faults, models, column, frame, notes)
     _fault_bend_folds(faults, blocks, models, setting, profile)
-    check_crossings(faults, frame, notes)
-    regions = [p.intersection(frame.box) for p in block_polygons(faults, frame)]
+    faults, older = order_crossings(faults, frame, notes)
+    regions = [p.intersection(frame.box) for p in block_polygons(faults, frame, older)]
 
     draft = Draft(name=label, method=method, line=line, profile=profile, geology=geology,
                   dips=dips, column=column, ve=float(ve), base_elevation_m=frame.base,

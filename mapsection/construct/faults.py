@@ -18,6 +18,7 @@ thrust sense).
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
@@ -198,9 +199,7 @@ def _dip_from_project(f: FaultCrossing, st: FaultSetting | None, default: float 
                                  azimuth(f.distance_m)))
     notes.log(f"fault {label}: no dip on the map: {dip:g}° from {src} (apparent dip "
               f"{app:.1f}° in the section)")
-    f = FaultCrossing(f.distance_m, f.elevation_m, float(dip), f.dip_direction, app, f.sense,
-                      f.name)
-    return f, app
+    return dataclasses.replace(f, dip=float(dip), apparent_dip=app), app
 
 
 def _detach_at_elevation(fl: FaultLine, zd: float, frame: SectionFrame,
@@ -308,51 +307,97 @@ def _left_half(fl: FaultLine, reach: float) -> Polygon:
     return big.difference(hw)
 
 
-def block_polygons(faults: list[FaultLine], frame: SectionFrame) -> list:
-    """Each block's region of the frame between its bounding faults (block 0 first).
-    Where faults cross at depth the overlap goes to the block listed first."""
+def block_polygons(faults: list[FaultLine], frame: SectionFrame,
+                   older: frozenset[int] = frozenset()) -> list:
+    """Each block's region of the frame between its bounding faults (block 0 first): the
+    region on its own side of every fault. Where an older fault (index in ``older``) is cut
+    by a younger one, the ground beyond the cut goes by the younger faults alone."""
     reach = frame.size
     box = shapely.box(-reach, frame.base - reach, frame.length + reach, frame.top + reach)
     lefts = [_left_half(f, 10 * reach) for f in faults]
-    out, taken = [], None
-    for k in range(len(faults) + 1):
+
+    def region(k: int, skip: frozenset[int]):
         poly = box
-        if k > 0:
-            poly = poly.difference(lefts[k - 1])
-        if k < len(faults):
-            poly = poly.intersection(lefts[k])
-        if taken is not None:
-            poly = poly.difference(taken)
-        out.append(poly)
-        taken = poly if taken is None else taken.union(poly)
+        for j, left in enumerate(lefts):
+            if j in skip:
+                continue
+            poly = poly.intersection(left) if k <= j else poly.difference(left)
+        return poly
+
+    out = [region(k, frozenset()) for k in range(len(faults) + 1)]
+    if older:
+        # Pieces on no block's side of every fault lie beyond an older fault's cut end: each
+        # goes to the block on its side of every younger fault (tested at one inner point:
+        # overlays along the shared fault lines are not exact).
+        rest = box.difference(shapely.union_all(out))
+        for piece in shapely.get_parts(rest):
+            if piece.area <= 1e-6:
+                continue
+            q = piece.point_on_surface()
+            for k in range(len(out)):
+                if all(lefts[j].covers(q) == (k <= j) for j in range(len(lefts))
+                       if j not in older):
+                    out[k] = out[k].union(piece)
+                    break
     return out
 
 
-def check_crossings(faults: list[FaultLine], frame: SectionFrame, notes: Notes) -> None:
-    """Faults whose traces cross inside the section need an order (which cuts which): a
-    ``[[fault]]`` ``cuts`` list, else a one-line error naming both."""
+def order_crossings(faults: list[FaultLine], frame: SectionFrame,
+                    notes: Notes) -> tuple[list[FaultLine], frozenset[int]]:
+    """Faults whose traces cross inside the section need an order (which cuts which):
+    from the map (a trace that ends against another is the older) or from a ``[[fault]]``
+    ``cuts`` list, else a one-line error naming both. The older fault's trace ends where
+    the younger cuts it. Returns the faults and the indices of the older ones."""
+    out = list(faults)
+    older: set[int] = set()
     for i in range(len(faults)):
         for j in range(i + 1, len(faults)):
             a, b = faults[i], faults[j]
             x = a.trace(frame).intersection(b.trace(frame))
             if x.is_empty:
                 continue
-            p = shapely.get_coordinates(x)[0]
-            if min(np.hypot(*(p - a.p0)), np.hypot(*(p - b.p0))) < 1.0:
+            pts = shapely.get_coordinates(x)
+            pts = pts[np.minimum(np.hypot(*(pts - a.p0).T), np.hypot(*(pts - b.p0).T)) >= 1.0]
+            if not len(pts):
                 continue  # meeting at the ground point: one trace ends against the other
+            p = pts[0]
             na, nb = a.crossing.name, b.crossing.name
-            order = None
+            ends_a = getattr(a.crossing, "ends_against", ())
+            ends_b = getattr(b.crossing, "ends_against", ())
+            order, source = None, ""
             if a.setting is not None and nb in a.setting.cuts:
-                order = (a, b)
+                order, source = (j, i), "the project"
             elif b.setting is not None and na in b.setting.cuts:
-                order = (b, a)
+                order, source = (i, j), "the project"
+            elif nb is not None and nb in ends_a:
+                order, source = (i, j), "the map: its trace ends against the other"
+            elif na is not None and na in ends_b:
+                order, source = (j, i), "the map: its trace ends against the other"
             if order is None:
                 raise ConstructionError(
                     f"faults {a.name} and {b.name} cross in the section at {p[0]:.0f} m, "
                     f"elevation {p[1]:.0f} m, and no order is given: add cuts = [\"...\"] "
                     "to the [[fault]] table of the younger one")
-            notes.log(f"fault {order[0].name} cuts fault {order[1].name} at {p[0]:.0f} m, "
-                      f"elevation {p[1]:.0f} m (order from the project)")
+            old, young = order
+            older.add(old)
+            out[old] = _cut_at(out[old], p)
+            notes.log(f"fault {faults[young].name} cuts fault {faults[old].name} at "
+                      f"{p[0]:.0f} m, elevation {p[1]:.0f} m (order from {source}); the older "
+                      "fault's trace ends there")
+    return out, frozenset(older)
+
+
+def _cut_at(fl: FaultLine, p: np.ndarray) -> FaultLine:
+    """``fl`` with its path ending at ``p`` (a point on it)."""
+    line = LineString(fl.path)
+    s = line.project(Point(p))
+    c = fl.path
+    along = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(c, axis=0).T))])
+    keep = int(np.searchsorted(along, s - 1e-9))
+    path = np.vstack([c[:keep], p])
+    if len(path) < 2:
+        return fl
+    return dataclasses.replace(fl, path=path, kinds=fl.kinds[: len(path) - 1])
 
 
 def separations(fl: FaultLine, left_lines: dict[str, list[LineString]],
@@ -393,5 +438,5 @@ def ground_ranges(faults: list[FaultLine], length: float) -> list[tuple[float, f
     return list(zip(cuts[:-1], cuts[1:], strict=True))
 
 
-__all__ = ["FaultLine", "FaultSetting", "block_polygons", "check_crossings", "detach_on_horizon",
-           "fault_lines", "fault_settings", "ground_ranges", "separations"]
+__all__ = ["FaultLine", "FaultSetting", "block_polygons", "detach_on_horizon", "fault_lines",
+           "fault_settings", "ground_ranges", "order_crossings", "separations"]
