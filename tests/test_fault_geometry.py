@@ -505,3 +505,22 @@ def test_fault_bend_fold_needs_a_detachment(tmp_path):
     p = _sample_project(tmp_path, '[[fault]]\nname = "Kelmby Thrust"\nfold = "bent"\n')
     with pytest.raises(ProjectFileError, match=r"fault\[0\].fold: must be one of fault-bend"):
         load_project(p)
+
+
+def test_section_gpkg_keeps_one_line_per_fault_with_its_segments(tmp_path):
+    # self-consistency: written and read back (GeoPackage via pyogrio)
+    import pyogrio
+
+    from mapsection.export import read_section_gpkg, write_section_gpkg
+
+    _, (line, prof, geo, dips) = thrust_data()
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                        faults=[FaultSpec("Flat Thrust", detachment=-1500.0)])
+    path = write_section_gpkg(draft, tmp_path / "section.gpkg")
+    frame = pyogrio.read_dataframe(path, layer="faults")
+    assert list(frame["name"]) == ["Flat Thrust"]
+    back = read_section_gpkg(path, COLUMN, line)
+    (f,) = back.faults
+    assert [k for k, _ in f.segments] == ["ramp", "flat"]
+    assert [m for _, m in f.segments] == pytest.approx([m for _, m in draft.faults[0].segments],
+                                                       abs=1e-3)

@@ -175,7 +175,7 @@ def fault_lines(faults, frame: SectionFrame, ground: Callable, fault_depth: floa
         fl = FaultLine(f, np.array([f.distance_m, z], float), down, bottom, setting=st)
         if st is not None and isinstance(st.detachment, float):
             fl = _detach_at_elevation(fl, st.detachment, frame, notes)
-        elif fault_depth is not None and st is not None and st.detachment is not None:
+        if fault_depth is not None and st is not None and st.detachment is not None:
             notes.log(f"fault {label}: fault_depth not used: the fault soles into its detachment")
         out.append(fl)
     return out
