@@ -204,10 +204,11 @@ def fault_crossings(map_data: MapData, line: SectionLine, profile: Profile | Non
     elev = _elevation(profile, dist)
     sense = map_data.fault_value("sense", rows)
     name = map_data.fault_value("name", rows)
+    all_names = map_data.fault_value("name", np.arange(len(map_data.fault_geoms)))
     return tuple(
         FaultCrossing(float(dist[k]), float(elev[k]), float(dip[k]), float(ddir[k]),
                       float(app[k]), _text(sense[k]), _text(name[k]),
-                      _ends_against(map_data, int(rows[k])))
+                      _ends_against(map_data, int(rows[k]), all_names))
         for k in range(len(dist))
     )
 
@@ -215,9 +216,9 @@ def fault_crossings(map_data: MapData, line: SectionLine, profile: Profile | Non
 _ENDS_TOL = 1.0  # metres: a trace ending this close to another was drawn against it
 
 
-def _ends_against(map_data: MapData, row: int) -> tuple[str, ...]:
-    """Names of the other faults the trace of fault ``row`` ends against on the map."""
-    names = map_data.fault_value("name", np.arange(len(map_data.fault_geoms)))
+def _ends_against(map_data: MapData, row: int, names: np.ndarray) -> tuple[str, ...]:
+    """Names (of ``names``, one per mapped fault) of the other faults the trace of fault
+    ``row`` ends against on the map."""
     own = _text(names[row])
     ends = []
     for part in shapely.get_parts(map_data.fault_geoms[row]):

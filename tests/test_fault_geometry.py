@@ -524,3 +524,29 @@ def test_section_gpkg_keeps_one_line_per_fault_with_its_segments(tmp_path):
     assert [k for k, _ in f.segments] == ["ramp", "flat"]
     assert [m for _, m in f.segments] == pytest.approx([m for _, m in draft.faults[0].segments],
                                                        abs=1e-3)
+
+
+def test_faults_layer_with_an_empty_dip_reads(tmp_path):
+    # a dip left empty on one fault is allowed (taken from the project at construction);
+    # a wrong dip is still refused, naming the feature
+    import geopandas as gpd
+    from shapely.geometry import box
+
+    from mapsection.errors import MapLayerError
+    from mapsection.readers.map import read_map
+
+    path = tmp_path / "map.gpkg"
+    gpd.GeoDataFrame({"unit": ["Ant"]}, geometry=[box(0, 0, 10, 10)],
+                     crs="EPSG:32611").to_file(path, layer="units", driver="GPKG")
+    faults = gpd.GeoDataFrame({"name": ["F1", "F2"], "dip": [45.0, None],
+                               "dip_direction": [90.0, 270.0]},
+                              geometry=[LineString([(2, 0), (2, 10)]),
+                                        LineString([(8, 0), (8, 10)])], crs="EPSG:32611")
+    faults.to_file(path, layer="faults", driver="GPKG")
+    md = read_map(path, "units", "unit", "faults", warn=quiet)
+    dips = np.asarray(md.fault_value("dip", np.arange(2)), float)
+    assert dips[0] == 45.0 and np.isnan(dips[1])
+    faults.loc[1, "dip"] = 120.0
+    faults.to_file(path, layer="faults", driver="GPKG")
+    with pytest.raises(MapLayerError, match="feature 2: dip = 120, expected a number 0-90"):
+        read_map(path, "units", "unit", "faults", warn=quiet)

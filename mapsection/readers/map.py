@@ -156,7 +156,9 @@ def _check_fault_values(df: gpd.GeoDataFrame, roles: dict[str, str], where: str)
         bad = np.flatnonzero(~missing & (~np.isfinite(vals) | (vals < lo) | (vals > hi)))
         if len(bad):
             i = int(bad[0])
-            raise MapLayerError(f"{where}: feature {i + 1}: {col} = {df[col].iloc[i]!r}, "
+            v = df[col].iloc[i]
+            shown = f"{float(v):g}" if isinstance(v, float | np.floating) else repr(v)
+            raise MapLayerError(f"{where}: feature {i + 1}: {col} = {shown}, "
                                 f"expected a number {lo:g}-{hi:g}")
         df[col] = vals
 
