@@ -155,3 +155,35 @@ def test_noisy_dips_model_against_dip_domains():
             assert crest[0] == pytest.approx(hinge_x[1], abs=0.01 * model.ramp_length_m)
     assert np.all(np.abs(seps["fault-bend"] / SLIP - 1) < 0.05)
     assert np.max(np.abs(seps[None] / SLIP - 1)) > np.max(np.abs(seps["fault-bend"] / SLIP - 1))
+
+
+def test_mirrored_section_gives_the_same_fold():
+    # the same data with the line run the other way (transport toward decreasing
+    # distance): the same slip, the crest hinge mirrored (self-consistency)
+    import dataclasses
+
+    model, hinge_x, *_ = model_and_data()
+    _, _, xf, line, prof, geo, dips = model_and_data(_crest_gap(hinge_x))
+    flip = (lambda x: L - np.asarray(x, float))  # noqa: E731
+    prof2 = Profile(flip(prof.distance)[::-1], flip(prof.distance)[::-1],
+                    np.zeros(len(prof.distance)), np.asarray(prof.z)[::-1], line, None, 5.0)
+    contacts = tuple(Contact(float(flip(c.distance_m)), c.elevation_m, c.unit_after,
+                             c.unit_before) for c in reversed(geo.contacts))
+    (f,) = geo.faults
+    fault = dataclasses.replace(f, distance_m=float(flip(f.distance_m)),
+                                apparent_dip=-f.apparent_dip, dip_direction=90.0)
+    geo2 = SurfaceGeology(geo.intervals, contacts, (fault,))
+    o = np.argsort(flip(dips.distance_m))
+    dips2 = ProjectedDips(dips.id[o], flip(dips.x)[o], dips.y[o], flip(dips.distance_m)[o],
+                          dips.offset_m[o], dips.elevation_m[o], dips.strike[o], dips.dip[o],
+                          -dips.apparent_dip[o], dips.poorly_constrained[o],
+                          dips.overturned[o])
+    draft = build_draft(line, prof2, geo2, dips2, COLUMN, depth=2500.0, warn=lambda m: None,
+                        faults=[FaultSpec("Bend Thrust", detachment=FLAT, fold="fault-bend")])
+    m = re.search(r"ramp: slip (\d+) m", "\n".join(draft.log))
+    assert m and float(m.group(1)) == pytest.approx(SLIP, rel=0.02)
+    crest = [a.ground_distance_m for a in draft.axial_surfaces
+             if abs(a.dip_left) < 0.5 and abs(a.dip_right - RAMP_DIP) < 0.5]
+    assert crest and crest[0] == pytest.approx(L - hinge_x[1], abs=0.01 * model.ramp_length_m)
+    for sep in draft.faults[0].separations.values():
+        assert sep == pytest.approx(SLIP, rel=0.02)
