@@ -550,3 +550,26 @@ def test_faults_layer_with_an_empty_dip_reads(tmp_path):
     faults.to_file(path, layer="faults", driver="GPKG")
     with pytest.raises(MapLayerError, match="feature 2: dip = 120, expected a number 0-90"):
         read_map(path, "units", "unit", "faults", warn=quiet)
+
+
+def test_imbricate_thrusts_share_their_detachment():
+    # Two thrusts soling into one detachment: the hinterland one's flat runs along the
+    # foreland one's (a branch, not a crossing: no order needed). Each block a layer-cake
+    # moved rigidly up its ramp (analytic): horizons exact, separations = the slips.
+    r = np.radians(30.0)
+    up = np.array([np.cos(r), np.sin(r)])
+    fw = Field(_normal(-10.0), 1000.0 + 7000.0 * _normal(-10.0)[0])
+    mid = fw.moved(400.0 * up)
+    hw = mid.moved(300.0 * up)
+    faults = [FaultCrossing(3500.0, 0.0, 30.0, 270.0, -30.0, "thrust", "Back"),
+              FaultCrossing(7000.0, 0.0, 30.0, 270.0, -30.0, "thrust", "Front")]
+    line, prof, geo, dips = section_data([hw, mid, fw], faults)
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                        faults=[FaultSpec("Back", detachment=-1500.0),
+                                FaultSpec("Front", detachment=-1500.0)])
+    assert any("faults Back and Front share their detachment from 0 to 902 m" in e
+               for e in draft.log)  # bend at 3500 - 1500 / tan 30° = 902 m
+    assert max(horizon_errors(draft, [hw, mid, fw]).values()) < 1e-6
+    back, front = draft.faults
+    assert set(np.round(list(back.separations.values()), 6)) == {300.0}
+    assert set(np.round(list(front.separations.values()), 6)) == {400.0}

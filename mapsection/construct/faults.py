@@ -356,7 +356,19 @@ def order_crossings(faults: list[FaultLine], frame: SectionFrame,
             x = a.trace(frame).intersection(b.trace(frame))
             if x.is_empty:
                 continue
+            parts = shapely.get_parts(x)
+            shared = [g for g in parts if g.geom_type == "LineString" and g.length > 1.0]
+            if shared:  # one runs into the other's flat: they share the detachment
+                span = shapely.get_coordinates(shapely.union_all(shared))[:, 0]
+                notes.log(f"faults {a.name} and {b.name} share their detachment from "
+                          f"{span.min():.0f} to {span.max():.0f} m")
+            x = shapely.union_all([g for g in parts if g.geom_type == "Point"])
+            if x.is_empty:
+                continue
             pts = shapely.get_coordinates(x)
+            if shared:  # the branch point, where one joins the other's flat
+                on = shapely.union_all(shared)
+                pts = pts[[on.distance(Point(q)) > 1.0 for q in pts]]
             pts = pts[np.minimum(np.hypot(*(pts - a.p0).T), np.hypot(*(pts - b.p0).T)) >= 1.0]
             if not len(pts):
                 continue  # meeting at the ground point: one trace ends against the other
