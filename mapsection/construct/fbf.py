@@ -154,7 +154,9 @@ def fit_fault_bend(block: FaultBlock, fl: FaultLine, ground: Callable, frame: Se
     if len(fl.kinds) < 2 or fl.kinds[0] != "ramp" or fl.kinds[1] != "flat":
         return None
     geo = _Geometry(fl, ground, frame, ground_line)
-    cons = block.constraints.subset(block.constraints.is_contact)
+    cons = block.constraints  # map contacts (weight 1), else the block's fallbacks
+    real = np.asarray(cons.is_contact, bool)
+    w = np.asarray(cons.weight, float)
     dips = block.dips
     p = np.column_stack([cons.distance, cons.elevation])
     sig_c = max(0.05 * scale, 1.0)
@@ -166,11 +168,12 @@ def fit_fault_bend(block: FaultBlock, fl: FaultLine, ground: Callable, frame: Se
         _, n = unit_vectors(phis)
         k = np.searchsorted(hinges, cons.distance)
         pred = rel[k] - np.einsum("ij,ij->i", n[k], p)
-        c0 = float(np.mean(cons.depth - pred)) if len(cons) else 0.0
+        c0 = float(np.sum(w * (cons.depth - pred)) / np.sum(w)) if len(cons) else 0.0
         res_c = pred + c0 - cons.depth
         kd = np.searchsorted(hinges, dips.distance)
         res_d = wrap180(dips.phi - np.asarray(phis)[kd])
-        cost = float(np.sum((res_c / sig_c) ** 2) + np.sum(dips.weight * (res_d / sig_d) ** 2))
+        cost = float(np.sum(w * (res_c / sig_c) ** 2)
+                     + np.sum(dips.weight * (res_d / sig_d) ** 2))
         return cost, phis, hinges, rel + c0, res_c, res_d
 
     top = geo.ground_length
@@ -198,9 +201,9 @@ def fit_fault_bend(block: FaultBlock, fl: FaultLine, ground: Callable, frame: Se
     model = KinkModel(domains, c, np.asarray(hinges, float), hz, frame, notes)
     fit = FaultBendFit(slip, bool(resolved), geo.hinge_a,
                        geo.hinge_crest(slip) if resolved else float("nan"),
-                       float(np.sqrt(np.mean(res_c ** 2))) if len(res_c) else float("nan"),
+                       float(np.sqrt(np.mean(res_c[real] ** 2))) if real.any() else float("nan"),
                        float(np.sqrt(np.mean(res_d ** 2))) if len(res_d) else float("nan"),
-                       int(len(cons)), int(len(dips)), geo.ramp_dip)
+                       int(real.sum()), int(len(dips)), geo.ramp_dip)
     return model, domains, fit
 
 
