@@ -403,22 +403,27 @@ def test_detachment_unit_not_in_the_column(tmp_path):
         load_project(p)
 
 
-def test_fault_table_matching_no_mapped_fault_exits_2(tmp_path):
+@pytest.mark.parametrize("table, message", [
+    ('name = "Kelby Thrust"\ndip = 30.0', "project.toml: fault[0].name: 'Kelby Thrust' matches "
+                                          "no fault of layer 'faults' (fault names: Kelmby "
+                                          "Thrust)"),
+    ('name = "Kelmby Thrust"\ndetachment = 5000.0', "fault Kelmby Thrust: detachment at 5000 m "
+                                                    "lies above the fault's surface trace"),
+])
+def test_fault_bad_input_exits_2_with_one_line(tmp_path, table, message):
     import os
     import subprocess
     import sys
 
-    p = _sample_project(tmp_path, '[[fault]]\nname = "Kelby Thrust"\ndip = 30.0\n')
+    p = _sample_project(tmp_path, f"[[fault]]\n{table}\n")
     env = {**os.environ, "PYTHONPATH": str(Path(__file__).resolve().parents[1])}
     res = subprocess.run([sys.executable, "-c", "from mapsection.cli.main import cli; cli()",
-                          "build", str(p), "-o",
-                          str(tmp_path / "out")], capture_output=True, text=True, env=env,
-                         timeout=300)
+                          "build", str(p), "-o", str(tmp_path / "out"), "--section", "A"],
+                         capture_output=True, text=True, env=env, timeout=300)
     assert res.returncode == 2, res.stderr
     lines = res.stderr.strip().splitlines()
-    assert len(lines) == 1 and "Traceback" not in res.stderr
-    assert lines[0].startswith("mapsection: error: project.toml: fault[0].name: 'Kelby Thrust' "
-                               "matches no fault of layer 'faults' (fault names: Kelmby Thrust)")
+    assert len(lines) == 1 and "Traceback" not in res.stderr, res.stderr
+    assert lines[0].startswith(f"mapsection: error: {message}"), lines[0]
     assert not (tmp_path / "out").exists()
 
 
