@@ -138,6 +138,22 @@ def pool_across_faults(blocks: list[FaultBlock], faults: list[FaultLine], tolera
     (a bed error ``e`` moves a cutoff by ``e / sin(cutoff angle)`` along the fault), and a
     mean of more readings is the better estimate. Fault-bend folds and listric faults
     rotate the beds: faults with a detachment keep their blocks' own dips.
+
+    Parameters
+    ----------
+    blocks
+        The fault blocks, block 0 first (as :func:`split_blocks` makes them).
+    faults
+        The faults between them (fault ``k`` between blocks ``k`` and ``k + 1``).
+    tolerance
+        Degrees: the section's dip tolerance.
+    notes
+        The section's notes (each pooling is logged).
+
+    Returns
+    -------
+    list of FaultBlock
+        The blocks, with the domains either side of such faults at their pooled dip.
     """
     out = list(blocks)
     for k, fl in enumerate(faults):

@@ -140,14 +140,48 @@ def fault_lines(faults, frame: SectionFrame, ground: Callable, fault_depth: floa
                 notes: Notes, *, settings: dict[str, FaultSetting] | None = None,
                 default_fault_dip: float | None = None, azimuth: Callable | None = None
                 ) -> list[FaultLine]:
-    """The faults the line crosses within the section, as ramps at their apparent dip from
-    the ground down to ``fault_depth`` below the lowest ground (a detachment given by
-    elevation bends the ramp into its flat; one given by a unit is placed later by
-    :func:`detach_on_horizon`).
+    """The faults the line crosses within the section, as ramps at their apparent dip.
 
-    A fault with no dip on the map takes its ``[[fault]]`` dip, else
-    ``default_fault_dip`` (said in the log); ``azimuth`` (the section line's azimuth at a
-    distance) turns that true dip into the apparent dip."""
+    Parameters
+    ----------
+    faults
+        The fault crossings of the line (:class:`~mapsection.geology.FaultCrossing`).
+    frame, ground
+        The section's frame and the ground elevation at distances.
+    fault_depth
+        Metres below the lowest ground to a straight fault's lower end (default: the
+        section's base); not used by a fault with a detachment.
+    notes
+        The section's notes (log and warnings).
+    settings
+        The project's ``[[fault]]`` tables by name (:func:`fault_settings`). A detachment
+        given by elevation bends the ramp into its flat here; one given by a unit is
+        placed later by :func:`detach_on_horizon`, once the footwall is constructed.
+    default_fault_dip
+        True dip (degrees) of a fault with no dip on the map nor in its ``[[fault]]``
+        (said in the log); with neither, the fault is refused.
+    azimuth
+        The section line's azimuth at a distance: turns a true dip taken from the
+        project into the apparent dip in the section.
+
+    Returns
+    -------
+    list of FaultLine
+        Sorted by distance along the line.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from mapsection.construct.frame import SectionFrame
+    >>> from mapsection.geology import FaultCrossing
+    >>> from mapsection.notes import Notes
+    >>> f = FaultCrossing(500.0, 0.0, 30.0, 270.0, -30.0, "thrust", "T")
+    >>> frame = SectionFrame(1000.0, -1000.0, 500.0, 0.0, 0.0)
+    >>> (fl,) = fault_lines([f], frame, lambda x: 0.0 * np.asarray(x), None, Notes(),
+    ...                     settings={"T": FaultSetting("T", detachment=-300.0)})
+    >>> fl.kinds, [round(float(v)) for v in fl.path[1]]
+    (('ramp', 'flat'), [-20, -300])
+    """
     settings = settings or {}
     bottom = frame.base if fault_depth is None else max(frame.base, frame.ground_min - fault_depth)
     out = []
@@ -264,7 +298,26 @@ def detach_on_horizon(fl: FaultLine, horizon: np.ndarray, unit: str, frame: Sect
                       notes: Notes) -> FaultLine:
     """Bend ``fl`` into a flat along the footwall ``horizon`` (the base of ``unit``): the
     ramp runs down to where it meets that horizon, the flat follows the horizon on under
-    the hanging wall."""
+    the hanging wall.
+
+    Parameters
+    ----------
+    fl
+        The fault (a straight ramp from its ground point).
+    horizon
+        The footwall's base of ``unit`` as an (n, 2) path in section space.
+    unit
+        The detachment unit's name (for the log and the errors).
+    frame, notes
+        The section's frame and notes.
+
+    Returns
+    -------
+    FaultLine
+        The fault with its ramp, bend (when it has a ``radius``) and flat; a
+        :class:`~mapsection.errors.ConstructionError` when the ramp never meets the
+        horizon below the ground (the detachment lies above the fault's trace).
+    """
     reach = frame.size * 4
     ray = LineString([fl.p0, fl.p0 + reach * fl.down])
     hz = LineString(horizon)
