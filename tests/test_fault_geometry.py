@@ -578,3 +578,23 @@ def test_imbricate_thrusts_share_their_detachment():
     back, front = draft.faults
     assert set(np.round(list(back.separations.values()), 6)) == {300.0}
     assert set(np.round(list(front.separations.values()), 6)) == {400.0}
+
+
+def test_limb_cut_by_a_planar_fault_is_drawn_at_the_mean_of_both_sides():
+    # Dips of -9° (hanging wall) and -11° (footwall), five each, within the 5° tolerance
+    # (the tool's default): one limb, drawn at their mean -10° on both sides (arithmetic);
+    # with a detachment each block keeps its own dip.
+    import dataclasses
+
+    _, (line, prof, geo, dips) = thrust_data()
+    app = np.where(dips.distance_m < X_T, -9.0, -11.0)
+    dips = dataclasses.replace(dips, apparent_dip=app, dip=np.abs(app))
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet)
+    by_block = {d.block: d.dip for d in draft.domains}
+    assert by_block[0] == pytest.approx(-10.0) and by_block[1] == pytest.approx(-10.0)
+    assert any("one limb cut by the fault, drawn at -10.0° from its 10 dips" in e
+               for e in draft.log)
+    draft = build_draft(line, prof, geo, dips, COLUMN, depth=3000.0, warn=quiet,
+                        faults=[FaultSpec("Flat Thrust", detachment=-1500.0)])
+    by_block = {d.block: d.dip for d in draft.domains}
+    assert by_block[0] == pytest.approx(-9.0) and by_block[1] == pytest.approx(-11.0)
