@@ -148,7 +148,8 @@ def _build_section(project: Project, spec: SectionSpec, warn: Warn | None,
             name=spec.name, method=spec.method, ve=spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
             default_dip=spec.default_dip, keep_readings=project.keep_readings,
-            corridor_contacts=beside, plunge_axis=plunge_axis, warn=warn)
+            corridor_contacts=beside, plunge_axis=plunge_axis, faults=project.faults,
+            default_fault_dip=project.default_fault_dip, warn=warn)
 
 
 def write_build_log(draft: Draft, path: Path, warnings: list[str] = (),

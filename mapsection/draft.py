@@ -46,6 +46,9 @@ class FaultTrace:
     # top_of -> separation of that horizon across the fault, metres measured
     # along the fault trace (positive: hanging wall up, i.e. reverse sense).
     separations: dict[str, float] = field(default_factory=dict)
+    # The trace's segments from the ground down, as (kind, length along the fault in
+    # metres): kind "ramp", "bend" (a listric curve) or "flat" (a detachment).
+    segments: tuple[tuple[str, float], ...] = ()
 
 
 @dataclass(frozen=True)

@@ -23,8 +23,11 @@ without one (a GIS shows them as a plain metric drawing). Layers:
   ``elevation_m``, ``x``, ``y``;
 - ``horizons``: LineStrings, fields ``top_of`` (the unit whose top it is),
   ``above_ground`` (true for the projected part above the ground), ``block``;
-- ``faults``: LineStrings, fields ``name``, ``dip``, ``dip_direction``,
-  ``apparent_dip``, ``sense``, ``separations`` (JSON text: top_of -> metres);
+- ``faults``: LineStrings, one per fault, fields ``name``, ``dip``, ``dip_direction``,
+  ``apparent_dip``, ``sense``, ``separations`` (JSON text: top_of -> metres),
+  ``segments`` (JSON text: the trace's segments from the ground down as
+  ``[kind, metres along the fault]``, kind ``ramp``, ``bend`` or ``flat``; optional on
+  reading);
 - ``units``: polygons, fields ``unit``, ``block``;
 - ``axial_surfaces``: LineStrings, fields ``ground_distance_m``, ``dip_left``,
   ``dip_right``;
@@ -88,7 +91,7 @@ LAYERS: dict[str, tuple[str, tuple[str, ...]]] = {
                        "overturned", "distance_m", "elevation_m", "x", "y")),
     "horizons": ("LineString", ("top_of", "above_ground", "block")),
     "faults": ("LineString", ("name", "dip", "dip_direction", "apparent_dip", "sense",
-                              "separations")),
+                              "separations", "segments")),
     "units": ("Polygon", ("unit", "block")),
     "axial_surfaces": ("LineString", ("ground_distance_m", "dip_left", "dip_right")),
     "dip_domains": ("LineString", ("start_m", "end_m", "dip", "n_dips", "block")),
@@ -183,7 +186,9 @@ def section_frames(draft: Draft) -> dict[str, gpd.GeoDataFrame]:
          "dip_direction": [f.dip_direction for f in fs],
          "apparent_dip": [f.apparent_dip for f in fs], "sense": [f.sense for f in fs],
          "separations": [json.dumps({k: float(v) for k, v in f.separations.items()})
-                         for f in fs]},
+                         for f in fs],
+         "segments": [json.dumps([[k, round(float(m), 3)] for k, m in f.segments])
+                      for f in fs]},
         [f.geometry for f in fs])
     us = draft.units
     frames["units"] = _frame(
@@ -412,6 +417,10 @@ def write_section_3d(draft: Draft, path: str | os.PathLike) -> Path:
 
 
 # --- reading back --------------------------------------------------------------------
+# Fields written since a later version: files without them still read.
+_OPTIONAL_FIELDS = {("faults", "segments")}
+
+
 def _read_layer(path: Path, layer: str, layers: set[str], required: bool = True):
     if layer not in layers:
         if required:
@@ -420,7 +429,7 @@ def _read_layer(path: Path, layer: str, layers: set[str], required: bool = True)
         return None
     frame = pyogrio.read_dataframe(path, layer=layer)
     need = LAYERS.get(layer, (None, ()))[1]
-    missing = [f for f in need if f not in frame.columns]
+    missing = [f for f in need if f not in frame.columns and (layer, f) not in _OPTIONAL_FIELDS]
     if missing:
         raise MapLayerError(f"{path}: layer {layer!r} has no field {missing[0]!r}")
     return frame
@@ -502,10 +511,16 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
         except (ValueError, TypeError, AttributeError):
             raise MapLayerError(f"{path}: layer 'faults' row {i}: separations is not JSON "
                                 f"{{unit: metres}}") from None
+        text = _text(getattr(row, "segments", None))
+        try:
+            segs = tuple((str(k), float(m)) for k, m in json.loads(text)) if text else ()
+        except (ValueError, TypeError):
+            raise MapLayerError(f"{path}: layer 'faults' row {i}: segments is not JSON "
+                                "[[kind, metres], ...]") from None
         for ls in _lines(path, "faults", row.geometry, i):
             faults.append(FaultTrace(_text(row.name) or f"fault {i + 1}", ls, _num(row.dip),
                                      _num(row.dip_direction), _num(row.apparent_dip),
-                                     _text(row.sense), seps))
+                                     _text(row.sense), seps, segs))
 
     u_frame = _read_layer(path, "units", layers)
     units = []

@@ -60,6 +60,8 @@ class FaultCrossing:
     apparent_dip: float  # signed, section plane; positive descends toward increasing distance
     sense: str | None = None  # e.g. "thrust", "reverse", "normal", as mapped
     name: str | None = None
+    # Names of the mapped faults this fault's trace ends against (it is the older).
+    ends_against: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -204,11 +206,35 @@ def fault_crossings(map_data: MapData, line: SectionLine, profile: Profile | Non
     elev = _elevation(profile, dist)
     sense = map_data.fault_value("sense", rows)
     name = map_data.fault_value("name", rows)
+    all_names = map_data.fault_value("name", np.arange(len(map_data.fault_geoms)))
     return tuple(
         FaultCrossing(float(dist[k]), float(elev[k]), float(dip[k]), float(ddir[k]),
-                      float(app[k]), _text(sense[k]), _text(name[k]))
+                      float(app[k]), _text(sense[k]), _text(name[k]),
+                      _ends_against(map_data, int(rows[k]), all_names))
         for k in range(len(dist))
     )
+
+
+_ENDS_TOL = 1.0  # metres: a trace ending this close to another was drawn against it
+
+
+def _ends_against(map_data: MapData, row: int, names: np.ndarray) -> tuple[str, ...]:
+    """Names (of ``names``, one per mapped fault) of the other faults the trace of fault
+    ``row`` ends against on the map."""
+    own = _text(names[row])
+    ends = []
+    for part in shapely.get_parts(map_data.fault_geoms[row]):
+        c = shapely.get_coordinates(part)
+        if len(c):
+            ends.extend([c[0], c[-1]])
+    out = set()
+    for p in ends:
+        pt = shapely.points(p)
+        for j in map_data.fault_tree.query(pt, predicate="dwithin", distance=_ENDS_TOL):
+            other = _text(names[j])
+            if int(j) != row and other is not None and other != own:
+                out.add(other)
+    return tuple(sorted(out))
 
 
 def _text(value) -> str | None:

@@ -20,8 +20,10 @@ from shapely import STRtree
 
 from .errors import MapLayerError
 
-REQUIRED_FAULT_FIELDS = ("dip", "dip_direction")
-OPTIONAL_FAULT_FIELDS = ("sense", "name")
+REQUIRED_FAULT_FIELDS = ("dip_direction",)
+# A missing dip (no field, or an empty value) is taken from the project ([[fault]] dip or
+# [map] default_fault_dip) at construction: real maps rarely store fault dips.
+OPTIONAL_FAULT_FIELDS = ("dip", "sense", "name")
 _POLYGONS = ("Polygon", "MultiPolygon")
 _LINES = ("LineString", "MultiLineString")
 
@@ -78,6 +80,13 @@ class MapData:
     def unit_list(self) -> list[str]:
         """The distinct unit names on the map, sorted."""
         return sorted({u for u in self.unit_names if u is not None})
+
+    def fault_names(self) -> list[str]:
+        """The distinct fault names on the map (empty without a faults layer or name field)."""
+        if self.faults is None:
+            return []
+        vals = self.fault_value("name", np.arange(len(self.faults)))
+        return sorted({str(v) for v in vals if not _missing(v)})
 
     def fault_value(self, role: str, rows: np.ndarray) -> np.ndarray:
         """Attribute ``role`` (dip, dip_direction, sense, name) of fault rows; None if absent."""

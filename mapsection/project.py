@@ -38,11 +38,13 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
 
 # Every key each table accepts (anything else is reported as an unknown key).
 TOP_KEYS = frozenset({"crs", "title", "dem", "map", "attitudes", "stratigraphy", "section",
-                      "checks"})
+                      "fault", "checks"})
 DEM_KEYS = frozenset({"path", "vertical_unit"})
 FAULT_ROLES = ("dip", "dip_direction", "sense", "name")
-MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer",
+MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer", "default_fault_dip",
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
+FAULT_KEYS = frozenset({"name", "dip", "detachment", "radius", "cuts", "fold"})
+FAULT_FOLDS = ("fault-bend",)
 ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
                   "attitude")
 ATTITUDE_KEYS = frozenset({"path", "layer", "convention", "keep_readings",
@@ -60,6 +62,25 @@ class SectionSpec(SectionSettings):
     name: str
     line: tuple[tuple[float, float], ...]
     fold_axis: tuple[float, float] | None = None  # (trend, plunge): given, not computed
+
+
+@dataclass(frozen=True)
+class FaultSpec:
+    """What the project says of one mapped fault (a ``[[fault]]`` table), matched by the
+    faults layer's name field.
+
+    ``dip``: true dip (degrees) where the layer has none; ``detachment``: the elevation
+    (m) of the flat the fault soles into, or the name of the footwall unit along whose
+    base the flat runs; ``radius``: metres, the curvature of the bend into the flat
+    (listric; default a sharp bend); ``cuts``: the faults this one cuts (it is younger).
+    """
+
+    name: str
+    dip: float | None = None
+    detachment: float | str | None = None
+    radius: float | None = None
+    cuts: tuple[str, ...] = ()
+    fold: str | None = None
 
 
 @dataclass(frozen=True)
@@ -81,6 +102,8 @@ class Project:
     attitude_fields: dict[str, str] = field(default_factory=dict)
     dem_vertical_unit: str | None = None  # [dem] vertical_unit: used when the DEM does not say
     keep_readings: tuple[str, ...] = ()  # ids kept in the dip domains whatever they say
+    faults: tuple[FaultSpec, ...] = ()
+    default_fault_dip: float | None = None  # true dip for faults with no dip anywhere
 
     def section(self, name: str | SectionSpec) -> SectionSpec:
         """The section named ``name`` (a :class:`SectionSpec` is returned as it is): the one
@@ -271,6 +294,9 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
 
     check_section_names(fname, names)  # each section needs a folder of its own
 
+    faults = _faults(fname, raw, column)
+    default_fault_dip = mp.number("default_fault_dip", None)
+
     checks = top.sub("checks", required=False)
     thresholds = Thresholds()
     if checks is not None:
@@ -300,6 +326,8 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
         dem_vertical_unit=(dem.choice("vertical_unit", "metre")
                            if "vertical_unit" in dem.table else None),
         keep_readings=_keep_readings(att),
+        faults=faults,
+        default_fault_dip=default_fault_dip,
     )
 
 
@@ -312,6 +340,42 @@ def _keep_readings(att: _Reader) -> tuple[str, ...]:
             raise att.fail(f"keep_readings[{j}]", f"must be a reading id (text or integer), "
                                                    f"got {v!r}")
     return tuple(str(v) for v in ids)
+
+
+def _faults(fname: str, raw: dict[str, Any], column: Column) -> tuple[FaultSpec, ...]:
+    """The optional ``[[fault]]`` tables."""
+    if "fault" not in raw:
+        return ()
+    out = []
+    for r in _array_of_tables(fname, raw, "fault", "list of faults", FAULT_KEYS):
+        dip = r.number("dip", None)
+        det = r.get("detachment", (float, int, str), None)
+        if isinstance(det, int | float):
+            det = float(det)
+            if not math.isfinite(det):
+                raise r.fail("detachment", f"must be a finite elevation, got {det!r}")
+        elif isinstance(det, str) and det not in column.names:
+            raise r.fail("detachment", f"unit {det!r} is not in the stratigraphic column "
+                                       f"({', '.join(column.names)})")
+        cuts = r.get("cuts", list, [])
+        if not all(isinstance(c, str) for c in cuts):
+            raise r.fail("cuts", f"must be a list of fault names, got {cuts!r}")
+        fold = r.get("fold", str, None)
+        if fold is not None and fold not in FAULT_FOLDS:
+            raise r.fail("fold", f"must be one of {', '.join(FAULT_FOLDS)}, got {fold!r}")
+        if fold is not None and det is None:
+            raise r.fail("fold", "a fault-bend fold needs the fault's detachment (its lower "
+                                 "flat): set detachment")
+        out.append(FaultSpec(r.text("name"), dip, det,
+                             r.number("radius", None), tuple(cuts), fold))
+    names = [f.name for f in out]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise ProjectFileError(f"{fname}: fault: two [[fault]] tables share the name {dup[0]!r}")
+    for i, f in enumerate(out):
+        if f.name in f.cuts:
+            raise ProjectFileError(f"{fname}: fault[{i}].cuts: a fault cannot cut itself")
+    return tuple(out)
 
 
 def _section(r: _Reader, warn: Warn) -> SectionSpec:

@@ -32,7 +32,7 @@ from shapely import STRtree
 from ._messages import Warn
 from ._messages import default_warn as _default_warn
 from .crs import same_crs
-from .errors import LineError, ParameterError
+from .errors import LineError, ParameterError, ProjectFileError
 from .geology import SurfaceGeology, surface_geology
 from .line import SectionLine
 from .mapdata import MapData, check_map_on_dem
@@ -118,6 +118,7 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
                         project.faults_layer, project.fault_fields, crs=project.crs, warn=warn)
     project.column.check_map_units(
         map_data.unit_list, source=f"{project.map_path.name}: layer {project.units_layer!r}")
+    check_fault_tables(project, map_data)
     attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
                                layer=project.attitudes_layer, fields=project.attitude_fields,
                                crs=project.crs, warn=warn)
@@ -129,6 +130,20 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
         dem.close()
         raise
     return ProjectInputs(map_data, attitudes, dem)
+
+
+def check_fault_tables(project: Project, map_data: MapData) -> None:
+    """Every ``[[fault]]`` table must name a fault of the map's faults layer."""
+    if not project.faults:
+        return
+    known = map_data.fault_names()
+    for i, f in enumerate(project.faults):
+        if f.name not in known:
+            where = (f"layer {project.faults_layer!r}" if project.faults_layer
+                     else "the map (no faults_layer in [map])")
+            names = ", ".join(known) if known else "none"
+            raise ProjectFileError(f"{project.path.name}: fault[{i}].name: {f.name!r} matches "
+                                   f"no fault of {where} (fault names: {names})")
 
 
 class SectionSession:

@@ -108,6 +108,10 @@ RANGES: dict[str, Range] = {
                          label="default apparent dip"),
     "pin": Range(0.0, 1_000_000.0, "m along the section", label="pin line"),
     "loose": Range(0.0, 1_000_000.0, "m along the section", label="loose line"),
+    # [map] and [[fault]]
+    "default_fault_dip": Range(0.0, 90.0, "degrees", lo_ok=False, label="default fault dip"),
+    "dip": Range(0.0, 90.0, "degrees", lo_ok=False, label="fault dip"),
+    "radius": Range(0.0, 1_000_000.0, "m", lo_ok=False, label="bend radius"),
     # [[stratigraphy]]
     "thickness": Range(0.0, 20_000.0, "m", lo_ok=False, label="thickness"),
     # profile sample spacing (mapsection profile --step, SectionSession step)

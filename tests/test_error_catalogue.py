@@ -327,7 +327,10 @@ CASES = [
          ("geology.gpkg", "'units'", "'formation'")),
     Case("M05", M, edited('faults_layer = "faults"', 'faults_layer = "fault"'),
          ("geology.gpkg", "'fault'")),
-    Case("M06", M, map_variant(_fault_no_dip), ("geology2.gpkg", "'faults'", "'dip'")),
+    # real maps rarely store fault dips: a missing dip field is taken from the project
+    # ([[fault]] dip or [map] default_fault_dip, issue 11); with neither, the keys are named
+    Case("M06", M, map_variant(_fault_no_dip), ("Kelmby Thrust", "[[fault]]",
+                                                "default_fault_dip")),
     Case("M07", M, map_variant(_fault_dip), ("geology2.gpkg", "'faults'", "feature 1")),
     Case("M08", M, map_variant(_units_as_lines), ("geology2.gpkg", "'units'")),
     Case("M09", M, map_variant(_units_empty), ("geology2.gpkg", "'units'")),

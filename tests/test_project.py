@@ -181,7 +181,7 @@ def test_documented_keys_are_exactly_the_accepted_keys():
 
     accepted = {"": pj.TOP_KEYS, "dem": pj.DEM_KEYS, "map": pj.MAP_KEYS,
                 "attitudes": pj.ATTITUDE_KEYS, "stratigraphy": pj.UNIT_KEYS,
-                "section": pj.SECTION_KEYS, "checks": pj.CHECK_KEYS}
+                "section": pj.SECTION_KEYS, "fault": pj.FAULT_KEYS, "checks": pj.CHECK_KEYS}
     documented = _documented_keys()
     assert set(documented) == set(accepted)
     for table, keys in accepted.items():

@@ -23,7 +23,7 @@ the horizon ``top_of = "base of <oldest unit>"``.
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -42,6 +42,7 @@ from .blocks import (
     FaultBlock,
     drop_fault_contacts,
     neighbour_constraint,
+    pool_across_faults,
     section_dips,
     split_blocks,
 )
@@ -52,7 +53,15 @@ from .constraints import (
     interval_constraints,
 )
 from .domains import group_domains
-from .faults import block_polygons, fault_lines, ground_ranges
+from .faults import (
+    FaultLine,
+    block_polygons,
+    detach_on_horizon,
+    fault_lines,
+    fault_settings,
+    ground_ranges,
+    order_crossings,
+)
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
 from .outliers import screen_dips
@@ -75,6 +84,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                 keep_readings: Iterable[str] = (),
                 corridor_contacts: CorridorContacts | None = None,
                 plunge_axis: tuple[float, float] | None = None,
+                faults: Sequence = (), default_fault_dip: float | None = None,
                 warn: Warn | None = None) -> Draft:
     """Construct the draft section along ``line``.
 
@@ -114,6 +124,11 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
         unit has its apparent thickness ``t / cos θ`` in the section, θ the angle
         between the axis and the section plane's normal
         (:mod:`mapsection.construct.plunge`).
+    faults
+        The project's ``[[fault]]`` tables (:class:`mapsection.project.FaultSpec`:
+        name, dip, detachment, radius, cuts), matched to the mapped faults by name.
+    default_fault_dip
+        True dip (degrees) of a fault with no dip on the map nor in its ``[[fault]]``.
     warn
         Called with each warning (default: a :class:`~mapsection._messages.MapsectionWarning`).
 
@@ -144,7 +159,8 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                                    method=method, ve=ve, dip_tolerance=dip_tolerance,
                                    depth=depth, fault_depth=fault_depth,
                                    default_dip=default_dip, keep_readings=keep_readings,
-                                   corridor_contacts=corridor_contacts, warn=warn)
+                                   corridor_contacts=corridor_contacts, faults=faults,
+                                   default_fault_dip=default_fault_dip, warn=warn)
         Notes(warn).warn(f"section {name or line.name}: the line (or a segment of it) runs "
                          f"within {MIN_ANGLE_DEG:g}° of the fold axis' trend "
                          f"({plunge_axis[0]:g}°) or turns across it: no down-plunge view; "
@@ -158,9 +174,10 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
 
     ground = ground_function(profile)
     frame = _frame(profile, ground, float(line.length), column, depth)
-    faults = fault_lines(geology.faults, frame, ground, fault_depth, notes)
+    settings = fault_settings(faults)
+    faults = fault_lines(geology.faults, frame, ground, fault_depth, notes, settings=settings,
+                         default_fault_dip=default_fault_dip, azimuth=line.azimuth_at)
     ranges = ground_ranges(faults, frame.length)
-    regions = [p.intersection(frame.box) for p in block_polygons(faults, frame)]
 
     contacts = drop_fault_contacts(contact_constraints(geology, column, ground, notes), faults,
                                    profile, notes)
@@ -189,10 +206,15 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                           prepare=lambda ds: chosen.prepare(ds, ground),
                           group=lambda ds: chosen.group(ds, dip_tolerance),
                           default_dip=default_dip, ground=ground, notes=notes)
+    blocks = pool_across_faults(blocks, faults, dip_tolerance, notes)
     setting = BlockSetting(frame, ground, float(column.thicknesses.min()),
                            np.append(column.depth_to_top, column.total_thickness),
                            [*column.names, base_name(column)], dip_tolerance, notes)
     models = _fit_blocks(blocks, chosen.fit, setting, geology, column, faults)
+    faults = _detach_on_units(faults, models, column, frame, notes)
+    _fault_bend_folds(faults, blocks, models, setting, profile)
+    faults, older = order_crossings(faults, frame, notes)
+    regions = [p.intersection(frame.box) for p in block_polygons(faults, frame, older)]
 
     draft = Draft(name=label, method=method, line=line, profile=profile, geology=geology,
                   dips=dips, column=column, ve=float(ve), base_elevation_m=frame.base,
@@ -325,6 +347,63 @@ def _log_corridor(beside: Constraints, on_line: Constraints, ranges: list[tuple[
         else:
             notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m) has no map contact on the line: "
                       f"positioned by contacts from the corridor: {what}")
+def _fault_bend_folds(faults: list[FaultLine], blocks: list[FaultBlock],
+                      models: list[BlockModel], st: BlockSetting, profile: Profile) -> None:
+    """Hanging walls drafted as Suppe (1983) fault-bend folds where the project asks for it
+    (``fold = "fault-bend"``); ``blocks`` and ``models`` are updated in place. A hanging
+    wall that does not fit the model (dips or contacts off by more than the tolerances)
+    keeps its own construction, with a warning."""
+    from shapely.geometry import LineString
+
+    from .fbf import fit_fault_bend, log_fit
+
+    wanted = [(k, fl) for k, fl in enumerate(faults)
+              if fl.setting is not None and fl.setting.fold == "fault-bend"]
+    if not wanted:
+        return
+    d, z = np.asarray(profile.distance, float), np.asarray(profile.z, float)
+    ok = np.isfinite(d) & np.isfinite(z)
+    far = st.frame.size * 4
+    ground_line = LineString(np.column_stack([np.concatenate([[d[ok][0] - far], d[ok],
+                                                              [d[ok][-1] + far]]),
+                                              np.concatenate([[z[ok][0]], z[ok],
+                                                              [z[ok][-1]]])]))
+    for k, fl in wanted:
+        hw = k + 1 if fl.hanging_wall_right else k
+        out = fit_fault_bend(blocks[hw], fl, st.ground, st.frame, ground_line, st.scale,
+                             st.tolerance, st.notes)
+        if out is None:
+            st.notes.warn(f"fault {fl.name}: no ramp and flat in the section: the hanging wall "
+                          "is drafted from its own dips, not as a fault-bend fold")
+            continue
+        model, domains, fit = out
+        bad = (np.isfinite(fit.dip_rms) and fit.dip_rms > st.tolerance) or (
+            np.isfinite(fit.contact_rms) and fit.contact_rms > 0.15 * st.scale)
+        if bad:
+            st.notes.warn(f"fault {fl.name}: the hanging wall does not fit a fault-bend fold "
+                          f"(dip RMS {fit.dip_rms:.1f}°, contact RMS {fit.contact_rms:.0f} m): "
+                          "drafted from its own dips")
+            continue
+        models[hw] = model
+        blocks[hw] = dataclasses.replace(blocks[hw], domains=tuple(domains))
+        log_fit(fit, blocks[hw], fl.name, st.notes)
+
+
+def _detach_on_units(faults: list[FaultLine], models: list[BlockModel], column: Column,
+                     frame: SectionFrame, notes: Notes) -> list[FaultLine]:
+    """Faults whose detachment is a unit: the flat runs along the base of that unit in
+    the footwall block, as that block was constructed."""
+    out = []
+    for k, fl in enumerate(faults):
+        st = fl.setting
+        if st is not None and isinstance(st.detachment, str):
+            fw = k if fl.hanging_wall_right else k + 1
+            level = float(column.depth_to_top[column.index(st.detachment)]
+                          + column.thicknesses[column.index(st.detachment)])
+            fl = detach_on_horizon(fl, models[fw].horizon_path(level), st.detachment, frame,
+                                   notes)
+        out.append(fl)
+    return out
 
 
 def _check_options(method, ve, tol, depth, fault_depth, default_dip) -> None:

@@ -121,8 +121,9 @@ def add_faults(draft: Draft, faults: list[FaultLine], block_lines: list[dict],
     for k, fl in enumerate(faults):
         seps = separations(fl, block_lines[k], block_lines[k + 1], reach)
         f = fl.crossing
+        segs = tuple((kind, float(g.length)) for kind, g in fl.segments(frame))
         draft.faults.append(FaultTrace(f.name or f"fault {k + 1}", fl.trace(frame), f.dip,
-                                       f.dip_direction, f.apparent_dip, f.sense, seps))
+                                       f.dip_direction, f.apparent_dip, f.sense, seps, segs))
         if seps:
             side = "right" if fl.hanging_wall_right else "left"
             vals = ", ".join(f"{t} {v:.0f} m" for t, v in seps.items())

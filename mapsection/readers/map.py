@@ -202,9 +202,13 @@ def _warn_overlaps(units: gpd.GeoDataFrame, unit_field: str, where: str, warn: W
 
 def _check_fault_values(df: gpd.GeoDataFrame, roles: dict[str, str], where: str) -> None:
     for role, lo, hi in (("dip", 0.0, 90.0), ("dip_direction", 0.0, 360.0)):
+        if role not in roles:
+            continue
         col = roles[role]
         vals = pd.to_numeric(df[col], errors="coerce").to_numpy(float)
-        bad = np.flatnonzero(~np.isfinite(vals) | (vals < lo) | (vals > hi))
+        # an empty dip is allowed (the project's dip is used); a wrong one is not
+        missing = df[col].isna().to_numpy() if role == "dip" else np.zeros(len(vals), bool)
+        bad = np.flatnonzero(~missing & (~np.isfinite(vals) | (vals < lo) | (vals > hi)))
         if len(bad):
             i = int(bad[0])
             raise MapLayerError(f"{where}: feature {i + 1}: {col} = {_shown(df[col].iloc[i])}, "
