@@ -65,6 +65,36 @@ def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
             timings[name] = timings.get(name, 0.0) + time.perf_counter() - t0
 
 
+def sheet_options(spec: SectionSpec, draft: Draft, *, sheet: str | None = None,
+                  scale: float | str | None = None, portrait: bool | None = None):
+    """The figure's sheet of a section: the options given (``build --sheet/--scale/
+    --portrait``) over the section's own settings; the constrained depth as an elevation."""
+    from .render.sheet import DEFAULT_SHEET, SheetOptions
+
+    z_c = None
+    if spec.constrained_depth is not None:
+        zg = draft.profile.z[np.isfinite(draft.profile.z)]
+        z_c = (float(zg.min()) if zg.size else 0.0) - spec.constrained_depth
+    return SheetOptions(sheet or spec.sheet or DEFAULT_SHEET,
+                        spec.portrait if portrait is None else portrait,
+                        scale if scale is not None else spec.scale, z_c)
+
+
+def title_info(project: Project, dem_crs: Any = None):
+    """The title block's project title, sources (file names and the project's ``source``
+    texts) and the DEM's vertical datum."""
+    from .render.sheet import TitleInfo, vertical_datum
+
+    rows = []
+    for key, what, path in (("dem", "DEM", project.dem_path), ("map", "Map", project.map_path),
+                            ("attitudes", "Attitudes", project.attitudes_path)):
+        text = Path(path).name
+        if project.sources.get(key):
+            text += f" ({project.sources[key]})"
+        rows.append((what, text))
+    return TitleInfo(project.title, tuple(rows), vertical_datum(dem_crs))
+
+
 def _check_options(method: str | None, ve: float | None) -> None:
     if method is not None and method not in METHODS:
         raise ParameterError(f"method {method!r}: must be one of {', '.join(METHODS)}")
@@ -126,8 +156,13 @@ def write_build_log(draft: Draft, path: Path, warnings: list[str] = ()) -> Path:
 def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None, *,
                           extra_layers: dict | None = None, warnings: list[str] = (),
                           timings: dict[str, float] | None = None,
-                          log: bool = True) -> list[Path]:
-    """Write section.gpkg, section_3d.gpkg, section.png/.svg/.pdf and (``log``) build.log."""
+                          log: bool = True, sheet: Any = None, info: Any = None,
+                          checks: CheckReport | None = None) -> list[Path]:
+    """Write section.gpkg, section_3d.gpkg, section.png/.svg/.pdf and (``log``) build.log.
+
+    ``sheet`` (:class:`mapsection.render.sheet.SheetOptions`), ``info`` (``TitleInfo``)
+    and ``checks`` (the section's check report: FAIL mark and misfits) go to the figure.
+    """
     from .export import write_section_3d, write_section_gpkg
     from .render.section import draw_section
 
@@ -138,15 +173,16 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
         out = [write_section_gpkg(draft, folder / "section.gpkg", extra_layers),
                write_section_3d(draft, folder / "section_3d.gpkg")]
     with _stage(timings, "figures"):
-        out += draw_section(draft, folder / "section", map_data)
+        out += draw_section(draft, folder / "section", map_data, sheet=sheet, info=info,
+                            checks=checks)
     if log:
         out.append(write_build_log(draft, folder / "build.log", list(warnings)))
     return out
 
 
 def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpec,
-                  warn: Warn | None = None, timings: dict[str, float] | None = None
-                  ) -> CheckReport:
+                  warn: Warn | None = None, timings: dict[str, float] | None = None,
+                  report: CheckReport | None = None) -> CheckReport:
     """CHECKS CALL POINT: run the balance checks and write their outputs into ``folder``.
 
     The outputs are those of :func:`mapsection.render.section_folder.write_check_outputs`
@@ -157,9 +193,10 @@ def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpe
     from .checks import run_checks
     from .render.section_folder import write_check_outputs
 
-    with _stage(timings, "checks"):
-        report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
-                            warn=warn)
+    if report is None:
+        with _stage(timings, "checks"):
+            report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
+                                warn=warn)
     with _stage(timings, "check figures"):
         write_check_outputs(folder, draft, report)
     return report
@@ -169,7 +206,9 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                   method: str | None = None, ve: float | None = None, warn: Warn | None = None,
                   timings: dict[str, float] | None = None,
                   workers: int | None = None,
-                  summaries: dict[Path, KeyFigures] | None = None) -> list[Path]:
+                  summaries: dict[Path, KeyFigures] | None = None,
+                  sheet: str | None = None, scale: float | str | None = None,
+                  portrait: bool | None = None) -> list[Path]:
     """Build every section of a project (or the one named) into ``outdir/<name>/``.
 
     Returns the section folders written. ``timings``, when given, receives the wall
@@ -180,9 +219,16 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     every section has been written, so a failure leaves OUTDIR as it was.
 
     ``summaries``, when given, receives the key figures of each section's checks
-    (:func:`mapsection.checks.key_figures`) by section folder.
+    (:func:`mapsection.checks.key_figures`) by section folder. ``sheet``, ``scale`` and
+    ``portrait`` override each section's figure settings (see :func:`sheet_options`).
     """
+    from .render.sheet import parse_scale, sheet_name
+
     _check_options(method, ve)
+    if sheet is not None:
+        sheet = sheet_name(sheet)
+    if scale is not None:
+        scale = parse_scale(scale)
     warn = warn or _default_warn
     with _stage(timings, "load"):
         project = load_project(project_path)
@@ -200,6 +246,7 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
         with contextlib.ExitStack() as folders_in_progress:
             with _stage(timings, "load"):
                 inputs = load_inputs(project, warn)
+                info = title_info(project, getattr(inputs.dem, "crs", None))
             jobs = []
             try:
                 for spec in specs:
@@ -209,7 +256,9 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                                           inputs=inputs, timings=timings)
                     target = outdir / _folder_name(spec.name)
                     tmp = folders_in_progress.enter_context(atomic_dir(target))
-                    jobs.append(_Job(tmp, draft, project, spec, said, target))
+                    jobs.append(_Job(tmp, draft, project, spec, said, target,
+                                     sheet_options(spec, draft, sheet=sheet, scale=scale,
+                                                   portrait=portrait), info))
             finally:
                 # Closed before any fork: no GDAL file handle is shared with a worker.
                 inputs.close()
@@ -239,6 +288,8 @@ class _Job:
     spec: SectionSpec
     said: list[str]
     target: Path
+    sheet: Any = None
+    info: Any = None
 
 
 def _named(message: str, name: str) -> str:
@@ -258,12 +309,17 @@ def _section_warn(warn: Warn, name: str, said: list[str]) -> Warn:
 def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], KeyFigures]:
     """Write one section's folder; returns everything said, the stage timings and the key
     figures of the checks."""
-    from .checks import key_figures
+    from .checks import key_figures, run_checks
 
     said = list(job.said)
     timings: dict[str, float] = {}
-    write_section_outputs(job.draft, job.folder, map_data, timings=timings, log=False)
-    report = _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings)
+    # The checks first: the figure marks a failed draft and its misfits.
+    with _stage(timings, "checks"):
+        report = run_checks(job.draft, job.project.thresholds, pin=job.spec.pin,
+                            loose=job.spec.loose, warn=said.append)
+    write_section_outputs(job.draft, job.folder, map_data, timings=timings, log=False,
+                          sheet=job.sheet, info=job.info, checks=report)
+    _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings, report)
     write_build_log(job.draft, job.folder / "build.log", said)  # with the checks' notes too
     return said, timings, key_figures(report)
 

@@ -30,16 +30,17 @@ CONVENTIONS = ("rhr", "dip-direction", "quadrant")
 # Every key each table accepts (anything else is reported as an unknown key).
 TOP_KEYS = frozenset({"crs", "title", "dem", "map", "attitudes", "stratigraphy", "section",
                       "checks"})
-DEM_KEYS = frozenset({"path"})
+DEM_KEYS = frozenset({"path", "source"})
 FAULT_ROLES = ("dip", "dip_direction", "sense", "name")
-MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer",
+MAP_KEYS = frozenset({"path", "source", "units_layer", "unit_field", "faults_layer",
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
 ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
                   "attitude")
-ATTITUDE_KEYS = frozenset({"path", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
-UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology"})
+ATTITUDE_KEYS = frozenset({"path", "source", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
+UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology", "label"})
 SECTION_KEYS = frozenset({"name", "line", "corridor", "method", "projection", "ve",
-                          "dip_tolerance", "depth", "fault_depth", "default_dip", "pin", "loose"})
+                          "dip_tolerance", "depth", "fault_depth", "default_dip", "pin", "loose",
+                          "sheet", "scale", "portrait", "constrained_depth"})
 
 
 @dataclass(frozen=True)
@@ -96,6 +97,10 @@ class SectionSpec:
     default_dip: float | None = None  # used, with a warning, where no dips fall in the corridor
     pin: float | None = None  # distance of the pin line along the section, metres
     loose: float | None = None
+    sheet: str | None = None  # the figure's sheet (A4 ... A0, letter, tabloid); None: A3
+    scale: float | None = None  # the figure's scale denominator; None: the largest that fits
+    portrait: bool = False
+    constrained_depth: float | None = None  # m below the lowest ground; dashed below
 
 
 @dataclass(frozen=True)
@@ -115,6 +120,8 @@ class Project:
     thresholds: Thresholds = field(default_factory=Thresholds)
     fault_fields: dict[str, str] = field(default_factory=dict)
     attitude_fields: dict[str, str] = field(default_factory=dict)
+    title: str = ""
+    sources: dict[str, str] = field(default_factory=dict)  # "dem"/"map"/"attitudes" -> text
 
     def section(self, name: str | SectionSpec) -> SectionSpec:
         """The section named ``name`` (a :class:`SectionSpec` is returned as it is): the one
@@ -255,6 +262,7 @@ def load_project(path: str | os.PathLike) -> Project:
                 colour,
                 r.get("age", str, None),
                 r.get("lithology", str, None),
+                r.get("label", str, None),
             )
         )
     try:
@@ -295,6 +303,10 @@ def load_project(path: str | os.PathLike) -> Project:
         thresholds=thresholds,
         fault_fields=fault_fields,
         attitude_fields=attitude_fields,
+        title=top.get("title", str, ""),
+        sources={k: r.get("source", str) for k, r in (("dem", dem), ("map", mp),
+                                                     ("attitudes", att))
+                 if "source" in r.table},
     )
 
 
@@ -337,7 +349,29 @@ def _section(r: _Reader) -> SectionSpec:
         default_dip=default_dip,
         pin=opt("pin"),
         loose=opt("loose"),
+        **_sheet_keys(r),
     )
+
+
+def _sheet_keys(r: _Reader) -> dict[str, Any]:
+    """The figure's sheet, scale, orientation and constrained depth of a [[section]]."""
+    from .errors import ParameterError
+    from .render.sheet import parse_scale, sheet_name
+
+    out: dict[str, Any] = {"portrait": r.get("portrait", bool, False),
+                           "constrained_depth": r.get("constrained_depth", float, None,
+                                                      positive=True)}
+    sheet = r.get("sheet", str, None)
+    try:
+        out["sheet"] = sheet_name(sheet) if sheet is not None else None
+    except ParameterError as exc:
+        raise r.fail("sheet", str(exc).split(": ", 1)[1]) from None
+    scale = r.get("scale", (str, int, float), None)
+    try:
+        out["scale"] = parse_scale(scale) if scale is not None else None
+    except ParameterError as exc:
+        raise r.fail("scale", str(exc).split(": ", 1)[1]) from None
+    return out
 
 
 def _is_hex_colour(text: str) -> bool:

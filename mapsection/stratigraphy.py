@@ -25,6 +25,7 @@ class Unit:
     colour: str | None = None  # "#rrggbb"
     age: str | None = None  # chronostratigraphic name, e.g. "Jurassic" (for chart colours)
     lithology: str | None = None
+    label: str | None = None  # a short label for the figures, e.g. "Jo"
 
 
 @dataclass(frozen=True)
