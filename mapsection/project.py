@@ -36,7 +36,8 @@ MAP_KEYS = frozenset({"path", "source", "units_layer", "unit_field", "faults_lay
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
 ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
                   "attitude")
-ATTITUDE_KEYS = frozenset({"path", "source", "layer", "convention", *(f"{r}_field" for r in ATTITUDE_ROLES)})
+ATTITUDE_KEYS = frozenset({"path", "source", "layer", "convention",
+                           *(f"{r}_field" for r in ATTITUDE_ROLES)})
 UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology", "label"})
 SECTION_KEYS = frozenset({"name", "line", "corridor", "method", "projection", "ve",
                           "dip_tolerance", "depth", "fault_depth", "default_dip", "pin", "loose",
