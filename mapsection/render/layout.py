@@ -134,7 +134,7 @@ def sheet_layout(width: float, height: float, xspan: float, yspan: float, ve: fl
     tb_h = (title_rows + 1) * TITLE_PITCH
     lg_h = legend_height(legend_rows)
     if portrait:
-        strip = max(tb_h, lg_h, 0.28 * height)
+        strip = max(tb_h, 0.25 * height)
         side = (MARGIN, MARGIN, width - 2 * MARGIN, strip)
         room = (MARGIN + AXIS_LEFT, MARGIN + strip + GAP + BELOW,
                 width - 2 * MARGIN - AXIS_LEFT - AXIS_RIGHT, 0.0)
@@ -158,26 +158,31 @@ def sheet_layout(width: float, height: float, xspan: float, yspan: float, ve: fl
     axes = (room[0], top - ENDS - ah, aw, ah)
     below = axes[1] - 13 * MM
     sl, sb, sw_, sh = side
+    floor = sb + sh + GAP if portrait else MARGIN  # the lowest the legend may reach under
+    under = below - 8 * MM - floor  # the room left under the section's scale row
+    legend_under = under >= lg_h
+    if legend_under:
+        legend = (MARGIN, floor, room[0] + room[2] + AXIS_RIGHT - MARGIN, under)
     if portrait:
-        # Under the section: location map, legend, title block side by side.
-        tb_w = min(110 * MM, 0.4 * sw_)
-        inset_s = min(sh, 0.35 * sw_)
+        # Under the section: location map, (legend,) title block side by side.
+        tb_w = min(110 * MM, 0.45 * sw_)
+        tb = (sl + sw_ - tb_w, sb, tb_w, tb_h)
+        inset_s = min(sh, 0.4 * sw_)
         inset = (sl, sb + sh - inset_s, inset_s, inset_s)
-        legend = (sl + inset_s + GAP, sb, sw_ - inset_s - tb_w - 2 * GAP, sh)
-        tb = (sl + sw_ - tb_w, sb, tb_w, sh)
+        if not legend_under:
+            legend = (sl + inset_s + GAP, sb, sw_ - inset_s - tb_w - 2 * GAP, sh)
+        else:
+            inset = (sl, sb, sw_ - tb_w - GAP, sh)
     else:
         tb = (sl, sb, sw_, tb_h)
-        under = below - 8 * MM - MARGIN  # the room left under the section's scale row
-        if under >= lg_h:  # the legend under the section; the map takes the column
+        if legend_under:  # the map takes the column
             inset_h = sh - tb_h - GAP
             inset = (sl, sb + sh - inset_h, sw_, inset_h)
-            legend = (MARGIN, MARGIN, room[0] + room[2] + AXIS_RIGHT - MARGIN, under)
-            return SheetLayout(width, height, float(scale), axes, room, below, inset, legend,
-                               tb, legend_rows)
-        free = sh - tb_h - lg_h - 2 * GAP
-        inset_s = float(min(sw_, max(free, 40 * MM)))
-        inset = (sl, sb + sh - inset_s, sw_, inset_s)
-        legend = (sl, sb + tb_h + GAP, sw_, sh - inset_s - tb_h - 2 * GAP)
+        else:
+            free = sh - tb_h - lg_h - 2 * GAP
+            inset_s = float(min(sw_, max(free, 40 * MM)))
+            inset = (sl, sb + sh - inset_s, sw_, inset_s)
+            legend = (sl, sb + tb_h + GAP, sw_, sh - inset_s - tb_h - 2 * GAP)
     return SheetLayout(width, height, float(scale), axes, room, below, inset, legend, tb,
                        legend_rows)
 

@@ -258,14 +258,15 @@ def _draw_units_and_horizons(ax, pg: _Page) -> None:
     ax.plot(draft.profile.distance, draft.profile.z, zorder=5, **C.GROUND.kwargs())
 
 
-ARROW_MM = 6.0  # printed length of a half-arrow's shaft
+ARROW_MM = 5.0  # least printed length of a half-arrow's shaft
 
 
 def _draw_faults(ax, pg: _Page) -> None:
     """The faults, solid where constrained and dashed and queried below, with half-arrows
     of relative motion on the fault and parallel to it, and their names above the ground."""
     draft = pg.draft
-    size = ARROW_MM * pg.m_per_mm()
+    # Scaled with the page: 2 % of the section's printed length, 5 to 12 mm.
+    size = float(np.clip(0.02 * pg.layout.axes[2] / MM, ARROW_MM, 12.0)) * pg.m_per_mm()
     for i, f in enumerate(draft.faults):
         solid, dashed = _split(f.geometry, pg.z_c)
         _plot_parts(ax, solid, C.FAULT, f"fault-{i}", 6)
@@ -283,15 +284,20 @@ def _draw_faults(ax, pg: _Page) -> None:
         carrier = max(solid, key=len) if solid else (dashed[0] if dashed else None)
         if kind and carrier is not None and len(carrier) >= 2:
             for arr in _motion_arrows(carrier, kind, pg.ve, size, at=0.45):
-                (ln,) = ax.plot(arr[:, 0], arr[:, 1], color="black", linewidth=0.9, zorder=7,
+                (ln,) = ax.plot(arr[:, 0], arr[:, 1], color="black", linewidth=1.1, zorder=7,
                                 solid_joinstyle="miter")
                 ln.set_gid(f"fault-{i}-motion")
         parts = lines_xy(f.geometry)
         if f.name and parts:
             top = max((xy[np.argmax(xy[:, 1])] for xy in parts), key=lambda p: p[1])
-            ground = float(draft.profile.elevation_at(np.array([top[0]]))[0])
-            zt = max(top[1], ground) if np.isfinite(ground) else top[1]
-            t = ax.annotate(f.name, (top[0], zt), xytext=(0, 9), textcoords="offset points",
+            # Above the highest ground under the label, clear of the ground line.
+            half = 0.5 * len(f.name) * 0.55 * 7 * 25.4 / 72 * pg.m_per_mm()
+            near = np.abs(draft.profile.distance - top[0]) <= half
+            zg = draft.profile.z[near]
+            zg = zg[np.isfinite(zg)]
+            zt = max(top[1], float(zg.max()) if zg.size else top[1])
+            zt += 4.0 * pg.m_per_mm() / pg.ve
+            t = ax.annotate(f.name, (top[0], top[1]), xytext=(top[0], zt), textcoords="data",
                             fontsize=7, ha="center", va="bottom", zorder=8,
                             arrowprops={"arrowstyle": "-", "linewidth": 0.5, "shrinkA": 0,
                                         "shrinkB": 1.5})
@@ -366,36 +372,58 @@ def _draw_unit_labels(ax, pg: _Page) -> int:
     sy = pg.ve * sx
     n = 0
     for k, u in enumerate(pg.draft.units):
-        for part in shapely.get_parts(u.geometry):
-            if part.is_empty or part.geom_type != "Polygon":
-                continue
-            page = shapely.affinity.scale(part, sx, sy, origin=(0, 0))
-            if not page.is_valid:
-                page = shapely.make_valid(page)
-                if page.geom_type != "Polygon":
-                    page = max(shapely.get_parts(page), key=lambda g: g.area)
-            area = page.area
+        colour = matplotlib.colors.to_rgb(pg.palette.get(u.unit, "#cccccc"))
+        # Dark fills take white type (relative luminance, ITU-R BT.709 weights).
+        ink = "white" if 0.2126 * colour[0] + 0.7152 * colour[1] + 0.0722 * colour[2] < 0.45 \
+            else "#222222"
+        for piece in _label_pieces(u.geometry, sx, sy):
+            area = piece.area
             if area < 12.0:
                 continue
-            pt = polylabel(page, tolerance=0.3)
+            pt = polylabel(piece, tolerance=0.3)
             names = [labels.get(u.unit, u.unit), u.unit, _short(u.unit)]
             chosen, size = None, LABEL_FONT
             for text in dict.fromkeys(names):
                 w = len(text) * 0.55 * LABEL_FONT * 25.4 / 72
-                if _fits(page, pt.x, pt.y, w, LABEL_FONT * 0.4):
+                if _fits(piece, pt.x, pt.y, w, LABEL_FONT * 0.4):
                     chosen = text
                     break
             if chosen is None:
                 if area < LABEL_MIN_AREA_MM2:
                     continue
                 chosen = min(names, key=len)
-                r = page.boundary.distance(pt)
+                r = piece.boundary.distance(pt)
                 size = float(np.clip(2 * r / (len(chosen) * 0.55 * 25.4 / 72), 3.5, LABEL_FONT))
             t = ax.text(pt.x / sx, pt.y / sy, chosen, fontsize=size, ha="center",
-                        va="center_baseline", color="#222222", zorder=4, clip_on=True)
+                        va="center_baseline", color=ink, zorder=4, clip_on=True)
             t.set_gid(f"unit-label-{k}")
             n += 1
     return n
+
+
+LABEL_STRIP_MM = 110.0  # a long unit polygon is labelled once in each strip this wide
+
+
+def _label_pieces(geom, sx: float, sy: float) -> list:
+    """The polygons of a unit on the page (mm), long ones cut into strips of about
+    ``LABEL_STRIP_MM`` (the largest piece of each strip)."""
+    out = []
+    for part in shapely.get_parts(geom):
+        if part.is_empty or part.geom_type != "Polygon":
+            continue
+        page = shapely.affinity.scale(part, sx, sy, origin=(0, 0))
+        if not page.is_valid:
+            page = shapely.make_valid(page)
+        x0, y0, x1, y1 = page.bounds
+        n = max(1, round((x1 - x0) / LABEL_STRIP_MM))
+        edges = np.linspace(x0, x1, n + 1)
+        for a, b in zip(edges[:-1], edges[1:], strict=True):
+            strip = page if n == 1 else shapely.clip_by_rect(page, a, y0 - 1, b, y1 + 1)
+            polys = [g for g in shapely.get_parts(strip)
+                     if g.geom_type == "Polygon" and not g.is_empty]
+            if polys:
+                out.append(max(polys, key=lambda g: g.area))
+    return out
 
 
 def _draw_frame(fig: Figure, ax, pg: _Page, xlim, ylim, info: TitleInfo, checks) -> None:
@@ -792,8 +820,6 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
     ml, mb, mt, mr = 4 * MM, 9 * MM, 6 * MM, 2 * MM  # tick labels, scale bar, title
     aw = width - ml - mr
     ah = min(height - mb - mt, 1.1 * aw)  # no taller than wide: the map stays around the line
-    bottom += height - (ah + mb + mt)
-    iax = fig.add_axes(((left + ml) / W, (bottom + mb) / H, aw / W, ah / H))
     line = draft.line
     v = line.vertices
     # The line with a margin, widened to the panel's shape: the whole panel is map.
@@ -804,12 +830,24 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
         half[0] = half[1] * aw / ah
     else:
         half[1] = half[0] * ah / aw
-    # Kept on the map where the map is large enough (no white strips beyond its edge).
+    # Kept on the map: where the map is smaller than that, the panel shrinks to it (no
+    # white strips beyond the map's edge), keeping the whole line in view.
     if len(map_data.unit_geoms):
         mb_ = shapely.total_bounds(map_data.unit_geoms)
         for k in range(2):
-            if mb_[k + 2] - mb_[k] >= 2 * half[k]:
-                centre[k] = np.clip(centre[k], mb_[k] + half[k], mb_[k + 2] - half[k])
+            m_lo, m_hi = mb_[k], mb_[k + 2]
+            if m_hi - m_lo >= 2 * half[k]:
+                centre[k] = np.clip(centre[k], m_lo + half[k], m_hi - half[k])
+            else:
+                a_lo = min(m_lo, lo[k] - 0.03 * line.length)
+                a_hi = max(m_hi, hi[k] + 0.03 * line.length)
+                centre[k], half[k] = (a_lo + a_hi) / 2, min(half[k], (a_hi - a_lo) / 2)
+        if half[0] / half[1] > aw / ah:
+            ah = aw * half[1] / half[0]
+        else:
+            aw = ah * half[0] / half[1]
+    bottom += height - (ah + mb + mt)
+    iax = fig.add_axes(((left + ml) / W, (bottom + mb) / H, aw / W, ah / H))
     xmin, ymin = centre - half
     xmax, ymax = centre + half
     _inset_units(iax, map_data, palette, (xmin, ymin, xmax, ymax))
