@@ -285,3 +285,24 @@ def test_cli_bad_sheet_is_one_line(tmp_path):
     lines = res.stderr.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith("mapsection: error: sheet 'B5'")
     assert not (tmp_path / "out").exists()
+
+
+def test_period_chart_colours_and_one_colour_source():
+    # CGMW/ICS International Chronostratigraphic Chart period colours (RGB), as quoted by
+    # independent public tables of the chart: Quaternary 249/249/127 ... Cambrian 127/160/86.
+    from mapsection.render.colours import chart_colour, colour_note
+    from mapsection.sample import COLUMN
+    from mapsection.stratigraphy import Column, Unit
+
+    chart = {"Quaternary": "#f9f97f", "Neogene": "#ffe619", "Paleogene": "#fd9a52",
+             "Cretaceous": "#7fc64e", "Jurassic": "#34b2c9", "Triassic": "#812b92",
+             "Permian": "#f04028", "Carboniferous": "#67a599", "Devonian": "#cb8c37",
+             "Silurian": "#b3e1b6", "Ordovician": "#009270", "Cambrian": "#7fa056"}
+    for age, hexa in chart.items():
+        assert chart_colour(age) == hexa, age
+    # The sample's column takes all its colours from the chart: its Permian unit is red
+    # (Permian), no longer a blue that reads as Jurassic; no mixed-source note.
+    assert colour_note(COLUMN) is None
+    assert chart_colour(COLUMN.unit("Talvo Limestone").age) == chart["Permian"]
+    mixed = Column((Unit("a", 1.0, "#123456"), Unit("b", 1.0, age="Jurassic")))
+    assert "except a" in colour_note(mixed)

@@ -33,9 +33,11 @@ from dataclasses import dataclass
 from ..stratigraphy import Column
 
 # International Chronostratigraphic Chart colours (CGMW/ICS), RGB 0-255.
-# These values were recalled from memory of the published chart and have NOT
-# been checked against it entry by entry; where a project needs exact chart
-# colours it should give them as `colour = "#rrggbb"` in [[stratigraphy]].
+# The twelve Phanerozoic periods (Quaternary ... Cambrian) agree with the chart's
+# values as quoted by several independent public tables (the chart itself was not at
+# hand); every other entry (eons, eras, epochs) is recalled from memory of the
+# published chart and has NOT been checked entry by entry. Where a project needs exact
+# chart colours it should give them as `colour = "#rrggbb"` in [[stratigraphy]].
 _CHART_RGB: dict[str, tuple[int, int, int]] = {
     # eons / eras
     "phanerozoic": (154, 217, 221),
