@@ -68,7 +68,9 @@ def _write_check_figures(folder: Path, draft: Draft, report: CheckReport
     seq = folder / "sequence"
     seq.mkdir()
     frames = incremental_sequence(draft, restoration)
-    written = write_sequence(frames, seq, column=draft.column, title=draft.name)
+    written = write_sequence(frames, seq, column=draft.column, title=draft.name,
+                             ve=float(draft.ve or 1.0),
+                             ground=(draft.profile.distance, draft.profile.z))
     out += written
     pngs = [p for p in written if p.suffix == ".png"]
     if pngs:
@@ -78,7 +80,7 @@ def _write_check_figures(folder: Path, draft: Draft, report: CheckReport
         figures["sequence"] = gifs[0]
     fit = report.area_balance.detachment
     if fit is not None and len(fit.points) >= 2:
-        out.append(draw_area_depth(fit, folder / "area_depth.png"))
+        out.append(draw_area_depth(fit, folder / "area_depth.png", draft.name))
         figures["area_depth"] = folder / "area_depth.png"
     return out, figures
 
