@@ -19,7 +19,7 @@ from matplotlib.figure import Figure
 from .._atomic import atomic_file
 from ..checks.area import DetachmentFit
 
-__all__ = ["draw_area_depth"]
+__all__ = ["area_depth_figure", "draw_area_depth"]
 
 
 def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike, section: str = "") -> Path:
@@ -37,6 +37,14 @@ def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike, section: str = 
         The section's name, in the title.
     """
     path = Path(path)
+    fig = area_depth_figure(fit, section)
+    with atomic_file(path) as tmp:
+        fig.savefig(tmp, format="png", dpi=110, pil_kwargs={"compress_level": 3})
+    return path
+
+
+def area_depth_figure(fit: DetachmentFit, section: str = "") -> Figure:
+    """The area-depth graph as a matplotlib Figure (see :func:`draw_area_depth`)."""
     z = np.array([p.depth_m for p in fit.points])
     s = np.array([p.excess_area_m2 for p in fit.points]) / 1e6
     fig = Figure(figsize=(5.2, 4.2))
@@ -56,7 +64,7 @@ def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike, section: str = 
         zz = np.array([min(z.min(), zd), max(z.max(), zd)])
         style = "-" if fit.reliable else "--"
         ax.plot(disp * (zd - zz) / 1e6, zz, style, color="#b00000", linewidth=1.2,
-                label="least-squares line")
+                gid="fit-line")
         ax.plot([0.0], [zd], marker="D", color="#b00000", ms=6, zorder=4)
         ax.axhline(zd, color="#b00000", linewidth=0.6, linestyle=":")
         word = "detachment" if fit.reliable else "detachment (not trusted)"
@@ -77,6 +85,4 @@ def draw_area_depth(fit: DetachmentFit, path: str | os.PathLike, section: str = 
     ax.set_ylim(float(zs.max()) + 0.22 * span, float(zs.min()) - 0.06 * span)  # depth down
     ax.set_xlabel("excess area (km²)")
     ax.set_ylabel(f"depth below {fit.datum} (m)", fontsize=8)
-    with atomic_file(path) as tmp:
-        fig.savefig(tmp, format="png", dpi=110, pil_kwargs={"compress_level": 3})
-    return path
+    return fig
