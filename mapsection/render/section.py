@@ -819,7 +819,7 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
     left, bottom, width, height = box
     ml, mb, mt, mr = 4 * MM, 9 * MM, 6 * MM, 2 * MM  # tick labels, scale bar, title
     aw = width - ml - mr
-    ah = min(height - mb - mt, 1.1 * aw)  # no taller than wide: the map stays around the line
+    ah = min(height - mb - mt, 1.4 * aw)  # not much taller than wide: kept around the line
     line = draft.line
     v = line.vertices
     # The line with a margin, widened to the panel's shape: the whole panel is map.

@@ -121,18 +121,21 @@ def write_check_outputs(folder: str | os.PathLike, draft: Draft, report: CheckRe
 
 
 def write_check_report(path: str | os.PathLike, draft: Draft, report: CheckReport,
-                       map_data: MapData | None = None) -> Path:
+                       map_data: MapData | None = None, *, sheet=None, info=None) -> Path:
     """Write report.html alone: the report a build writes for the section, all-or-nothing.
 
-    The section figure (with its location inset when ``map_data`` is given) and the
-    checks' outputs are drawn in a scratch folder by :func:`write_check_outputs`; only
-    the report, which embeds them, is kept.
+    The section figure (with its location map when ``map_data`` is given, the FAIL mark
+    and contact misfits of ``report``; ``sheet`` and ``info`` as for
+    :func:`mapsection.render.section.draw_section`) and the checks' outputs are drawn in
+    a scratch folder by :func:`write_check_outputs`; only the report, which embeds them,
+    is kept.
     """
     from .section import draw_section
 
     path = Path(path)
     with tempfile.TemporaryDirectory(prefix="mapsection-check-") as tmp:
-        draw_section(draft, Path(tmp) / "section", map_data, formats=("png",))
+        draw_section(draft, Path(tmp) / "section", map_data, formats=("png",), sheet=sheet,
+                     info=info, checks=report)
         write_check_outputs(tmp, draft, report)
         with atomic_file(path) as target:
             shutil.copyfile(Path(tmp) / "report.html", target)
