@@ -222,6 +222,7 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     (:func:`mapsection.checks.key_figures`) by section folder. ``sheet``, ``scale`` and
     ``portrait`` override each section's figure settings (see :func:`sheet_options`).
     """
+    from .render.section import plan_sheet
     from .render.sheet import parse_scale, sheet_name
 
     _check_options(method, ve)
@@ -254,11 +255,16 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                     draft = build_section(project, spec, method=method, ve=ve,
                                           warn=_section_warn(warn, spec.name, said),
                                           inputs=inputs, timings=timings)
+                    options = sheet_options(spec, draft, sheet=sheet, scale=scale,
+                                            portrait=portrait)
+                    try:  # the section fits its sheet, or the build stops here
+                        plan_sheet(draft, options, info)
+                    except ParameterError as exc:
+                        raise ParameterError(f"section {spec.name}: {options.sheet} sheet: "
+                                             f"{exc}") from None
                     target = outdir / _folder_name(spec.name)
                     tmp = folders_in_progress.enter_context(atomic_dir(target))
-                    jobs.append(_Job(tmp, draft, project, spec, said, target,
-                                     sheet_options(spec, draft, sheet=sheet, scale=scale,
-                                                   portrait=portrait), info))
+                    jobs.append(_Job(tmp, draft, project, spec, said, target, options, info))
             finally:
                 # Closed before any fork: no GDAL file handle is shared with a worker.
                 inputs.close()

@@ -133,7 +133,9 @@ def test_half_arrows_parallel_to_the_fault_and_on_it(ve):
     lines = {}
     for ln in ax.get_lines():
         lines.setdefault(ln.get_gid(), []).append(ax.transData.transform(ln.get_xydata()))
-    fault = max(lines["fault-0"], key=lambda xy: np.ptp(xy[:, 1]))
+    (fault_art,) = [c for c in ax.collections if c.get_gid() == "fault-0"]
+    fault = max((ax.transData.transform(xy) for xy in fault_art.get_segments()),
+                key=lambda xy: np.ptp(xy[:, 1]))
     arrows = lines["fault-0-motion"]
     assert len(arrows) == 2
     fault_line = shapely.LineString(fault)
@@ -177,14 +179,13 @@ def test_unconstrained_depth_is_dashed_and_queried():
     assert constrained_elevation(draft) == pytest.approx(km.geometry.bounds[1] - 200.0)
     fig = section_figure(draft)
     ax = fig.axes[0]
-    fault = [ln for ln in ax.get_lines() if ln.get_gid() == "fault-0"]
-    styles = {ln.get_linestyle() for ln in fault}
-    assert styles == {"-", "--"}
+    (fault,) = [c for c in ax.collections if c.get_gid() == "fault-0"]
+    dashes = [d for _, d in fault.get_linestyles()]
+    assert len(dashes) == 2 and dashes.count(None) == 1  # one solid part, one dashed
     assert any(t.get_gid() == "fault-0-query" for t in ax.texts)
     z_c = constrained_elevation(draft)
-    for ln in fault:
-        z = ln.get_xydata()[:, 1]
-        assert (z.min() >= z_c - 1e-6) if ln.get_linestyle() == "-" else (z.max() <= z_c + 1e-6)
+    for xy, d in zip(fault.get_segments(), dashes, strict=True):
+        assert (xy[:, 1].min() >= z_c - 1e-6) if d is None else (xy[:, 1].max() <= z_c + 1e-6)
 
 
 def test_failed_draft_carries_fail_mark_and_misfits():
@@ -306,3 +307,18 @@ def test_period_chart_colours_and_one_colour_source():
     assert chart_colour(COLUMN.unit("Talvo Limestone").age) == chart["Permian"]
     mixed = Column((Unit("a", 1.0, "#123456"), Unit("b", 1.0, age="Jurassic")))
     assert "except a" in colour_note(mixed)
+
+
+def test_build_refuses_a_scale_the_sheet_cannot_hold(tmp_path):
+    # Bad input stops the build before anything is written, naming the section, the sheet
+    # and the largest standard scale that fits (9.2 km on landscape A4: 1:100,000).
+    from pathlib import Path
+
+    from mapsection.build import build_project
+
+    project = Path(__file__).resolve().parents[1] / "sample_area" / "project.toml"
+    with pytest.raises(ParameterError, match=r"^section A: A4 sheet: scale 1:5,000: .*"
+                                             r"largest standard scale that fits is 1:100,000"):
+        build_project(project, tmp_path / "out", section="A", sheet="a4", scale="1:5000",
+                      warn=lambda m: None)
+    assert not (tmp_path / "out").exists()

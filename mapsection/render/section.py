@@ -219,13 +219,20 @@ class _Page:
         return self.scale / 1000.0
 
 
-def _plot_parts(ax, parts, style: C.LineStyle, gid: str, zorder: float, dashed: bool = False):
-    for xy in parts:
-        kw = style.kwargs()
-        if dashed:
-            kw["dashes"] = (6.0, 3.0)
-        (ln,) = ax.plot(xy[:, 0], xy[:, 1], zorder=zorder, solid_capstyle="butt", **kw)
-        ln.set_gid(gid)
+def _plot_parts(ax, parts: list[tuple[np.ndarray, C.LineStyle]], gid: str,
+                zorder: float) -> None:
+    """One artist (``gid``) for the parts of one line, each with its own style: a horizon or
+    fault stays one element of the SVG whether it is drawn solid, dashed or both."""
+    parts = [(xy, st) for xy, st in parts if len(xy) >= 2]
+    if not parts:
+        return
+    lc = LineCollection([xy for xy, _ in parts], linewidths=[st.width for _, st in parts],
+                        colors=[st.colour for _, st in parts],
+                        linestyles=["-" if st.dashes is None else (0, st.dashes)
+                                    for _, st in parts],
+                        zorder=zorder, capstyle="butt")
+    lc.set_gid(gid)
+    ax.add_collection(lc)
 
 
 def _draw_units_and_horizons(ax, pg: _Page) -> None:
@@ -250,11 +257,12 @@ def _draw_units_and_horizons(ax, pg: _Page) -> None:
 
     for i, h in enumerate(draft.horizons):
         if h.above_ground:
-            _plot_parts(ax, lines_xy(h.geometry), C.CONTACT_PROJECTED, f"horizon-{i}", 3)
+            _plot_parts(ax, [(xy, C.CONTACT_PROJECTED) for xy in lines_xy(h.geometry)],
+                        f"horizon-{i}", 3)
             continue
         solid, dashed = _split(h.geometry, pg.z_c)
-        _plot_parts(ax, solid, C.CONTACT, f"horizon-{i}", 3)
-        _plot_parts(ax, dashed, C.CONTACT, f"horizon-{i}", 3, dashed=True)
+        _plot_parts(ax, [(xy, C.CONTACT) for xy in solid]
+                    + [(xy, C.CONTACT_INFERRED) for xy in dashed], f"horizon-{i}", 3)
     ax.plot(draft.profile.distance, draft.profile.z, zorder=5, **C.GROUND.kwargs())
 
 
@@ -269,8 +277,8 @@ def _draw_faults(ax, pg: _Page) -> None:
     size = float(np.clip(0.02 * pg.layout.axes[2] / MM, ARROW_MM, 12.0)) * pg.m_per_mm()
     for i, f in enumerate(draft.faults):
         solid, dashed = _split(f.geometry, pg.z_c)
-        _plot_parts(ax, solid, C.FAULT, f"fault-{i}", 6)
-        _plot_parts(ax, dashed, C.FAULT_INFERRED, f"fault-{i}", 6)
+        _plot_parts(ax, [(xy, C.FAULT) for xy in solid]
+                    + [(xy, C.FAULT_INFERRED) for xy in dashed], f"fault-{i}", 6)
         if dashed:
             end = min((xy[np.argmin(xy[:, 1])] for xy in dashed), key=lambda p: p[1])
             if end[1] < pg.zmin:  # below the page: queried where it leaves it
@@ -674,6 +682,41 @@ def _draw_misfits(ax, pg: _Page, misfits) -> None:
                     ha="center", zorder=10)
 
 
+def _plan(draft: Draft, sheet: SheetOptions, info: TitleInfo, checks=None):
+    """The sheet's layout and what it was sized from: (layout, elevation limits, palette,
+    legend rows, misfits)."""
+    ve = float(draft.ve or 1.0)
+    extra = sorted({u.unit for u in draft.units} - set(draft.column.names))
+    palette = C.unit_colours(draft.column, extra)
+    xspan = max(float(draft.line.length), 1.0)
+    zbot, ztop = _vertical_range(draft)
+    zspan = max(ztop - zbot, 1.0)
+    ylim = (zbot, ztop + 0.15 * zspan)
+    misfits, _ = _misfits(checks)
+    dips = draft.dips
+    shift = 0.0
+    if len(dips):
+        zg = draft.profile.elevation_at(np.asarray(dips.distance_m, float))
+        dz = np.abs(np.asarray(dips.elevation_m, float) - zg)
+        shift = float(np.nanmax(dz)) if np.any(np.isfinite(dz)) else 0.0
+    legend_rows = _legend_rows(draft, palette, shift, bool(misfits))
+    wmm, hmm = sheet_size_mm(sheet.sheet, sheet.portrait)
+    W, H = wmm * MM, hmm * MM
+    side_w = float(np.clip(0.27 * W, 70 * MM, 125 * MM)) if not sheet.portrait \
+        else min(110 * MM, 0.45 * (W - 2 * MARGIN))
+    n_title = len(_title_rows(draft, None, info, side_w - 3 * MM))
+    lay = sheet_layout(W, H, xspan, ylim[1] - ylim[0], ve, len(legend_rows), n_title,
+                       scale=sheet.scale, portrait=sheet.portrait)
+    return lay, ylim, palette, legend_rows, misfits
+
+
+def plan_sheet(draft: Draft, sheet: SheetOptions | None = None,
+               info: TitleInfo | None = None) -> SheetLayout:
+    """The sheet's layout for ``draft`` without drawing it: its scale and boxes. Raises
+    ParameterError when the section does not fit the sheet at the scale asked."""
+    return _plan(draft, sheet or SheetOptions(), info or TitleInfo())[0]
+
+
 def section_figure(draft: Draft, map_data: MapData | None = None, *,
                    sheet: SheetOptions | None = None, info: TitleInfo | None = None,
                    checks=None) -> Figure:
@@ -696,31 +739,12 @@ def section_figure(draft: Draft, map_data: MapData | None = None, *,
     sheet = sheet or SheetOptions()
     info = info or TitleInfo()
     ve = float(draft.ve or 1.0)
-    extra = sorted({u.unit for u in draft.units} - set(draft.column.names))
-    palette = C.unit_colours(draft.column, extra)
-
+    lay, ylim, palette, legend_rows, misfits = _plan(draft, sheet, info, checks)
+    W, H = lay.width, lay.height
     x0, x1 = 0.0, float(draft.line.length)
     xspan = max(x1 - x0, 1.0)
-    zbot, ztop = _vertical_range(draft)
-    zspan = max(ztop - zbot, 1.0)
-    ylim = (zbot, ztop + 0.15 * zspan)
     z_c = (sheet.constrained_elevation if sheet.constrained_elevation is not None
            else constrained_elevation(draft))
-    misfits, _ = _misfits(checks)
-    dips = draft.dips
-    shift = 0.0
-    if len(dips):
-        zg = draft.profile.elevation_at(np.asarray(dips.distance_m, float))
-        dz = np.abs(np.asarray(dips.elevation_m, float) - zg)
-        shift = float(np.nanmax(dz)) if np.any(np.isfinite(dz)) else 0.0
-    legend_rows = _legend_rows(draft, palette, shift, bool(misfits))
-    wmm, hmm = sheet_size_mm(sheet.sheet, sheet.portrait)
-    W, H = wmm * MM, hmm * MM
-    side_w = float(np.clip(0.27 * W, 70 * MM, 125 * MM)) if not sheet.portrait \
-        else min(110 * MM, 0.4 * (W - 2 * MARGIN))
-    n_title = len(_title_rows(draft, None, info, side_w - 3 * MM))
-    lay = sheet_layout(W, H, xspan, ylim[1] - ylim[0], ve, len(legend_rows), n_title,
-                       scale=sheet.scale, portrait=sheet.portrait)
     pg = _Page(draft, ve, lay.scale, lay, z_c, palette, ylim[0])
     fig = Figure(figsize=(W, H))
     # The neatline, 6 mm inside the sheet's edge.
