@@ -352,7 +352,7 @@ def _draw_dips(ax, pg: _Page) -> float:
             t = ax.annotate(text, (d[i], zc), xytext=(0, 5), textcoords="offset points",
                             fontsize=5.5, ha="center", va="bottom", color=C.DIP_TICK.colour,
                             zorder=9)
-            t.set_gid(f"dip-label-{i}")
+            t.set_gid(f"dipvalue-{i}")
     return shift_max
 
 
