@@ -76,7 +76,8 @@ from .sheet import SheetOptions, TitleInfo, scale_text, sheet_size_mm
 matplotlib.use("Agg")  # headless: figures are only ever written to files
 
 FORMATS = ("png", "svg", "pdf")
-PNG_DPI = 150
+PNG_DPI = 120  # the PNG (for screens and the report): at most PNG_MAX_PX wide
+PNG_MAX_PX = 2600
 
 
 # --- fault sense symbols ----------------------------------------------------------
@@ -943,13 +944,14 @@ def draw_section(draft: Draft, path_stem: str | os.PathLike, map_data: MapData |
     out = []
     # No creation dates: rebuilding the same draft gives byte-identical files.
     meta = {"png": None, "svg": {"Date": None}, "pdf": {"CreationDate": None}}
+    png_dpi = min(PNG_DPI, PNG_MAX_PX / fig.get_figwidth())
     rc = {"svg.fonttype": "none", "svg.hashsalt": "mapsection", "pdf.fonttype": 42,
           "ps.fonttype": 42}
     with matplotlib.rc_context(rc):
         for fmt in formats:
             path = stem.with_name(f"{stem.name}.{fmt}")
             with atomic_file(path) as tmp:
-                fig.savefig(tmp, format=fmt, dpi=PNG_DPI, metadata=meta[fmt],
+                fig.savefig(tmp, format=fmt, dpi=png_dpi, metadata=meta[fmt],
                             # Lighter PNG compression: a little larger, much faster.
                             **({"pil_kwargs": {"compress_level": 3}} if fmt == "png" else {}))
             out.append(path)
