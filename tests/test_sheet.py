@@ -322,3 +322,35 @@ def test_build_refuses_a_scale_the_sheet_cannot_hold(tmp_path):
         build_project(project, tmp_path / "out", section="A", sheet="a4", scale="1:5000",
                       warn=lambda m: None)
     assert not (tmp_path / "out").exists()
+
+
+@pytest.fixture(scope="module")
+def sample_draft_b():
+    from pathlib import Path
+
+    from mapsection.build import build_section
+    from mapsection.project import load_project
+
+    project = load_project(Path(__file__).resolve().parents[1] / "sample_area" / "project.toml")
+    return build_section(project, "B", ve=2.0, warn=lambda m: None)
+
+
+def test_sample_unit_polygons_are_labelled_and_bend_named(sample_draft_b):
+    # The sample's section B (a bend, a thrust, folded units) on A2 at 1:25,000, VE 2: every
+    # unit polygon of at least LABEL_MIN_AREA_MM2 on the page has a label inside it.
+    draft = sample_draft_b
+    fig = section_figure(draft, sheet=SheetOptions("A2", scale=25000))
+    ax = fig.axes[0]
+    anchors = [shapely.Point(t.get_position()) for t in ax.texts
+               if (t.get_gid() or "").startswith("unit-label-")]
+    k = (1000.0 / 25000.0) ** 2 * draft.ve  # mm² on the page per m² of section
+    checked = 0
+    for u in draft.units:
+        for part in shapely.get_parts(u.geometry):
+            if part.area * k >= LABEL_MIN_AREA_MM2:
+                checked += 1
+                assert any(part.contains(a) for a in anchors), u.unit
+    assert checked >= 8
+    texts = [t.get_text() for t in fig.texts]
+    v = draft.line.vertices[1]
+    assert f"bend 1: {v[0]:.0f} E  {v[1]:.0f} N" in texts

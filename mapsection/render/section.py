@@ -619,6 +619,8 @@ def _title_rows(draft: Draft, pg_scale: float | None, info: TitleInfo, width_in:
             ("text", f"Section {left}–{right}: draft cross-section"),
             ("text", f"{left}: {v[0, 0]:.0f} E  {v[0, 1]:.0f} N    "
                      f"{right}: {v[-1, 0]:.0f} E  {v[-1, 1]:.0f} N"),
+            *[("text", f"bend {k + 1}: {b[0]:.0f} E  {b[1]:.0f} N")
+              for k, b in enumerate(v[1:-1])],
             ("text", f"CRS: {crs_text}"),
             ("text", f"Horizontal scale {scale_text(pg_scale) if pg_scale else '-'}  ·  "
                      f"{ve_text(float(draft.ve or 1.0))}"),
