@@ -350,9 +350,12 @@ def _draw_dips(ax, pg: _Page) -> float:
         width = (len(text) + 1) * 1.6 * mm
         if d[i] - last_label[level] >= width:
             last_label[level] = d[i]
-            t = ax.annotate(text, (d[i], zc), xytext=(0, 5), textcoords="offset points",
-                            fontsize=5.5, ha="center", va="bottom", color=C.DIP_TICK.colour,
-                            zorder=9)
+            # Above the ground for the first row of ticks, under the tick for the rows
+            # stepped down (clear of the ticks above them).
+            up = level == 0
+            t = ax.annotate(text, (d[i], zc), xytext=(0, 5 if up else -5),
+                            textcoords="offset points", fontsize=5.5, ha="center",
+                            va="bottom" if up else "top", color=C.DIP_TICK.colour, zorder=9)
             t.set_gid(f"dipvalue-{i}")
     return shift_max
 
