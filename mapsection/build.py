@@ -40,13 +40,15 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
+import numpy as np
+
 from . import __version__
 from ._atomic import atomic_dir, atomic_file, folder_lock, remove_stale
 from ._messages import Warn
 from ._messages import default_warn as _default_warn
 from .caution import CAUTION
 from .draft import Draft
-from .errors import OutputError
+from .errors import OutputError, ParameterError
 from .project import Project, SectionSpec, load_project
 from .session import ProjectInputs, SectionSession, load_inputs
 from .thickness import resolve_map_thicknesses
@@ -106,6 +108,36 @@ def _overridden(spec: SectionSpec, method: str | None, ve: float | None) -> Sect
     """The section with the command line's ``method`` and ``ve``; the settings check them."""
     given = {k: v for k, v in (("method", method), ("ve", ve)) if v is not None}
     return dataclasses.replace(spec, **given) if given else spec
+
+
+def sheet_options(spec: SectionSpec, draft: Draft, *, sheet: str | None = None,
+                  scale: float | str | None = None, portrait: bool | None = None):
+    """The figure's sheet of a section: the options given (``build --sheet/--scale/
+    --portrait``) over the section's own settings; the constrained depth as an elevation."""
+    from .render.sheet import DEFAULT_SHEET, SheetOptions
+
+    z_c = None
+    if spec.constrained_depth is not None:
+        zg = draft.profile.z[np.isfinite(draft.profile.z)]
+        z_c = (float(zg.min()) if zg.size else 0.0) - spec.constrained_depth
+    return SheetOptions(sheet or spec.sheet or DEFAULT_SHEET,
+                        spec.portrait if portrait is None else portrait,
+                        scale if scale is not None else spec.scale, z_c)
+
+
+def title_info(project: Project, dem_crs: Any = None):
+    """The title block's project title, sources (file names and the project's ``source``
+    texts) and the DEM's vertical datum."""
+    from .render.sheet import TitleInfo, vertical_datum
+
+    rows = []
+    for key, what, path in (("dem", "DEM", project.dem_path), ("map", "Map", project.map_path),
+                            ("attitudes", "Attitudes", project.attitudes_path)):
+        text = Path(path).name
+        if project.sources.get(key):
+            text += f" ({project.sources[key]})"
+        rows.append((what, text))
+    return TitleInfo(project.title, tuple(rows), vertical_datum(dem_crs))
 
 
 def build_section(project: Project, spec: SectionSpec | str, *, method: str | None = None,
@@ -181,8 +213,13 @@ def write_build_log(draft: Draft, path: Path, warnings: list[str] = (),
 def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None, *,
                           extra_layers: dict | None = None, warnings: list[str] = (),
                           timings: dict[str, float] | None = None,
-                          log: bool = True) -> list[Path]:
-    """Write section.gpkg, section_3d.gpkg, section.png/.svg/.pdf and (``log``) build.log."""
+                          log: bool = True, sheet: Any = None, info: Any = None,
+                          checks: CheckReport | None = None) -> list[Path]:
+    """Write section.gpkg, section_3d.gpkg, section.png/.svg/.pdf and (``log``) build.log.
+
+    ``sheet`` (:class:`mapsection.render.sheet.SheetOptions`), ``info`` (``TitleInfo``)
+    and ``checks`` (the section's check report: FAIL mark and misfits) go to the figure.
+    """
     from .export import write_section_3d, write_section_gpkg
     from .render.section import draw_section
 
@@ -193,7 +230,8 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
         out = [write_section_gpkg(draft, folder / "section.gpkg", extra_layers),
                write_section_3d(draft, folder / "section_3d.gpkg")]
     with _stage(timings, "figures"):
-        out += draw_section(draft, folder / "section", map_data)
+        out += draw_section(draft, folder / "section", map_data, sheet=sheet, info=info,
+                            checks=checks)
     if log:
         out.append(write_build_log(draft, folder / "build.log", list(warnings)))
     return out
@@ -201,7 +239,7 @@ def write_section_outputs(draft: Draft, folder: str | Path, map_data: Any = None
 
 def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpec,
                   warn: Warn | None = None, timings: dict[str, float] | None = None,
-                  attitude_xy: Any = None) -> CheckReport:
+                  attitude_xy: Any = None, report: CheckReport | None = None) -> CheckReport:
     """CHECKS CALL POINT: run the balance checks and write their outputs into ``folder``.
 
     The outputs are those of :func:`mapsection.render.section_folder.write_check_outputs`
@@ -212,9 +250,10 @@ def _write_checks(folder: Path, draft: Draft, project: Project, spec: SectionSpe
     from .checks import run_checks
     from .render.section_folder import write_check_outputs
 
-    with _stage(timings, "checks"):
-        report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
-                            warn=warn, attitude_xy=attitude_xy, corridor_m=spec.corridor)
+    if report is None:
+        with _stage(timings, "checks"):
+            report = run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
+                                warn=warn, attitude_xy=attitude_xy, corridor_m=spec.corridor)
     with _stage(timings, "check figures"):
         write_check_outputs(folder, draft, report)
     return report
@@ -225,7 +264,9 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                   timings: dict[str, float] | None = None,
                   workers: int | None = None,
                   summaries: dict[Path, KeyFigures] | None = None,
-                  progress: Progress | None = None, note: Warn | None = None) -> list[Path]:
+                  progress: Progress | None = None, note: Warn | None = None,
+                  sheet: str | None = None, scale: float | str | None = None,
+                  portrait: bool | None = None) -> list[Path]:
     """Build every section of a project (or the one named) into ``outdir/<name>/``.
 
     Returns the section folders written. ``timings``, when given, receives the wall
@@ -236,7 +277,8 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     every section has been written, so a failure leaves OUTDIR as it was.
 
     ``summaries``, when given, receives the key figures of each section's checks
-    (:func:`mapsection.checks.key_figures`) by section folder.
+    (:func:`mapsection.checks.key_figures`) by section folder. ``sheet``, ``scale`` and
+    ``portrait`` override each section's figure settings (see :func:`sheet_options`).
 
     ``progress(section, stage)`` is told each stage as it starts; ``note`` receives
     what the build says that is not a warning (waiting for another build into
@@ -247,7 +289,13 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     folder is there and is not a previous build (see :mod:`mapsection.outputs`).
     """
     from .outputs import check_build_target, check_output, project_inputs
+    from .render.section import plan_sheet
+    from .render.sheet import parse_scale, sheet_name
 
+    if sheet is not None:
+        sheet = sheet_name(sheet)
+    if scale is not None:
+        scale = parse_scale(scale)
     warn = warn or _default_warn
     note = note or (lambda message: None)
     progress = progress if progress is not None else _listener
@@ -305,6 +353,7 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                 except BaseException:
                     inputs.close()
                     raise
+                info = title_info(project, getattr(inputs.dem, "crs", None))
             jobs = []
             try:
                 for spec, target in zip(specs, targets, strict=True):
@@ -313,9 +362,17 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                         draft = build_section(project, spec,
                                               warn=_section_warn(warn, spec.name, said),
                                               inputs=inputs, timings=timings)
+                    options = sheet_options(spec, draft, sheet=sheet, scale=scale,
+                                            portrait=portrait)
+                    try:  # the section fits its sheet, or the build stops here
+                        plan_sheet(draft, options, info)
+                    except ParameterError as exc:
+                        raise ParameterError(f"section {spec.name}: {options.sheet} sheet: "
+                                             f"{exc}") from None
                     tmp = folders_in_progress.enter_context(atomic_dir(target))
                     xy = _nearby_attitudes(inputs.attitudes, draft.line, spec.corridor)
-                    jobs.append(_Job(tmp, draft, project, spec, said, target, xy))
+                    jobs.append(_Job(tmp, draft, project, spec, said, target, xy, options,
+                                     info))
             finally:
                 # Closed before any fork: no GDAL file handle is shared with a worker.
                 inputs.close()
@@ -349,6 +406,8 @@ class _Job:
     said: list[str]
     target: Path
     attitude_xy: Any = None  # attitudes near the line, for a failed test's diagnosis
+    sheet: Any = None
+    info: Any = None
 
 
 def _nearby_attitudes(attitudes, line, corridor_m: float):
@@ -374,14 +433,20 @@ def _section_warn(warn: Warn, name: str, said: list[str]) -> Warn:
 def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], KeyFigures]:
     """Write one section's folder; returns everything said, the stage timings and the key
     figures of the checks."""
-    from .checks import key_figures
+    from .checks import key_figures, run_checks
     from .checks.summary import summary_lines
 
     said = list(job.said)
     timings: dict[str, float] = {}
-    write_section_outputs(job.draft, job.folder, map_data, timings=timings, log=False)
-    report = _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings,
-                           job.attitude_xy)
+    # The checks first: the figure marks a failed draft and its misfits.
+    with _stage(timings, "checks"):
+        report = run_checks(job.draft, job.project.thresholds, pin=job.spec.pin,
+                            loose=job.spec.loose, warn=said.append,
+                            attitude_xy=job.attitude_xy, corridor_m=job.spec.corridor)
+    write_section_outputs(job.draft, job.folder, map_data, timings=timings, log=False,
+                          sheet=job.sheet, info=job.info, checks=report)
+    _write_checks(job.folder, job.draft, job.project, job.spec, said.append, timings,
+                  report=report)
     # with the checks' notes and their table (a failure's reasons and diagnosis) too
     write_build_log(job.draft, job.folder / "build.log", said, summary_lines(report))
     return said, timings, key_figures(report)

@@ -39,18 +39,20 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
 # Every key each table accepts (anything else is reported as an unknown key).
 TOP_KEYS = frozenset({"crs", "title", "dem", "map", "attitudes", "stratigraphy", "section",
                       "fault", "checks"})
-DEM_KEYS = frozenset({"path", "vertical_unit"})
+DEM_KEYS = frozenset({"path", "source", "vertical_unit"})
 FAULT_ROLES = ("dip", "dip_direction", "sense", "name")
-MAP_KEYS = frozenset({"path", "units_layer", "unit_field", "faults_layer", "default_fault_dip",
+MAP_KEYS = frozenset({"path", "source", "units_layer", "unit_field", "faults_layer",
+                      "default_fault_dip",
                       *(f"fault_{r}_field" for r in FAULT_ROLES)})
 FAULT_KEYS = frozenset({"name", "dip", "detachment", "radius", "cuts", "fold"})
 FAULT_FOLDS = ("fault-bend",)
 ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned",
                   "attitude")
-ATTITUDE_KEYS = frozenset({"path", "layer", "convention", "keep_readings",
+ATTITUDE_KEYS = frozenset({"path", "source", "layer", "convention", "keep_readings",
                            *(f"{r}_field" for r in ATTITUDE_ROLES)})
-UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology"})
-SECTION_KEYS = frozenset({"name", "line", "fold_axis", *SECTION_SETTING_KEYS})
+UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology", "label"})
+SECTION_KEYS = frozenset({"name", "line", "fold_axis", "sheet", "scale", "portrait",
+                          "constrained_depth", *SECTION_SETTING_KEYS})
 CHECK_KEYS = THRESHOLD_KEYS
 
 
@@ -62,6 +64,10 @@ class SectionSpec(SectionSettings):
     name: str
     line: tuple[tuple[float, float], ...]
     fold_axis: tuple[float, float] | None = None  # (trend, plunge): given, not computed
+    sheet: str | None = None  # the figure's sheet (A4 ... A0, letter, tabloid); None: A3
+    scale: float | None = None  # the figure's scale denominator; None: the largest that fits
+    portrait: bool = False
+    constrained_depth: float | None = None  # m below the lowest ground; dashed below
 
 
 @dataclass(frozen=True)
@@ -104,6 +110,8 @@ class Project:
     keep_readings: tuple[str, ...] = ()  # ids kept in the dip domains whatever they say
     faults: tuple[FaultSpec, ...] = ()
     default_fault_dip: float | None = None  # true dip for faults with no dip anywhere
+    title: str = ""
+    sources: dict[str, str] = field(default_factory=dict)  # "dem"/"map"/"attitudes" -> text
 
     def section(self, name: str | SectionSpec) -> SectionSpec:
         """The section named ``name`` (a :class:`SectionSpec` is returned as it is): the one
@@ -276,7 +284,8 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
                 colour,
                 r.get("age", str, None),
                 r.get("lithology", str, None),
-                from_map,
+                thickness_from_map=from_map,
+                label=r.get("label", str, None),
             )
         )
     try:
@@ -328,6 +337,10 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
         keep_readings=_keep_readings(att),
         faults=faults,
         default_fault_dip=default_fault_dip,
+        title=top.get("title", str, ""),
+        sources={k: r.get("source", str) for k, r in (("dem", dem), ("map", mp),
+                                                     ("attitudes", att))
+                 if "source" in r.table},
     )
 
 
@@ -408,7 +421,8 @@ def _section(r: _Reader, warn: Warn) -> SectionSpec:
     given = {k: r.get(k, str if k in ("method", "projection") else float)
              for k in SECTION_SETTING_KEYS if k in r.table}
     try:
-        spec = SectionSpec(name=name, line=tuple(pts), fold_axis=_fold_axis(r), **given)
+        spec = SectionSpec(name=name, line=tuple(pts), fold_axis=_fold_axis(r),
+                           **_sheet_keys(r), **given)
     except SettingError as exc:
         raise r.fail(exc.key, exc.reason) from None
     for key in ("pin", "loose"):
@@ -432,6 +446,26 @@ def _fold_axis(r: _Reader) -> tuple[float, float] | None:
         raise r.fail("fold_axis", f"must be [trend, plunge] in degrees (trend 0-360, plunge "
                                   f"0-90), got {val!r}")
     return float(val[0]) % 360.0, float(val[1])
+
+
+def _sheet_keys(r: _Reader) -> dict[str, Any]:
+    """The figure's sheet, scale, orientation and constrained depth of a [[section]]."""
+    from .errors import ParameterError
+    from .render.sheet import parse_scale, sheet_name
+
+    out: dict[str, Any] = {"portrait": r.get("portrait", bool, False),
+                           "constrained_depth": r.number("constrained_depth", None)}
+    sheet = r.get("sheet", str, None)
+    try:
+        out["sheet"] = sheet_name(sheet) if sheet is not None else None
+    except ParameterError as exc:
+        raise r.fail("sheet", str(exc).split(": ", 1)[1]) from None
+    scale = r.get("scale", (str, int, float), None)
+    try:
+        out["scale"] = parse_scale(scale) if scale is not None else None
+    except ParameterError as exc:
+        raise r.fail("scale", str(exc).split(": ", 1)[1]) from None
+    return out
 
 
 def _is_hex_colour(text: str) -> bool:

@@ -49,13 +49,14 @@ CELL = 25.0
 NCOLS = NROWS = 400
 SUPERSAMPLE = 4  # the map is polygonised on a 6.25 m grid
 
+# One colour source for the whole column: the CGMW/ICS chart colour of each unit's age.
 COLUMN = Column((
     Unit("Brantel Shale", 300.0, None, "Cretaceous", "grey marine shale"),
-    Unit("Osk Sandstone", 220.0, "#e8c468", "Jurassic", "cross-bedded quartz sandstone"),
+    Unit("Osk Sandstone", 220.0, None, "Jurassic", "cross-bedded quartz sandstone"),
     Unit("Merrin Siltstone", 260.0, None, "Triassic", "red siltstone and mudstone"),
-    Unit("Talvo Limestone", 180.0, "#7fb2d6", "Permian", "cherty limestone"),
+    Unit("Talvo Limestone", 180.0, None, "Permian", "cherty limestone"),
     Unit("Dunmarrow Dolomite", 350.0, None, "Carboniferous", "massive dolomite"),
-    Unit("Hesk Quartzite", 240.0, "#c9a27e", "Devonian", "quartzite and conglomerate"),
+    Unit("Hesk Quartzite", 240.0, None, "Devonian", "quartzite and conglomerate"),
 ))
 
 

@@ -108,6 +108,8 @@ RANGES: dict[str, Range] = {
                          label="default apparent dip"),
     "pin": Range(0.0, 1_000_000.0, "m along the section", label="pin line"),
     "loose": Range(0.0, 1_000_000.0, "m along the section", label="loose line"),
+    # the figure: horizons and faults dashed below this depth (m below the lowest ground)
+    "constrained_depth": Range(0.0, 100_000.0, "m", lo_ok=False, label="constrained depth"),
     # [map] and [[fault]]
     "default_fault_dip": Range(0.0, 90.0, "degrees", lo_ok=False, label="default fault dip"),
     "dip": Range(0.0, 90.0, "degrees", lo_ok=False, label="fault dip"),

@@ -28,6 +28,7 @@ class Unit:
     # thickness = "map" in the project file: measured from the map when the inputs are
     # loaded (mapsection.thickness); thickness is NaN until then.
     thickness_from_map: bool = False
+    label: str | None = None  # a short label for the figures, e.g. "Jo"
 
 
 @dataclass(frozen=True)

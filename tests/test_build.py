@@ -244,3 +244,19 @@ def test_failed_first_build_leaves_no_folder(tmp_path, monkeypatch):
     result = CliRunner().invoke(cli, ["build", str(SAMPLE), "-o", str(tmp_path / "new")])
     assert result.exit_code == 2
     assert not (tmp_path / "new").exists()
+
+
+def test_every_pdf_has_truetype_fonts_and_the_sheet_is_a3(built):
+    # The PDFs a build writes embed TrueType (Type 42) fonts, never Type 3 (pypdf reads the
+    # font dictionaries); the section sheet is ISO 216 A3 landscape, 420 x 297 mm.
+    pypdf = pytest.importorskip("pypdf")
+    _, folders, _ = built
+    for folder in folders:
+        for pdf in sorted(folder.glob("*.pdf")):
+            page = pypdf.PdfReader(pdf).pages[0]
+            subtypes = {str(ref.get_object()["/Subtype"])
+                        for ref in page["/Resources"]["/Font"].values()}
+            assert "/Type3" not in subtypes, pdf.name
+        box = pypdf.PdfReader(folder / "section.pdf").pages[0].mediabox
+        assert (float(box.width), float(box.height)) == pytest.approx(
+            (420 * 72 / 25.4, 297 * 72 / 25.4), abs=0.01)

@@ -281,7 +281,7 @@ CASES = [
          ("project.toml", "stratigraphy[0].thickness")),
     Case("P30", P, edited("thickness = 300.0", 'thickness = "thick"'),
          ("project.toml", "stratigraphy[0].thickness")),
-    Case("P31", P, edited('colour = "#e8c468"', 'colour = "yellow"'),
+    Case("P31", P, edited('age = "Jurassic"', 'colour = "yellow"\nage = "Jurassic"'),
          ("project.toml", "stratigraphy[1].colour")),
     Case("P32", P, edited('name = "B"', 'name = "A"'), ("project.toml", "'A'")),
     Case("P33", P, edited('unit = "Osk Sandstone"', 'unit = "Brantel Shale"'),

@@ -20,7 +20,7 @@ from shapely.geometry import LineString, box
 
 from mapsection.draft import Draft
 from mapsection.render.colours import chart_colour, fault_kind, unit_colours
-from mapsection.render.layout import nice_length, page_layout, ve_text
+from mapsection.render.layout import compass_point, nice_length, sheet_layout, ve_text
 from mapsection.render.section import draw_section, section_figure
 from mapsection.stratigraphy import Column, Unit
 
@@ -87,10 +87,19 @@ def test_svg_states_ve_names_ends_and_caution(written):
     _, paths = written
     text = paths[1].read_text(encoding="utf-8")
     assert "V.E. 2×" in text
-    assert "A′" in text and "bearing 036.9°" in text  # first segment (3000, 4000): atan2
-    assert "bearing 090.0°" in text
-    assert "qualified geologist" in text
-    assert "Location (geologic map)" in text
+    # The ends face back along the first segment and ahead along the last: the first
+    # segment (3000, 4000) has bearing atan2(3000, 4000) = 036.9°, so the start faces
+    # 216.9° (SW); the last segment runs east (090.0°, E).
+    assert "A′" in text and "SW  (bearing 216.9°)" in text
+    assert "E  (bearing 090.0°)" in text
+    assert "CAUTION: A draft section is an interpretation" in text  # the caution, wrapped
+    assert "Location (geologic map" in text
+
+
+def test_compass_points():
+    # The 16-point compass rose: 22.5° sectors centred on N, NNE, NE ... (common practice)
+    assert [compass_point(b) for b in (0, 11.0, 11.3, 45, 125, 180, 305, 348.7)] == \
+        ["N", "N", "NNE", "NE", "SE", "S", "NW", "NNW"]
 
 
 @pytest.mark.parametrize("ve", [1.0, 2.0])
@@ -182,9 +191,9 @@ def test_rebuild_gives_identical_files(tmp_path, written):
 
 
 @pytest.mark.parametrize("ve", [1.0, 2.0, 6.0])
-def test_page_is_used_and_nothing_overlaps_the_section(ve):
-    # self-consistency: the page is sized to the section; the VE statement and the scale
-    # bar sit just under it, the inset and legend beside or under it, none on top of it.
+def test_nothing_overlaps_the_section(ve):
+    # self-consistency: the location map, legend, title block and texts of the sheet sit
+    # beside or under the section, none on top of it, all within the sheet.
     draft = hand_draft(ve)
     fig = section_figure(draft, hand_map(draft))
     canvas = FigureCanvasAgg(fig)
@@ -192,20 +201,8 @@ def test_page_is_used_and_nothing_overlaps_the_section(ve):
     r = canvas.get_renderer()
     ax, inset = fig.axes
     box = ax.get_window_extent(r)
-    # No empty band across the page: every horizontal strip of it holds something.
-    filled = [ax.get_tightbbox(r), inset.get_tightbbox(r),
-              *[t.get_window_extent(r) for t in fig.texts]]
-    spans = sorted((bb.y0, bb.y1) for bb in filled)
-    top = 0.0
-    for y0, y1 in spans:
-        assert (y0 - top) / fig.dpi < 0.4  # inches of nothing
-        top = max(top, y1)
-    assert (fig.get_figheight() * fig.dpi - top) / fig.dpi < 0.4
-    ve_label = next(t for t in ax.texts if t.get_text() == ve_text(ve))
-    gap = (box.y0 - ve_label.get_window_extent(r).y1) / fig.dpi
-    assert 0.2 < gap < 0.9  # inches: under the tick labels and the axis label
     others = [inset.get_window_extent(r), *[t.get_window_extent(r) for t in fig.texts],
-              *[a.get_window_extent(r) for a in fig.artists]]
+              *[a.get_window_extent(r) for a in fig.artists if a.get_gid() != "neatline"]]
     for bb in others:
         assert not bb.overlaps(box)
         assert bb.x1 <= fig.get_figwidth() * fig.dpi + 1 and bb.y0 >= -1
@@ -215,14 +212,15 @@ def test_page_is_used_and_nothing_overlaps_the_section(ve):
                                                      rel=1e-3)
 
 
-def test_page_layout_tall_and_flat_sections():
-    # self-consistency: a tall section narrows the page at one scale; a flat one gets
-    # more elevation range instead of a distorted box; units and symbols keep apart.
-    tall = page_layout(1000.0, 3000.0, 1.0, (6, 6))
-    left, bottom, width, height = tall.axes
-    assert height == pytest.approx(5.5) and width == pytest.approx(5.5 / 3.0)
-    assert tall.legend_rows == 12  # one column, beside the section under the inset
-    flat = page_layout(50000.0, 500.0, 1.0, (6, 6))
-    assert flat.axes[3] == pytest.approx(1.0)
-    assert flat.yspan / 50000.0 == pytest.approx(flat.axes[3] / flat.axes[2])
-    assert flat.legend_rows == 6  # the units in one column, the symbols in the next
+def test_sheet_layout_scale_and_refusal():
+    # The largest standard scale at which the section fits; a scale asked that does not
+    # fit is refused with the one that would.
+    from mapsection.errors import ParameterError
+    from mapsection.render.layout import MM
+
+    lay = sheet_layout(420 * MM, 297 * MM, 9000.0, 3000.0, 1.0, 14, 16)
+    assert lay.scale == 50000.0  # 180 mm at 1:50,000; 360 mm at 1:25,000 does not fit
+    assert lay.axes[2] == pytest.approx(9000.0 / 50000.0 * 1000 * MM)
+    assert lay.axes[3] == pytest.approx(3000.0 / 50000.0 * 1000 * MM)
+    with pytest.raises(ParameterError, match="1:50,000"):
+        sheet_layout(420 * MM, 297 * MM, 9000.0, 3000.0, 1.0, 14, 16, scale=25000.0)

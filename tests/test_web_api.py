@@ -72,8 +72,11 @@ def test_project(client, state):
     assert d["crs"]["code"] == "EPSG:32611"
     assert [u["unit"] for u in d["column"]] == [u.name for u in state.project.column.units]
     assert all(u["colour"].startswith("#") for u in d["column"])
-    # the column's own colour wins (project file: Osk Sandstone colour = "#e8c468")
-    assert {u["unit"]: u["colour"] for u in d["column"]}["Osk Sandstone"] == "#e8c468"
+    # the sample column takes chart colours by age (Osk Sandstone: Jurassic)
+    from mapsection.render.colours import chart_colour
+
+    assert {u["unit"]: u["colour"] for u in d["column"]}["Osk Sandstone"] == \
+        chart_colour("Jurassic")
     assert [s["name"] for s in d["sections"]] == ["A", "B"]
     left, bottom, right, top = d["extent"]
     assert left < right and bottom < top

@@ -23,8 +23,18 @@ from ._progress import start_progress
               help="Construction method for every section [default: each section's own].")
 @click.option("--ve", type=click.FloatRange(min=0.0, min_open=True), metavar="FACTOR",
               help="Vertical exaggeration of the figures [default: each section's own, 1].")
+@click.option("--sheet", metavar="NAME",
+              help="Sheet of the section figure: A4, A3, A2, A1, A0, letter or tabloid, "
+                   "landscape [default: each section's own, A3].")
+@click.option("--scale", metavar="N",
+              help="Horizontal scale 1:N of the figure (25000 or 1:25000) [default: each "
+                   "section's own, else the largest of 1:5,000, 1:10,000, 1:25,000, "
+                   "1:50,000, 1:100,000 ... at which the section fits the sheet].")
+@click.option("--portrait", is_flag=True, default=None,
+              help="Portrait sheet (map, legend and title block under the section).")
 def command(project: str, outdir: str, section: str | None, method: str | None,
-            ve: float | None) -> None:
+            ve: float | None, sheet: str | None = None, scale: str | None = None,
+            portrait: bool | None = None) -> None:
     """Construct the draft section of each section line of a project and write its outputs.
 
     For every [[section]] of PROJECT.toml (or the one named with --section), the
@@ -46,6 +56,7 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
     Example (the sample area):
       mapsection build sample_area/project.toml -o out
       mapsection build sample_area/project.toml -o out --section B --method arc --ve 2
+      mapsection build sample_area/project.toml -o out --sheet A2 --scale 1:25000
     """
     start_progress()
     from ..build import build_project
@@ -53,7 +64,8 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
 
     summaries: dict = {}
     folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn,
-                            note=note, summaries=summaries)
+                            note=note, summaries=summaries, sheet=sheet, scale=scale,
+                            portrait=portrait or None)
     for folder in folders:
         # the line demo prints for a section: PASS, FAIL or NOT TESTED (never a pass unmeasured)
         click.echo(f"{folder}: {result_line(summaries[folder])}" if folder in summaries

@@ -101,7 +101,12 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
             if json_path is not None:
                 write_checks_json(report, json_path)
             if html_path is not None:
-                write_check_report(html_path, draft, report, inputs.map_data)
+                from ..build import sheet_options, title_info
+
+                # The same sheet and title block as a build's figure of the section.
+                write_check_report(html_path, draft, report, inputs.map_data,
+                                   sheet=sheet_options(spec, draft),
+                                   info=title_info(project, inputs.dem.crs))
     finally:
         inputs.close()
     click.echo(verdict_line(statuses))

@@ -33,9 +33,11 @@ from dataclasses import dataclass
 from ..stratigraphy import Column
 
 # International Chronostratigraphic Chart colours (CGMW/ICS), RGB 0-255.
-# These values were recalled from memory of the published chart and have NOT
-# been checked against it entry by entry; where a project needs exact chart
-# colours it should give them as `colour = "#rrggbb"` in [[stratigraphy]].
+# The twelve Phanerozoic periods (Quaternary ... Cambrian) agree with the chart's
+# values as quoted by several independent public tables (the chart itself was not at
+# hand); every other entry (eons, eras, epochs) is recalled from memory of the
+# published chart and has NOT been checked entry by entry. Where a project needs exact
+# chart colours it should give them as `colour = "#rrggbb"` in [[stratigraphy]].
 _CHART_RGB: dict[str, tuple[int, int, int]] = {
     # eons / eras
     "phanerozoic": (154, 217, 221),
@@ -195,6 +197,29 @@ FAULT = LineStyle(2.0, "black")
 AXIAL_SURFACE = LineStyle(0.5, "#7a7a7a", (1.0, 2.0))
 DIP_TICK = LineStyle(1.3, "#1a1a8c")
 SECTION_LINE = LineStyle(1.6, "#d00000")
+CONTACT_INFERRED = LineStyle(0.8, "black", (6.0, 3.0))  # below the constrained depth
+FAULT_INFERRED = LineStyle(2.0, "black", (6.0, 3.0))
+MISFIT = LineStyle(1.2, "#d00000")
+
+
+def colour_sources(column: Column) -> dict[str, str]:
+    """Where each unit's colour comes from: ``project``, ``chart`` or ``palette``."""
+    return {u.name: "project" if u.colour else "chart" if chart_colour(u.age) else "palette"
+            for u in column.units}
+
+
+def colour_note(column: Column) -> str | None:
+    """A legend note when the column mixes colour sources (None when it uses one)."""
+    src = colour_sources(column)
+    kinds = set(src.values())
+    if len(kinds) < 2:
+        return None
+    if "chart" in kinds:
+        others = [n for n, k in src.items() if k != "chart"]
+        return ("Colours: CGMW/ICS chart by age except " + ", ".join(others)
+                + " (project or own colours)")
+    return "Colours: project colours, the others mapsection's own"
+
 
 def fault_kind(sense: str | None) -> str | None:
     """``"thrust"``, ``"reverse"``, ``"normal"`` or ``None`` (no sense symbol)."""

@@ -34,88 +34,157 @@ def nice_length(span: float) -> float:
     return p
 
 
-# --- page layout (inches) ------------------------------------------------------------
-LEGEND_FONT = 7.0  # points
+# --- compass words ----------------------------------------------------------------
+_POINTS16 = ("N", "NNE", "NE", "ENE", "E", "ESE", "SE", "SSE",
+             "S", "SSW", "SW", "WSW", "W", "WNW", "NW", "NNW")
+
+
+def compass_point(bearing: float) -> str:
+    """The 16-point compass direction of a bearing in degrees (N, NNE, NE, ...).
+
+    >>> compass_point(125.0), compass_point(305.0), compass_point(359.0)
+    ('SE', 'NW', 'N')
+    """
+    return _POINTS16[int(((bearing % 360.0) + 11.25) // 22.5) % 16]
+
+
+def end_bearings(first_azimuth: float, last_azimuth: float) -> tuple[float, float]:
+    """The directions the section's two ends face: the start looks back along the first
+    segment, the end ahead along the last."""
+    return (first_azimuth + 180.0) % 360.0, last_azimuth % 360.0
+
+
+# --- the sheet's layout (inches) ----------------------------------------------------
+LEGEND_FONT = 6.5  # points
 LEGEND_EM = LEGEND_FONT / 72.0  # the legend font's em, inches
-LEGEND_PITCH = 1.5 * LEGEND_EM  # one text line plus the label spacing of a legend
+LEGEND_PITCH = 1.45 * LEGEND_EM  # one text line plus the label spacing of a legend
 LEGEND_TITLE = 0.17  # the legend's title line
-LEGEND_COLUMN_WIDTH = 2.45  # a swatch and a 38-character label
-INSET_SIZE = 2.5  # the location inset is square
-_MARGIN_LEFT, _MARGIN_RIGHT, _MARGIN_TOP = 0.8, 0.25, 0.8  # tick labels; end names, title
-_GAP = 0.5  # between the section and the inset column
-_XLABEL = 0.48  # tick labels and the axis label under the section
-_ROW = 0.3  # the VE statement and the scale bar
-_CAUTION = 0.32  # the caution (two lines) at the foot of the page
-_PAGE_WIDTH = 11.2
-_SECTION_HEIGHT = (1.0, 5.5)  # the section's box, least and most
+TITLE_FONT = 6.0  # the title block's font, points
+TITLE_PITCH = 1.4 * TITLE_FONT / 72.0
+MM = 1.0 / 25.4  # inches per millimetre
+MARGIN = 10 * MM  # around everything (the neatline sits at 6 mm)
+HEADER = 11 * MM  # the figure's title line and its FAIL mark
+ENDS = 11 * MM  # end names and compass directions above the section
+AXIS_LEFT, AXIS_RIGHT = 14 * MM, 14 * MM  # elevation labels on both sides
+BELOW = 19 * MM  # distance labels, the scale bar and the VE statement under the section
+GAP = 6 * MM
 
 
 @dataclass(frozen=True)
-class PageLayout:
-    """Where everything goes on the page, in inches from its lower left corner.
+class SheetLayout:
+    """Where everything goes on the sheet, in inches from its lower left corner.
 
-    ``axes`` (left, bottom, width, height) is the section's box, whose shape is the
-    section's exaggerated shape; ``yspan`` its elevation range in metres (at least the
-    one asked, more where a very long, flat section would be thinner than the least
-    height); ``below`` the height of the VE / scale-bar row, just under the section;
-    ``legend`` the top left corner of the legend, with ``legend_rows`` rows a column
-    (the symbols start a column of their own when the legend is under the section);
-    ``inset`` (left, bottom, size) of the location inset, beside the section.
+    ``axes`` (left, bottom, width, height) is the section's box: exactly ``xspan / scale``
+    wide and ``yspan * ve / scale`` high, so that the printed sheet measures true;
+    ``room`` the box the section may use (left, bottom, width, height); ``below`` the
+    baseline of the scale-bar row; ``inset``, ``legend`` and ``title_block`` are
+    (left, bottom, width, height) boxes of the location map, the legend and the title
+    block (beside the section on a landscape sheet, under it on a portrait one).
     """
 
     width: float
     height: float
+    scale: float
     axes: tuple[float, float, float, float]
-    yspan: float
+    room: tuple[float, float, float, float]
     below: float
-    legend: tuple[float, float]
+    inset: tuple[float, float, float, float]
+    legend: tuple[float, float, float, float]
+    title_block: tuple[float, float, float, float]
     legend_rows: int
-    inset: tuple[float, float, float]
 
 
-def page_layout(xspan: float, yspan: float, ve: float, legend_rows: tuple[int, int],
-                with_inset: bool = True) -> PageLayout:
-    """Size the page to the section: its box ``xspan`` wide and ``yspan * ve`` high at one
-    scale; the inset beside it (top-aligned) and the legend (``legend_rows``: the number of
-    unit rows and of symbol rows) beside it under the inset where that fits within the
-    section's height, else under the section in columns, units apart from symbols."""
-    side = _GAP + INSET_SIZE if with_inset else 0.0
-    wa = _PAGE_WIDTH - _MARGIN_LEFT - _MARGIN_RIGHT - side
-    ha = wa * yspan * ve / xspan
-    lo, hi = _SECTION_HEIGHT
-    if ha > hi:  # a tall section: narrower page, same scale both ways times VE
-        wa, ha = wa * hi / ha, hi
-    elif ha < lo:  # a long, flat one: more air above the ground keeps the scale exact
-        yspan, ha = yspan * lo / ha, lo
-    block = _MARGIN_TOP + ha + _XLABEL + _ROW  # the section with its labels and scale row
-    n_units, n_symbols = legend_rows
-    inset_top = _MARGIN_TOP + (INSET_SIZE + 0.35 if with_inset else 0.0)  # and a gap
-    one_column = LEGEND_TITLE + (n_units + n_symbols) * LEGEND_PITCH
-    beside = with_inset and inset_top + one_column <= block
-    if beside:
-        per_column, left_h, right_h = n_units + n_symbols, block, inset_top + one_column
+def legend_height(rows: int) -> float:
+    return LEGEND_TITLE + rows * LEGEND_PITCH
+
+
+def sheet_layout(width: float, height: float, xspan: float, yspan: float, ve: float,
+                 legend_rows: int, title_rows: int, scale: float | None = None,
+                 portrait: bool = False) -> SheetLayout:
+    """Lay the sheet out (sizes in inches; ``xspan``, ``yspan`` in metres).
+
+    Parameters
+    ----------
+    width, height : float
+        The sheet, inches.
+    xspan, yspan : float
+        The section's length and elevation range, metres.
+    ve : float
+        Vertical exaggeration.
+    legend_rows, title_rows : int
+        Rows of the legend and of the title block.
+    scale : float, optional
+        The scale denominator; default: the largest standard scale that fits.
+    portrait : bool
+        Location map, legend and title block under the section instead of beside it.
+
+    Returns
+    -------
+    SheetLayout
+
+    Raises
+    ------
+    ParameterError
+        When the section does not fit the sheet at the scale asked.
+    """
+    from ..errors import ParameterError
+    from .sheet import choose_scale, scale_text
+
+    top = height - MARGIN - HEADER
+    tb_h = (title_rows + 1) * TITLE_PITCH
+    lg_h = legend_height(legend_rows)
+    if portrait:
+        strip = max(tb_h, 0.25 * height)
+        side = (MARGIN, MARGIN, width - 2 * MARGIN, strip)
+        room = (MARGIN + AXIS_LEFT, MARGIN + strip + GAP + BELOW,
+                width - 2 * MARGIN - AXIS_LEFT - AXIS_RIGHT, 0.0)
     else:
-        # The fewest rows that put the units, then the symbols, in their own columns.
-        columns = max(2, int((wa + 0.5 * _MARGIN_LEFT) // LEGEND_COLUMN_WIDTH))
-        per_column = max(n_units, n_symbols)
-        for rows in range(1, per_column + 1):
-            if -(-n_units // rows) + -(-n_symbols // rows) <= columns:
-                per_column = rows
-                break
-        left_h = block + 0.15 + LEGEND_TITLE + per_column * LEGEND_PITCH
-        right_h = inset_top
-    # Beside a flat section a smaller inset keeps the page from growing below it.
-    size = INSET_SIZE if beside else float(np.clip(left_h - _MARGIN_TOP, 1.6, INSET_SIZE))
-    right_h -= INSET_SIZE - size
-    height = max(left_h, right_h) + _CAUTION
-    width = _MARGIN_LEFT + wa + side + _MARGIN_RIGHT
-    ax_bottom = height - _MARGIN_TOP - ha
-    right_x = _MARGIN_LEFT + wa + _GAP
-    legend = ((right_x, height - inset_top) if beside
-              else (_MARGIN_LEFT, height - block - 0.15))
-    return PageLayout(width, height, (_MARGIN_LEFT, ax_bottom, wa, ha), yspan,
-                      ax_bottom - _XLABEL - _ROW / 2, legend, per_column,
-                      (right_x, height - _MARGIN_TOP - size, size))
+        sw = float(np.clip(0.27 * width, 70 * MM, 125 * MM))
+        side = (width - MARGIN - sw, MARGIN, sw, top - MARGIN)
+        room = (MARGIN + AXIS_LEFT, MARGIN + BELOW,
+                width - 2 * MARGIN - sw - GAP - AXIS_LEFT - AXIS_RIGHT, 0.0)
+    room = (room[0], room[1], room[2], top - ENDS - room[1])
+    fit = choose_scale(xspan, yspan * ve, room[2] / MM, room[3] / MM)
+    if scale is None:
+        scale = fit
+    elif scale < fit * (1 - 1e-9) and (xspan / scale * 1000 * MM > room[2] * 1.0001
+                                       or yspan * ve / scale * 1000 * MM > room[3] * 1.0001):
+        raise ParameterError(
+            f"scale {scale_text(scale)}: the section ({xspan / 1000:.2f} km long) does not fit "
+            f"the sheet at that scale; the largest standard scale that fits is "
+            f"{scale_text(fit)} (or choose a larger sheet)")
+    aw = xspan / scale * 1000 * MM
+    ah = yspan * ve / scale * 1000 * MM
+    axes = (room[0], top - ENDS - ah, aw, ah)
+    below = axes[1] - 13 * MM
+    sl, sb, sw_, sh = side
+    floor = sb + sh + GAP if portrait else MARGIN  # the lowest the legend may reach under
+    under = below - 8 * MM - floor  # the room left under the section's scale row
+    legend_under = under >= lg_h
+    if legend_under:
+        legend = (MARGIN, floor, room[0] + room[2] + AXIS_RIGHT - MARGIN, under)
+    if portrait:
+        # Under the section: location map, (legend,) title block side by side.
+        tb_w = min(110 * MM, 0.45 * sw_)
+        tb = (sl + sw_ - tb_w, sb, tb_w, tb_h)
+        inset_s = min(sh, 0.4 * sw_)
+        inset = (sl, sb + sh - inset_s, inset_s, inset_s)
+        if not legend_under:
+            legend = (sl + inset_s + GAP, sb, sw_ - inset_s - tb_w - 2 * GAP, sh)
+        else:
+            inset = (sl, sb, sw_ - tb_w - GAP, sh)
+    else:
+        tb = (sl, sb, sw_, tb_h)
+        if legend_under:  # the map takes the column
+            inset_h = sh - tb_h - GAP
+            inset = (sl, sb + sh - inset_h, sw_, inset_h)
+        else:
+            free = sh - tb_h - lg_h - 2 * GAP
+            inset_s = float(min(sw_, max(free, 40 * MM)))
+            inset = (sl, sb + sh - inset_s, sw_, inset_s)
+            legend = (sl, sb + tb_h + GAP, sw_, sh - inset_s - tb_h - 2 * GAP)
+    return SheetLayout(width, height, float(scale), axes, room, below, inset, legend, tb,
+                       legend_rows)
 
 
 def tick_segment(d, z, apparent_dip, ve: float, half_length: float):

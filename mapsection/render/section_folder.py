@@ -62,13 +62,19 @@ def _write_check_figures(folder: Path, draft: Draft, report: CheckReport
     restoration = report.restoration
     if (folder / "section.gpkg").is_file():
         add_layers(folder / "section.gpkg", restoration_frames(restoration))
-    out += draw_restoration(restoration, folder / "restored")
+    import matplotlib
+
+    # TrueType (Type 42) fonts in the PDF, as on the section sheet: publishers refuse Type 3.
+    with matplotlib.rc_context({"pdf.fonttype": 42, "ps.fonttype": 42}):
+        out += draw_restoration(restoration, folder / "restored")
     figures["restored"] = folder / "restored.png"
     # The structure forming step by step: sequence/sequence_01.png ... and a GIF.
     seq = folder / "sequence"
     seq.mkdir()
     frames = incremental_sequence(draft, restoration)
-    written = write_sequence(frames, seq, column=draft.column, title=draft.name)
+    written = write_sequence(frames, seq, column=draft.column, title=draft.name,
+                             ve=float(draft.ve or 1.0),
+                             ground=(draft.profile.distance, draft.profile.z))
     out += written
     pngs = [p for p in written if p.suffix == ".png"]
     if pngs:
@@ -78,7 +84,7 @@ def _write_check_figures(folder: Path, draft: Draft, report: CheckReport
         figures["sequence"] = gifs[0]
     fit = report.area_balance.detachment
     if fit is not None and len(fit.points) >= 2:
-        out.append(draw_area_depth(fit, folder / "area_depth.png"))
+        out.append(draw_area_depth(fit, folder / "area_depth.png", draft.name))
         figures["area_depth"] = folder / "area_depth.png"
     return out, figures
 
@@ -119,18 +125,21 @@ def write_check_outputs(folder: str | os.PathLike, draft: Draft, report: CheckRe
 
 
 def write_check_report(path: str | os.PathLike, draft: Draft, report: CheckReport,
-                       map_data: MapData | None = None) -> Path:
+                       map_data: MapData | None = None, *, sheet=None, info=None) -> Path:
     """Write report.html alone: the report a build writes for the section, all-or-nothing.
 
-    The section figure (with its location inset when ``map_data`` is given) and the
-    checks' outputs are drawn in a scratch folder by :func:`write_check_outputs`; only
-    the report, which embeds them, is kept.
+    The section figure (with its location map when ``map_data`` is given, the FAIL mark
+    and contact misfits of ``report``; ``sheet`` and ``info`` as for
+    :func:`mapsection.render.section.draw_section`) and the checks' outputs are drawn in
+    a scratch folder by :func:`write_check_outputs`; only the report, which embeds them,
+    is kept.
     """
     from .section import draw_section
 
     path = Path(path)
     with tempfile.TemporaryDirectory(prefix="mapsection-check-") as tmp:
-        draw_section(draft, Path(tmp) / "section", map_data, formats=("png",))
+        draw_section(draft, Path(tmp) / "section", map_data, formats=("png",), sheet=sheet,
+                     info=info, checks=report)
         write_check_outputs(tmp, draft, report)
         with atomic_file(path) as target:
             shutil.copyfile(Path(tmp) / "report.html", target)
