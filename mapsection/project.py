@@ -26,6 +26,7 @@ from .settings import (
     MAX_LINE_LENGTH_M,
     SECTION_SETTING_KEYS,
     THRESHOLD_KEYS,
+    FaultSpec,
     SectionSettings,
     Thresholds,
     check_choice,
@@ -68,25 +69,6 @@ class SectionSpec(SectionSettings):
     scale: float | None = None  # the figure's scale denominator; None: the largest that fits
     portrait: bool = False
     constrained_depth: float | None = None  # m below the lowest ground; dashed below
-
-
-@dataclass(frozen=True)
-class FaultSpec:
-    """What the project says of one mapped fault (a ``[[fault]]`` table), matched by the
-    faults layer's name field.
-
-    ``dip``: true dip (degrees) where the layer has none; ``detachment``: the elevation
-    (m) of the flat the fault soles into, or the name of the footwall unit along whose
-    base the flat runs; ``radius``: metres, the curvature of the bend into the flat
-    (listric; default a sharp bend); ``cuts``: the faults this one cuts (it is younger).
-    """
-
-    name: str
-    dip: float | None = None
-    detachment: float | str | None = None
-    radius: float | None = None
-    cuts: tuple[str, ...] = ()
-    fold: str | None = None
 
 
 @dataclass(frozen=True)

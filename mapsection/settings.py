@@ -261,10 +261,31 @@ def threshold_problem(thresholds: Thresholds) -> tuple[str, str] | None:
     return None
 
 
+@dataclass(frozen=True)
+class FaultSpec:
+    """What the project says of one mapped fault (a ``[[fault]]`` table), matched by the
+    faults layer's name field; the construction takes it as it is
+    (:mod:`mapsection.construct.faults`).
+
+    ``dip``: true dip (degrees) where the layer has none; ``detachment``: the elevation
+    (m) of the flat the fault soles into, or the name of the footwall unit along whose
+    base the flat runs; ``radius``: metres, the curvature of the bend into the flat
+    (listric; default a sharp bend); ``cuts``: the faults this one cuts (it is younger).
+    """
+
+    name: str
+    dip: float | None = None
+    detachment: float | str | None = None
+    radius: float | None = None
+    cuts: tuple[str, ...] = ()
+    fold: str | None = None
+
+
 SECTION_SETTING_KEYS = frozenset(f.name for f in fields(SectionSettings))
 THRESHOLD_KEYS = frozenset(f.name for f in fields(Thresholds))
 
 __all__ = ["CHOICES", "CONVENTIONS", "DEFAULTS", "MAX_LINE_LENGTH_M", "METHODS",
-           "PROJECTIONS", "RANGES", "SECTION_SETTING_KEYS", "THRESHOLD_KEYS", "VERTICAL_UNITS",
+           "FaultSpec", "PROJECTIONS", "RANGES", "SECTION_SETTING_KEYS", "THRESHOLD_KEYS",
+           "VERTICAL_UNITS",
            "Range", "SectionSettings", "Thresholds", "check_choice", "check_number",
            "large_note", "threshold_problem"]

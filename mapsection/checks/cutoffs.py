@@ -251,8 +251,11 @@ class FaultCutoffs:
 
 
 @dataclass
-class CutoffCheck:
-    faults: list[FaultCutoffs]
+class _PerFaultCheck:
+    """A check judged fault by fault, with its threshold (a share of the fault's mean
+    separation, or DEM pixels, the larger)."""
+
+    faults: list
     fraction: float
     pixels: float
     status: str
@@ -267,6 +270,11 @@ class CutoffCheck:
                 "threshold_fraction_of_mean_separation": self.fraction,
                 "threshold_pixels": self.pixels,
                 "faults": [f.to_dict() for f in self.faults]}
+
+
+@dataclass
+class CutoffCheck(_PerFaultCheck):
+    faults: list[FaultCutoffs]
 
     def lines(self) -> list[str]:
         out = []
@@ -423,22 +431,8 @@ class FaultSeparations:
 
 
 @dataclass
-class SeparationCheck:
+class SeparationCheck(_PerFaultCheck):
     faults: list[FaultSeparations]
-    fraction: float
-    pixels: float
-    status: str
-    reasons: list[str] = field(default_factory=list)
-
-    @property
-    def passed(self) -> bool | None:
-        return None if self.status == "not_tested" else self.status == "pass"
-
-    def to_dict(self) -> dict:
-        return {"status": self.status, "passed": self.passed, "reasons": list(self.reasons),
-                "threshold_fraction_of_mean_separation": self.fraction,
-                "threshold_pixels": self.pixels,
-                "faults": [f.to_dict() for f in self.faults]}
 
     def lines(self) -> list[str]:
         out = []

@@ -30,25 +30,15 @@ from ..dips import apparent_dip
 from ..errors import ConstructionError
 from ..geology import FaultCrossing
 from ..notes import Notes
+from ..settings import FaultSpec
 from .frame import SectionFrame
 
 _MIN_FAULT_DIP = 1.0  # degrees; a flatter trace cannot bound blocks along the line
 _ARC_STEP = 2.0  # degrees between the vertices of a listric bend
 
 
-@dataclass(frozen=True)
-class FaultSetting:
-    """What the project says of one fault (see :class:`mapsection.project.FaultSpec`):
-    its true ``dip`` where the map has none, its ``detachment`` (elevation in metres, or
-    the unit along whose base the flat runs), the ``radius`` of the bend into the flat,
-    the faults it ``cuts`` and its hanging wall's ``fold`` model (``"fault-bend"``)."""
-
-    name: str
-    dip: float | None = None
-    detachment: float | str | None = None
-    radius: float | None = None
-    cuts: tuple[str, ...] = ()
-    fold: str | None = None
+# What the project says of one fault ([[fault]]): the settings' own class, taken as it is.
+FaultSetting = FaultSpec
 
 
 @dataclass(frozen=True)
