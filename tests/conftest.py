@@ -417,3 +417,58 @@ def sample_statuses():
         return cache[name]
 
     return statuses
+
+
+# --- a small map around hand_draft, and a complete project file --------------------------
+
+
+def hand_map(draft: Draft):
+    """Three unit boxes and two faults around a hand-made draft's line (invented)."""
+    import geopandas as gpd
+
+    from mapsection.mapdata import MapData
+
+    v = draft.line.vertices
+    (x0, y0), (x1, y1) = v.min(0) - 2000, v.max(0) + 2000
+    xm = (x0 + x1) / 2
+    units = gpd.GeoDataFrame({"unit": ["Tu", "Km", "Jl"]},
+                             geometry=[box(x0, y0, xm, y1), box(xm, y0, x1, (y0 + y1) / 2),
+                                       box(xm, (y0 + y1) / 2, x1, y1)], crs=draft.line.crs)
+    faults = gpd.GeoDataFrame({"dip": [60.0, 30.0], "dip_direction": [90.0, 0.0],
+                               "sense": ["normal", "thrust"], "name": ["Fa", "Fb"]},
+                              geometry=[LineString([(5000, 1000), (5200, 9000)]),
+                                        LineString([(x0, 4500), (x1, 4800)])],
+                              crs=draft.line.crs)
+    return MapData(units, "unit", faults, {k: k for k in ("dip", "dip_direction", "sense",
+                                                          "name")})
+
+
+GOOD_PROJECT = """  # a complete project file (docs/index.md keys)
+
+crs = "EPSG:32611"
+[dem]
+path = "dem.tif"
+[map]
+path = "geology.gpkg"
+units_layer = "units"
+unit_field = "unit"
+faults_layer = "faults"
+[attitudes]
+path = "attitudes.csv"
+[[stratigraphy]]
+unit = "Upper"
+thickness = 250.0
+[[stratigraphy]]
+unit = "Lower"
+thickness = 300
+age = "Jurassic"
+[[section]]
+name = "A"
+line = [[500000.0, 4000000.0], [505000.0, 4001000.0]]
+corridor = 500.0
+method = "kink"
+[[section]]
+name = "B"
+line = [[500000, 4000000], [502000, 4003000], [506000, 4003500]]
+method = "arc"
+"""

@@ -10,37 +10,16 @@ import math
 import re
 import xml.etree.ElementTree as ET
 
-import geopandas as gpd
 import numpy as np
 import pytest
-from conftest import APPARENT, hand_draft
+from conftest import APPARENT, hand_draft, hand_map
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from PIL import Image
-from shapely.geometry import LineString, box
 
-from mapsection.draft import Draft
 from mapsection.render.colours import chart_colour, fault_kind, unit_colours
 from mapsection.render.layout import compass_point, nice_length, sheet_layout, ve_text
 from mapsection.render.section import draw_section, section_figure
 from mapsection.stratigraphy import Column, Unit
-
-
-def hand_map(draft: Draft):
-    from mapsection.mapdata import MapData
-
-    v = draft.line.vertices
-    (x0, y0), (x1, y1) = v.min(0) - 2000, v.max(0) + 2000
-    xm = (x0 + x1) / 2
-    units = gpd.GeoDataFrame({"unit": ["Tu", "Km", "Jl"]},
-                             geometry=[box(x0, y0, xm, y1), box(xm, y0, x1, (y0 + y1) / 2),
-                                       box(xm, (y0 + y1) / 2, x1, y1)], crs=draft.line.crs)
-    faults = gpd.GeoDataFrame({"dip": [60.0, 30.0], "dip_direction": [90.0, 0.0],
-                               "sense": ["normal", "thrust"], "name": ["Fa", "Fb"]},
-                              geometry=[LineString([(5000, 1000), (5200, 9000)]),
-                                        LineString([(x0, 4500), (x1, 4800)])],
-                              crs=draft.line.crs)
-    return MapData(units, "unit", faults, {k: k for k in ("dip", "dip_direction", "sense",
-                                                          "name")})
 
 
 def _gids(svg_path, prefix: str) -> set[str]:

@@ -5,38 +5,10 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from conftest import GOOD_PROJECT as GOOD
 
 from mapsection.errors import ProjectFileError
 from mapsection.project import load_project
-
-GOOD = """
-crs = "EPSG:32611"
-[dem]
-path = "dem.tif"
-[map]
-path = "geology.gpkg"
-units_layer = "units"
-unit_field = "unit"
-faults_layer = "faults"
-[attitudes]
-path = "attitudes.csv"
-[[stratigraphy]]
-unit = "Upper"
-thickness = 250.0
-[[stratigraphy]]
-unit = "Lower"
-thickness = 300
-age = "Jurassic"
-[[section]]
-name = "A"
-line = [[500000.0, 4000000.0], [505000.0, 4001000.0]]
-corridor = 500.0
-method = "kink"
-[[section]]
-name = "B"
-line = [[500000, 4000000], [502000, 4003000], [506000, 4003500]]
-method = "arc"
-"""
 
 
 def write(tmp_path: Path, text: str) -> Path:

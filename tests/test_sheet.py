@@ -199,7 +199,7 @@ def test_failed_draft_carries_fail_mark_and_misfits():
                                    contact_misfits=[misfit, small]),
         restoration=SimpleNamespace(passed=True), area_balance=SimpleNamespace(passed=None),
         kinematics=SimpleNamespace(passed=False))
-    from test_figure import hand_map
+    from conftest import hand_map
 
     fig = section_figure(draft, hand_map(draft), checks=checks)
     fail = [t.get_text() for t in fig.texts if t.get_gid() == "fail-mark"]
@@ -214,6 +214,17 @@ def test_failed_draft_carries_fail_mark_and_misfits():
     checks.topography.passed, checks.kinematics.passed = True, True
     fig = section_figure(draft, checks=checks)
     assert not [t for t in fig.texts if t.get_gid() == "fail-mark"]
+
+
+def test_pin_and_loose_lines_drawn_where_the_restoration_put_them():
+    # issue 12: pin and loose lines on the section as on the restoration
+    draft = hand_draft(1.0)
+    checks = SimpleNamespace(restoration=SimpleNamespace(passed=True, pin_m=7500.0,
+                                                         loose_m=500.0))
+    ax = section_figure(draft, checks=checks).axes[0]
+    at = {ln.get_gid(): ln.get_xdata()[0] for ln in ax.get_lines()
+          if ln.get_gid() in ("pin-line", "loose-line")}
+    assert at == {"pin-line": 7500.0, "loose-line": 500.0}
 
 
 def test_sheet_names_scales_and_errors():
@@ -244,7 +255,7 @@ def test_vertical_datum_from_a_compound_crs():
 
 def test_project_sheet_keys(tmp_path):
     # self-consistency: the documented keys of docs/index.md load as written
-    from test_project import GOOD
+    from conftest import GOOD_PROJECT as GOOD
 
     from mapsection.errors import ProjectFileError
     from mapsection.project import load_project

@@ -689,6 +689,29 @@ def _draw_misfits(ax, pg: _Page, misfits) -> None:
                     ha="center", zorder=10)
 
 
+def _pin_and_loose(checks) -> list[tuple[str, float]]:
+    """The restoration's pin and loose lines (distance along the section), when it ran."""
+    rest = getattr(checks, "restoration", None) if checks is not None else None
+    out = []
+    for label, key in (("pin", "pin_m"), ("loose", "loose_m")):
+        x = getattr(rest, key, None)
+        if x is not None and math.isfinite(float(x)):
+            out.append((label, float(x)))
+    return out
+
+
+def _draw_pin_and_loose(ax, pg: _Page, lines: list[tuple[str, float]]) -> None:
+    """The pin and loose lines the restoration used, as verticals through the section
+    (the restored section draws the same two), labelled at the top."""
+    for label, x in lines:
+        ln = ax.axvline(x, color="#8b0000" if label == "pin" else "#1f5fa8", lw=0.8,
+                        ls=(0, (6, 3)), zorder=9)
+        ln.set_gid(f"{label}-line")
+        ax.annotate(f"{label} line", (x, 1.0), xycoords=("data", "axes fraction"),
+                    xytext=(2, -8), textcoords="offset points", fontsize=6,
+                    color=ln.get_color(), zorder=9)
+
+
 def _plan(draft: Draft, sheet: SheetOptions, info: TitleInfo, checks=None):
     """The sheet's layout and what it was sized from: (layout, elevation limits, palette,
     legend rows, misfits)."""
@@ -764,6 +787,7 @@ def section_figure(draft: Draft, map_data: MapData | None = None, *,
     _draw_dips(ax, pg)
     _draw_unit_labels(ax, pg)
     _draw_misfits(ax, pg, misfits)
+    _draw_pin_and_loose(ax, pg, _pin_and_loose(checks))
     _draw_frame(fig, ax, pg, (x0, x1), ylim, info, checks)
     _draw_scale(fig, ax, pg, x0, xspan)
     _legend(fig, legend_rows, lay.legend)
