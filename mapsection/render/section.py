@@ -707,9 +707,10 @@ def _draw_pin_and_loose(ax, pg: _Page, lines: list[tuple[str, float]]) -> None:
         ln = ax.axvline(x, color="#8b0000" if label == "pin" else "#1f5fa8", lw=0.8,
                         ls=(0, (6, 3)), zorder=9)
         ln.set_gid(f"{label}-line")
+        right = x > 0.5 * float(pg.draft.line.length)  # label inside the frame
         ax.annotate(f"{label} line", (x, 1.0), xycoords=("data", "axes fraction"),
-                    xytext=(2, -8), textcoords="offset points", fontsize=6,
-                    color=ln.get_color(), zorder=9)
+                    xytext=(-2 if right else 2, -8), textcoords="offset points", fontsize=6,
+                    ha="right" if right else "left", color=ln.get_color(), zorder=9)
 
 
 def _plan(draft: Draft, sheet: SheetOptions, info: TitleInfo, checks=None):
