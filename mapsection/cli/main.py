@@ -13,7 +13,6 @@ import sys
 import textwrap
 
 import click
-from click.utils import make_default_short_help
 
 from .. import __version__
 from ..caution import CAUTION
@@ -52,6 +51,14 @@ Run 'mapsection COMMAND --help' for each command; the user guide is in docs/.
 _LONG = ("build", "check", "demo")
 
 
+def _short(text: str, limit: int) -> str:
+    """A command's first sentence, cut at a word to ``limit`` characters ("..." added)."""
+    if len(text) <= limit:
+        return text
+    cut = text[: max(limit - 3, 1)].rsplit(" ", 1)[0]
+    return cut.rstrip(" ,;:") + "..."
+
+
 class _LazyGroup(click.Group):
     def resolve_command(self, ctx: click.Context, args: list[str]):
         if args and args[0] in _LONG and not {"-h", "--help"} & set(args[1:]):
@@ -82,7 +89,7 @@ class _LazyGroup(click.Group):
         if not names:
             return
         limit = formatter.width - 6 - max(len(n) for n in names)
-        rows = [(n, make_default_short_help(COMMANDS[n][1], limit)) for n in names]
+        rows = [(n, _short(COMMANDS[n][1], limit)) for n in names]
         with formatter.section("Commands"):
             formatter.write_dl(rows)
 
