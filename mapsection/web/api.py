@@ -129,48 +129,29 @@ def check_status(test: dict) -> str:
     return "not_tested"
 
 
-def _key_figures(name: str, test: dict) -> dict[str, Any]:
-    """The few figures the page shows beside a verdict (from the test's own dict)."""
-    if name == "topography":
-        keys = ("contact_rms_m", "contact_threshold_m", "unit_agreement", "dip_rms_deg")
-    elif name == "restoration":
-        keys = ("shortening_pct", "shortening_m", "line_length_mismatch_pct")
-    elif name == "area_balance":
-        unit, worst = _worst_unit(test.get("units"))
-        out: dict[str, Any] = {"worst_unit": unit or None, "worst_mismatch_pct": _num(worst, 2)}
-        fit = test.get("detachment") or {}
-        if fit.get("reliable"):
-            out["depth_to_detachment_m"] = _num(fit.get("depth_to_detachment_m"), 0)
-        return out
-    else:
-        return {"inconsistencies": len(test.get("failures") or []),
-                "transport": test.get("transport_direction"),
-                "fault_bend_folds": len(test.get("fault_bend_folds") or [])}
-    return {k: _num(test.get(k), 3) for k in keys if k in test}
-
-
-def _worst_unit(units) -> tuple[str, float | None]:
-    """The unit with the largest |mismatch_pct| of an area-balance ``units`` entry."""
-    items = units.items() if isinstance(units, dict) else (
-        (u.get("unit", u.get("name", "?")), u) for u in (units or []) if isinstance(u, dict))
-    worst, value = "", None
-    for name, u in items:
-        m = _num(u.get("mismatch_pct") if isinstance(u, dict) else None, 6)
-        if m is not None and (value is None or abs(m) > abs(value)):
-            worst, value = str(name), m
-    return worst, value
-
-
-def _reasons(test: dict) -> list[str]:
-    """Why a test failed or was not tested, where the check says so."""
-    out: list[str] = []
-    for key in ("reasons", "issues", "failures"):
-        for item in test.get(key) or []:
-            text = item if isinstance(item, str) else (
-                item.get("reason") or item.get("message") or json.dumps(item)[:200]
-                if isinstance(item, dict) else str(item))
-            out.append(str(text))
-    return out[:8]
+def _page_figures(key) -> dict[str, dict[str, Any]]:
+    """The few figures the page shows beside each verdict, from the one set of key figures
+    (:func:`mapsection.checks.key_figures`) the command line and the report use too."""
+    t, r, a, k = key.topography, key.restoration, key.area_balance, key.kinematics
+    worst_cutoff = [f.worst_mismatch_m for f in r.faults if math.isfinite(f.worst_mismatch_m)]
+    area: dict[str, Any] = {"worst_unit": a.worst_unit or None,
+                            "worst_mismatch_pct": _num(a.worst_mismatch_pct, 2)}
+    if a.detachment is not None and a.detachment.reliable:
+        area["depth_to_detachment_m"] = _num(a.detachment.depth_to_detachment_m, 0)
+    return {
+        "topography": {"contact_rms_m": _num(t.contact_rms_m, 1),
+                       "contact_threshold_m": _num(t.contact_threshold_m, 1),
+                       "unit_agreement": _num(t.unit_agreement, 3),
+                       "dip_rms_deg": _num(t.dip_rms_deg, 1)},
+        "restoration": {"shortening_pct": _num(r.shortening_pct, 1),
+                        "shortening_m": _num(r.shortening_m, 0),
+                        "line_length_mismatch_pct": _num(r.line_length_mismatch_pct, 2),
+                        **({"worst_cutoff_mismatch_m": _num(max(worst_cutoff), 0)}
+                           if worst_cutoff else {})},
+        "area_balance": area,
+        "kinematics": {"inconsistencies": k.inconsistencies, "transport": k.transport_direction,
+                       "fault_bend_folds": int(k.fault_bend.get("compared", 0))},
+    }
 
 
 def _not_tested(why: str) -> dict[str, dict]:
@@ -646,7 +627,7 @@ class ViewState:
         return out
 
     def _checks_json(self, draft, spec, said: list[str]) -> dict:
-        from ..checks import run_checks
+        from ..checks import key_figures, run_checks
 
         length = float(draft.line.length)
         # The section's pin and loose lines are distances along the saved line; on a moved
@@ -658,10 +639,10 @@ class ViewState:
                                 warn=said.append)
         except MapsectionError as exc:
             return _not_tested(str(exc))
-        tests = report.to_dict()
-        return {t: {"status": check_status(tests.get(t) or {}),
-                    "figures": _key_figures(t, tests.get(t) or {}),
-                    "reasons": _reasons(tests.get(t) or {})} for t in TESTS}
+        key = key_figures(report)
+        figures = _page_figures(key)
+        return {t: {"status": key.statuses[t], "figures": figures[t],
+                    "reasons": list(getattr(key, t).reasons)[:8]} for t in TESTS}
 
     # --- save and build ---------------------------------------------------------------
     def save(self, payload: Any) -> dict:
@@ -715,26 +696,25 @@ class ViewState:
             raise RequestError("a build is already running; wait for it to finish", 409)
         try:
             t0 = time.perf_counter()
-            folders = build_project(self.project_path, outdir, section=name, warn=self.warn)
+            summaries: dict = {}
+            folders = build_project(self.project_path, outdir, section=name, warn=self.warn,
+                                    summaries=summaries)
             seconds = time.perf_counter() - t0
         finally:
             self.build_lock.release()
         folder = folders[0]
         self.reports[name] = folder / "report.html"
         return {"section": name, "folder": str(folder), "seconds": round(seconds, 2),
-                "summary": _summary(folder / "checks.json"),
+                "summary": _summary(summaries.get(folder)),
                 "report": "/api/report?section=" + _quote(name)}
 
 
-def _summary(path: Path) -> str:
-    """Each test's verdict from a build's checks.json, on one line."""
-    try:
-        d = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError) as exc:
-        return f"no check results ({exc})"
+def _summary(key) -> str:
+    """Each test's verdict of a build (its key figures), on one line."""
+    if key is None:
+        return "no check results"
     words = {"pass": "pass", "fail": "FAIL", "not_tested": "not tested"}
-    return ", ".join(f"{t.replace('_', ' ')} {words[check_status(d.get(t) or {})]}"
-                     for t in TESTS)
+    return ", ".join(f"{t.replace('_', ' ')} {words[st]}" for t, st in key.statuses.items())
 
 
 def _quote(text: str) -> str:

@@ -619,7 +619,8 @@
     shortening_m: ["shortening", " m"], line_length_mismatch_pct: ["line-length spread", " %"],
     worst_unit: ["worst unit", ""], worst_mismatch_pct: ["its area mismatch", " %"],
     depth_to_detachment_m: ["depth to detachment", " m"], inconsistencies: ["inconsistencies", ""],
-    transport: ["transport", ""], fault_bend_folds: ["fault-bend folds compared", ""]};
+    transport: ["transport", ""], fault_bend_folds: ["fault-bend folds compared", ""],
+    worst_cutoff_mismatch_m: ["worst cutoff mismatch", " m"]};
   function figure(key, v) {
     const f = FIGURES[key] || [key.replace(/_/g, " "), ""];
     return f[0] + " " + (typeof v === "number" ? String(+v.toFixed(2)) : v) + f[1];
