@@ -156,6 +156,51 @@ def test_sample_area_separations_measured(sample_a):
     assert fs.threshold_m == pytest.approx(max(0.2 * abs(fs.mean_m), 2 * 25.0))
 
 
+def test_sample_area_projected_cutoffs_follow_the_rigid_hanging_wall(sample_a):
+    # Dahlstrom 1969 (rigid hanging wall on a planar fault): every horizon separates by the
+    # slip, the eroded ones cut on the fault's upward projection too. The sample model's
+    # hanging wall is its footwall translated 400 m up the fault (sample_area/README.md),
+    # so its top of the Brantel Shale, cut above the ground past the footwall's axial
+    # surface between the -12° and +10° limbs, separates like the others: 394 m, as the
+    # horizons cut below the ground (before the eroded hanging wall was carried from the
+    # footwall: 609 m, its last -12° limb carried on to the fault).
+    s = check_separations(sample_a)
+    (fs,) = s.faults
+    assert "Brantel Shale" in fs.projected
+    assert fs.separations_m["Brantel Shale"] == pytest.approx(393.7, abs=1.0)
+    assert fs.spread_m < 1.0 and fs.status == "pass"
+    # The constructed cutoffs against the model's (sample_area/model.json; the model's
+    # top of the Brantel Shale meets the fault at 7790 m (footwall) and 8130 m (hanging
+    # wall) along section A, computed from mapsection.sample.SAMPLE_MODEL).
+    from mapsection.sample import SAMPLE_MODEL
+
+    (fc,) = check_cutoffs(sample_a).faults
+    top = next(h for h in fc.horizons if h.top_of == "Brantel Shale")
+    line = np.asarray(sample_a.line.vertices, float)
+    for d, block in ((top.footwall_cutoff[0], "footwall"),
+                     (top.hanging_wall_cutoff[0], "hanging_wall")):
+        truth = _true_cutoff(SAMPLE_MODEL, line, "Brantel Shale", block)
+        assert abs(d - truth) < 50.0, (block, d, truth)
+
+
+def _true_cutoff(model, vertices, top_of: str, block: str) -> float:
+    """Distance along the line where the model's (unfaulted) horizon of ``block`` meets the
+    fault plane."""
+    import shapely
+    from shapely.geometry import LineString
+
+    line = LineString(vertices)
+    d = np.arange(0.0, line.length, 0.5)
+    pts = shapely.line_interpolate_point(line, d)
+    x, y = shapely.get_x(pts), shapely.get_y(pts)
+    hu, hv = model._horizon_arrays[list(model.horizons).index(top_of)]
+    u, a = model.to_profile(x, y)
+    du, dv = model.hanging_wall_shift if block == "hanging_wall" else (0.0, 0.0)
+    z = model._v_to_z(np.interp(u - du, hu, hv) + dv, a)
+    i = np.flatnonzero(np.diff(np.sign(z - model.fault_elevation(x, y))) != 0)
+    return float(d[i[0]])
+
+
 def test_hand_edited_sample_section_fails_at_the_fault(sample_a):
     # Issue 12, section 5: the hanging wall shifted 200 m along a fault with about 400 m
     # of slip (the Kelmby Thrust, sample_area/README.md) fails at that fault, the

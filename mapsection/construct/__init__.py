@@ -46,6 +46,7 @@ from .blocks import (
     section_dips,
     split_blocks,
 )
+from .carried import carry_hanging_walls
 from .constraints import (
     Constraints,
     contact_constraints,
@@ -214,6 +215,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     faults = _detach_on_units(faults, models, column, frame, notes)
     _fault_bend_folds(faults, blocks, models, setting, profile)
     faults, older = order_crossings(faults, frame, notes)
+    models = carry_hanging_walls(faults, blocks, models, setting, older)
     regions = [p.intersection(frame.box) for p in block_polygons(faults, frame, older)]
 
     draft = Draft(name=label, method=method, line=line, profile=profile, geology=geology,
