@@ -12,6 +12,12 @@ BASE_WORD = "base"
 BASE_PREFIX = f"{BASE_WORD} of "  # the base of the oldest unit is the horizon "base of <unit>"
 
 
+def horizon_name(top_of: str) -> str:
+    """A horizon in words: "top of <unit>", or the base of the column as it is named
+    ("base of <oldest unit>")."""
+    return top_of if is_base_name(top_of) else f"top of {top_of}"
+
+
 def is_base_name(top_of: str) -> bool:
     """True for a horizon at the base of the column: ``base of <oldest unit>`` as built, or
     any name starting with "base" (any case) in a hand-edited section."""

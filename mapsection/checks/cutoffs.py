@@ -45,6 +45,7 @@ from shapely.geometry import LineString, Point
 
 from ..draft import Draft, FaultTrace
 from ..errors import ParameterError
+from ..stratigraphy import horizon_name
 from .geometry import fault_blocks, joined_horizons, line_xy, snap_tolerance
 from .restore import Restoration
 
@@ -283,7 +284,8 @@ class CutoffCheck(_PerFaultCheck):
                 out.append(f"fault {f.fault}: cutoffs not tested ({'; '.join(f.reasons)})")
                 continue
             out.append(f"fault {f.fault}: restored by {f.slip_m:.0f} m of slip ({f.slip_source}),"
-                       f" worst cutoff mismatch {f.worst_m:.0f} m at the top of {f.worst_top_of}"
+                       f" worst cutoff mismatch {f.worst_m:.0f} m at the "
+                       f"{horizon_name(f.worst_top_of)}"
                        f" (<= {f.threshold_m:.0f} m): {f.status.upper()}")
         return out
 
@@ -396,7 +398,7 @@ def check_cutoffs(draft: Draft, *, fraction: float = CUTOFF_FRACTION,
         # mean: that is the separation spread again, not a restoration; not tested.
         status = "not_tested" if not rec_all else "fail" if bad else "pass"
         for h in bad if rec_all else []:
-            reasons.append(f"top of {h.top_of}: restored hanging-wall cutoff "
+            reasons.append(f"{horizon_name(h.top_of)}: restored hanging-wall cutoff "
                            f"{abs(h.mismatch_m):.0f} m from the footwall cutoff "
                            f"({h.kind}; > {thr:.0f} m)")
         results.append(FaultCutoffs(f.name, fb.ground_x, fb.hanging_wall, fb.footwall, slip,
@@ -507,8 +509,9 @@ def check_separations(draft: Draft, *, fraction: float = SPREAD_FRACTION,
             lo = min(seps, key=seps.get)
             hi = max(seps, key=seps.get)
             reasons.append(f"separations spread {spread:.0f} m ({pct:.0f} % of the mean "
-                           f"{mean:.0f} m; > {thr:.0f} m): {seps[lo]:.0f} m at the top of {lo}, "
-                           f"{seps[hi]:.0f} m at the top of {hi}")
+                           f"{mean:.0f} m; > {thr:.0f} m): {seps[lo]:.0f} m at the "
+                           f"{horizon_name(lo)}, "
+                           f"{seps[hi]:.0f} m at the {horizon_name(hi)}")
         out.append(FaultSeparations(f.name, fb.ground_x, seps, projected, stretches, mean,
                                     spread, float(pct), float(thr), status, reasons))
     status = _worst_status([r.status for r in out])

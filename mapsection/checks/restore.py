@@ -28,7 +28,7 @@ from shapely.geometry import LineString, Polygon
 
 from ..draft import Draft
 from ..errors import CheckError
-from ..stratigraphy import is_base_name
+from ..stratigraphy import horizon_name, is_base_name
 from .geometry import clip_x, joined_horizons, line_xy, snap_tolerance
 from .status import BY_CONSTRUCTION, NOT_TESTED, Part, combine, passed_of
 
@@ -504,7 +504,7 @@ def _line_lengths(balances: list[HorizonBalance], loose: float, direction: int,
             worst = max(full, key=lambda h: abs(h.restored_length_m - lengths.mean()))
             failures.append(f"restored line lengths spread {mismatch:.2f} % "
                             f"(> {threshold_pct:g} %); farthest from the mean: "
-                            f"top of {worst.top_of}, "
+                            f"{horizon_name(worst.top_of)}, "
                             f"{worst.restored_length_m:.0f} m against {lengths.mean():.0f} m")
     else:
         mismatch = spread = angle = departure = short_pct = short_m = float("nan")

@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 from ..settings import Thresholds
+from ..stratigraphy import horizon_name
 from .area import AreaBalance, DetachmentFit
 
 if TYPE_CHECKING:
@@ -267,7 +268,7 @@ def _restoration_fault_lines(key: KeyFigures) -> list[str]:
     for f in key.restoration.faults:
         if f.cutoff_status != "not_tested":
             out.append(f"fault {f.fault}: worst cutoff mismatch {_num(f.worst_mismatch_m, '.0f')} m"
-                       f" at the top of {f.worst_top_of} (<= "
+                       f" at the {horizon_name(f.worst_top_of)} (<= "
                        f"{_num(f.mismatch_threshold_m, '.0f')} m) "
                        f"{status_word(f.cutoff_status)}")
         if f.separation_status != "not_tested":

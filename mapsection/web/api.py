@@ -150,7 +150,10 @@ def _page_figures(key) -> dict[str, dict[str, Any]]:
                            if worst_cutoff else {})},
         "area_balance": area,
         "kinematics": {"inconsistencies": k.inconsistencies, "transport": k.transport_direction,
-                       "fault_bend_folds": int(k.fault_bend.get("compared", 0))},
+                       # a count only of what was compared (never "0 compared")
+                       **({"fault_bend_folds": int(k.fault_bend["compared"])}
+                          if k.fault_bend.get("compared") else
+                          {"fault_bend_fold_comparison": "not tested"})},
     }
 
 

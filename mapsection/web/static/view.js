@@ -620,7 +620,8 @@
     worst_unit: ["worst unit", ""], worst_mismatch_pct: ["its area mismatch", " %"],
     depth_to_detachment_m: ["depth to detachment", " m"], inconsistencies: ["inconsistencies", ""],
     transport: ["transport", ""], fault_bend_folds: ["fault-bend folds compared", ""],
-    worst_cutoff_mismatch_m: ["worst cutoff mismatch", " m"]};
+    worst_cutoff_mismatch_m: ["worst cutoff mismatch", " m"],
+    fault_bend_fold_comparison: ["fault-bend fold comparison", ""]};
   function figure(key, v) {
     const f = FIGURES[key] || [key.replace(/_/g, " "), ""];
     return f[0] + " " + (typeof v === "number" ? String(+v.toFixed(2)) : v) + f[1];
