@@ -85,3 +85,68 @@ def test_section_built_with_corridor_elevations_equals_the_plain_build(project, 
         np.testing.assert_allclose(ca, cb, atol=1e-6, rtol=0)
     np.testing.assert_array_equal(fast.dips.elevation_m, plain.dips.elevation_m)
     assert _statuses(project, spec, fast) == _statuses(project, spec, plain)
+
+
+# --- reading attitudes from CSV: pandas' C engine against the csv module, row by row --------
+
+BAD_ROWS = (
+    "id;x;y;strike;dip;overturned\n"
+    "a1;608086.1;5221664.9;208;14;no\n"
+    "\n"
+    "a2;609902.0; 5215925.6 ;234;95;yes\n"      # dip outside 0-90
+    " ; ; ; ; ; \n"                             # blank: skipped, its line still counted
+    "a3;abc;5215925.6;234;14\n"                 # x not a number, a short row
+    "\"a;4\";609000;5216000;12;30;maybe;\n"     # quoted delimiter, bad flag, trailing delimiter
+    "a5;609100;5216100;;30;0\n"                 # blank strike
+    ";609200;5216200;400;30;1\n"                # blank id, strike outside 0-360
+    "a7;609300;5216300;45;30;T\n"
+)
+
+
+def _read_both(path, monkeypatch):
+    """read_attitudes with the C engine, then with the csv module: results and messages."""
+    import mapsection.readers.attitudes as reader
+
+    fast, slow = reader._read_csv, reader._read_csv_rows
+    fell_back: list[Path] = []
+
+    def rows_counted(p):
+        fell_back.append(p)
+        return slow(p)
+
+    out = []
+    for read in (fast, slow):
+        monkeypatch.setattr(reader, "_read_csv", read)
+        monkeypatch.setattr(reader, "_read_csv_rows", rows_counted)
+        said: list[str] = []
+        att = reader.read_attitudes(path, warn=said.append)
+        out.append((att, said, read(Path(path))))
+    return out, bool(fell_back)
+
+
+@pytest.mark.parametrize("which", ["sample", "bad rows", "multi-line field", "long row"])
+def test_csv_reader_returns_what_the_row_by_row_reader_did(which, tmp_path, monkeypatch):
+    """The same columns, line numbers, attitudes and messages as the csv module's reading
+    (Python's csv module is the reference; the second and third files fall back to it)."""
+    if which == "sample":
+        path = SAMPLE.parent / "attitudes.csv"
+    else:
+        text = {"bad rows": BAD_ROWS,
+                "multi-line field": BAD_ROWS.replace('"a;4"', '"a\n4"'),
+                "long row": BAD_ROWS.replace("a7;", "a7;1;2;3;4;5;6;7;")}[which]
+        path = tmp_path / "attitudes.csv"
+        path.write_text(text, encoding="utf-8", newline="")
+    both, fell_back = _read_both(path, monkeypatch)
+    (fast, fast_said, fast_table), (slow, slow_said, slow_table) = both
+    # The odd files are left to the csv module; the others never reach it.
+    assert fell_back == (which in ("multi-line field", "long row"))
+    assert fast_table.columns == slow_table.columns
+    assert list(fast_table.rows) == list(slow_table.rows)
+    assert fast_table.repeated == slow_table.repeated
+    assert fast_said == slow_said
+    for name in ("id", "x", "y", "z", "strike", "dip", "overturned"):
+        np.testing.assert_array_equal(getattr(fast, name), getattr(slow, name))
+    assert fast.source == slow.source
+    if which == "bad rows":
+        assert any(", line 4: dip 95 is outside 0-90" in m for m in fast_said)
+        assert len(fast) == 2  # a1 and a7
