@@ -150,3 +150,62 @@ def test_csv_reader_returns_what_the_row_by_row_reader_did(which, tmp_path, monk
     if which == "bad rows":
         assert any(", line 4: dip 95 is outside 0-90" in m for m in fast_said)
         assert len(fast) == 2  # a1 and a7
+
+
+# --- surface geology: only the polygons the line crosses ---------------------------------
+
+
+def _bbox_candidates(map_data, tree, line):
+    """The former candidates: every geometry whose bounding box meets the line's."""
+    return tree.query(line.linestring)
+
+
+def _geology_both(map_data, line, monkeypatch):
+    import mapsection.geology as geology
+
+    fast = geology.surface_geology(map_data, line)
+    with monkeypatch.context() as m:
+        m.setattr(geology, "_query_line", _bbox_candidates)
+        plain = geology.surface_geology(map_data, line)
+    return fast, plain
+
+
+def test_surface_geology_from_crossed_polygons_equals_the_bounding_box_candidates(
+        project, monkeypatch):
+    """The sample map along its sections and along random lines, and a chequerboard of
+    small polygons along a diagonal line (whose box holds polygons it never crosses):
+    the same intervals, contacts and fault crossings (reference: the bounding-box
+    candidates, every one intersected by GEOS)."""
+    import geopandas as gpd
+
+    from mapsection.line import SectionLine
+    from mapsection.mapdata import MapData
+    from mapsection.readers.map import read_map
+
+    map_data = read_map(project.map_path, project.units_layer, project.unit_field,
+                        project.faults_layer, project.fault_fields, crs=project.crs)
+    lines = [project.section_line(s) for s in project.sections]
+    rng = np.random.default_rng(4)
+    left, bottom, right, top = map_data.units.total_bounds
+    for _ in range(10):
+        v = np.column_stack([rng.uniform(left, right, 3), rng.uniform(bottom, top, 3)])
+        lines.append(SectionLine(v, project.crs, "R"))
+    for line in lines:
+        fast, plain = _geology_both(map_data, line, monkeypatch)
+        assert repr(fast) == repr(plain)  # exact floats; NaN elevations equal too
+    # 40 x 40 squares of 100 m, four units in a chequerboard.
+    cells = [shapely.box(i * 100.0, j * 100.0, (i + 1) * 100.0, (j + 1) * 100.0)
+             for i in range(40) for j in range(40)]
+    names = [f"U{(i + 2 * j) % 4}" for i in range(40) for j in range(40)]
+    grid = MapData(gpd.GeoDataFrame({"unit": names}, geometry=cells, crs=project.crs),
+                   "unit", crs=project.crs)
+    diagonal = SectionLine(np.array([[5.0, 7.0], [3990.0, 3960.0]]), project.crs, "D")
+    with monkeypatch.context() as m:
+        import mapsection.geology as geology
+
+        crossed = len(geology._query_line(grid, grid.unit_tree, diagonal))
+        assert crossed < len(_bbox_candidates(grid, grid.unit_tree, diagonal)) / 10
+        m.setattr(geology, "_query_line", _bbox_candidates)
+    fast, plain = _geology_both(grid, diagonal, monkeypatch)
+    assert repr(fast) == repr(plain)
+    assert len(fast.contacts) > 40
