@@ -209,3 +209,32 @@ def test_surface_geology_from_crossed_polygons_equals_the_bounding_box_candidate
     fast, plain = _geology_both(grid, diagonal, monkeypatch)
     assert repr(fast) == repr(plain)
     assert len(fast.contacts) > 40
+
+
+# --- the section figure: dip ticks as one collection ---------------------------------------
+
+
+def test_dip_ticks_are_one_collection_with_the_tick_style():
+    """One artist for all the ticks (not a line each), in the dip-tick colour and width,
+    the poorly constrained ones faded to alpha 0.45 as before (the tool's default style)."""
+    import dataclasses
+
+    import matplotlib.colors
+    from conftest import hand_draft
+
+    from mapsection.render import colours as C
+    from mapsection.render.section import section_figure
+
+    draft = hand_draft(2.0)
+    n = len(draft.dips)
+    poor = np.arange(n) % 2 == 0
+    draft = dataclasses.replace(draft, dips=dataclasses.replace(draft.dips,
+                                                                poorly_constrained=poor))
+    ax = section_figure(draft).axes[0]
+    assert not [ln for ln in ax.get_lines() if (ln.get_gid() or "").startswith("dip-")]
+    (ticks,) = [c for c in ax.collections if c.get_gid() == "dip-ticks"]
+    assert len(ticks.get_segments()) == n
+    rgba = ticks.get_colors()
+    np.testing.assert_allclose(rgba[:, :3], [matplotlib.colors.to_rgb(C.DIP_TICK.colour)] * n)
+    np.testing.assert_allclose(rgba[:, 3], np.where(poor, 0.45, 1.0))
+    np.testing.assert_allclose(ticks.get_linewidths(), C.DIP_TICK.width)
