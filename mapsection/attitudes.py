@@ -269,18 +269,56 @@ def check_attitudes_on_dem(att: Attitudes, dem) -> None:
     )
 
 
-def with_ground_elevations(att: Attitudes, dem, crs=None) -> tuple[Attitudes, int]:
+def with_ground_elevations(att: Attitudes, dem, crs=None,
+                           where: np.ndarray | None = None) -> tuple[Attitudes, int]:
     """Attitudes with z from the DEM where they carry none (sampled once, vectorised), and
     how many are still without one (off the DEM or on nodata).
 
     ``dem``: anything with ``sample(x, y, crs=...)`` (an open
     :class:`mapsection.readers.dem.Dem`); ``crs``: the CRS of the attitudes' x, y
-    (default: their own).
+    (default: their own); ``where``: a boolean mask of the attitudes to sample (default:
+    all). Attitudes outside ``where`` keep their z (NaN when they had none) and are not
+    counted.
     """
+    n = len(att)
     z = np.asarray(att.z, float) if att.z is not None else None
-    if z is not None and len(z) == len(att) and np.all(np.isfinite(z)):
+    if z is None or len(z) != n:
+        z = np.full(n, np.nan)
+    want = np.ones(n, bool) if where is None else np.asarray(where, bool)
+    todo = want & ~np.isfinite(z)
+    if not todo.any():
         return att, 0
-    ground = np.asarray(dem.sample(np.asarray(att.x, float), np.asarray(att.y, float),
+    # Only the attitudes asked for are sampled: the DEM blocks under the others are not read.
+    idx = np.flatnonzero(todo)
+    x, y = np.asarray(att.x, float), np.asarray(att.y, float)
+    ground = np.asarray(dem.sample(x[idx], y[idx],
                                    crs=crs if crs is not None else att.crs), float)
-    z = ground if z is None or len(z) != len(att) else np.where(np.isfinite(z), z, ground)
-    return dataclasses.replace(att, z=z), int(np.count_nonzero(~np.isfinite(z)))
+    z = z.copy()
+    z[idx] = ground
+    return dataclasses.replace(att, z=z), int(np.count_nonzero(~np.isfinite(z[want])))
+
+
+def within_corridors(att: Attitudes, lines: Sequence, corridors: Sequence[float]) -> np.ndarray:
+    """Boolean mask of the attitudes within ``corridor`` metres of any of the ``lines``.
+
+    ``lines``: :class:`mapsection.line.SectionLine` objects in the attitudes' CRS;
+    ``corridors``: the half-width of each. A point is kept when its distance to the
+    line is at most the corridor (shapely's ``dwithin`` through an STRtree of the
+    points, no per-point Python): a superset of the flat-ended corridor of
+    :func:`mapsection.dips.in_corridor`, whose offset is the distance to the nearest
+    segment.
+    """
+    import shapely
+
+    n = len(att)
+    mask = np.zeros(n, bool)
+    if not n or not len(lines):
+        return mask
+    points = shapely.points(np.asarray(att.x, float), np.asarray(att.y, float))
+    tree = shapely.STRtree(points)
+    geoms = [shapely.linestrings(np.asarray(ln.vertices, float)) for ln in lines]
+    # A hair wider than the corridor, so that rounding never drops a point on its edge.
+    reach = [float(c) * (1 + 1e-9) + 1e-6 for c in corridors]
+    for geom, d in zip(geoms, reach, strict=True):
+        mask[tree.query(geom, predicate="dwithin", distance=d)] = True
+    return mask

@@ -88,11 +88,17 @@ def _map_geoms_for_line(map_data: MapData, line: SectionLine, geoms: np.ndarray,
 
 
 def _query_line(map_data: MapData, tree, line: SectionLine) -> np.ndarray:
-    """Indices of tree geometries whose envelope meets the line (in the map's CRS)."""
-    ls = line.linestring
+    """Indices of the tree geometries the line meets (in the map's CRS).
+
+    Only the geometries the line itself intersects (GEOS, through the tree's prepared
+    predicate), not every one whose bounding box meets the line's: a long diagonal
+    line's box holds many polygons the line never crosses, and each would cost an
+    intersection. A line in another CRS keeps the bounding-box candidates, as its
+    exact intersections are taken after the map is reprojected to that CRS.
+    """
     if not same_crs(line.crs, map_data.crs):
-        ls = line.to_crs(map_data.crs).linestring
-    return tree.query(ls)
+        return tree.query(line.to_crs(map_data.crs).linestring)
+    return tree.query(line.linestring, predicate="intersects")
 
 
 def unit_runs(map_data: MapData, line: SectionLine, warn: Callable[[str], None] | None = None) \

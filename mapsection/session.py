@@ -89,6 +89,32 @@ class ProjectInputs:
     # thickness = "map": the map's estimate of the column, made once (mapsection.thickness)
     _column_estimate: ColumnEstimate | None = None
     _thickness_said: bool = False
+    # Which attitudes have had their ground elevation looked for (sample_corridors)
+    _z_sought: np.ndarray | None = field(default=None, repr=False)
+
+    def sample_corridors(self, lines: Sequence[SectionLine], corridors: Sequence[float],
+                         warn: Warn | None = None) -> None:
+        """Give the attitudes within the corridors of ``lines`` their ground elevation.
+
+        Only these attitudes are sampled on the DEM (all corridors at once, through
+        its block cache), each once however many sections ask; the others keep a NaN
+        z, as they are never projected into these sections.
+        """
+        from .attitudes import with_ground_elevations, within_corridors
+
+        att = self.attitudes
+        if self._z_sought is None or len(self._z_sought) != len(att):
+            self._z_sought = np.zeros(len(att), bool)
+        lines = [ln if ln.crs is None or att.crs is None or same_crs(ln.crs, att.crs)
+                 else ln.to_crs(att.crs) for ln in lines]
+        want = within_corridors(att, lines, corridors) & ~self._z_sought
+        if not want.any():
+            return
+        self.attitudes, off = with_ground_elevations(att, self.dem, where=want)
+        self._z_sought |= want
+        if off:
+            (warn or _default_warn)(f"attitudes: {off} of {int(want.sum())} in the section "
+                                    "corridors lie off the DEM (no elevation)")
 
     def axis(self) -> FoldAxis:
         """The fold axis of all attitudes (Woodcock 1977), for down-plunge projection."""
@@ -154,13 +180,15 @@ class SectionSession:
     where they have none. ``corridor`` is the half-width in metres of the strip
     of attitudes projected; ``projection`` is ``perpendicular``, ``strike`` or
     ``plunge`` (the latter needs ``axis``, a fold axis); ``step`` is the profile
-    sample spacing (default: the profile's own).
+    sample spacing (default: the profile's own). ``elevations=False``: the attitudes
+    already carry the z they need (:meth:`ProjectInputs.sample_corridors`), none is
+    sampled here.
     """
 
     def __init__(self, dem: Dem | str | os.PathLike, map_data: MapData, attitudes: Attitudes,
                  corridor: float, projection: str = "perpendicular",
                  axis: FoldAxis | None = None, step: float | None = None,
-                 warn: Warn | None = None) -> None:
+                 warn: Warn | None = None, *, elevations: bool = True) -> None:
         from .readers.dem import Dem
         from .settings import check_choice, check_number
 
@@ -185,7 +213,7 @@ class SectionSession:
             from .attitudes import reproject_attitudes
 
             attitudes = reproject_attitudes(attitudes, self.crs, warn=self.warn)
-        self.attitudes = self._with_elevations(attitudes)
+        self.attitudes = self._with_elevations(attitudes) if elevations else attitudes
         # Index of the attitude points: a shifted line only looks at the points near the new line.
         self._points = shapely.points(np.asarray(self.attitudes.x, float),
                                       np.asarray(self.attitudes.y, float))
@@ -226,9 +254,19 @@ class SectionSession:
 
     @classmethod
     def from_inputs(cls, inputs: ProjectInputs, project: Project, spec: SectionSpec,
-                    warn: Warn | None = None) -> SectionSession:
-        """A session for one section over inputs already loaded (shared, not owned)."""
+                    warn: Warn | None = None, *, anywhere: bool = False) -> SectionSession:
+        """A session for one section over inputs already loaded (shared, not owned).
+
+        The attitudes' elevations are sampled within the corridors of all the project's
+        sections (:meth:`ProjectInputs.sample_corridors`); ``anywhere=True``: under every
+        attitude of the map, for a line that may be moved anywhere.
+        """
         warn = warn or _default_warn
+        line = project.section_line(spec)
+        if not anywhere:
+            specs = [*project.sections, spec]
+            inputs.sample_corridors([project.section_line(s) for s in specs],
+                                    [s.corridor for s in specs], warn)
         axis = None
         if spec.projection == "plunge" and spec.fold_axis is not None:
             axis = given_axis(*spec.fold_axis)
@@ -237,8 +275,8 @@ class SectionSession:
             for why in axis.cylindrical_problems():
                 warn(f"section {spec.name}: down-plunge projection may mislead: {why}")
         session = cls(inputs.dem, inputs.map_data, inputs.attitudes, spec.corridor,
-                      spec.projection, axis, warn=warn)
-        session.line = session._as_line(project.section_line(spec))
+                      spec.projection, axis, warn=warn, elevations=anywhere)
+        session.line = session._as_line(line)
         return session
 
     @classmethod

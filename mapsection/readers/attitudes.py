@@ -7,8 +7,9 @@ from __future__ import annotations
 
 import csv
 import dataclasses
+import io
 import os
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -40,7 +41,7 @@ class _Table:
     """Raw attribute table: text columns plus the row label of each record."""
 
     columns: dict[str, list]  # original column name -> values
-    rows: list[str]  # "line 7" or "feature 3"
+    rows: Sequence[str]  # "line 7" or "feature 3"
     x: np.ndarray | None = None  # from geometry (vector files)
     y: np.ndarray | None = None
     z: np.ndarray | None = None
@@ -49,7 +50,110 @@ class _Table:
     # lower-case column name -> its column numbers (from 1), for names given more than once
 
 
+def _sniff(first_line: str) -> type[csv.Dialect] | csv.Dialect:
+    """The CSV dialect of a file, sniffed from its header line (comma, semicolon or tab)."""
+    try:
+        return csv.Sniffer().sniff(first_line, ",;\t")
+    except csv.Error:
+        return csv.excel
+
+
 def _read_csv(path: Path) -> _Table:
+    """The CSV as text columns, parsed by pandas' C engine (no Python per row).
+
+    Gives exactly what :func:`_read_csv_rows` gives (the csv module, row by row): the
+    header's names stripped, blank lines skipped but counted in the line numbers,
+    short rows padded with blanks and long ones cut to the header's length. Files
+    where the two could differ go to :func:`_read_csv_rows`.
+    """
+    import warnings
+
+    import pandas as pd
+
+    try:
+        text = path.read_bytes().decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
+    except OSError as exc:
+        raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
+    first = text[:4096].splitlines()[0] if text else ""
+    if not first.strip() or "\x00" in text:
+        return _read_csv_rows(path)
+    dialect = _sniff(first)
+    header_reader = csv.reader(io.StringIO(text), dialect)
+    header = next(header_reader, None)
+    if header is None or header_reader.line_num != 1:
+        return _read_csv_rows(path)  # a quoted header over several lines
+    names = [h.strip() for h in header]
+    k = len(names)
+    try:
+        with warnings.catch_warnings(record=True) as said:
+            warnings.simplefilter("always", pd.errors.ParserWarning)
+            # One column more than the header: a row ending in a delimiter stays here.
+            df = pd.read_csv(
+                io.StringIO(text), sep=dialect.delimiter, quotechar=dialect.quotechar,
+                doublequote=dialect.doublequote, skipinitialspace=dialect.skipinitialspace,
+                quoting=csv.QUOTE_MINIMAL, header=None, names=range(k + 1), skiprows=1,
+                index_col=False, dtype=str, na_filter=False, keep_default_na=False,
+                skip_blank_lines=False, engine="c")
+    except Exception:  # noqa: BLE001 - anything the C engine refuses, the csv module decides
+        return _read_csv_rows(path)
+    if any(issubclass(w.category, pd.errors.ParserWarning) for w in said):
+        return _read_csv_rows(path)  # a row longer still: cut by the csv module's rules
+    # One record per physical line, or a quoted field runs over several: other line numbers.
+    n_lines = text.count("\n") + text.count("\r") - text.count("\r\n")
+    if not text.endswith(("\n", "\r")):
+        n_lines += 1
+    if len(df) + 1 != n_lines:
+        return _read_csv_rows(path)
+    stripped = [_stripped(df[j].to_numpy(dtype=object)) for j in range(k + 1)]
+    # Blank lines (nothing but delimiters and spaces) are skipped, their lines still counted.
+    keep = np.zeros(len(df), bool)
+    for c in stripped:
+        keep |= c != ""
+    lines = np.flatnonzero(keep) + 2  # the header is line 1, one physical line per record
+    cols = {n: c[keep].tolist() for n, c in zip(names, stripped[:k], strict=True)}
+    where: dict[str, list[int]] = {}
+    for j, name in enumerate(names):
+        where.setdefault(name.lower(), []).append(j + 1)
+    repeated = {key: v for key, v in where.items() if len(v) > 1}
+    return _Table(cols, _LineLabels(lines), repeated=repeated)
+
+
+_ASCII_SPACE = (" ", "\t", "\x0b", "\x0c", "\x1c", "\x1d", "\x1e", "\x1f")
+
+
+def _stripped(column: np.ndarray) -> np.ndarray:
+    """A column of text values (object array) without their surrounding whitespace, as
+    ``str.strip`` takes it off; a column without any whitespace is given back as it is."""
+    joined = "\x01".join(column)
+    if joined.isascii() and not any(c in joined for c in _ASCII_SPACE):
+        return column
+    return np.strings.strip(column.astype(str)).astype(object)
+
+
+class _LineLabels(Sequence):
+    """The row labels ``"line 7"`` of a CSV's records, made when asked for."""
+
+    def __init__(self, lines: np.ndarray) -> None:
+        self._lines = lines
+
+    def __len__(self) -> int:
+        return len(self._lines)
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [f"line {n}" for n in self._lines[i]]
+        return f"line {int(self._lines[i])}"
+
+    def __eq__(self, other) -> bool:
+        return list(self) == list(other)
+
+
+def _read_csv_rows(path: Path) -> _Table:
+    """The CSV read record by record with the csv module: the reference, and the way
+    for the files the C engine of :func:`_read_csv` leaves to it (a field over several
+    lines, a NUL byte, a blank header)."""
     try:
         with open(path, newline="", encoding="utf-8-sig") as fh:
             sample = fh.read(4096)

@@ -335,18 +335,28 @@ def _draw_dips(ax, pg: _Page) -> float:
     last_x = [-np.inf, -np.inf, -np.inf]
     last_label = [-np.inf, -np.inf, -np.inf]
     poor = np.asarray(dips.poorly_constrained, bool)
-    for i in order:
-        if not np.isfinite(zg[i]) or not np.isfinite(dips.apparent_dip[i]):
-            continue
+    app = np.asarray(dips.apparent_dip, float)
+    # The stagger levels first (each depends on the ticks before it), then all the ticks
+    # as one collection: one artist however many readings the corridor holds.
+    drawn = [i for i in order if np.isfinite(zg[i]) and np.isfinite(app[i])]
+    levels = np.zeros(len(d), int)
+    for i in drawn:
         level = next((k for k in range(3) if d[i] - last_x[k] >= 1.2 * TICK_MM * mm), 2)
         last_x[level] = d[i]
-        zc = zg[i] - level * level_z
-        a0, a1 = tick_segment(np.array([d[i]]), np.array([zc]),
-                              np.array([dips.apparent_dip[i]]), pg.ve, TICK_MM / 2 * mm)
-        (ln,) = ax.plot([a0[0, 0], a1[0, 0]], [a0[0, 1], a1[0, 1]], zorder=9,
-                        solid_capstyle="butt", alpha=0.45 if poor[i] else 1.0,
-                        **C.DIP_TICK.kwargs())
-        ln.set_gid(f"dip-{i}")
+        levels[i] = level
+    idx = np.sort(np.asarray(drawn, int))  # the ticks in the readings' order
+    zc_all = zg - levels * level_z
+    if len(idx):
+        a0, a1 = tick_segment(d[idx], zc_all[idx], app[idx], pg.ve, TICK_MM / 2 * mm)
+        rgba = np.tile(matplotlib.colors.to_rgba(C.DIP_TICK.colour), (len(idx), 1))
+        rgba[:, 3] = np.where(poor[idx], 0.45, 1.0)
+        ticks = LineCollection(np.stack([a0, a1], axis=1), colors=rgba,
+                               linewidths=C.DIP_TICK.width, capstyle="butt", zorder=9)
+        ticks.set_gid("dip-ticks")
+        ax.add_collection(ticks)
+    for i in drawn:
+        level = levels[i]
+        zc = zc_all[i]
         text = f"{abs(dips.apparent_dip[i]):.0f}"
         width = (len(text) + 1) * 1.6 * mm
         if d[i] - last_label[level] >= width:

@@ -529,8 +529,9 @@ class ViewState:
         if name not in self._sessions:
             spec = self._spec(name)
             inputs = dataclasses.replace(self.inputs, map_data=self.map_tiles)
+            # The line moves anywhere: the elevations under every attitude of the map.
             self._sessions[name] = SectionSession.from_inputs(inputs, self.project, spec,
-                                                              self.warn)
+                                                              self.warn, anywhere=True)
         return self._sessions[name]
 
     def _spec(self, name: str):
