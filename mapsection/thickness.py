@@ -387,14 +387,35 @@ def fault_blocks(x, y, faults: Sequence, names: Sequence | None = None,
     return np.array([", ".join(s) for s in zip(*sides, strict=True)], dtype=object)
 
 
+MAX_CLUSTERED = 2000  # the tool's default: more poles join the clusters of a sample of them
+
+
 def orientation_clusters(strike, dip, tolerance: float = DOMAIN_TOLERANCE) -> np.ndarray:
     """Cluster number of each attitude: poles closer than ``tolerance`` degrees
-    (average linkage; scipy.cluster.hierarchy)."""
-    from scipy.cluster.hierarchy import fcluster, linkage
+    (average linkage; scipy.cluster.hierarchy).
 
+    The linkage needs every pair of poles, so beyond ``MAX_CLUSTERED`` attitudes a fixed
+    random sample of them is clustered and every attitude joins the cluster whose mean pole
+    is nearest (memory stays bounded on attitude databases of any size).
+    """
     poles = _poles(strike, dip)
     if len(poles) < 2:
         return np.zeros(len(poles), int)
+    if len(poles) <= MAX_CLUSTERED:
+        return _linkage_clusters(poles, tolerance)
+    pick = np.random.default_rng(0).choice(len(poles), MAX_CLUSTERED, replace=False)
+    labels = _linkage_clusters(poles[pick], tolerance)
+    means = []
+    for k in np.unique(labels):
+        p = poles[pick][labels == k]
+        p = p * np.sign(p @ p[0])[:, None]  # axial data: one sense before averaging
+        means.append(p.sum(axis=0) / np.linalg.norm(p.sum(axis=0)))
+    return np.argmax(np.abs(poles @ np.array(means).T), axis=1).astype(int) + 1
+
+
+def _linkage_clusters(poles: np.ndarray, tolerance: float) -> np.ndarray:
+    from scipy.cluster.hierarchy import fcluster, linkage
+
     dots = np.clip(np.abs(poles @ poles.T), 0.0, 1.0)
     ang = np.degrees(np.arccos(dots[np.triu_indices(len(poles), 1)]))
     return fcluster(linkage(ang, "average"), tolerance, criterion="distance").astype(int)

@@ -300,3 +300,18 @@ def test_noisy_dem_within_5_percent(sample_inputs):
         u, true = est.unit(name), SAMPLE_MODEL.column.unit(name).thickness
         assert u.thickness == pytest.approx(true, rel=0.05), name
         assert u.uncertainty > RESOLUTION * u.thickness, name  # above the floor
+
+
+def test_orientation_clusters_bounded_for_large_attitude_sets():
+    # Two attitude families (invented): 020/30 and 200/30 (the two limbs of a fold). Beyond
+    # MAX_CLUSTERED a sample is clustered and the rest join the nearest mean pole: the same
+    # two families come out, and nothing of size n x n is built.
+    from mapsection.thickness import MAX_CLUSTERED, orientation_clusters
+
+    rng = np.random.default_rng(1)
+    n = MAX_CLUSTERED * 3
+    strike = np.where(np.arange(n) % 2 == 0, 20.0, 200.0) + rng.normal(0, 1.0, n)
+    dip = 30.0 + rng.normal(0, 1.0, n)
+    labels = orientation_clusters(strike, dip)
+    assert len(set(labels[0::2])) == 1 and len(set(labels[1::2])) == 1
+    assert labels[0] != labels[1]
