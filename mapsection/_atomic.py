@@ -150,6 +150,16 @@ def remove_stale(folder: str | os.PathLike, name: str | None = None) -> list[Pat
 _HELD: dict[tuple[int, int], int] = {}  # (st_dev, st_ino) of the folders this process locked
 
 
+
+@contextlib.contextmanager
+def _holding(key) -> Iterator[None]:
+    """This process holds the lock of ``key`` (a folder's device and inode) meanwhile."""
+    _HELD[key] = 1
+    try:
+        yield
+    finally:
+        del _HELD[key]
+
 @contextlib.contextmanager
 def folder_lock(folder: str | os.PathLike, waiting: Callable[[str], None] | None = None,
                 create: bool = False) -> Iterator[None]:
@@ -198,11 +208,8 @@ def folder_lock(folder: str | os.PathLike, waiting: Callable[[str], None] | None
                     told = True
                 fcntl.flock(fd, fcntl.LOCK_EX)
             except OSError:  # a file system without locks (some network shares): go unlocked
-                _HELD[key] = 1
-                try:
+                with _holding(key):
                     yield
-                finally:
-                    del _HELD[key]
                 return
             try:
                 same = os.stat(folder)
@@ -210,11 +217,8 @@ def folder_lock(folder: str | os.PathLike, waiting: Callable[[str], None] | None
                 same = None
             if same is None or (same.st_dev, same.st_ino) != key:
                 continue  # the folder was removed (and maybe made again) meanwhile: lock anew
-            _HELD[key] = 1
-            try:
+            with _holding(key):
                 yield
-            finally:
-                del _HELD[key]
             return
         finally:
             os.close(fd)  # closing the descriptor releases the lock

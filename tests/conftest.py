@@ -472,3 +472,11 @@ name = "B"
 line = [[500000, 4000000], [502000, 4003000], [506000, 4003500]]
 method = "arc"
 """
+
+
+@pytest.fixture(scope="module")
+def project_copy(tmp_path_factory, request) -> Path:
+    """The sample area copied once per test module (the page's tests save into it)."""
+    folder = tmp_path_factory.mktemp(request.module.__name__.rsplit(".", 1)[-1]) / "area"
+    shutil.copytree(SAMPLE_AREA, folder)
+    return folder / "project.toml"

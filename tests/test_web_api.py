@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import json
 import math
-import shutil
 import tomllib
 from pathlib import Path
 
@@ -29,13 +28,6 @@ from mapsection.web.app import create_app  # noqa: E402
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_area"
 TOKEN = "test-token-123"
 BASE = "http://127.0.0.1:8765"
-
-
-@pytest.fixture(scope="module")
-def project_copy(tmp_path_factory) -> Path:
-    folder = tmp_path_factory.mktemp("web_api") / "area"
-    shutil.copytree(SAMPLE, folder)
-    return folder / "project.toml"
 
 
 @pytest.fixture(scope="module")

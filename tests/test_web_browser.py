@@ -65,13 +65,6 @@ def browser():
 
 
 @pytest.fixture(scope="module")
-def project_copy(tmp_path_factory) -> Path:
-    folder = tmp_path_factory.mktemp("web_browser") / "area"
-    shutil.copytree(SAMPLE, folder)
-    return folder / "project.toml"
-
-
-@pytest.fixture(scope="module")
 def server(project_copy):
     pytest.importorskip("uvicorn")
     from mapsection.web.api import ViewState
