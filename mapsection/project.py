@@ -32,7 +32,7 @@ from .settings import (
     check_choice,
     check_number,
 )
-from .stratigraphy import Column, Unit
+from .stratigraphy import COVER_THICKNESS, INTRUSIVE_DEPTH, Column, Unit
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from .line import SectionLine
@@ -51,7 +51,8 @@ ATTITUDE_ROLES = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overtu
                   "attitude")
 ATTITUDE_KEYS = frozenset({"path", "source", "layer", "convention", "keep_readings",
                            *(f"{r}_field" for r in ATTITUDE_ROLES)})
-UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology", "label"})
+UNIT_KEYS = frozenset({"unit", "thickness", "colour", "color", "age", "lithology", "label",
+                       "kind", "unconformity", "depth"})
 SECTION_KEYS = frozenset({"name", "line", "fold_axis", "sheet", "scale", "portrait",
                           "constrained_depth", *SECTION_SETTING_KEYS})
 CHECK_KEYS = THRESHOLD_KEYS
@@ -258,7 +259,11 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
         if isinstance(r.table.get("thickness"), str) and not from_map:
             raise r.fail("thickness", f'must be a number of metres or "map", '
                                       f'got {r.table["thickness"]!r}')
-        thickness = math.nan if from_map else r.number("thickness")
+        kind = r.choice("kind", "layered")
+        # a cover unit's thickness is optional: a thin veneer by default
+        default = COVER_THICKNESS if kind == "cover" else (
+            math.nan if kind == "intrusive" else ...)
+        thickness = math.nan if from_map else r.number("thickness", default)
         units.append(
             Unit(
                 r.text("unit"),
@@ -268,10 +273,14 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
                 r.get("lithology", str, None),
                 thickness_from_map=from_map,
                 label=r.get("label", str, None),
+                kind=kind,
+                unconformity=r.get("unconformity", bool, False),
+                depth=r.number("depth", INTRUSIVE_DEPTH),
             )
         )
     try:
         column = Column(tuple(units))
+        column.check_unconformities()
     except StratigraphyError as exc:
         raise ProjectFileError(f"{fname}: {exc}") from None
 

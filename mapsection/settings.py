@@ -44,10 +44,14 @@ MAX_LINE_LENGTH_M = 1_000_000.0
 
 # What each choice is, for messages.
 _CHOICE_LABEL = {"method": "construction method", "projection": "projection",
-                 "convention": "attitude convention", "vertical_unit": "vertical unit"}
+                 "convention": "attitude convention", "vertical_unit": "vertical unit",
+                 "kind": "unit kind"}
+# [[stratigraphy]] kind: see mapsection.stratigraphy
+KINDS = ("layered", "cover", "intrusive")
 CHOICES: dict[str, tuple[str, ...]] = {"method": METHODS, "projection": PROJECTIONS,
                                        "convention": CONVENTIONS,
-                                       "vertical_unit": tuple(VERTICAL_UNITS)}
+                                       "vertical_unit": tuple(VERTICAL_UNITS),
+                                       "kind": KINDS}
 
 
 @dataclass(frozen=True)

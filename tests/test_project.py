@@ -170,3 +170,42 @@ def test_keep_readings_and_fold_axis(tmp_path):
     bad = GOOD.replace("[attitudes]\n", "[attitudes]\nkeep_readings = [1.5]\n", 1)
     with pytest.raises(ProjectFileError, match=r"^project.toml: attitudes.keep_readings\[0\]"):
         load_project(write(tmp_path, bad))
+
+
+# [[stratigraphy]] kind / unconformity / depth (the interface, exactly as named)
+_COVER = '[[stratigraphy]]\nunit = "Valley alluvium"\nkind = "cover"\n'
+
+
+def test_cover_unit_thickness_optional_and_kinds_named(tmp_path):
+    # the tool's default veneer (stratigraphy.COVER_THICKNESS) when no thickness is given
+    from mapsection.stratigraphy import COVER_THICKNESS
+
+    text = GOOD.replace("[[stratigraphy]]", _COVER + "[[stratigraphy]]", 1)
+    proj = load_project(write(tmp_path, text))
+    alluvium = proj.column.units[0]
+    assert (alluvium.kind, alluvium.thickness) == ("cover", COVER_THICKNESS)
+    assert proj.column.layered().names == ["Upper", "Lower"]
+
+
+@pytest.mark.parametrize("unit, match", [
+    # a unit both cover and unconformity
+    ('[[stratigraphy]]\nunit = "Qal"\nkind = "cover"\nunconformity = true\n',
+     r"^project.toml: stratigraphy\[0\] \(Qal\): a cover unit cannot carry unconformity"),
+    ('[[stratigraphy]]\nunit = "Qal"\nkind = "sill"\n',
+     r"^project.toml: stratigraphy\[0\]\.kind: unknown unit kind 'sill'"),
+    ('[[stratigraphy]]\nunit = "Qal"\nkind = "cover"\nthickness = "map"\n',
+     r'^project.toml: stratigraphy\[0\] \(Qal\): thickness = "map" is measured'),
+])
+def test_bad_unit_kinds(tmp_path, unit, match):
+    text = GOOD.replace("[[stratigraphy]]", unit + "[[stratigraphy]]", 1)
+    with pytest.raises(ProjectFileError, match=match):
+        load_project(write(tmp_path, text))
+
+
+def test_unconformity_on_oldest_unit_refused(tmp_path):
+    text = GOOD.replace('thickness = 300\n', 'thickness = 300\nunconformity = true\n', 1)
+    with pytest.raises(ProjectFileError, match=r"\(Lower\): unconformity = true on the oldest"):
+        load_project(write(tmp_path, text))
+    ok = GOOD.replace('thickness = 250.0\n', 'thickness = 250.0\nunconformity = true\n', 1)
+    seqs = load_project(write(tmp_path, ok)).column.sequences()
+    assert [c.names for c in seqs] == [["Upper"], ["Lower"]]
