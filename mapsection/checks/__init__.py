@@ -49,7 +49,7 @@ from .area import area_balance
 from .cutoffs import check_fault_restoration
 from .diagnosis import diagnose
 from .kinematics import check_kinematics
-from .restore import restore_section, with_fault_checks
+from .restore import Restoration, restore_section, with_fault_checks
 from .results import TESTS, CheckReport, jsonable
 from .summary import KeyFigures, key_figures
 from .topography import TopographyCheck, check_topography, validate_thresholds
@@ -100,24 +100,10 @@ def run_checks(
     topo = check_topography(draft, thresholds)
     if topo.status == "fail":  # name the likely fix, ranked (issue 12)
         topo.diagnosis = diagnose(draft, attitude_xy=attitude_xy, corridor_m=corridor_m)
-    restoration = restore_section(draft, pin=pin, loose=loose,
-                                  threshold_pct=thresholds.line_length_spread_pct)
-    at_faults = check_fault_restoration(
-        draft, restoration=restoration,
-        cutoff_fraction=thresholds.cutoff_mismatch_fraction,
-        cutoff_pixels=thresholds.cutoff_mismatch_pixels,
-        spread_fraction=thresholds.separation_spread_fraction,
-        spread_pixels=thresholds.separation_spread_pixels)
-    restoration = with_fault_checks(restoration, at_faults)
+    restoration = _restoration(draft, thresholds, pin, loose)
     area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
     kin = check_kinematics(draft, restoration)
-    notes = []
-    if draft.method == "edited":
-        notes.append("horizons and faults were read from an edited section file, not rebuilt")
-    if draft.ve != 1:
-        notes.append(f"the figures are drawn at vertical exaggeration {draft.ve:g}: "
-                     "dips and thicknesses look steeper and thicker than they are; "
-                     "every check is measured at true scale")
+    notes = _notes(draft)
     report = CheckReport(draft.name, draft.method, float(draft.ve), thresholds, topo,
                          restoration, area, kin, notes)
     if warn is not None:
@@ -126,6 +112,33 @@ def run_checks(
             warn(f"section {draft.name}: failed {', '.join(failed)}")
     return report
 
+
+
+def _restoration(draft: Draft, thresholds: Thresholds, pin: float | None,
+                 loose: float | None) -> Restoration:
+    """The flexural-slip restoration with the cutoffs and separations at each fault as
+    its parts."""
+    restoration = restore_section(draft, pin=pin, loose=loose,
+                                  threshold_pct=thresholds.line_length_spread_pct)
+    at_faults = check_fault_restoration(
+        draft, restoration=restoration,
+        cutoff_fraction=thresholds.cutoff_mismatch_fraction,
+        cutoff_pixels=thresholds.cutoff_mismatch_pixels,
+        spread_fraction=thresholds.separation_spread_fraction,
+        spread_pixels=thresholds.separation_spread_pixels)
+    return with_fault_checks(restoration, at_faults)
+
+
+def _notes(draft: Draft) -> list[str]:
+    """What a reader of the report should know about how the draft was made and drawn."""
+    notes = []
+    if draft.method == "edited":
+        notes.append("horizons and faults were read from an edited section file, not rebuilt")
+    if draft.ve != 1:
+        notes.append(f"the figures are drawn at vertical exaggeration {draft.ve:g}: "
+                     "dips and thicknesses look steeper and thicker than they are; "
+                     "every check is measured at true scale")
+    return notes
 
 __all__ = [
     "TESTS",

@@ -29,6 +29,7 @@ and none failed.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 import shapely
@@ -68,11 +69,12 @@ def fbf_tolerance_m(ramp_height_m: float) -> float:
 class Kinematics:
     passed: bool
     transport_direction: int | None
-    transport: dict
-    cut_up_section: dict
-    separations: dict
-    crossings: dict
-    fault_bend_folds: list[dict] = field(default_factory=list)
+    # each part as checks.json gives it: "passed", "status", "reasons" and its figures
+    transport: dict[str, Any]
+    cut_up_section: dict[str, Any]
+    separations: dict[str, Any]
+    crossings: dict[str, Any]
+    fault_bend_folds: list[dict[str, Any]] = field(default_factory=list)
     failures: list[str] = field(default_factory=list)
     # "pass" only when something was measured and nothing failed; "not_tested" when no
     # part could be measured (``passed`` is True only for "pass"; None in checks.json
@@ -363,12 +365,7 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
     failures += more
 
     # 4. crossings
-    cross = horizon_crossings(draft)
-    for c in cross[:20]:
-        what = "crosses itself" if c["kind"] == "self" else f"crosses the top of {c['other']}"
-        failures.append(f"top of {c['top_of']} (block {c['block']}) {what} at "
-                        f"{c['distance_m']:.0f} m, elevation {c['elevation_m']:.0f} m")
-    crossings = {"passed": not cross, "count": len(cross), "where": cross}
+    crossings = _crossings(draft, failures)
 
     # 5. fault-bend folds
     fbfs = []
@@ -395,6 +392,35 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
         "crossings": _part(crossings, crossings["passed"], bool(draft.horizons),
                            "the section has no horizon"),
     }
+    fault_bend = _fault_bend_part(fbfs, failures)
+    statuses = [*parts.values(), fault_bend["status"]]
+    status = ("fail" if "fail" in statuses else "pass" if "pass" in statuses
+              else "not_tested")
+    subs = {"transport": transport, "cut_up_section": cut, "separations": separations,
+            "crossings": crossings}
+    reasons = [f"{k.replace('_', ' ')}: not tested ({v['reasons'][0]})"
+               for k, v in subs.items() if v["status"] == "not_tested"]
+    if fault_bend["status"] == "not_tested":
+        reasons.append("fault-bend fold comparison: not tested ("
+                       + "; ".join(fault_bend["reasons"]) + ")")
+    passed = status == "pass"
+    return Kinematics(passed, direction, transport, cut, separations, crossings, fbfs, failures,
+                      status, reasons, fault_bend)
+
+
+def _crossings(draft: Draft, failures: list[str]) -> dict[str, Any]:
+    """The crossings part: where horizons cross (the first 20 added to ``failures``)."""
+    cross = horizon_crossings(draft)
+    for c in cross[:20]:
+        what = "crosses itself" if c["kind"] == "self" else f"crosses the top of {c['other']}"
+        failures.append(f"top of {c['top_of']} (block {c['block']}) {what} at "
+                        f"{c['distance_m']:.0f} m, elevation {c['elevation_m']:.0f} m")
+    return {"passed": not cross, "count": len(cross), "where": cross}
+
+
+def _fault_bend_part(fbfs: list[dict[str, Any]], failures: list[str]) -> dict[str, Any]:
+    """The fault-bend fold part over each fault's comparison (the failed ones' reasons
+    added to ``failures``)."""
     compared = [e for e in fbfs if e["status"] != "not_tested"]
     fb_status = ("fail" if any(e["status"] == "fail" for e in fbfs) else
                  "pass" if compared else "not_tested")
@@ -403,19 +429,7 @@ def check_kinematics(draft: Draft, restoration: Restoration | None = None) -> Ki
                               if fbfs else ["no thrust with measured separations to model"])}
     if fb_status == "fail":
         failures += [r for e in fbfs if e["status"] == "fail" for r in e["reasons"]]
-    statuses = [*parts.values(), fb_status]
-    status = ("fail" if "fail" in statuses else "pass" if "pass" in statuses
-              else "not_tested")
-    subs = {"transport": transport, "cut_up_section": cut, "separations": separations,
-            "crossings": crossings}
-    reasons = [f"{k.replace('_', ' ')}: not tested ({v['reasons'][0]})"
-               for k, v in subs.items() if v["status"] == "not_tested"]
-    if fb_status == "not_tested":
-        reasons.append("fault-bend fold comparison: not tested ("
-                       + "; ".join(fault_bend["reasons"]) + ")")
-    passed = status == "pass"
-    return Kinematics(passed, direction, transport, cut, separations, crossings, fbfs, failures,
-                      status, reasons, fault_bend)
+    return fault_bend
 
 
 def _mentions(failure: str, part: str) -> bool:

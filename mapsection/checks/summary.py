@@ -47,10 +47,13 @@ __all__ = [
 NAN = float("nan")
 
 
+@dataclass(frozen=True)
 class _Verdict:
-    """``passed`` from ``status``: True, False, or None when not tested."""
+    """A test's ``status`` and ``reasons`` (the first fields of each test's figures);
+    ``passed`` from ``status``: True, False, or None when not tested."""
 
-    status: str
+    status: str = "not_tested"  # "pass", "fail" or "not_tested"
+    reasons: tuple[str, ...] = ()
 
     @property
     def passed(self) -> bool | None:
@@ -59,8 +62,6 @@ class _Verdict:
 
 @dataclass(frozen=True)
 class TopographyFigures(_Verdict):
-    status: str = "not_tested"  # "pass", "fail" or "not_tested"
-    reasons: tuple[str, ...] = ()
     contact_rms_m: float = NAN
     contact_threshold_m: float = NAN
     unit_agreement: float = NAN
@@ -87,8 +88,6 @@ class FaultFigures:
 
 @dataclass(frozen=True)
 class RestorationFigures(_Verdict):
-    status: str = "not_tested"  # "pass", "fail" or "not_tested"
-    reasons: tuple[str, ...] = ()
     shortening_pct: float = NAN
     shortening_m: float = NAN
     line_length_mismatch_pct: float = NAN  # the spread of the restored line lengths
@@ -97,8 +96,6 @@ class RestorationFigures(_Verdict):
 
 @dataclass(frozen=True)
 class AreaFigures(_Verdict):
-    status: str = "not_tested"  # "pass", "fail" or "not_tested"
-    reasons: tuple[str, ...] = ()
     worst_unit: str = ""  # the unit whose deformed area departs most from its restored
     worst_mismatch_pct: float | None = None
     detachment: DetachmentFit | None = None  # None: fewer than two horizons
@@ -106,8 +103,6 @@ class AreaFigures(_Verdict):
 
 @dataclass(frozen=True)
 class KinematicsFigures(_Verdict):
-    status: str = "not_tested"  # "pass", "fail" or "not_tested"
-    reasons: tuple[str, ...] = ()
     inconsistencies: int = 0
     transport_direction: str | None = None  # in words
     fault_bend: dict = field(default_factory=dict)  # Kinematics.fault_bend: status, compared
