@@ -272,42 +272,34 @@ def _advect(p: np.ndarray, slip: float, theta: float, gamma: float, r: float,
     return q, (dom != dom0) | (dom0 == 1)
 
 
-def fault_bend_fold(
-    ramp_height: float,
-    ramp_dip: float,
-    slip: float,
-    flat_elevation: float,
-    horizons_depths: Sequence[float] | Mapping[str, float],
-    *,
-    ramp_x: float = 0.0,
-    direction: int = 1,
-    step: float | None = None,
-) -> FBFModel:
-    """Forward model of a fault-bend fold over a flat-ramp-flat thrust (Suppe 1983).
-
-    ``ramp_height`` (m) and ``ramp_dip`` (degrees) give the ramp, which rises from
-    the lower flat at elevation ``flat_elevation`` starting at distance ``ramp_x``
-    toward the transport ``direction`` (+1: increasing distance). ``slip`` (m) is
-    the hanging wall's slip on the lower flat. ``horizons_depths`` gives, for
-    each hanging-wall horizon, how far above the lower flat it lies before slip
-    (metres, > 0): a sequence, or a mapping name -> depth. Horizons below the
-    ramp top end at their hanging-wall cutoff on the fault.
-
-    For a slip less than the ramp length the anticline grows with a crest
-    between the passive back-limb anticline A' and the pinned front-limb
-    anticline B; beyond it the front limb stops growing and translates.
-    """
+def _check_model(ramp_height: float, slip: float, direction: int) -> None:
     if not (np.isfinite(ramp_height) and ramp_height > 0):
         raise ParameterError(f"fault-bend fold: ramp height must be > 0 m, got {ramp_height}")
     if not (np.isfinite(slip) and slip >= 0):
         raise ParameterError(f"fault-bend fold: slip must be >= 0 m, got {slip}")
     if direction not in (1, -1):
         raise ParameterError(f"fault-bend fold: direction must be +1 or -1, got {direction}")
-    gamma_deg = axial_angle(ramp_dip)
-    theta, gamma = np.radians(ramp_dip), np.radians(gamma_deg)
-    r = slip_ratio(ramp_dip, gamma_deg)
-    h = float(ramp_height)
-    xb = h / np.tan(theta)
+
+
+@dataclass(frozen=True)
+class _Frame:
+    """The model's local frame (lower bend at the origin, transport +x) in the section."""
+
+    ramp_x: float
+    direction: int
+    flat_elevation: float
+
+    def to_section(self, q: np.ndarray) -> np.ndarray:
+        return np.column_stack([self.ramp_x + self.direction * q[:, 0],
+                                self.flat_elevation + q[:, 1]])
+
+    def ray(self, origin: np.ndarray, d: np.ndarray, length: float) -> LineString:
+        return LineString(self.to_section(np.array([origin, origin + length * d])))
+
+
+def _named_depths(horizons_depths: Sequence[float] | Mapping[str, float]) \
+        -> list[tuple[str, float]]:
+    """(name, depth above the lower flat) of each horizon; ParameterError unless > 0."""
     if isinstance(horizons_depths, Mapping):
         named = [(str(k), float(v)) for k, v in horizons_depths.items()]
     else:
@@ -316,45 +308,47 @@ def fault_bend_fold(
         if not (np.isfinite(dep) and dep > 0):
             raise ParameterError(f"fault-bend fold: horizon {name} must lie above the flat "
                                  f"(depth > 0 m), got {dep}")
+    return named
 
-    def to_section(q: np.ndarray) -> np.ndarray:
-        return np.column_stack([ramp_x + direction * q[:, 0], flat_elevation + q[:, 1]])
 
-    top = max([dep for _, dep in named], default=h) + h
-    horizons = []
-    for name, dep in named:
-        x0 = -dep * np.tan(theta / 2.0) - slip - 2.0 * h
-        x1 = xb + max(dep - h, 0.0) / np.tan(gamma) + slip + 2.0 * h
-        if dep < h:
-            x1 = dep / np.tan(theta)  # the hanging-wall cutoff on the ramp
-        ds = step or max((x1 - x0) / 4000.0, 0.25)
-        xs = np.append(np.arange(x0, x1, ds), x1)
-        p = np.column_stack([xs, np.full(len(xs), dep)])
-        q, moved = _advect(p, slip, theta, gamma, r, h)
-        pts = to_section(q)
-        if direction < 0:
-            pts = pts[::-1]
-            moved = moved[::-1]
-        fx = pts[moved, 0] if moved.any() else pts[:1, 0]
-        geom = LineString(pts).simplify(1e-6)
-        horizons.append(FBFHorizon(name, dep, flat_elevation + dep, geom,
-                                   (float(fx.min()), float(fx.max()))))
+def _model_horizon(name: str, dep: float, slip: float, theta: float, gamma: float, r: float,
+                   h: float, frame: _Frame, step: float | None) -> FBFHorizon:
+    """One hanging-wall horizon ``dep`` above the lower flat, moved by ``slip``."""
+    xb = h / np.tan(theta)
+    x0 = -dep * np.tan(theta / 2.0) - slip - 2.0 * h
+    x1 = xb + max(dep - h, 0.0) / np.tan(gamma) + slip + 2.0 * h
+    if dep < h:
+        x1 = dep / np.tan(theta)  # the hanging-wall cutoff on the ramp
+    ds = step or max((x1 - x0) / 4000.0, 0.25)
+    xs = np.append(np.arange(x0, x1, ds), x1)
+    p = np.column_stack([xs, np.full(len(xs), dep)])
+    q, moved = _advect(p, slip, theta, gamma, r, h)
+    pts = frame.to_section(q)
+    if frame.direction < 0:
+        pts = pts[::-1]
+        moved = moved[::-1]
+    fx = pts[moved, 0] if moved.any() else pts[:1, 0]
+    geom = LineString(pts).simplify(1e-6)
+    return FBFHorizon(name, dep, frame.flat_elevation + dep, geom,
+                      (float(fx.min()), float(fx.max())))
 
+
+def _axial_surfaces(slip: float, theta: float, gamma: float, r: float, h: float, top: float,
+                    frame: _Frame) -> list[ModelAxialSurface]:
+    """The axial surfaces A, A' (back limb) and B, B' (front limb) after ``slip``, up to
+    ``top`` above the lower flat."""
+    xb = h / np.tan(theta)
     ramp_len = h / np.sin(theta)
     t1 = min(slip, ramp_len)
     d_a = np.array([-np.sin(theta / 2.0), np.cos(theta / 2.0)])
     d_b = np.array([np.cos(gamma), np.sin(gamma)])
-
-    def ray(origin, d, length):
-        pts = np.array([origin, origin + length * d])
-        return LineString(to_section(pts))
-
     bend = np.array([xb, h])
     a_prime = np.array([t1 * np.cos(theta), t1 * np.sin(theta)])
     b_shift = (slip - ramp_len) if slip > ramp_len else 0.0
     b_pos = bend + np.array([b_shift, 0.0])
     bp_pos = bend + np.array([r * t1 + b_shift, 0.0])
-    surfaces = [
+    ray = frame.ray
+    return [
         ModelAxialSurface("A", "active", ray(np.zeros(2), d_a, top / d_a[1])),
         ModelAxialSurface("A'", "active" if slip >= ramp_len else "passive",
                           ray(a_prime, d_a, max(top - a_prime[1], 0.0) / d_a[1])),
@@ -362,8 +356,63 @@ def fault_bend_fold(
                           ray(b_pos, d_b, max(top - h, 0.0) / d_b[1])),
         ModelAxialSurface("B'", "passive", ray(bp_pos, d_b, max(top - h, 0.0) / d_b[1])),
     ]
-    fault = LineString(to_section(np.array([[-slip - 4 * h - top, 0.0], [0.0, 0.0], bend,
-                                            [xb + slip + 4 * h + top, h]])))
+
+
+def fault_bend_fold(ramp_height: float, ramp_dip: float, slip: float, flat_elevation: float,
+                    horizons_depths: Sequence[float] | Mapping[str, float], *,
+                    ramp_x: float = 0.0, direction: int = 1,
+                    step: float | None = None) -> FBFModel:
+    """Forward model of a fault-bend fold over a flat-ramp-flat thrust (Suppe 1983).
+
+    For a slip less than the ramp length the anticline grows with a crest between the
+    passive back-limb anticline A' and the pinned front-limb anticline B; beyond it
+    the front limb stops growing and translates.
+
+    Parameters
+    ----------
+    ramp_height, ramp_dip
+        The ramp's height (m, > 0) and dip (degrees); it rises from the lower flat
+        starting at distance ``ramp_x`` toward the transport ``direction``.
+    slip
+        The hanging wall's slip on the lower flat (m, >= 0).
+    flat_elevation
+        Elevation of the lower flat (m).
+    horizons_depths
+        For each hanging-wall horizon, how far above the lower flat it lies before
+        slip (metres, > 0): a sequence, or a mapping name -> depth. Horizons below
+        the ramp top end at their hanging-wall cutoff on the fault.
+    ramp_x, direction
+        Distance along the section of the lower bend (m); +1: transport toward
+        increasing distance, -1: toward decreasing distance.
+    step
+        Sampling step of the horizons (m; default: their length / 4000, at least 0.25).
+
+    Returns
+    -------
+    FBFModel
+        The fault, the folded horizons and the axial surfaces in section space, with
+        the model's angles (axial angle, slip ratio, limb dips).
+
+    Examples
+    --------
+    >>> m = fault_bend_fold(800.0, 15.0, 1000.0, 0.0, [1200.0], ramp_x=5000.0)
+    >>> [s.name for s in m.axial_surfaces]
+    ['A', "A'", 'B', "B'"]
+    """
+    _check_model(ramp_height, slip, direction)
+    gamma_deg = axial_angle(ramp_dip)
+    theta, gamma = np.radians(ramp_dip), np.radians(gamma_deg)
+    r = slip_ratio(ramp_dip, gamma_deg)
+    h = float(ramp_height)
+    xb = h / np.tan(theta)
+    named = _named_depths(horizons_depths)
+    frame = _Frame(ramp_x, direction, flat_elevation)
+    top = max([dep for _, dep in named], default=h) + h
+    horizons = [_model_horizon(name, dep, slip, theta, gamma, r, h, frame, step)
+                for name, dep in named]
+    surfaces = _axial_surfaces(slip, theta, gamma, r, h, top, frame)
+    fault = LineString(frame.to_section(np.array([[-slip - 4 * h - top, 0.0], [0.0, 0.0],
+                                                  [xb, h], [xb + slip + 4 * h + top, h]])))
     return FBFModel(h, float(ramp_dip), float(slip), float(flat_elevation), float(ramp_x),
                     int(direction), gamma_deg, r, float(ramp_dip), 180.0 - 2.0 * gamma_deg,
                     fault, horizons, surfaces)
