@@ -23,7 +23,8 @@ from ..notes import Notes
 from ..stratigraphy import Column
 from .blocks import FaultBlock
 from .constraints import Constraints
-from .faults import FaultLine, separations
+from .fault_regions import separations
+from .faults import FaultLine
 from .frame import SectionFrame, below_polygon, line_parts, poly_parts
 from .methods import BlockModel, BlockSetting
 

@@ -30,7 +30,8 @@ from shapely.geometry import LineString, Point
 from ..angles import wrap180
 from .blocks import FaultBlock
 from .domains import unit_vectors
-from .faults import FaultLine, _cutoff
+from .fault_regions import cutoff_along
+from .faults import FaultLine
 from .methods import BlockModel, BlockSetting
 
 _STRAIGHT_RAD = 1e-4  # segments within this angle of the limb's beds are on the limb
@@ -197,7 +198,7 @@ def _slip_on_limb(fl: FaultLine, hw: BlockModel, fw: BlockModel, t: np.ndarray,
         cut = []
         for m in (hw, fw):
             pieces = [LineString(p) for p in m.horizon_pieces(float(s)) if len(p) >= 2]
-            u = _cutoff(line, pieces, s0)
+            u = cutoff_along(line, pieces, s0)
             if u is None or not _on_limb(pieces, line.interpolate(u), t):
                 break
             cut.append(u)

@@ -1,6 +1,6 @@
 """Faults in the section: their traces (a straight ramp at the apparent dip, or a ramp that
-bends into a detachment flat), the fault blocks they bound, and the separation of each
-horizon across each fault.
+bends into a detachment flat). The fault blocks they bound, which fault cuts which, and
+the separation of each horizon across each fault are :mod:`mapsection.construct.fault_regions`.
 
 A fault crossing (distance ``d``, elevation ``z``, signed apparent dip ``a``: positive
 descends toward increasing distance) becomes a ramp through ``(d, z)`` at ``a``. With a
@@ -8,12 +8,6 @@ detachment (an elevation, or the base of a named unit in the footwall) the ramp 
 into the flat there and the flat runs on under the hanging wall; with a ``radius`` the
 bend is a circular arc of that radius tangent to the ramp and the flat (a listric
 fault). Without a detachment the ramp runs down to the faults' depth.
-
-Blocks are numbered from the line's start (0, 1, ...). The hanging wall is the block
-on the side toward which the fault descends. Separation is measured along the fault (arc
-length on a bent fault), between the hanging-wall and footwall cutoffs of the same
-horizon: positive when the hanging wall's cutoff lies up-dip of the footwall's (reverse /
-thrust sense).
 """
 
 from __future__ import annotations
@@ -24,13 +18,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import shapely
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import LineString, Point
 
 from ..dips import apparent_dip
 from ..errors import ConstructionError
 from ..geology import FaultCrossing
 from ..notes import Notes
 from ..settings import FaultSpec
+from .fault_regions import block_polygons, ground_ranges, order_crossings, separations
 from .frame import SectionFrame
 
 _MIN_FAULT_DIP = 1.0  # degrees; a flatter trace cannot bound blocks along the line
@@ -161,13 +156,12 @@ def fault_lines(faults, frame: SectionFrame, ground: Callable, fault_depth: floa
 
     Examples
     --------
-    >>> import numpy as np
     >>> from mapsection.construct.frame import SectionFrame
     >>> from mapsection.geology import FaultCrossing
     >>> from mapsection.notes import Notes
     >>> f = FaultCrossing(500.0, 0.0, 30.0, 270.0, -30.0, "thrust", "T")
     >>> frame = SectionFrame(1000.0, -1000.0, 500.0, 0.0, 0.0)
-    >>> (fl,) = fault_lines([f], frame, lambda x: 0.0 * np.asarray(x), None, Notes(),
+    >>> (fl,) = fault_lines([f], frame, lambda x: 0.0, None, Notes(),
     ...                     settings={"T": FaultSetting("T", detachment=-300.0)})
     >>> fl.kinds, [round(float(v)) for v in fl.path[1]]
     (('ramp', 'flat'), [-20, -300])
@@ -181,28 +175,44 @@ def fault_lines(faults, frame: SectionFrame, ground: Callable, fault_depth: floa
         if not 0.0 < f.distance_m < frame.length:
             notes.log(f"fault {label}: outside the section's ends, left out")
             continue
-        a = float(f.apparent_dip)
-        if not np.isfinite(f.dip):
-            f, a = _dip_from_project(f, st, default_fault_dip, azimuth, notes)
-        if not np.isfinite(a):
-            notes.warn(f"fault {label}: no apparent dip; drawn vertical", logged=False)
-            a = 90.0
-        if abs(a) < _MIN_FAULT_DIP:
-            notes.warn(f"fault {label}: apparent dip {a:.1f}° is nearly flat; drawn at "
-                       f"{_MIN_FAULT_DIP:.0f}°", logged=False)
-            a = _MIN_FAULT_DIP if a >= 0 else -_MIN_FAULT_DIP
-        r = np.radians(a)
-        down = np.array([np.cos(r), -np.sin(r)]) * (1.0 if a > 0 else -1.0)
-        if abs(a) >= 90.0:
-            down = np.array([0.0, -1.0])
-        z = f.elevation_m if np.isfinite(f.elevation_m) else float(ground(f.distance_m))
-        fl = FaultLine(f, np.array([f.distance_m, z], float), down, bottom, setting=st)
-        if st is not None and isinstance(st.detachment, float):
-            fl = _detach_at_elevation(fl, st.detachment, frame, notes)
+        out.append(_fault_line(f, st, frame, ground, bottom, notes, default_fault_dip, azimuth))
         if fault_depth is not None and st is not None and st.detachment is not None:
             notes.log(f"fault {label}: fault_depth not used: the fault soles into its detachment")
-        out.append(fl)
     return out
+
+
+def _fault_line(f: FaultCrossing, st: FaultSetting | None, frame: SectionFrame,
+                ground: Callable, bottom: float, notes: Notes, default_fault_dip: float | None,
+                azimuth: Callable | None) -> FaultLine:
+    """One fault crossing inside the section as a ramp (bent into its detachment when
+    that is given by elevation)."""
+    a = float(f.apparent_dip)
+    if not np.isfinite(f.dip):
+        f, a = _dip_from_project(f, st, default_fault_dip, azimuth, notes)
+    z = f.elevation_m if np.isfinite(f.elevation_m) else float(ground(f.distance_m))
+    fl = FaultLine(f, np.array([f.distance_m, z], float), _down_dip(f, a, notes), bottom,
+                   setting=st)
+    if st is not None and isinstance(st.detachment, float):
+        fl = _detach_at_elevation(fl, st.detachment, frame, notes)
+    return fl
+
+
+def _down_dip(f: FaultCrossing, a: float, notes: Notes) -> np.ndarray:
+    """Unit vector down the fault from its trace at apparent dip ``a`` (degrees; + dips
+    toward increasing distance); a fault with no dip is drawn vertical, a nearly flat
+    one at the steepest dip taken as flat (both said)."""
+    label = f.name or f"at {f.distance_m:.0f} m"
+    if not np.isfinite(a):
+        notes.warn(f"fault {label}: no apparent dip; drawn vertical", logged=False)
+        a = 90.0
+    if abs(a) < _MIN_FAULT_DIP:
+        notes.warn(f"fault {label}: apparent dip {a:.1f}° is nearly flat; drawn at "
+                   f"{_MIN_FAULT_DIP:.0f}°", logged=False)
+        a = _MIN_FAULT_DIP if a >= 0 else -_MIN_FAULT_DIP
+    if abs(a) >= 90.0:
+        return np.array([0.0, -1.0])
+    r = np.radians(a)
+    return np.array([np.cos(r), -np.sin(r)]) * (1.0 if a > 0 else -1.0)
 
 
 def _dip_from_project(f: FaultCrossing, st: FaultSetting | None, default: float | None,
@@ -333,165 +343,6 @@ def detach_on_horizon(fl: FaultLine, horizon: np.ndarray, unit: str, frame: Sect
     return _with_bend(fl, bend, flat, f"the base of {unit}", notes)
 
 
-def _left_half(fl: FaultLine, reach: float) -> Polygon:
-    if not fl.detached:
-        a, b = fl.p0 + reach * fl.up, fl.p0 + reach * fl.down
-        x = min(a[0], b[0]) - reach
-        return Polygon([a, b, (x, b[1]), (x, a[1])])
-    # A detached fault: its hanging wall is the region above the whole fault path.
-    full = np.asarray(fl.full(reach).coords)
-    top = float(full[:, 1].max()) + reach
-    hw = Polygon(np.vstack([full, [[full[-1, 0], top], [full[0, 0], top]]]))
-    if not hw.is_valid:
-        hw = shapely.make_valid(hw).buffer(0)
-    if not fl.hanging_wall_right:
-        return hw
-    big = shapely.box(-3 * reach, -3 * reach, 3 * reach, 3 * reach)
-    return big.difference(hw)
-
-
-def block_polygons(faults: list[FaultLine], frame: SectionFrame,
-                   older: frozenset[int] = frozenset()) -> list:
-    """Each block's region of the frame between its bounding faults (block 0 first): the
-    region on its own side of every fault. Where an older fault (index in ``older``) is cut
-    by a younger one, the ground beyond the cut goes by the younger faults alone."""
-    reach = frame.size
-    box = shapely.box(-reach, frame.base - reach, frame.length + reach, frame.top + reach)
-    lefts = [_left_half(f, 10 * reach) for f in faults]
-
-    def region(k: int, skip: frozenset[int]):
-        poly = box
-        for j, left in enumerate(lefts):
-            if j in skip:
-                continue
-            poly = poly.intersection(left) if k <= j else poly.difference(left)
-        return poly
-
-    out = [region(k, frozenset()) for k in range(len(faults) + 1)]
-    if older:
-        # Pieces on no block's side of every fault lie beyond an older fault's cut end: each
-        # goes to the block on its side of every younger fault (tested at one inner point:
-        # overlays along the shared fault lines are not exact).
-        rest = box.difference(shapely.union_all(out))
-        for piece in shapely.get_parts(rest):
-            if piece.area <= 1e-6:
-                continue
-            q = piece.point_on_surface()
-            for k in range(len(out)):
-                if all(lefts[j].covers(q) == (k <= j) for j in range(len(lefts))
-                       if j not in older):
-                    out[k] = out[k].union(piece)
-                    break
-    return out
-
-
-def order_crossings(faults: list[FaultLine], frame: SectionFrame,
-                    notes: Notes) -> tuple[list[FaultLine], frozenset[int]]:
-    """Faults whose traces cross inside the section need an order (which cuts which):
-    from the map (a trace that ends against another is the older) or from a ``[[fault]]``
-    ``cuts`` list, else a one-line error naming both. The older fault's trace ends where
-    the younger cuts it. Returns the faults and the indices of the older ones."""
-    out = list(faults)
-    older: set[int] = set()
-    for i in range(len(faults)):
-        for j in range(i + 1, len(faults)):
-            a, b = faults[i], faults[j]
-            x = a.trace(frame).intersection(b.trace(frame))
-            if x.is_empty:
-                continue
-            parts = shapely.get_parts(x)
-            shared = [g for g in parts if g.geom_type == "LineString" and g.length > 1.0]
-            if shared:  # one runs into the other's flat: they share the detachment
-                span = shapely.get_coordinates(shapely.union_all(shared))[:, 0]
-                notes.log(f"faults {a.name} and {b.name} share their detachment from "
-                          f"{span.min():.0f} to {span.max():.0f} m")
-            x = shapely.union_all([g for g in parts if g.geom_type == "Point"])
-            if x.is_empty:
-                continue
-            pts = shapely.get_coordinates(x)
-            if shared:  # the branch point, where one joins the other's flat
-                on = shapely.union_all(shared)
-                pts = pts[[on.distance(Point(q)) > 1.0 for q in pts]]
-            pts = pts[np.minimum(np.hypot(*(pts - a.p0).T), np.hypot(*(pts - b.p0).T)) >= 1.0]
-            if not len(pts):
-                continue  # meeting at the ground point: one trace ends against the other
-            p = pts[0]
-            na, nb = a.crossing.name, b.crossing.name
-            ends_a = getattr(a.crossing, "ends_against", ())
-            ends_b = getattr(b.crossing, "ends_against", ())
-            order, source = None, ""
-            if a.setting is not None and nb in a.setting.cuts:
-                order, source = (j, i), "the project"
-            elif b.setting is not None and na in b.setting.cuts:
-                order, source = (i, j), "the project"
-            elif nb is not None and nb in ends_a:
-                order, source = (i, j), "the map: its trace ends against the other"
-            elif na is not None and na in ends_b:
-                order, source = (j, i), "the map: its trace ends against the other"
-            if order is None:
-                raise ConstructionError(
-                    f"faults {a.name} and {b.name} cross in the section at {p[0]:.0f} m, "
-                    f"elevation {p[1]:.0f} m, and no order is given: add cuts = [\"...\"] "
-                    "to the [[fault]] table of the younger one")
-            old, young = order
-            older.add(old)
-            out[old] = _cut_at(out[old], p)
-            notes.log(f"fault {faults[young].name} cuts fault {faults[old].name} at "
-                      f"{p[0]:.0f} m, elevation {p[1]:.0f} m (order from {source}); the older "
-                      "fault's trace ends there")
-    return out, frozenset(older)
-
-
-def _cut_at(fl: FaultLine, p: np.ndarray) -> FaultLine:
-    """``fl`` with its path ending at ``p`` (a point on it)."""
-    line = LineString(fl.path)
-    s = line.project(Point(p))
-    c = fl.path
-    along = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(c, axis=0).T))])
-    keep = int(np.searchsorted(along, s - 1e-9))
-    path = np.vstack([c[:keep], p])
-    if len(path) < 2:
-        return fl
-    return dataclasses.replace(fl, path=path, kinds=fl.kinds[: len(path) - 1])
-
-
-def separations(fl: FaultLine, left_lines: dict[str, list[LineString]],
-                right_lines: dict[str, list[LineString]], reach: float) -> dict[str, float]:
-    """Separation of each horizon across the fault, along the fault (+: hanging wall up)."""
-    line = fl.full(reach)
-    hw, fw = (right_lines, left_lines) if fl.hanging_wall_right else (left_lines, right_lines)
-    s0 = line.project(Point(fl.p0))
-    out = {}
-    for top_of in hw:
-        if top_of not in fw:
-            continue
-        s_hw, s_fw = _cutoff(line, hw[top_of], s0), _cutoff(line, fw[top_of], s0)
-        if s_hw is None or s_fw is None:
-            continue
-        out[top_of] = float(s_fw - s_hw)
-    return out
-
-
-def _cutoff(line: LineString, horizons: list[LineString], s0: float) -> float | None:
-    """Where a horizon meets the fault, as distance along the fault: the crossing nearest
-    the fault's ground point (at ``s0`` along it)."""
-    pts = []
-    for h in horizons:
-        x = line.intersection(h)
-        if x.is_empty:
-            continue
-        pts.extend(shapely.get_coordinates(x))
-    if not pts:
-        return None
-    s = np.array([line.project(Point(p)) for p in pts])
-    return float(s[np.argmin(np.abs(s - s0))])
-
-
-def ground_ranges(faults: list[FaultLine], length: float) -> list[tuple[float, float]]:
-    """Each block's stretch of ground along the line."""
-    cuts = [0.0, *[float(f.p0[0]) for f in faults], length]
-    return list(zip(cuts[:-1], cuts[1:], strict=True))
-
-
+# What the fault lines bound lives in fault_regions; its names stay importable from here.
 __all__ = ["FaultLine", "FaultSetting", "block_polygons", "detach_on_horizon", "fault_lines",
            "fault_settings", "ground_ranges", "order_crossings", "separations"]
