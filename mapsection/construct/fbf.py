@@ -150,54 +150,27 @@ def fit_fault_bend(block: FaultBlock, fl: FaultLine, ground: Callable, frame: Se
     tuple or None
         The fold as a :class:`KinkModel`, its dip domains and the :class:`FaultBendFit`;
         None when the fault has no ramp and flat.
+
+    Examples
+    --------
+    >>> model, domains, fit = fit_fault_bend(block, fl, ground, frame, ground_line,
+    ...                                      100.0, 5.0, notes)  # doctest: +SKIP
+    >>> fit.slip, fit.resolved  # doctest: +SKIP
     """
     if len(fl.kinds) < 2 or fl.kinds[0] != "ramp" or fl.kinds[1] != "flat":
         return None
     geo = _Geometry(fl, ground, frame, ground_line)
     cons = block.constraints  # map contacts (weight 1), else the block's fallbacks
     real = np.asarray(cons.is_contact, bool)
-    w = np.asarray(cons.weight, float)
     dips = block.dips
-    p = np.column_stack([cons.distance, cons.elevation])
-    sig_c = max(0.05 * scale, 1.0)
-    sig_d = max(tolerance, 1.0)
-
-    def evaluate(slip: float):
-        phis, hinges = geo.domains_and_hinges(slip)
-        rel = _offsets(phis, hinges, ground)
-        _, n = unit_vectors(phis)
-        k = np.searchsorted(hinges, cons.distance)
-        pred = rel[k] - np.einsum("ij,ij->i", n[k], p)
-        c0 = float(np.sum(w * (cons.depth - pred)) / np.sum(w)) if len(cons) else 0.0
-        res_c = pred + c0 - cons.depth
-        kd = np.searchsorted(hinges, dips.distance)
-        res_d = wrap180(dips.phi - np.asarray(phis)[kd])
-        cost = float(np.sum(w * (res_c / sig_c) ** 2)
-                     + np.sum(dips.weight * (res_d / sig_d) ** 2))
-        return cost, phis, hinges, rel + c0, res_c, res_d
-
-    top = geo.ground_length
-    grid = np.linspace(0.0, top, 801)
-    costs = np.array([evaluate(s)[0] for s in grid])
-    i = int(np.argmin(costs))
-    step = grid[1] - grid[0]
-    sol = minimize_scalar(lambda s: evaluate(s)[0], bounds=(max(grid[i] - step, 0.0),
-                                                            min(grid[i] + step, top)),
-                          method="bounded", options={"xatol": 1e-3})
-    slip = float(sol.x) if sol.fun <= costs[i] else float(grid[i])
-    cost, phis, hinges, c, res_c, res_d = evaluate(slip)
+    misfit = _Misfit(geo, ground, cons, dips, max(0.05 * scale, 1.0), max(tolerance, 1.0))
+    slip = _best_slip(misfit, geo.ground_length)
+    cost, phis, hinges, c, res_c, res_d = misfit(slip)
     resolved = np.isfinite(geo.hinge_crest(slip))
     if not resolved:
-        slip = top
+        slip = geo.ground_length
     hz = np.array([float(ground(h)) for h in hinges])
-    kd = np.searchsorted(hinges, dips.distance)
-    domains = []
-    for k, phi in enumerate(phis):
-        mine = dips.distance[kd == k]
-        lo = hinges[k - 1] if k > 0 else block.start
-        hi = hinges[k] if k < len(hinges) else block.end
-        start, end = (float(mine.min()), float(mine.max())) if len(mine) else (lo, hi)
-        domains.append(Domain(start, end, float(phi), int(len(mine))))
+    domains = _fold_domains(phis, hinges, dips.distance, block)
     model = KinkModel(domains, c, np.asarray(hinges, float), hz, frame, notes)
     fit = FaultBendFit(slip, bool(resolved), geo.hinge_a,
                        geo.hinge_crest(slip) if resolved else float("nan"),
@@ -205,6 +178,60 @@ def fit_fault_bend(block: FaultBlock, fl: FaultLine, ground: Callable, frame: Se
                        float(np.sqrt(np.mean(res_d ** 2))) if len(res_d) else float("nan"),
                        int(real.sum()), int(len(dips)), geo.ramp_dip)
     return model, domains, fit
+
+
+class _Misfit:
+    """The weighted misfit of the fold at a slip to the block's contacts (against
+    ``sig_c`` metres) and dips (against ``sig_d`` degrees)."""
+
+    def __init__(self, geo: _Geometry, ground: Callable, cons, dips, sig_c: float,
+                 sig_d: float) -> None:
+        self.geo, self.ground, self.cons, self.dips = geo, ground, cons, dips
+        self.w = np.asarray(cons.weight, float)
+        self.p = np.column_stack([cons.distance, cons.elevation])
+        self.sig_c, self.sig_d = sig_c, sig_d
+
+    def __call__(self, slip: float):
+        """(cost, travel angles, hinges, domain offsets, contact and dip residuals)."""
+        cons, dips, w = self.cons, self.dips, self.w
+        phis, hinges = self.geo.domains_and_hinges(slip)
+        rel = _offsets(phis, hinges, self.ground)
+        _, n = unit_vectors(phis)
+        k = np.searchsorted(hinges, cons.distance)
+        pred = rel[k] - np.einsum("ij,ij->i", n[k], self.p)
+        c0 = float(np.sum(w * (cons.depth - pred)) / np.sum(w)) if len(cons) else 0.0
+        res_c = pred + c0 - cons.depth
+        kd = np.searchsorted(hinges, dips.distance)
+        res_d = wrap180(dips.phi - np.asarray(phis)[kd])
+        cost = float(np.sum(w * (res_c / self.sig_c) ** 2)
+                     + np.sum(dips.weight * (res_d / self.sig_d) ** 2))
+        return cost, phis, hinges, rel + c0, res_c, res_d
+
+
+def _best_slip(misfit: _Misfit, top: float) -> float:
+    """The slip (0 to ``top``) of least misfit: a grid of 801, refined around its best."""
+    grid = np.linspace(0.0, top, 801)
+    costs = np.array([misfit(s)[0] for s in grid])
+    i = int(np.argmin(costs))
+    step = grid[1] - grid[0]
+    sol = minimize_scalar(lambda s: misfit(s)[0], bounds=(max(grid[i] - step, 0.0),
+                                                          min(grid[i] + step, top)),
+                          method="bounded", options={"xatol": 1e-3})
+    return float(sol.x) if sol.fun <= costs[i] else float(grid[i])
+
+
+def _fold_domains(phis: list[float], hinges: list[float], dip_distance: np.ndarray,
+                  block: FaultBlock) -> list[Domain]:
+    """The fold's dip domains, each spanning its dips (else the stretch between hinges)."""
+    kd = np.searchsorted(hinges, dip_distance)
+    domains = []
+    for k, phi in enumerate(phis):
+        mine = dip_distance[kd == k]
+        lo = hinges[k - 1] if k > 0 else block.start
+        hi = hinges[k] if k < len(hinges) else block.end
+        start, end = (float(mine.min()), float(mine.max())) if len(mine) else (lo, hi)
+        domains.append(Domain(start, end, float(phi), int(len(mine))))
+    return domains
 
 
 def log_fit(fit: FaultBendFit, block: FaultBlock, name: str, notes: Notes) -> None:
