@@ -131,54 +131,69 @@ def corridor_contacts(map_data: MapData, line: SectionLine, corridor: float,
 
     Parameters
     ----------
-    map_data
-        The map (unit polygons, fault lines), in the line's CRS.
-    line
-        The section line.
+    map_data, line
+        The map (unit polygons, fault lines), in the line's CRS; the section line.
     corridor
         Half-width of the strip, metres (the section's corridor).
     elevation
         Ground elevation at map points (the DEM), ``elevation(x, y)``.
-    method
+    method, axis, strike_at
         ``"perpendicular"`` (nearest point of the line), ``"strike"`` (along the strike
-        of the nearest attitude, ``strike_at``) or ``"plunge"`` (along the fold axis'
-        trend, elevation shifted ``z' = z - s tan(plunge)`` as for the attitudes,
-        :func:`mapsection.dips.project_attitudes`).
-    axis
-        The fold axis, for ``"plunge"``.
-    strike_at
-        Right-hand-rule strike at map points, for ``"strike"``.
+        of the nearest attitude, ``strike_at(x, y)``, right-hand rule) or ``"plunge"``
+        (along the trend of the fold ``axis``, elevation shifted ``z' = z - s
+        tan(plunge)`` as for the attitudes, :func:`mapsection.dips.project_attitudes`).
     spacing
         Metres between sample points along a boundary.
 
     Returns
     -------
     CorridorContacts
-        Sorted by distance along the line. Points within half a spacing of the line
-        are left out (the line's own contacts stand for them), and so are points
-        within two spacings of a mapped fault (cut-offs against it) or separated from
-        their place on the line by a mapped fault (another block).
+        Sorted by distance along the line; without the points within half a spacing of
+        the line (its own contacts stand for them), within two spacings of a mapped fault
+        (cut-offs against it) or parted from their place on the line by one (another block).
 
     Examples
     --------
     >>> import geopandas as gpd, numpy as np, shapely
-    >>> from mapsection.mapdata import MapData
-    >>> from mapsection.line import SectionLine
+    >>> from mapsection.mapdata import MapData; from mapsection.line import SectionLine
     >>> units = gpd.GeoDataFrame({"unit": ["A", "B"]}, geometry=[
     ...     shapely.box(0, -500, 1000, 500), shapely.box(1000, -500, 2000, 500)])
     >>> cc = corridor_contacts(MapData(units, "unit"), SectionLine(np.array([[0, 0],
     ...     [2000, 0.0]])), 100.0, lambda x, y: np.zeros_like(x), spacing=50.0)
-    >>> sorted(set(np.round(cc.distance_m))), float(np.abs(cc.offset_m).max())
-    ([1000.0], 100.0)
+    >>> sorted(set(np.round(cc.distance_m).tolist())), float(np.abs(cc.offset_m).max())
+    ([1000.0], 75.0)
     """
     if not (np.isfinite(spacing) and spacing > 0):
         raise ValueError(f"spacing must be > 0 m, got {spacing}")
-    band = line.linestring.buffer(corridor, cap_style="flat")
-    lines = boundary_lines(map_data, band, 2.0 * spacing)
-    if not lines:
+    samples = _sample_boundaries(map_data, line, corridor, spacing)
+    if samples is None:
         return empty_corridor_contacts(spacing, corridor)
-    xs, ys, ua, ub, cross = [], [], [], [], []
+    x, y, ua_a, ub_a, crosses = samples
+    inside, pos = in_corridor(x, y, line, corridor)
+    inside &= np.abs(pos.offset) >= 0.5 * spacing
+    z = np.asarray(elevation(x, y), float)
+    distance = np.asarray(pos.distance, float).copy()
+    if method in ("strike", "plunge"):
+        ok, distance, z = _carried(line, x, y, distance, z, method, axis, strike_at)
+        inside &= ok
+    inside &= np.isfinite(z)
+    inside &= ~_beyond_faults(map_data, line, x, y, distance, inside)
+    keep = np.flatnonzero(inside)
+    order = keep[np.argsort(distance[keep], kind="stable")]
+    return CorridorContacts(x[order], y[order], distance[order], np.asarray(pos.offset)[order],
+                            z[order], tuple(ua_a[order]), tuple(ub_a[order]), float(spacing),
+                            float(corridor), crosses[order])
+
+
+def _sample_boundaries(map_data: MapData, line: SectionLine, corridor: float, spacing: float):
+    """Points every ``spacing`` metres (at the middle of equal steps) along each unit
+    boundary within the corridor: x, y, the two units (object arrays) and whether the
+    boundary crosses the line; None where no boundary is."""
     ls = line.linestring
+    lines = boundary_lines(map_data, ls.buffer(corridor, cap_style="flat"), 2.0 * spacing)
+    if not lines:
+        return None
+    xs, ys, ua, ub, cross = [], [], [], [], []
     for g, a, b in lines:
         n = max(int(np.ceil(g.length / spacing)), 1)
         pts = shapely.line_interpolate_point(g, (np.arange(n) + 0.5) / n, normalized=True)
@@ -188,40 +203,43 @@ def corridor_contacts(map_data: MapData, line: SectionLine, corridor: float,
         ua += [a] * len(c)
         ub += [b] * len(c)
         cross += [bool(g.intersects(ls))] * len(c)
-    x, y = np.concatenate(xs), np.concatenate(ys)
-    ua_a, ub_a = np.array(ua, dtype=object), np.array(ub, dtype=object)
-    crosses = np.array(cross, bool)
-    inside, pos = in_corridor(x, y, line, corridor)
-    inside &= np.abs(pos.offset) >= 0.5 * spacing
-    z = np.asarray(elevation(x, y), float)
-    distance = np.asarray(pos.distance, float).copy()
-    if method in ("strike", "plunge"):
-        if method == "strike":
-            direction = np.asarray(strike_at(x, y), float) if strike_at is not None else \
-                np.full(len(x), np.nan)
-        else:
-            direction = np.full(len(x), float(axis.trend) % 360.0)
-        r = np.radians(np.nan_to_num(direction))
-        ok, _, dist2, s = _carry(line, x, y, np.sin(r), np.cos(r), STRIKE_SKIP_DEG, direction)
-        ok &= np.isfinite(direction)
-        inside &= ok
-        distance = np.where(ok, dist2, distance)
-        if method == "plunge":
-            z = z - np.where(ok, s, 0.0) * np.tan(np.radians(float(axis.plunge)))
-    inside &= np.isfinite(z)
-    # A point whose way to the line crosses a mapped fault lies in another fault block.
-    if inside.any() and map_data.fault_tree is not None:
-        fx, fy = line.point_at(distance)
-        paths = shapely.linestrings(np.stack([np.column_stack([x, y]),
-                                              np.column_stack([fx, fy])], axis=1))
-        idx = np.flatnonzero(inside)
-        hit = map_data.fault_tree.query(paths[idx], predicate="intersects")
-        inside[idx[np.unique(hit[0])]] = False
-    keep = np.flatnonzero(inside)
-    order = keep[np.argsort(distance[keep], kind="stable")]
-    return CorridorContacts(x[order], y[order], distance[order], np.asarray(pos.offset)[order],
-                            z[order], tuple(ua_a[order]), tuple(ub_a[order]), float(spacing),
-                            float(corridor), crosses[order])
+    return (np.concatenate(xs), np.concatenate(ys), np.array(ua, dtype=object),
+            np.array(ub, dtype=object), np.array(cross, bool))
+
+
+def _carried(line: SectionLine, x: np.ndarray, y: np.ndarray, distance: np.ndarray,
+             z: np.ndarray, method: str, axis: FoldAxis | None,
+             strike_at: Callable | None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Points carried to the line along strike or down plunge: which could be carried,
+    their distances along the line and elevations (down the plunge for ``"plunge"``)."""
+    if method == "strike":
+        direction = np.asarray(strike_at(x, y), float) if strike_at is not None else \
+            np.full(len(x), np.nan)
+    else:
+        direction = np.full(len(x), float(axis.trend) % 360.0)
+    r = np.radians(np.nan_to_num(direction))
+    ok, _, dist2, s = _carry(line, x, y, np.sin(r), np.cos(r), STRIKE_SKIP_DEG, direction)
+    ok &= np.isfinite(direction)
+    distance = np.where(ok, dist2, distance)
+    if method == "plunge":
+        z = z - np.where(ok, s, 0.0) * np.tan(np.radians(float(axis.plunge)))
+    return ok, distance, z
+
+
+def _beyond_faults(map_data: MapData, line: SectionLine, x: np.ndarray, y: np.ndarray,
+                   distance: np.ndarray, inside: np.ndarray) -> np.ndarray:
+    """Which of the ``inside`` points reach their place on the line across a mapped fault:
+    those lie in another fault block."""
+    out = np.zeros(len(x), bool)
+    if not inside.any() or map_data.fault_tree is None:
+        return out
+    fx, fy = line.point_at(distance)
+    paths = shapely.linestrings(np.stack([np.column_stack([x, y]),
+                                          np.column_stack([fx, fy])], axis=1))
+    idx = np.flatnonzero(inside)
+    hit = map_data.fault_tree.query(paths[idx], predicate="intersects")
+    out[idx[np.unique(hit[0])]] = True
+    return out
 
 
 __all__ = ["CorridorContacts", "boundary_lines", "corridor_contacts", "empty_corridor_contacts"]
