@@ -19,7 +19,7 @@ import numpy as np
 import shapely
 from shapely import STRtree
 
-from .dips import STRIKE_SKIP_DEG, _carry, in_corridor
+from .dips import STRIKE_SKIP_DEG, carry_to_line, in_corridor
 from .foldaxis import FoldAxis
 from .line import SectionLine
 from .mapdata import MapData
@@ -218,7 +218,8 @@ def _carried(line: SectionLine, x: np.ndarray, y: np.ndarray, distance: np.ndarr
     else:
         direction = np.full(len(x), float(axis.trend) % 360.0)
     r = np.radians(np.nan_to_num(direction))
-    ok, _, dist2, s = _carry(line, x, y, np.sin(r), np.cos(r), STRIKE_SKIP_DEG, direction)
+    ok, _, dist2, s = carry_to_line(line, x, y, np.sin(r), np.cos(r), STRIKE_SKIP_DEG,
+                                    direction)
     ok &= np.isfinite(direction)
     distance = np.where(ok, dist2, distance)
     if method == "plunge":

@@ -75,8 +75,6 @@ STRIKE_SKIP_DEG = 10.0  # along-strike / down-plunge projection skipped at or be
 POORLY_CONSTRAINED_DEG = 15.0  # strike this close to the section azimuth: flagged
 
 
-
-
 def in_corridor(x, y, line: SectionLine, corridor: float) -> tuple[np.ndarray, LinePosition]:
     """Mask of map points inside the corridor, and their perpendicular positions.
 
@@ -97,7 +95,7 @@ def in_corridor(x, y, line: SectionLine, corridor: float) -> tuple[np.ndarray, L
     return mask, pos
 
 
-def _carry(line: SectionLine, x, y, ux, uy, min_angle: float, direction_az):
+def carry_to_line(line: SectionLine, x, y, ux, uy, min_angle: float, direction_az):
     """Carry points along directions (ux, uy) to where they first meet the line.
 
     Every segment is tried at once; a segment counts where the crossing lies on it
@@ -130,36 +128,40 @@ def _carry(line: SectionLine, x, y, ux, uy, min_angle: float, direction_az):
     return ok, seg, distance, s
 
 
-def project_attitudes(
-    attitudes: Attitudes,
-    line: SectionLine,
-    corridor: float,
-    *,
-    method: str = "perpendicular",
-    axis: FoldAxis | None = None,
-    warn: Callable[[str], None] | None = None,
-) -> ProjectedDips:
+def project_attitudes(attitudes: Attitudes, line: SectionLine, corridor: float, *,
+                      method: str = "perpendicular", axis: FoldAxis | None = None,
+                      warn: Callable[[str], None] | None = None) -> ProjectedDips:
     """Project the attitudes within ``corridor`` metres of the line into the section.
-
-    Methods:
-
-    * ``perpendicular`` — to the nearest point of the line (``SectionLine.locate``);
-    * ``strike`` — along the attitude's own strike line to where it meets the section,
-      on a bent line the first segment hit nearest the attitude; skipped (with one
-      note) where the strike is within 10 degrees of the segment's azimuth, or the
-      strike line misses the line;
-    * ``plunge`` — down-plunge along the fold axis ``axis`` (a :class:`FoldAxis`), in
-      either direction along its trend; the elevation is shifted
-      z' = z − s·tan(plunge), s the signed horizontal distance travelled along the
-      trend (positive toward the trend). Skipped where the trend is within 10 degrees
-      of the segment.
 
     Only attitudes with ``|offset| <= corridor`` are used, the offset measured
     perpendicular to the line at the attitude (right of travel positive) for every
     method. Each attitude uses the azimuth of the segment it lands on for its
     apparent dip (:func:`apparent_dip`) and is flagged ``poorly_constrained`` where
-    its strike is within 15 degrees of that azimuth (modulo 180). The elevation is
-    ``attitudes.z`` (NaN when unknown). Sorted by distance. Vectorised.
+    its strike is within 15 degrees of that azimuth (modulo 180). Vectorised.
+
+    Parameters
+    ----------
+    attitudes, line, corridor
+        The attitudes (in the line's CRS), the section line, the corridor's half-width (m).
+    method, axis
+        ``perpendicular``: to the nearest point of the line (``SectionLine.locate``);
+        ``strike``: along the attitude's own strike line to where it meets the section,
+        on a bent line the first segment hit nearest the attitude; ``plunge``:
+        down-plunge along the fold ``axis`` (a :class:`FoldAxis`), in either direction
+        along its trend, the elevation shifted z' = z − s·tan(plunge), s the signed
+        horizontal distance travelled along the trend (positive toward the trend).
+        Along strike or plunge an attitude is skipped where the direction is within 10
+        degrees of the segment's azimuth or misses the line: one note, to ``warn``.
+
+    Returns
+    -------
+    ProjectedDips
+        Sorted by distance; the elevation is ``attitudes.z`` (NaN when unknown).
+
+    Examples
+    --------
+    >>> p = project_attitudes(attitudes, line, 500.0, method="strike")  # doctest: +SKIP
+    >>> p.distance_m, p.apparent_dip  # doctest: +SKIP
     """
     warn = warn or _default_warn
     check_choice("projection", method)
@@ -167,33 +169,13 @@ def project_attitudes(
         raise ParameterError("plunge projection needs a fold axis (trend and plunge)")
     mask, pos = in_corridor(attitudes.x, attitudes.y, line, corridor)
     idx = np.flatnonzero(mask)
-    x, y = attitudes.x[idx], attitudes.y[idx]
-    strike = attitudes.strike[idx]
     z = attitudes.z[idx].astype(float)
     offset = pos.offset[idx]
     if method == "perpendicular":
         seg, distance = pos.segment[idx], pos.distance[idx]
         keep = np.ones(len(idx), bool)
     else:
-        if method == "strike":
-            direction = strike
-        else:
-            direction = np.full(len(idx), float(axis.trend) % 360.0)
-        r = np.radians(direction)
-        keep, seg, distance, s = _carry(line, x, y, np.sin(r), np.cos(r), STRIKE_SKIP_DEG,
-                                        direction)
-        if method == "plunge":
-            z = z - s * np.tan(np.radians(float(axis.plunge)))
-        n_skip = int((~keep).sum())
-        if n_skip:
-            what = "strike" if method == "strike" else f"fold-axis trend ({axis.trend:.1f})"
-            shown = ", ".join(str(v) for v in attitudes.id[idx][~keep][:10])
-            more = ", ..." if n_skip > 10 else ""
-            warn(
-                f"{n_skip} attitude(s) in the corridor not projected along {what}: within "
-                f"{STRIKE_SKIP_DEG:g} degrees of the section line or not meeting it "
-                f"(id {shown}{more})"
-            )
+        keep, seg, distance, z = _carried(attitudes, idx, z, line, method, axis, warn)
     sel = idx[keep]
     seg, distance, z, offset = seg[keep], distance[keep], z[keep], offset[keep]
     az = line.segment_azimuths[seg]
@@ -201,17 +183,36 @@ def project_attitudes(
     dip = attitudes.dip[sel]
     app = apparent_dip(strike, dip, az)
     poor = line_angle_between(strike, az) <= POORLY_CONSTRAINED_DEG
-    order = np.argsort(distance, kind="stable")
-    return ProjectedDips(
-        id=attitudes.id[sel][order],
-        x=attitudes.x[sel][order],
-        y=attitudes.y[sel][order],
-        distance_m=distance[order],
-        offset_m=offset[order],
-        elevation_m=z[order],
-        strike=strike[order],
-        dip=dip[order],
-        apparent_dip=app[order],
-        poorly_constrained=poor[order],
-        overturned=attitudes.overturned[sel][order],
-    )
+    o = np.argsort(distance, kind="stable")
+    return ProjectedDips(id=attitudes.id[sel][o], x=attitudes.x[sel][o], y=attitudes.y[sel][o],
+                         distance_m=distance[o], offset_m=offset[o], elevation_m=z[o],
+                         strike=strike[o], dip=dip[o], apparent_dip=app[o],
+                         poorly_constrained=poor[o], overturned=attitudes.overturned[sel][o])
+
+
+def _carried(attitudes: Attitudes, idx: np.ndarray, z: np.ndarray, line: SectionLine,
+             method: str, axis: FoldAxis | None, warn: Callable[[str], None]):
+    """The attitudes ``idx`` carried along strike or down plunge to the line: which
+    arrive, their segments, distances and elevations (shifted down the plunge); one note
+    names those that do not."""
+    x, y = attitudes.x[idx], attitudes.y[idx]
+    if method == "strike":
+        direction = attitudes.strike[idx]
+    else:
+        direction = np.full(len(idx), float(axis.trend) % 360.0)
+    r = np.radians(direction)
+    keep, seg, distance, s = carry_to_line(line, x, y, np.sin(r), np.cos(r), STRIKE_SKIP_DEG,
+                                           direction)
+    if method == "plunge":
+        z = z - s * np.tan(np.radians(float(axis.plunge)))
+    n_skip = int((~keep).sum())
+    if n_skip:
+        what = "strike" if method == "strike" else f"fold-axis trend ({axis.trend:.1f})"
+        shown = ", ".join(str(v) for v in attitudes.id[idx][~keep][:10])
+        more = ", ..." if n_skip > 10 else ""
+        warn(
+            f"{n_skip} attitude(s) in the corridor not projected along {what}: within "
+            f"{STRIKE_SKIP_DEG:g} degrees of the section line or not meeting it "
+            f"(id {shown}{more})"
+        )
+    return keep, seg, distance, z
