@@ -141,21 +141,7 @@ def corridor_dips(attitudes: str | os.PathLike, line, dem: str | os.PathLike, co
     """
     warn, note = warn or default_warn, note or default_note
     with Dem.open(dem, warn=warn) as d:
-        try:
-            given = pyproj.CRS(crs) if crs is not None else d.crs
-        except pyproj.exceptions.CRSError:
-            raise ParameterError(f"--crs {crs!r}: not a known CRS (give e.g. EPSG:32611)") from None
-        sl = read_line(line, crs=given)
-        if not same_crs(sl.crs, d.crs):
-            note(f"section line reprojected from {sl.crs.name} to the DEM's CRS ({d.crs.name})")
-            sl = sl.to_crs(d.crs)
-        sl = projected_line(sl, note)  # a geographic DEM: measure in local UTM
-        # CSV coordinates are in the DEM's CRS; vector files are reprojected to it.
-        att = read_attitudes(attitudes, convention=convention, layer=layer, crs=d.crs,
-                             warn=warn)
-        if not same_crs(att.crs, sl.crs):
-            att = reproject_attitudes(att, sl.crs, warn=note, source=str(attitudes))
-        att, _ = with_ground_elevations(att, d, sl.crs)
+        sl, att = _line_and_attitudes(line, attitudes, d, crs, convention, layer, warn, note)
     axis = _corridor_axis(att, sl, corridor, warn, note) if projection == "plunge" else None
     dips = project_attitudes(att, sl, corridor, method=projection, axis=axis, warn=warn)
     if len(dips) == 0:
@@ -164,6 +150,27 @@ def corridor_dips(attitudes: str | os.PathLike, line, dem: str | os.PathLike, co
     if n_nan:
         warn(f"{n_nan} attitude(s) have no elevation (outside the DEM or on nodata)")
     return CorridorDips(dips, len(att), axis)
+
+
+def _line_and_attitudes(line, attitudes: str | os.PathLike, d: Dem, crs, convention: str,
+                        layer: str | None, warn: Warn, note: Warn) -> tuple[SectionLine, Attitudes]:
+    """The line and the attitudes read in the DEM's CRS (a geographic DEM: local UTM), the
+    attitudes without elevation given the DEM's."""
+    try:
+        given = pyproj.CRS(crs) if crs is not None else d.crs
+    except pyproj.exceptions.CRSError:
+        raise ParameterError(f"--crs {crs!r}: not a known CRS (give e.g. EPSG:32611)") from None
+    sl = read_line(line, crs=given)
+    if not same_crs(sl.crs, d.crs):
+        note(f"section line reprojected from {sl.crs.name} to the DEM's CRS ({d.crs.name})")
+        sl = sl.to_crs(d.crs)
+    sl = projected_line(sl, note)  # a geographic DEM: measure in local UTM
+    # CSV coordinates are in the DEM's CRS; vector files are reprojected to it.
+    att = read_attitudes(attitudes, convention=convention, layer=layer, crs=d.crs, warn=warn)
+    if not same_crs(att.crs, sl.crs):
+        att = reproject_attitudes(att, sl.crs, warn=note, source=str(attitudes))
+    att, _ = with_ground_elevations(att, d, sl.crs)
+    return sl, att
 
 
 def _corridor_axis(att: Attitudes, line: SectionLine, corridor: float, warn: Warn,
