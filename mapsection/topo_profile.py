@@ -86,25 +86,41 @@ def resolve_line(line, crs, dem: Dem) -> SectionLine:
     return sl
 
 
-def profile(
-    dem: Dem | str | os.PathLike,
-    line: SectionLine | LineString | str | os.PathLike,
-    step: float | None = None,
-    *,
-    crs: pyproj.CRS | str | None = None,
-    warn: Callable[[str], None] | None = None,
-) -> Profile:
+def profile(dem: Dem | str | os.PathLike, line: SectionLine | LineString | str | os.PathLike,
+            step: float | None = None, *, crs: pyproj.CRS | str | None = None,
+            warn: Callable[[str], None] | None = None) -> Profile:
     """The ground surface along a section line, sampled from a DEM.
 
-    ``line`` is a SectionLine, a shapely LineString, a vector file holding one
-    LineString, or the text ``"x1,y1;x2,y2[;...]"``. Its CRS is its own, else
-    ``crs``, else the DEM's when that is projected. A line in a geographic CRS
-    is measured in metres in its local UTM zone (said through ``warn``, else on stderr). Samples lie
-    every ``step`` metres along the line (default: the DEM's pixel size) and at
-    every vertex, distance cumulative over bends; elevations are bilinear
-    between pixel centres of the DEM (see :meth:`Dem.sample`), in whatever CRS
-    the DEM is. Samples off the DEM or on nodata are NaN, with a warning; a
-    line wholly off the DEM is a DEMError.
+    Samples lie every ``step`` metres along the line and at every vertex, distance
+    cumulative over bends; elevations are bilinear between pixel centres of the DEM (see
+    :meth:`Dem.sample`), in whatever CRS the DEM is.
+
+    Parameters
+    ----------
+    dem
+        An open :class:`~mapsection.readers.dem.Dem` or the path of a GeoTIFF.
+    line
+        A SectionLine, a shapely LineString, a vector file holding one LineString, or
+        the text ``"x1,y1;x2,y2[;...]"``. Its CRS is its own, else ``crs``, else the
+        DEM's when that is projected. A line in a geographic CRS is measured in metres
+        in its local UTM zone (said through ``warn``, else on stderr).
+    step
+        Metres between samples (default: the DEM's pixel size).
+    crs
+        The line's CRS when it has none.
+    warn
+        Called with warnings (default: on stderr).
+
+    Returns
+    -------
+    Profile
+        Distances, map points and elevations. Samples off the DEM or on nodata are NaN,
+        with a warning; a line wholly off the DEM is a DEMError.
+
+    Examples
+    --------
+    >>> p = profile("sample_area/dem.tif", "604658,5218819;612195,5213542")  # doctest: +SKIP
+    >>> p.distance[-1], p.z.max()  # doctest: +SKIP
     """
     note = warn  # None: projected_line says it on stderr
     warn = warn or _default_warn
@@ -112,49 +128,59 @@ def profile(
     d = Dem.open(dem) if own else dem
     try:
         sl = projected_line(resolve_line(line, crs, d), warn=note)
-        if step is None:
-            step = d.pixel_size
-        try:
-            step = float(step)
-        except (TypeError, ValueError):
-            raise ParameterError(f"step {step!r}: must be a number of metres") from None
-        problem = RANGES["step"].problem(step)
-        if problem is not None:  # the value first: "step 0: sample step must be ..."
-            raise SettingError(f"step {human(step)}", problem)
-        if sl.length / step > _MAX_SAMPLES:
-            raise ParameterError(
-                f"step {human(step)}: gives {sl.length / step:.0f} samples along a "
-                f"{sl.length:.1f} m line; use a step of at least "
-                f"{human(sl.length / _MAX_SAMPLES)} m"
-            )
+        step = _checked_step(d.pixel_size if step is None else step, sl)
         distance, x, y = _layout(sl, step)
         z, inside = d._sample(x, y, sl.crs)
-        name = f"section line {sl.name}".rstrip()
-        if not inside.any():
-            b = d.bounds
-            raise DEMError(
-                f"{d.path}: {name} lies wholly outside the DEM (DEM bounds {b.left:.1f}, "
-                f"{b.bottom:.1f}, {b.right:.1f}, {b.top:.1f} in {d.crs.name})"
-            )
-        if not np.isfinite(z).any():
-            raise DEMError(f"{d.path}: the DEM has no data along {name}")
-        off = ~inside
-        if off.any():
-            gap = _gap_length(distance, off)
-            warn(
-                f"{name} leaves the DEM {d.path.name} over about {gap:.0f} m "
-                f"of its {sl.length:.0f} m; elevations there are empty"
-            )
-        nodata = inside & ~np.isfinite(z)
-        if nodata.any():
-            warn(
-                f"{name} crosses nodata in the DEM {d.path.name} over about "
-                f"{_gap_length(distance, nodata):.0f} m; elevations there are empty"
-            )
+        _judge_coverage(d, sl, distance, z, inside, warn)
         return Profile(distance, x, y, z, sl, sl.crs, d.pixel_size)
     finally:
         if own:
             d.close()
+
+
+def _checked_step(step, sl: SectionLine) -> float:
+    """``step`` as metres: a number in the setting's range, giving at most _MAX_SAMPLES."""
+    try:
+        step = float(step)
+    except (TypeError, ValueError):
+        raise ParameterError(f"step {step!r}: must be a number of metres") from None
+    problem = RANGES["step"].problem(step)
+    if problem is not None:  # the value first: "step 0: sample step must be ..."
+        raise SettingError(f"step {human(step)}", problem)
+    if sl.length / step > _MAX_SAMPLES:
+        raise ParameterError(
+            f"step {human(step)}: gives {sl.length / step:.0f} samples along a "
+            f"{sl.length:.1f} m line; use a step of at least "
+            f"{human(sl.length / _MAX_SAMPLES)} m"
+        )
+    return step
+
+
+def _judge_coverage(d: Dem, sl: SectionLine, distance: np.ndarray, z: np.ndarray,
+                    inside: np.ndarray, warn: Callable[[str], None]) -> None:
+    """DEMError where the line misses the DEM or its data wholly; a warning where in part."""
+    name = f"section line {sl.name}".rstrip()
+    if not inside.any():
+        b = d.bounds
+        raise DEMError(
+            f"{d.path}: {name} lies wholly outside the DEM (DEM bounds {b.left:.1f}, "
+            f"{b.bottom:.1f}, {b.right:.1f}, {b.top:.1f} in {d.crs.name})"
+        )
+    if not np.isfinite(z).any():
+        raise DEMError(f"{d.path}: the DEM has no data along {name}")
+    off = ~inside
+    if off.any():
+        gap = _gap_length(distance, off)
+        warn(
+            f"{name} leaves the DEM {d.path.name} over about {gap:.0f} m "
+            f"of its {sl.length:.0f} m; elevations there are empty"
+        )
+    nodata = inside & ~np.isfinite(z)
+    if nodata.any():
+        warn(
+            f"{name} crosses nodata in the DEM {d.path.name} over about "
+            f"{_gap_length(distance, nodata):.0f} m; elevations there are empty"
+        )
 
 
 def _layout(sl: SectionLine, step: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
