@@ -241,28 +241,41 @@ def from_profile(pm: PlungeMap, inner: Draft, line: SectionLine, profile: Profil
         g = clip(un.geometry)
         if not g.is_empty and g.area > 1e-6:
             units.append(dataclasses.replace(un, geometry=_polys(g)))
-    faults = []
-    for f in inner.faults:
-        c = np.asarray(f.geometry.coords)
-        unit = (c[-1] - c[0]) / max(np.hypot(*(c[-1] - c[0])), 1e-12)
-        stretch = pm.stretch_back(unit, c[0, 0])  # profile length -> section length
-        geom = back(f.geometry)
-        seps = {k: v * stretch for k, v in f.separations.items()}
-        faults.append(FaultTrace(f.name, geom, f.dip, f.dip_direction, f.apparent_dip,
-                                 f.sense, seps))
     axial = []
     for a in inner.axial_surfaces:
-        parts = _lines(clip(a.geometry))
-        for part in parts:
-            gd = a.ground_distance_m
-            axial.append(AxialSurface(part, u_back(gd) if np.isfinite(gd) else gd,
-                                      float(pm.dip_back(a.dip_left, gd if np.isfinite(gd)
-                                                        else 0.0)),
-                                      float(pm.dip_back(a.dip_right, gd if np.isfinite(gd)
-                                                        else 0.0))))
+        gd = a.ground_distance_m
+        at = gd if np.isfinite(gd) else 0.0
+        axial.extend(AxialSurface(part, u_back(gd) if np.isfinite(gd) else gd,
+                                  float(pm.dip_back(a.dip_left, at)),
+                                  float(pm.dip_back(a.dip_right, at)))
+                     for part in _lines(clip(a.geometry)))
     domains = [DipDomain(u_back(dm.start_m), u_back(dm.end_m),
                          float(pm.dip_back(dm.dip, 0.5 * (dm.start_m + dm.end_m))), dm.n_dips,
                          dm.block) for dm in inner.domains]
+    residuals, outliers = _points_back(pm, inner)
+    return Draft(name=inner.name, method=inner.method, line=line, profile=profile,
+                 geology=geology, dips=dips, column=inner.column, horizons=horizons,
+                 faults=_faults_back(pm, inner.faults), units=units, domains=domains,
+                 axial_surfaces=axial, residuals=residuals, ve=inner.ve,
+                 base_elevation_m=base, log=log, outliers=outliers)
+
+
+def _faults_back(pm: PlungeMap, faults: list[FaultTrace]) -> list[FaultTrace]:
+    """Fault traces carried back into the section, their separations stretched from
+    profile length to section length."""
+    out = []
+    for f in faults:
+        c = np.asarray(f.geometry.coords)
+        unit = (c[-1] - c[0]) / max(np.hypot(*(c[-1] - c[0])), 1e-12)
+        stretch = pm.stretch_back(unit, c[0, 0])  # profile length -> section length
+        seps = {k: v * stretch for k, v in f.separations.items()}
+        out.append(FaultTrace(f.name, pm.geometry_back(f.geometry), f.dip, f.dip_direction,
+                              f.apparent_dip, f.sense, seps))
+    return out
+
+
+def _points_back(pm: PlungeMap, inner: Draft) -> tuple[list[ContactResidual], list[DipOutlier]]:
+    """The contact residuals and dip outliers carried back into the section."""
 
     def pt_back(d, z):
         u, zz = pm.points_back(d, z)
@@ -276,11 +289,7 @@ def from_profile(pm: PlungeMap, inner: Draft, line: SectionLine, profile: Profil
                            float(pm.dip_back(o.apparent_dip, o.distance_m)
                                  - pm.dip_back(o.expected_dip, o.distance_m)),
                            o.kind, o.why, o.block) for o in inner.outliers]
-    return Draft(name=inner.name, method=inner.method, line=line, profile=profile,
-                 geology=geology, dips=dips, column=inner.column, horizons=horizons,
-                 faults=faults, units=units, domains=domains, axial_surfaces=axial,
-                 residuals=residuals, ve=inner.ve, base_elevation_m=base, log=log,
-                 outliers=outliers)
+    return residuals, outliers
 
 
 def _lines(g) -> list:
