@@ -443,18 +443,14 @@ def hand_map(draft: Draft):
                                                           "name")})
 
 
-GOOD_PROJECT = """  # a complete project file (docs/index.md keys)
+def project_inputs(crs: str = "EPSG:32611") -> str:
+    """The head of a project file: its CRS and the four inputs under the sample's names."""
+    return (f'crs = "{crs}"\n[dem]\npath = "dem.tif"\n[map]\npath = "geology.gpkg"\n'
+            'units_layer = "units"\nunit_field = "unit"\nfaults_layer = "faults"\n'
+            '[attitudes]\npath = "attitudes.csv"\n')
 
-crs = "EPSG:32611"
-[dem]
-path = "dem.tif"
-[map]
-path = "geology.gpkg"
-units_layer = "units"
-unit_field = "unit"
-faults_layer = "faults"
-[attitudes]
-path = "attitudes.csv"
+
+GOOD_PROJECT = "  # a complete project file (docs/index.md keys)\n\n" + project_inputs() + """\
 [[stratigraphy]]
 unit = "Upper"
 thickness = 250.0

@@ -18,6 +18,7 @@ import numpy as np
 import pyogrio
 import pytest
 import rasterio
+from conftest import project_inputs
 from rasterio.transform import Affine
 from shapely.geometry import LineString, box
 
@@ -64,18 +65,7 @@ def _synthetic(folder: Path, extra_unit: str | None = None) -> Path:
                                              strict=True))]
     (folder / "attitudes.csv").write_text("\n".join(pd_rows) + "\n")
     strat = "".join(f'[[stratigraphy]]\nunit = "{u}"\nthickness = 200.0\n' for u in names[:3])
-    (folder / "project.toml").write_text(textwrap.dedent(f"""\
-        crs = "{CRS}"
-        [dem]
-        path = "dem.tif"
-        [map]
-        path = "geology.gpkg"
-        units_layer = "units"
-        unit_field = "unit"
-        faults_layer = "faults"
-        [attitudes]
-        path = "attitudes.csv"
-        """) + strat + textwrap.dedent(f"""\
+    (folder / "project.toml").write_text(project_inputs(CRS) + strat + textwrap.dedent(f"""\
         [[section]]
         name = "A"
         line = [[{x0 + 100}, {y0 + 1000}], [{x0 + 1900}, {y0 + 1100}]]
