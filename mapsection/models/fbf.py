@@ -272,15 +272,6 @@ def _advect(p: np.ndarray, slip: float, theta: float, gamma: float, r: float,
     return q, (dom != dom0) | (dom0 == 1)
 
 
-def _check_model(ramp_height: float, slip: float, direction: int) -> None:
-    if not (np.isfinite(ramp_height) and ramp_height > 0):
-        raise ParameterError(f"fault-bend fold: ramp height must be > 0 m, got {ramp_height}")
-    if not (np.isfinite(slip) and slip >= 0):
-        raise ParameterError(f"fault-bend fold: slip must be >= 0 m, got {slip}")
-    if direction not in (1, -1):
-        raise ParameterError(f"fault-bend fold: direction must be +1 or -1, got {direction}")
-
-
 @dataclass(frozen=True)
 class _Frame:
     """The model's local frame (lower bend at the origin, transport +x) in the section."""
@@ -295,6 +286,15 @@ class _Frame:
 
     def ray(self, origin: np.ndarray, d: np.ndarray, length: float) -> LineString:
         return LineString(self.to_section(np.array([origin, origin + length * d])))
+
+
+def _check_model(ramp_height: float, slip: float, direction: int) -> None:
+    if not (np.isfinite(ramp_height) and ramp_height > 0):
+        raise ParameterError(f"fault-bend fold: ramp height must be > 0 m, got {ramp_height}")
+    if not (np.isfinite(slip) and slip >= 0):
+        raise ParameterError(f"fault-bend fold: slip must be >= 0 m, got {slip}")
+    if direction not in (1, -1):
+        raise ParameterError(f"fault-bend fold: direction must be +1 or -1, got {direction}")
 
 
 def _named_depths(horizons_depths: Sequence[float] | Mapping[str, float]) \
