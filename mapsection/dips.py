@@ -100,8 +100,36 @@ def carry_to_line(line: SectionLine, x, y, ux, uy, min_angle: float, direction_a
 
     Every segment is tried at once; a segment counts where the crossing lies on it
     and the direction is more than ``min_angle`` from the segment's azimuth. The
-    crossing nearest the point wins. Returns (ok, segment, distance, s) with ``s``
-    the signed distance travelled along (ux, uy).
+    crossing nearest the point wins.
+
+    Parameters
+    ----------
+    line
+        The section line.
+    x, y
+        Map points (arrays).
+    ux, uy
+        Unit direction of travel of each point (east, north components).
+    min_angle
+        Degrees: a segment within this angle of the direction is not met.
+    direction_az
+        The directions as azimuths (degrees), to compare with the segments'.
+
+    Returns
+    -------
+    tuple
+        ``(ok, segment, distance, s)``: which points meet the line, the segment met,
+        the distance along the line there, and ``s`` the signed distance travelled
+        along (ux, uy) (NaN where not met).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> line = SectionLine(np.array([[0.0, 0.0], [1000.0, 0.0]]))
+    >>> ok, seg, d, s = carry_to_line(line, np.array([300.0]), np.array([50.0]),
+    ...                               0.0, -1.0, 10.0, 180.0)
+    >>> bool(ok[0]), float(d[0]), float(s[0])
+    (True, 300.0, 50.0)
     """
     v0 = line.vertices[:-1]
     dv = np.diff(line.vertices, axis=0)

@@ -41,8 +41,28 @@ def worst_status(statuses: list[str]) -> str:
 
 
 def check_setting(name: str, value: float, lo: float, hi: float) -> float:
-    """``value`` as a float from ``lo`` to ``hi``; :class:`ParameterError` naming ``name``
-    otherwise."""
+    """A threshold setting checked against its range.
+
+    Parameters
+    ----------
+    name
+        The setting's name, for the error.
+    value
+        The value given.
+    lo, hi
+        The range, ends included.
+
+    Returns
+    -------
+    float
+        ``value`` as a float; :class:`~mapsection.errors.ParameterError` naming ``name``
+        where it is not a finite number from ``lo`` to ``hi``.
+
+    Examples
+    --------
+    >>> check_setting("cutoff mismatch pixels", 2, 0.0, 100.0)
+    2.0
+    """
     v = float(value)
     if not (math.isfinite(v) and lo <= v <= hi):
         raise ParameterError(f"{name}: must be a number from {lo:g} to {hi:g}, got {value!r}")
@@ -50,7 +70,25 @@ def check_setting(name: str, value: float, lo: float, hi: float) -> float:
 
 
 def threshold(fraction: float, pixels: float, mean_sep: float, pixel_size: float) -> float:
-    """The larger of ``fraction`` of ``|mean_sep|`` and ``pixels`` DEM pixels (metres)."""
+    """A fault's threshold: a share of its mean separation or DEM pixels, the larger.
+
+    Parameters
+    ----------
+    fraction, mean_sep
+        The share, and the fault's mean separation (m; its sign does not count).
+    pixels, pixel_size
+        The number of pixels and the DEM's pixel size (m; NaN: no pixel term).
+
+    Returns
+    -------
+    float
+        The threshold in metres.
+
+    Examples
+    --------
+    >>> threshold(0.10, 2.0, -800.0, 30.0)
+    80.0
+    """
     px = pixels * pixel_size if math.isfinite(pixel_size) else 0.0
     return float(max(fraction * abs(mean_sep), px))
 
@@ -114,8 +152,32 @@ def _bed_angle(line: LineString, end: np.ndarray, fault_dir: np.ndarray) -> floa
 
 
 def fault_cuts(draft: Draft, fault: FaultTrace, hw_block: int, fw_block: int) -> list[Cut]:
-    """The horizons cut by ``fault`` on both its hanging wall (block ``hw_block``) and
-    its footwall (``fw_block``), in column order (youngest first, base horizons last)."""
+    """Where each horizon cut on both walls meets a fault.
+
+    Parameters
+    ----------
+    draft
+        The draft section.
+    fault
+        One of its faults; prolonged upward along its top segment so that horizons
+        cut above the ground (in the eroded part) count too.
+    hw_block, fw_block
+        The fault's hanging-wall and footwall blocks
+        (:func:`mapsection.checks.geometry.fault_blocks`).
+
+    Returns
+    -------
+    list of Cut
+        In column order (youngest first, base horizons last): the cutoffs nearest the
+        fault's upper end, the separation along the fault, the cutoff angle and the
+        straight stretch of the fault holding the footwall cutoff.
+
+    Examples
+    --------
+    >>> fb = fault_blocks(draft)["F1"]  # doctest: +SKIP
+    >>> [c.separation_m for c in fault_cuts(draft, fault, fb.hanging_wall, fb.footwall)]
+    ... # doctest: +SKIP
+    """
     joined = joined_horizons(draft)
     tol = snap_tolerance(draft)
     y_all = np.concatenate([line_xy(g)[:, 1] for g in joined.values()]) if joined else np.zeros(1)

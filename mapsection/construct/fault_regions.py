@@ -168,8 +168,29 @@ def separations(fl: FaultLine, left_lines: dict[str, list[LineString]],
 
 
 def cutoff_along(line: LineString, horizons: list[LineString], s0: float) -> float | None:
-    """Where a horizon meets the fault, as distance along the fault: the crossing nearest
-    the fault's ground point (at ``s0`` along it)."""
+    """Where a horizon meets the fault, as distance along the fault.
+
+    Parameters
+    ----------
+    line
+        The fault (its whole path).
+    horizons
+        The pieces of one horizon on one side of the fault.
+    s0
+        Distance along ``line`` of the fault's ground point.
+
+    Returns
+    -------
+    float or None
+        The crossing nearest the ground point, as distance along ``line``; None where the
+        horizon does not meet the fault.
+
+    Examples
+    --------
+    >>> from shapely.geometry import LineString
+    >>> cutoff_along(LineString([(0, 0), (0, -100)]), [LineString([(-50, -40), (0, -40)])], 0.0)
+    40.0
+    """
     pts = []
     for h in horizons:
         x = line.intersection(h)
