@@ -480,3 +480,102 @@ def project_copy(tmp_path_factory, request) -> Path:
     folder = tmp_path_factory.mktemp(request.module.__name__.rsplit(".", 1)[-1]) / "area"
     shutil.copytree(SAMPLE_AREA, folder)
     return folder / "project.toml"
+
+
+# --- an analytic dipping layer-cake under a valley, with its map (cover, intrusive units) ---
+
+CAKE_LENGTH = 8000.0
+CAKE_COLUMN = Column((Unit("A", 200.0), Unit("B", 250.0), Unit("C", 300.0), Unit("D", 400.0)))
+
+
+def apparent_dip_deg(dip: float, angle_to_strike: float) -> float:
+    """tan a = tan d sin b (Ragan, Structural Geology: An Introduction to Geometrical
+    Techniques; b the angle between the strike and the section line)."""
+    return math.degrees(math.atan(math.tan(math.radians(dip))
+                                  * math.sin(math.radians(angle_to_strike))))
+
+
+@dataclass
+class LayerCake:
+    """Beds of ``column`` dipping ``dip`` degrees, striking ``angle_to_strike`` degrees from the
+    section line (so that they descend toward increasing distance at the apparent dip), under
+    a ground with a valley at ``valley_m``; the top of ``column.names[1]`` meets the plain
+    (z = ``plain``) at ``anchor_m``. Everything is closed form; contacts are where the planes'
+    traces meet the ground."""
+
+    column: Column = CAKE_COLUMN
+    dip: float = 25.0
+    angle_to_strike: float = 90.0
+    plain: float = 400.0
+    valley_m: float = 4000.0
+    valley_depth: float = 120.0
+    valley_width: float = 500.0
+    anchor_m: float = 2000.0
+    step: float = 5.0
+
+    @property
+    def apparent(self) -> float:
+        return apparent_dip_deg(self.dip, self.angle_to_strike)
+
+    def ground(self, d):
+        d = np.asarray(d, float)
+        return self.plain - self.valley_depth * np.exp(-((d - self.valley_m)
+                                                         / self.valley_width) ** 2)
+
+    def top(self, unit: str, d):
+        """Elevation of the top of ``unit`` (its vertical spacing t / cos a for a line down
+        the dip, b = 90 degrees)."""
+        a = math.radians(self.apparent)
+        depth = float(self.column.depth_to_top[self.column.index(unit)]
+                      - self.column.depth_to_top[1])
+        return self.plain - math.tan(a) * (np.asarray(d, float) - self.anchor_m) \
+            - depth / math.cos(a)
+
+    def contacts(self) -> list[tuple[float, str]]:
+        """(distance, top of unit) where each top meets the ground (sign changes)."""
+        d = np.arange(0.0, CAKE_LENGTH + self.step / 2, self.step)
+        out = []
+        for name in self.column.names[1:]:
+            h = self.top(name, d) - self.ground(d)
+            k = np.flatnonzero(np.sign(h[:-1]) != np.sign(h[1:]))
+            for i in k:  # linear between samples of 5 m: well within any tolerance here
+                out.append((float(d[i] - h[i] * (d[i + 1] - d[i]) / (h[i + 1] - h[i])), name))
+        return sorted(out)
+
+    def unit_at(self, d) -> list[str]:
+        g = self.ground(d)
+        out = []
+        for x, z in zip(np.atleast_1d(d), np.atleast_1d(g), strict=True):
+            name = self.column.names[0]
+            for n in self.column.names[1:]:
+                if self.top(n, x) >= z:
+                    name = n
+            out.append(name)
+        return out
+
+    def section(self, cover=(), intrusive=(), dip_every=500.0):
+        """(line, profile, geology, dips) with ``cover`` and ``intrusive`` stretches
+        ``(unit, start, end)`` replacing the bedrock on the map."""
+        d = np.arange(0.0, CAKE_LENGTH + self.step / 2, self.step)
+        line = SectionLine(np.array([[0.0, 0.0], [CAKE_LENGTH, 0.0]]), name="K")
+        prof = Profile(d, d.copy(), np.zeros_like(d), self.ground(d), line, None, self.step)
+        edges = [0.0, *[c for c, _ in self.contacts()], CAKE_LENGTH]
+        runs = [(a, b, self.unit_at(0.5 * (a + b))[0])
+                for a, b in zip(edges[:-1], edges[1:], strict=True)]
+        for unit, s, e in [*intrusive, *cover]:  # cut each stretch in, the cover last
+            kept = []
+            for a, b, u in runs:
+                if b <= s or a >= e:
+                    kept.append((a, b, u))
+                    continue
+                if a < s:
+                    kept.append((a, s, u))
+                if b > e:
+                    kept.append((e, b, u))
+            runs = sorted([*kept, (s, e, unit)])
+        iv = tuple(UnitInterval(a, b, u) for a, b, u in runs)
+        ct = tuple(Contact(b, float(self.ground(b)), u0, u1)
+                   for (_, b, u0), (_, _, u1) in zip(runs[:-1], runs[1:], strict=True))
+        xs = np.arange(dip_every / 2, CAKE_LENGTH, dip_every)
+        dips = dips_at(xs, self.ground(xs), np.full(len(xs), self.apparent))
+        return line, prof, SurfaceGeology(iv, ct, ()), dips

@@ -48,6 +48,7 @@ from ..settings import Thresholds
 from .area import area_balance
 from .cutoffs import check_fault_restoration
 from .diagnosis import diagnose
+from .kinds import layered_draft, unlayered_notes
 from .kinematics import check_kinematics
 from .restore import restore_section, with_fault_checks
 from .results import TESTS, CheckReport, jsonable
@@ -98,6 +99,7 @@ def run_checks(
                for h in draft.horizons):
         raise CheckError(f"section {draft.name or '(unnamed)'}: has no horizons below the ground")
     topo = check_topography(draft, thresholds)
+    whole, draft = draft, layered_draft(draft)  # cover and intrusive units: not restored
     if topo.status == "fail":  # name the likely fix, ranked (issue 12)
         topo.diagnosis = diagnose(draft, attitude_xy=attitude_xy, corridor_m=corridor_m)
     restoration = restore_section(draft, pin=pin, loose=loose,
@@ -111,7 +113,7 @@ def run_checks(
     restoration = with_fault_checks(restoration, at_faults)
     area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
     kin = check_kinematics(draft, restoration)
-    notes = []
+    notes = unlayered_notes(whole)
     if draft.method == "edited":
         notes.append("horizons and faults were read from an edited section file, not rebuilt")
     if draft.ve != 1:
