@@ -529,7 +529,7 @@ class LayerCake:
         depth = float(self.column.depth_to_top[self.column.index(unit)]
                       - self.column.depth_to_top[1])
         return self.plain - math.tan(a) * (np.asarray(d, float) - self.anchor_m) \
-            - depth / math.cos(a)
+            - depth / math.cos(math.radians(self.dip))  # vertical spacing t / cos d
 
     def contacts(self) -> list[tuple[float, str]]:
         """(distance, top of unit) where each top meets the ground (sign changes)."""
@@ -579,3 +579,32 @@ class LayerCake:
         xs = np.arange(dip_every / 2, CAKE_LENGTH, dip_every)
         dips = dips_at(xs, self.ground(xs), np.full(len(xs), self.apparent))
         return line, prof, SurfaceGeology(iv, ct, ()), dips
+
+
+def with_map_units(src: Path, dst: Path, added: dict) -> Path:
+    """A copy of the map ``src`` with the polygons ``added`` (unit -> geometry, in the map's
+    CRS) cut into its ``units`` layer: they replace whatever was mapped under them."""
+    import geopandas as gpd
+    import pyogrio
+
+    units = pyogrio.read_dataframe(src, layer="units")
+    for name, geom in added.items():
+        units["geometry"] = units.geometry.difference(geom)
+        row = units.iloc[[0]].copy()
+        row["unit"] = name
+        row["geometry"] = [geom]
+        units = gpd.GeoDataFrame(pd_concat([units, row]), crs=units.crs)
+    return write_map_variant(src, dst, units=units)
+
+
+def pd_concat(frames):
+    import pandas as pd
+
+    return pd.concat(frames, ignore_index=True)
+
+
+def point_on_line(line_xy, distance: float):
+    """The map point ``distance`` metres along a straight line [[x0, y0], [x1, y1]]."""
+    (x0, y0), (x1, y1) = line_xy
+    f = distance / math.hypot(x1 - x0, y1 - y0)
+    return x0 + f * (x1 - x0), y0 + f * (y1 - y0)
