@@ -737,11 +737,25 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
         below = everywhere.get((name, names[i + 1])) if i + 1 < len(names) else None
         units.append(_unit_thickness(name, top, base, fit_of, step, rng, bootstrap,
                                      geoms[name], elevation, label, tolerance, above, below))
-    measured = {u.unit: u for u in units}
+    measured = {u.unit: _named_neighbours(u, names) for u in units}
     units = [measured.get(u.name) or UnitThickness(
         u.name, "none", why=f"a {u.kind} unit is not a layer: it has no thickness between "
                             "bedding contacts") for u in column.units]
     return ColumnEstimate(tuple(units), tuple(fits), step)
+
+
+_NO_CONTACT = "no contact with the unit above or below it in the column is mapped"
+
+
+def _named_neighbours(u: UnitThickness, names: list[str]) -> UnitThickness:
+    """A unit without any mapped contact: its why names the units it was looked for with."""
+    if u.kind != "none" or u.why != _NO_CONTACT:
+        return u
+    i = names.index(u.unit)
+    near = [f"{names[i - 1]} (above)"] if i > 0 else []
+    near += [f"{names[i + 1]} (below)"] if i + 1 < len(names) else []
+    return dataclasses.replace(u, why=f"no contact with {' or '.join(near)}, its neighbours "
+                                      "among the layered units of the column, is mapped")
 
 
 def _chunks(g: _Group) -> list[np.ndarray]:
@@ -867,7 +881,7 @@ def _unit_thickness(name, top, base, fit_of, step, rng, bootstrap, unit_geoms,
                "domain (too few points, points nearly on one line, or planes at odds with "
                "the attitudes)")
     else:
-        why = "no contact with the unit above or below it in the column is mapped"
+        why = _NO_CONTACT
     return UnitThickness(name, "none", why=why)
 
 

@@ -237,6 +237,10 @@ def test_column_adjacency_skips_cover_and_intrusive(tmp_path):
     try:
         mixed = Column((*column.units[:2], QAL, GRANITE, *column.units[2:]))
         est = estimate_column(mixed, md, dem.sample, att, dem.pixel_size, bootstrap=0)
+        # a unit on the map whose neighbours in the column are not: why names them
+        lone = Column((column.units[0], Unit("X1", 50.0), column.units[2],
+                       Unit("X2", 50.0), *column.units[4:]))
+        alone = estimate_column(lone, md, dem.sample, att, dem.pixel_size, bootstrap=0)
     finally:
         dem.close()
     for name, true in zip(NAMES, THICK, strict=True):
@@ -244,6 +248,9 @@ def test_column_adjacency_skips_cover_and_intrusive(tmp_path):
             assert est.unit(name).thickness == pytest.approx(true, rel=0.05), name
     for name in ("Qal", "Gr"):
         assert est.unit(name).kind == "none" and "not a layer" in est.unit(name).why
+    assert alone.unit(NAMES[2]).why == ("no contact with X1 (above) or X2 (below), its "
+                                        "neighbours among the layered units of the column, "
+                                        "is mapped")
     text = stratigraphy_toml(mixed, est)
     assert 'kind = "cover"\nthickness = 15.0' in text and 'kind = "intrusive"\ndepth = 300.0' \
         in text
