@@ -8,6 +8,10 @@
 * :func:`hand_draft` -- a small draft with a bend, a fault and six dips (figure, export).
 * :func:`recovery_errors` -- elevation errors of a built draft against the sample model.
 
+* :class:`LayerCake` -- an analytic dipping layer-cake under a valley, with its map, cover and
+  intrusive stretches cut in (cover and intrusive units); :func:`with_map_units` -- a copy of
+  a map with polygons cut into its units layer.
+
 * :class:`SampleCopy` / the ``sample_copy`` fixture -- a private copy of the sample area, and
   bad variants of its inputs (the error catalogue); the sample area itself is never touched.
 
@@ -593,11 +597,11 @@ def with_map_units(src: Path, dst: Path, added: dict) -> Path:
         row = units.iloc[[0]].copy()
         row["unit"] = name
         row["geometry"] = [geom]
-        units = gpd.GeoDataFrame(pd_concat([units, row]), crs=units.crs)
+        units = gpd.GeoDataFrame(_concat([units, row]), crs=units.crs)
     return write_map_variant(src, dst, units=units)
 
 
-def pd_concat(frames):
+def _concat(frames):
     import pandas as pd
 
     return pd.concat(frames, ignore_index=True)

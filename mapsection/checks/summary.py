@@ -335,10 +335,15 @@ def summary_lines(report: CheckReport) -> list[str]:
 
 def _unlayered_lines(report: CheckReport, test: str) -> list[str]:
     """Under the restoration and the area balance: the units they leave out."""
-    kinds = [("intrusive", "intrusive bodies not restored"), ("cover", "cover not restored")]
-    return [f"{word} ({n.split(' (', 1)[1].split(')', 1)[0]}): left out of the "
-            f"{'line-length balance' if test == 'restoration' else 'area balance'}"
-            for kind, word in kinds for n in report.notes if n.startswith(f"{kind} (")]
+    stretches = getattr(report.topography, "concealed", [])  # the units at the ground
+    what = "line-length balance" if test == "restoration" else "area balance"
+    out = []
+    for kind, word in (("intrusive", "intrusive bodies not restored"),
+                       ("cover", "cover not restored")):
+        units = list(dict.fromkeys(c.unit for c in stretches if c.kind == kind))
+        if units:
+            out.append(f"{word} ({', '.join(units)}): left out of the {what}")
+    return out
 
 
 def result_line(key: KeyFigures) -> str:
