@@ -739,8 +739,9 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
                                      geoms[name], elevation, label, tolerance, above, below))
     measured = {u.unit: _named_neighbours(u, names) for u in units}
     units = [measured.get(u.name) or UnitThickness(
-        u.name, "none", why=f"a {u.kind} unit is not a layer: it has no thickness between "
-                            "bedding contacts") for u in column.units]
+        u.name, "none", why=f"{'an' if u.kind == 'intrusive' else 'a'} {u.kind} unit is not "
+                            "a layer: it has no thickness between bedding contacts")
+        for u in column.units]
     return ColumnEstimate(tuple(units), tuple(fits), step)
 
 
