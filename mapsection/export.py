@@ -28,7 +28,9 @@ without one (a GIS shows them as a plain metric drawing). Layers:
   ``segments`` (JSON text: the trace's segments from the ground down as
   ``[kind, metres along the fault]``, kind ``ramp``, ``bend`` or ``flat``; optional on
   reading);
-- ``units``: polygons, fields ``unit``, ``block``;
+- ``units``: polygons, fields ``unit``, ``block``; the veneers of cover units and the
+  intrusive bodies come after the layered units, which they overlie
+  (:mod:`mapsection.construct.cover`);
 - ``axial_surfaces``: LineStrings, fields ``ground_distance_m``, ``dip_left``,
   ``dip_right``;
 - ``dip_domains``: the ground over each dip domain, LineStrings, fields ``start_m``,

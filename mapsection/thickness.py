@@ -613,7 +613,9 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
     Parameters
     ----------
     column : Column
-        The stratigraphic column, youngest first; only adjacent units' contacts are used.
+        The stratigraphic column, youngest first; only the contacts of layered units
+        adjacent in it are used (cover and intrusive units are skipped: a contact with
+        one is no bedding contact, and they get no thickness, kind ``"none"``).
     map_data : MapData
         The unit polygons and fault lines (in the same projected CRS as the attitudes).
     elevation : callable
@@ -637,7 +639,7 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
 
     step = float(spacing or pixel_size)
     rng = np.random.default_rng(seed)
-    names = column.names
+    names = column.layered().names  # adjacent layered units: cover and intrusive skipped
     faults = list(map_data.fault_geoms)
     rows = np.arange(len(faults))
     fnames = map_data.fault_value("name", rows) if faults else None
@@ -735,7 +737,26 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
         below = everywhere.get((name, names[i + 1])) if i + 1 < len(names) else None
         units.append(_unit_thickness(name, top, base, fit_of, step, rng, bootstrap,
                                      geoms[name], elevation, label, tolerance, above, below))
+    measured = {u.unit: _named_neighbours(u, names) for u in units}
+    units = [measured.get(u.name) or UnitThickness(
+        u.name, "none", why=f"{'an' if u.kind == 'intrusive' else 'a'} {u.kind} unit is not "
+                            "a layer: it has no thickness between bedding contacts")
+        for u in column.units]
     return ColumnEstimate(tuple(units), tuple(fits), step)
+
+
+_NO_CONTACT = "no contact with the unit above or below it in the column is mapped"
+
+
+def _named_neighbours(u: UnitThickness, names: list[str]) -> UnitThickness:
+    """A unit without any mapped contact: its why names the units it was looked for with."""
+    if u.kind != "none" or u.why != _NO_CONTACT:
+        return u
+    i = names.index(u.unit)
+    near = [f"{names[i - 1]} (above)"] if i > 0 else []
+    near += [f"{names[i + 1]} (below)"] if i + 1 < len(names) else []
+    return dataclasses.replace(u, why=f"no contact with {' or '.join(near)}, its neighbours "
+                                      "among the layered units of the column, is mapped")
 
 
 def _chunks(g: _Group) -> list[np.ndarray]:
@@ -861,7 +882,7 @@ def _unit_thickness(name, top, base, fit_of, step, rng, bootstrap, unit_geoms,
                "domain (too few points, points nearly on one line, or planes at odds with "
                "the attitudes)")
     else:
-        why = "no contact with the unit above or below it in the column is mapped"
+        why = _NO_CONTACT
     return UnitThickness(name, "none", why=why)
 
 
@@ -1005,7 +1026,11 @@ def unit_line(u: Unit, e: UnitThickness) -> list[str]:
     """The ``[[stratigraphy]]`` entry of one unit, with the map's thickness where measured."""
     lines = ["[[stratigraphy]]", f"unit = {_toml_str(u.name)}"]
     measured = e.kind == "measured" and e.thickness is not None
-    if measured:
+    if not u.layered:  # cover and intrusive units: their own keys, no measured thickness
+        lines.append(f"kind = {_toml_str(u.kind)}")
+        lines.append(f"thickness = {u.thickness:.1f}" if u.kind == "cover"
+                     else f"depth = {u.depth:.1f}")
+    elif measured:
         unc = (f"+/- {_m(e.uncertainty)} m, " if e.uncertainty is not None
                and math.isfinite(e.uncertainty) else "")
         lines.append(f"thickness = {e.thickness:.1f}  # from the map: {unc}{e.n_points} points")

@@ -8,6 +8,10 @@
 * :func:`hand_draft` -- a small draft with a bend, a fault and six dips (figure, export).
 * :func:`recovery_errors` -- elevation errors of a built draft against the sample model.
 
+* :class:`LayerCake` -- an analytic dipping layer-cake under a valley, with its map, cover and
+  intrusive stretches cut in (cover and intrusive units); :func:`with_map_units` -- a copy of
+  a map with polygons cut into its units layer.
+
 * :class:`SampleCopy` / the ``sample_copy`` fixture -- a private copy of the sample area, and
   bad variants of its inputs (the error catalogue); the sample area itself is never touched.
 
@@ -476,3 +480,131 @@ def project_copy(tmp_path_factory, request) -> Path:
     folder = tmp_path_factory.mktemp(request.module.__name__.rsplit(".", 1)[-1]) / "area"
     shutil.copytree(SAMPLE_AREA, folder)
     return folder / "project.toml"
+
+
+# --- an analytic dipping layer-cake under a valley, with its map (cover, intrusive units) ---
+
+CAKE_LENGTH = 8000.0
+CAKE_COLUMN = Column((Unit("A", 200.0), Unit("B", 250.0), Unit("C", 300.0), Unit("D", 400.0)))
+
+
+def apparent_dip_deg(dip: float, angle_to_strike: float) -> float:
+    """tan a = tan d sin b (Ragan, Structural Geology: An Introduction to Geometrical
+    Techniques; b the angle between the strike and the section line)."""
+    return math.degrees(math.atan(math.tan(math.radians(dip))
+                                  * math.sin(math.radians(angle_to_strike))))
+
+
+@dataclass
+class LayerCake:
+    """Beds of ``column`` dipping ``dip`` degrees, striking ``angle_to_strike`` degrees from the
+    section line (so that they descend toward increasing distance at the apparent dip), under
+    a ground with a valley at ``valley_m``; the top of ``column.names[1]`` meets the plain
+    (z = ``plain``) at ``anchor_m``. Everything is closed form; contacts are where the planes'
+    traces meet the ground."""
+
+    column: Column = CAKE_COLUMN
+    dip: float = 25.0
+    angle_to_strike: float = 90.0
+    plain: float = 400.0
+    valley_m: float = 4000.0
+    valley_depth: float = 120.0
+    valley_width: float = 500.0
+    anchor_m: float = 2000.0
+    step: float = 5.0
+
+    @property
+    def apparent(self) -> float:
+        return apparent_dip_deg(self.dip, self.angle_to_strike)
+
+    def ground(self, d):
+        d = np.asarray(d, float)
+        return self.plain - self.valley_depth * np.exp(-((d - self.valley_m)
+                                                         / self.valley_width) ** 2)
+
+    def top(self, unit: str, d):
+        """Elevation of the top of ``unit`` (its vertical spacing t / cos a for a line down
+        the dip, b = 90 degrees)."""
+        a = math.radians(self.apparent)
+        depth = float(self.column.depth_to_top[self.column.index(unit)]
+                      - self.column.depth_to_top[1])
+        return self.plain - math.tan(a) * (np.asarray(d, float) - self.anchor_m) \
+            - depth / math.cos(math.radians(self.dip))  # vertical spacing t / cos d
+
+    def contacts(self) -> list[tuple[float, str]]:
+        """(distance, top of unit) where each top meets the ground (sign changes)."""
+        d = np.arange(0.0, CAKE_LENGTH + self.step / 2, self.step)
+        out = []
+        for name in self.column.names[1:]:
+            h = self.top(name, d) - self.ground(d)
+            k = np.flatnonzero(np.sign(h[:-1]) != np.sign(h[1:]))
+            for i in k:  # linear between samples of 5 m: well within any tolerance here
+                out.append((float(d[i] - h[i] * (d[i + 1] - d[i]) / (h[i + 1] - h[i])), name))
+        return sorted(out)
+
+    def unit_at(self, d) -> list[str]:
+        g = self.ground(d)
+        out = []
+        for x, z in zip(np.atleast_1d(d), np.atleast_1d(g), strict=True):
+            name = self.column.names[0]
+            for n in self.column.names[1:]:
+                if self.top(n, x) >= z:
+                    name = n
+            out.append(name)
+        return out
+
+    def section(self, cover=(), intrusive=(), dip_every=500.0):
+        """(line, profile, geology, dips) with ``cover`` and ``intrusive`` stretches
+        ``(unit, start, end)`` replacing the bedrock on the map."""
+        d = np.arange(0.0, CAKE_LENGTH + self.step / 2, self.step)
+        line = SectionLine(np.array([[0.0, 0.0], [CAKE_LENGTH, 0.0]]), name="K")
+        prof = Profile(d, d.copy(), np.zeros_like(d), self.ground(d), line, None, self.step)
+        edges = [0.0, *[c for c, _ in self.contacts()], CAKE_LENGTH]
+        runs = [(a, b, self.unit_at(0.5 * (a + b))[0])
+                for a, b in zip(edges[:-1], edges[1:], strict=True)]
+        for unit, s, e in [*intrusive, *cover]:  # cut each stretch in, the cover last
+            kept = []
+            for a, b, u in runs:
+                if b <= s or a >= e:
+                    kept.append((a, b, u))
+                    continue
+                if a < s:
+                    kept.append((a, s, u))
+                if b > e:
+                    kept.append((e, b, u))
+            runs = sorted([*kept, (s, e, unit)])
+        iv = tuple(UnitInterval(a, b, u) for a, b, u in runs)
+        ct = tuple(Contact(b, float(self.ground(b)), u0, u1)
+                   for (_, b, u0), (_, _, u1) in zip(runs[:-1], runs[1:], strict=True))
+        xs = np.arange(dip_every / 2, CAKE_LENGTH, dip_every)
+        dips = dips_at(xs, self.ground(xs), np.full(len(xs), self.apparent))
+        return line, prof, SurfaceGeology(iv, ct, ()), dips
+
+
+def with_map_units(src: Path, dst: Path, added: dict) -> Path:
+    """A copy of the map ``src`` with the polygons ``added`` (unit -> geometry, in the map's
+    CRS) cut into its ``units`` layer: they replace whatever was mapped under them."""
+    import geopandas as gpd
+    import pyogrio
+
+    units = pyogrio.read_dataframe(src, layer="units")
+    for name, geom in added.items():
+        units["geometry"] = units.geometry.difference(geom)
+        row = units.iloc[[0]].copy()
+        row["unit"] = name
+        row["geometry"] = [geom]
+        units = gpd.GeoDataFrame(_concat([units, row]), crs=units.crs)
+    return write_map_variant(src, dst, units=units)
+
+
+def _concat(frames):
+    import pandas as pd
+
+    return pd.concat(frames, ignore_index=True)
+
+
+def point_on_line(line_xy, distance: float):
+    """The map point ``distance`` metres along a straight line [[x0, y0], [x1, y1]]."""
+    (x0, y0), (x1, y1) = line_xy
+    f = distance / math.hypot(x1 - x0, y1 - y0)
+    return x0 + f * (x1 - x0), y0 + f * (y1 - y0)

@@ -303,6 +303,21 @@ CASES = [
     Case("P43", P, edited("line = [[604658, 5218819], [612195, 5213542]]",
                           "line = [[1e20, 5218819], [612195, 5213542]]"),
          ("project.toml", "section[0].line")),
+    # units that are not layers, and unconformities (issue 10)
+    Case("P44", P, edited("[[stratigraphy]]\n", '[[stratigraphy]]\nunit = "Valley alluvium"\n'
+                          'kind = "cover"\nunconformity = true\n\n[[stratigraphy]]\n'),
+         ("project.toml", "stratigraphy[0]", "Valley alluvium")),
+    Case("P45", P, edited("[[stratigraphy]]\n", '[[stratigraphy]]\nunit = "Valley alluvium"\n'
+                          'kind = "veneer"\n\n[[stratigraphy]]\n'),
+         ("project.toml", "stratigraphy[0].kind")),
+    Case("P46", P, edited("[[stratigraphy]]\n", '[[stratigraphy]]\nunit = "Valley alluvium"\n'
+                          'kind = "cover"\nthickness = "map"\n\n[[stratigraphy]]\n'),
+         ("project.toml", "stratigraphy[0]", "Valley alluvium")),
+    Case("P47", P, edited("thickness = 240.0", "thickness = 240.0\nunconformity = true"),
+         ("project.toml", "stratigraphy", "Hesk Quartzite")),
+    Case("P48", P, edited("thickness = 240.0", 'thickness = 240.0\n\n[[stratigraphy]]\n'
+                          'unit = "Grey Limestone"\nthickness = "map"'),
+         ("project.toml", "stratigraphy[6].thickness", "Grey Limestone")),
     # --- DEM ---------------------------------------------------------------------------
     Case("D01", D, edited('path = "dem.tif"', 'path = "nodem.tif"'), ("nodem.tif",)),
     Case("D02", D, lambda s: (s.root.joinpath("demdir").mkdir(),

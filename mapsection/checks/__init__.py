@@ -48,6 +48,7 @@ from ..settings import Thresholds
 from .area import area_balance
 from .cutoffs import check_fault_restoration
 from .diagnosis import diagnose
+from .kinds import layered_draft, unlayered_notes
 from .kinematics import check_kinematics
 from .restore import Restoration, restore_section, with_fault_checks
 from .results import TESTS, CheckReport, jsonable
@@ -98,12 +99,13 @@ def run_checks(
                for h in draft.horizons):
         raise CheckError(f"section {draft.name or '(unnamed)'}: has no horizons below the ground")
     topo = check_topography(draft, thresholds)
+    whole, draft = draft, layered_draft(draft)  # cover and intrusive units: not restored
     if topo.status == "fail":  # name the likely fix, ranked (issue 12)
         topo.diagnosis = diagnose(draft, attitude_xy=attitude_xy, corridor_m=corridor_m)
     restoration = _restoration(draft, thresholds, pin, loose)
     area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
     kin = check_kinematics(draft, restoration)
-    notes = _notes(draft)
+    notes = unlayered_notes(whole) + _notes(draft)
     report = CheckReport(draft.name, draft.method, float(draft.ve), thresholds, topo,
                          restoration, area, kin, notes)
     if warn is not None:
@@ -139,6 +141,7 @@ def _notes(draft: Draft) -> list[str]:
                      "dips and thicknesses look steeper and thicker than they are; "
                      "every check is measured at true scale")
     return notes
+
 
 __all__ = [
     "TESTS",

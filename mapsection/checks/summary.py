@@ -274,6 +274,27 @@ def _restoration_fault_lines(key: KeyFigures) -> list[str]:
     return out
 
 
+def concealed_text(topo) -> str:
+    """What the topography test left uncompared under cover and intrusive units ("" if
+    nothing)."""
+    stretches = getattr(topo, "concealed", [])
+    if not stretches:
+        return ""
+    out = []
+    for kind, what in (("cover", "concealed under cover"),
+                       ("intrusive", "intrusive at the ground (in the section by construction)")):
+        mine = [c for c in stretches if c.kind == kind]
+        if mine:
+            units = ", ".join(dict.fromkeys(c.unit for c in mine))
+            out.append(f"{sum(c.to_m - c.from_m for c in mine):.0f} m {what} "
+                       f"({len(mine)} stretch(es): {units})")
+    hidden = len(getattr(topo, "concealed_section_contacts", []))
+    text = "; ".join(out) + ": not compared (no unit agreement, no contact pairing there)"
+    if hidden:
+        text += f"; {hidden} section contact(s) there, not counted as unpaired"
+    return text
+
+
 def summary_lines(report: CheckReport) -> list[str]:
     """One line per test: name, PASS / FAIL / NOT TESTED and its key figures against the
     thresholds; then, under a test that did not pass, why (and, for a failed topography
@@ -286,6 +307,10 @@ def summary_lines(report: CheckReport) -> list[str]:
     for k, text in _figure_texts(key).items():
         v = verdicts[k]
         lines.append(f"  {k:<13} {status_word(v.status):<10} {text}")
+        if k == "topography" and concealed_text(report.topography):
+            lines.append(f"{'':26}{concealed_text(report.topography)}")
+        if k in ("restoration", "area_balance"):
+            lines += [f"{'':26}{n}" for n in _unlayered_lines(report, k)]
         reasons = list(v.reasons)
         if k == "restoration":
             fault_lines = _restoration_fault_lines(key)
@@ -301,6 +326,19 @@ def summary_lines(report: CheckReport) -> list[str]:
             lines.append(f"{'':26}likely causes, strongest first:")
             lines += [f"{'':28}{t}" for t in diag]
     return lines
+
+
+def _unlayered_lines(report: CheckReport, test: str) -> list[str]:
+    """Under the restoration and the area balance: the units they leave out."""
+    stretches = getattr(report.topography, "concealed", [])  # the units at the ground
+    what = "line-length balance" if test == "restoration" else "area balance"
+    out = []
+    for kind, word in (("intrusive", "intrusive bodies not restored"),
+                       ("cover", "cover not restored")):
+        units = list(dict.fromkeys(c.unit for c in stretches if c.kind == kind))
+        if units:
+            out.append(f"{word} ({', '.join(units)}): left out of the {what}")
+    return out
 
 
 def result_line(key: KeyFigures) -> str:

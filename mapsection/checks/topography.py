@@ -22,6 +22,15 @@ metres, y = elevation in metres, vertical exaggeration 1):
 
 Contacts where the map line crosses a fault are fault contacts, not tops of
 units: they are listed apart and left out of the pairing (on both sides).
+
+Units that are not layers (the column's ``kind``): where the map shows a cover unit at
+the ground the bedrock is concealed, and where it shows an intrusive unit the section has
+that unit there by construction (:mod:`mapsection.construct.cover`). Those stretches are
+listed as concealed (``concealed``, with their lengths) and compared with nothing: they are
+left out of the unit agreement, a contact with a cover or intrusive unit on either side is
+no top of a layered unit (neither paired nor counted as unpaired), and a horizon the
+section brings to the ground within such a stretch is listed apart
+(``concealed_section_contacts``), not counted as unpaired.
 The pass rule is documented in docs/checks.md.
 """
 
@@ -39,6 +48,7 @@ from ..angles import wrap90
 from ..draft import Draft
 from ..errors import CheckError
 from ..settings import Thresholds, threshold_problem
+from .kinds import unlayered_units
 from .status import NOT_TESTED, Part, combine, passed_of
 
 PAIRING_RADIUS_M = 500.0  # the pairing radius is the larger of this ...
@@ -64,6 +74,16 @@ class UnpairedContact:
     top_of: str
     elevation_m: float
     units: str = ""  # "A | B" for a map contact (unit before | unit after)
+
+
+@dataclass(frozen=True)
+class ConcealedStretch:
+    """A stretch of the line where the map shows a cover or an intrusive unit: not compared."""
+
+    from_m: float
+    to_m: float
+    unit: str
+    kind: str  # "cover" (bedrock concealed) or "intrusive" (drawn there by construction)
 
 
 @dataclass(frozen=True)
@@ -123,6 +143,11 @@ class TopographyCheck:
     reasons: list[str] = field(default_factory=list)
     # Likely causes of a failure (mapsection.checks.diagnosis.Diagnosis), when diagnosed.
     diagnosis: object = None
+    # Cover and intrusive stretches of the map along the line: not compared (see above).
+    concealed: list[ConcealedStretch] = field(default_factory=list)
+    concealed_length_m: float = 0.0  # under cover
+    intrusive_length_m: float = 0.0  # intrusive at the ground
+    concealed_section_contacts: list[UnpairedContact] = field(default_factory=list)
 
     def to_dict(self) -> dict:
         d = asdict(self)
@@ -255,8 +280,9 @@ def _pair(pred: np.ndarray, mapped: np.ndarray, radius: float) -> list[tuple[int
 
 def _unit_from_polygons(draft: Draft, x: np.ndarray, y: np.ndarray) -> np.ndarray:
     out = np.full(len(x), None, dtype=object)
+    other = unlayered_units(draft)  # drawn over the layered section: not its units
     for up in draft.units:
-        if up.geometry is None or up.geometry.is_empty:
+        if up.geometry is None or up.geometry.is_empty or up.unit in other:
             continue
         shapely.prepare(up.geometry)
         inside = shapely.contains_xy(up.geometry, x, y) & (out == None)  # noqa: E711
@@ -309,7 +335,7 @@ def _unit_from_horizons(draft: Draft, x: np.ndarray, y: np.ndarray) -> np.ndarra
     with no horizon above, it lies in the unit just younger than the nearest
     horizon below it.
     """
-    names = draft.column.names
+    names = draft.column.layered().names
     idx = {n: i for i, n in enumerate(names)}
     above_y = np.full(len(x), np.inf)
     above_u = np.full(len(x), -1)
@@ -377,8 +403,9 @@ def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float)
     radius = max(PAIRING_RADIUS_M, PAIRING_RADIUS_PIXELS * pixel if math.isfinite(pixel) else 0.0)
     fault_tol = max(FAULT_TOLERANCE_M, 2.0 * pixel if math.isfinite(pixel) else 0.0)
     faults_x = _fault_ground_distances(draft, ground)
-    names = draft.column.names
+    names = draft.column.layered().names  # a cover or intrusive unit's boundary is no top
     idx = {n: i for i, n in enumerate(names)}
+    other = unlayered_units(draft)
 
     def z_at(x):
         return float(draft.profile.elevation_at(np.array([x]))[0])
@@ -397,16 +424,20 @@ def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float)
             mapped.setdefault(top, []).append(item)
 
     predicted = section_ground_contacts(draft, ground)
-    misfits, un_map, un_sec, unverified = [], [], [], []
+    misfits, un_map, un_sec, unverified, concealed = [], [], [], [], []
     for top in sorted(set(mapped) | set(predicted), key=lambda t: idx.get(t, -1)):
         m_items = sorted(mapped.get(top, []), key=lambda c: c.distance_m)
         m_x = np.array([c.distance_m for c in m_items], float)
         p_x = predicted.get(top, np.empty(0))
         at_fault = _near(p_x, faults_x, fault_tol)
-        in_gap = _map_unit_at(draft, p_x) == None  # noqa: E711
+        at_map = _map_unit_at(draft, p_x)
+        in_gap = at_map == None  # noqa: E711
         for x in p_x[in_gap & ~at_fault]:
             unverified.append(UnpairedContact(float(x), top, z_at(x)))
-        p_x = np.sort(p_x[~at_fault & ~in_gap])
+        hidden = np.array([u in other for u in at_map], bool)
+        for x, u in zip(p_x[hidden & ~at_fault], at_map[hidden & ~at_fault], strict=True):
+            concealed.append(UnpairedContact(float(x), top, z_at(x), f"under {u}"))
+        p_x = np.sort(p_x[~at_fault & ~in_gap & ~hidden])
         pairs = _pair(p_x, m_x, radius)
         for r, c in pairs:
             misfits.append(ContactMisfit(top, float(m_x[c]), float(p_x[r]),
@@ -436,7 +467,8 @@ def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float)
     n_map = sum(len(v) for v in mapped.values())
     return dict(radius=radius, misfits=misfits, un_map=sorted(un_map, key=lambda c: c.distance_m),
                 un_sec=sorted(un_sec, key=lambda c: c.distance_m), faults=fault_contacts,
-                unverified=sorted(unverified, key=lambda c: c.distance_m), n_map=n_map)
+                unverified=sorted(unverified, key=lambda c: c.distance_m), n_map=n_map,
+                concealed=sorted(concealed, key=lambda c: c.distance_m))
 
 
 def _unit_agreement(draft: Draft) -> dict:
@@ -448,7 +480,9 @@ def _unit_agreement(draft: Draft) -> dict:
     w = np.diff(d)[ok]
     map_u = _map_unit_at(draft, dm)
     sec_u, source = section_unit_at_ground(draft, dm, zm)
-    has_map = map_u != None  # noqa: E711
+    other = unlayered_units(draft)
+    # cover and intrusive stretches of the map: concealed, compared with nothing
+    has_map = (map_u != None) & ~np.array([u in other for u in map_u], bool)  # noqa: E711
     has_both = has_map & (sec_u != None)  # noqa: E711
     agree = has_both & (map_u == sec_u)
     total = float(w[has_both].sum())
@@ -465,7 +499,20 @@ def _unit_agreement(draft: Draft) -> dict:
         sel = np.flatnonzero(run_id == r)
         stretches.append(UnitDisagreement(float(d0[sel[0]]), float(d1[sel[-1]]),
                                           str(map_u[sel[0]]), sec_u[sel[0]]))
-    return dict(share=share, length=total, stretches=stretches, source=source)
+    return dict(share=share, length=total, stretches=stretches, source=source,
+                concealed=concealed_stretches(draft))
+
+
+def concealed_stretches(draft: Draft) -> list[ConcealedStretch]:
+    """The stretches of the line where the map shows a cover or intrusive unit."""
+    other = unlayered_units(draft)
+    length = float(draft.line.length)
+    out = []
+    for iv in sorted(draft.geology.intervals, key=lambda i: i.start_m):
+        a, b = max(float(iv.start_m), 0.0), min(float(iv.end_m), length)
+        if iv.unit in other and b > a:
+            out.append(ConcealedStretch(a, b, iv.unit, other[iv.unit]))
+    return out
 
 
 def _dip_agreement(draft: Draft) -> list[DipMisfit]:
@@ -569,6 +616,11 @@ def check_topography(draft: Draft, thresholds: Thresholds | None = None) -> Topo
         parts=parts,
         status=status,
         reasons=reasons,
+        concealed=ua["concealed"],
+        concealed_length_m=sum(s.to_m - s.from_m for s in ua["concealed"] if s.kind == "cover"),
+        intrusive_length_m=sum(s.to_m - s.from_m for s in ua["concealed"]
+                               if s.kind == "intrusive"),
+        concealed_section_contacts=c["concealed"],
     )
 
 
@@ -608,12 +660,14 @@ def _parts(c: dict, ua: dict, n_dips: int, rms: float, limit: float, n_unpaired:
 
 
 __all__ = [
+    "ConcealedStretch",
     "ContactMisfit",
     "DipMisfit",
     "TopographyCheck",
     "UnitDisagreement",
     "UnpairedContact",
     "check_topography",
+    "concealed_stretches",
     "contact_threshold_m",
     "ground_line",
     "section_ground_contacts",

@@ -53,6 +53,7 @@ from .constraints import (
     corridor_constraints,
     interval_constraints,
 )
+from .cover import add_unlayered, bedrock_geology, has_unlayered
 from .domains import group_domains
 from .faults import (
     FaultLine,
@@ -153,6 +154,18 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     See docs/construction.md.
     """
     _check_options(method, ve, dip_tolerance, depth, fault_depth, default_dip)
+    if has_unlayered(column):
+        # Cover and intrusive units are no layers: the layered units are constructed from
+        # the bedrock's own contacts, then the others are drawn over them (construct.cover).
+        column.check_map_units([iv.unit for iv in geology.intervals], source="map")
+        layered = build_draft(line, profile, bedrock_geology(geology, column), dips,
+                              column.layered(), name=name, method=method, ve=ve,
+                              dip_tolerance=dip_tolerance, depth=depth,
+                              fault_depth=fault_depth, default_dip=default_dip,
+                              keep_readings=keep_readings, corridor_contacts=corridor_contacts,
+                              plunge_axis=plunge_axis, faults=faults,
+                              default_fault_dip=default_fault_dip, warn=warn)
+        return add_unlayered(layered, geology, column)
     if plunge_axis is not None:
         pm = plunge_map(line, *plunge_axis)
         if pm is not None:

@@ -32,6 +32,7 @@ from .._atomic import atomic_file
 from ..caution import CAUTION
 from ..checks import TESTS, CheckReport, key_figures
 from ..checks.status import BY_CONSTRUCTION, Part, label
+from ..checks.summary import concealed_text
 from ..draft import Draft
 
 __all__ = ["compass", "fmt", "render_report", "summary_texts", "write_report"]
@@ -277,6 +278,16 @@ def _topography(report: CheckReport) -> str:
         parts.append(_table(("Units either side", "At (m)", "Ground elevation (m)"),
                             [(c.units or c.top_of, fmt(c.distance_m), fmt(c.elevation_m))
                              for c in topo.fault_contacts], numeric=(1, 2)))
+    concealed = getattr(topo, "concealed", [])
+    if concealed:
+        parts.append("<h3>Concealed ground: cover and intrusive units (not compared)</h3>")
+        parts.append(f"<p>{escape(concealed_text(topo))}</p>")
+        parts.append(_table(
+            ("From (m)", "To (m)", "Length (m)", "Map unit", "Kind"),
+            [(fmt(c.from_m), fmt(c.to_m), fmt(c.to_m - c.from_m), c.unit,
+              "cover (bedrock concealed)" if c.kind == "cover"
+              else "intrusive (in the section by construction)") for c in concealed],
+            numeric=(0, 1, 2)))
     parts.append("<h3>Where the section and the map disagree on the unit</h3>")
     parts.append(_table(
         ("From (m)", "To (m)", "Length (m)", "Map unit", "Section unit"),

@@ -160,7 +160,7 @@ def constrained_elevation(draft: Draft) -> float:
     the thickest unit of the column."""
     mapped = {u for c in draft.geology.contacts for u in (c.unit_before, c.unit_after) if u}
     mapped |= {r.top_of for r in draft.residuals}
-    thick = {u.name: u.thickness for u in draft.column.units}
+    thick = {u.name: u.thickness for u in draft.column.layered().units}
     low, unit = math.inf, None
     for h in draft.horizons:
         if h.above_ground or h.top_of not in mapped or h.geometry.is_empty:
@@ -241,15 +241,23 @@ def _draw_units_and_horizons(ax, pg: _Page) -> None:
     """The unit fills, the axial surfaces, the horizons (dashed below the constrained
     depth, short-dashed where projected above the ground) and the ground."""
     draft = pg.draft
-    patches, faces = [], []
+    other = {u.name for u in draft.column.units if not u.layered}
+    patches, faces, over, over_faces = [], [], [], []
     for u in draft.units:
         path = polygon_path(u.geometry)
         if path is not None:
-            patches.append(PathPatch(path))
-            faces.append(pg.palette.get(u.unit, "#cccccc"))
+            # cover and intrusive units are drawn over the layered horizons (construct.cover)
+            (over if u.unit in other else patches).append(PathPatch(path))
+            (over_faces if u.unit in other else faces).append(pg.palette.get(u.unit, "#cccccc"))
     if patches:
         pc = PatchCollection(patches, facecolors=faces, edgecolors="none", zorder=1)
         pc.set_gid("units")
+        ax.add_collection(pc)
+    if over:
+        # FGDC-style: the unit's plain colour, its contacts as thin solid lines
+        pc = PatchCollection(over, facecolors=over_faces, edgecolors=C.CONTACT.colour,
+                             linewidths=0.5, zorder=4)
+        pc.set_gid("cover-and-intrusive-units")
         ax.add_collection(pc)
 
     for i, a in enumerate(draft.axial_surfaces):
@@ -394,12 +402,17 @@ def _draw_unit_labels(ax, pg: _Page) -> int:
     sx = 1.0 / pg.m_per_mm()  # mm per metre across
     sy = pg.ve * sx
     n = 0
+    other = {u.name for u in pg.draft.column.units if not u.layered}
+    overlay = shapely.union_all([u.geometry for u in pg.draft.units if u.unit in other])
     for k, u in enumerate(pg.draft.units):
+        geom = u.geometry
+        if u.unit not in other and not overlay.is_empty:
+            geom = geom.difference(overlay)  # what the cover and intrusive units leave visible
         colour = matplotlib.colors.to_rgb(pg.palette.get(u.unit, "#cccccc"))
         # Dark fills take white type (relative luminance, ITU-R BT.709 weights).
         ink = "white" if 0.2126 * colour[0] + 0.7152 * colour[1] + 0.0722 * colour[2] < 0.45 \
             else "#222222"
-        for piece in _label_pieces(u.geometry, sx, sy):
+        for piece in _label_pieces(geom, sx, sy):
             area = piece.area
             if area < 12.0:
                 continue
@@ -562,6 +575,10 @@ def _legend_rows(draft: Draft, palette: dict[str, str], shift_m: float, misfits:
     for u in draft.column.units:
         label = u.name + (f" [{u.label}]" if u.label and u.label != u.name else "")
         label += f" ({u.age})" if u.age else ""
+        if u.kind == "cover":
+            label += f": cover, not carried to depth ({u.thickness:g} m veneer)"
+        elif u.kind == "intrusive":
+            label += f": intrusive, drawn to {u.depth:g} m below the ground"
         rows.append((label, palette[u.name]))
     note = C.colour_note(draft.column)
     if note:

@@ -424,7 +424,9 @@ class ViewState:
             "extent": [left, bottom, right, top],
             "extent_lonlat": [min(lon), min(lat), max(lon), max(lat)],
             "column": [{"unit": u.name, "colour": self.colours.get(u.name),
-                        "thickness_m": u.thickness, "age": u.age, "lithology": u.lithology}
+                        # an intrusive unit has no thickness (None, not NaN, in JSON)
+                        "thickness_m": u.thickness if math.isfinite(u.thickness) else None,
+                        "kind": u.kind, "age": u.age, "lithology": u.lithology}
                        for u in p.column.units],
             "sections": [self._spec_dict(s) for s in p.sections],
             "default_section": self.default_section,
