@@ -480,3 +480,24 @@ def project_copy(tmp_path_factory, request) -> Path:
     folder = tmp_path_factory.mktemp(request.module.__name__.rsplit(".", 1)[-1]) / "area"
     shutil.copytree(SAMPLE_AREA, folder)
     return folder / "project.toml"
+
+
+# --- an angular unconformity (invented; mapsection.sample_unconformity) ----------------
+
+
+@pytest.fixture(scope="module")
+def unconformity_cake(tmp_path_factory):
+    """The analytic angular unconformity written once per module: beds dipping 20° east cut
+    flat at 620 m under horizontal younger beds. Returns (model, project.toml path)."""
+    from mapsection.sample_unconformity import generate, layer_cake_model
+
+    model = layer_cake_model()
+    paths = generate(tmp_path_factory.mktemp("unconformity"), model)
+    return model, paths["project.toml"]
+
+
+def section_to_map(line, d):
+    """Map (x, y) of distances along a straight section line."""
+    (ax, ay), (bx, by) = np.asarray(line.vertices, float)[[0, -1]]
+    t = np.asarray(d, float) / math.hypot(bx - ax, by - ay)
+    return ax + t * (bx - ax), ay + t * (by - ay)

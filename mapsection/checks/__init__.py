@@ -100,17 +100,23 @@ def run_checks(
     topo = check_topography(draft, thresholds)
     if topo.status == "fail":  # name the likely fix, ranked (issue 12)
         topo.diagnosis = diagnose(draft, attitude_xy=attitude_xy, corridor_m=corridor_m)
-    restoration = restore_section(draft, pin=pin, loose=loose,
-                                  threshold_pct=thresholds.line_length_spread_pct)
-    at_faults = check_fault_restoration(
-        draft, restoration=restoration,
-        cutoff_fraction=thresholds.cutoff_mismatch_fraction,
-        cutoff_pixels=thresholds.cutoff_mismatch_pixels,
-        spread_fraction=thresholds.separation_spread_fraction,
-        spread_pixels=thresholds.separation_spread_pixels)
-    restoration = with_fault_checks(restoration, at_faults)
-    area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
-    kin = check_kinematics(draft, restoration)
+    per_sequence: list[dict] = []
+    if draft.sequences:  # unconformities: each sequence restored to its own datum
+        from .sequences import check_sequences
+
+        restoration, area, kin, per_sequence = check_sequences(draft, thresholds, pin, loose)
+    else:
+        restoration = restore_section(draft, pin=pin, loose=loose,
+                                      threshold_pct=thresholds.line_length_spread_pct)
+        at_faults = check_fault_restoration(
+            draft, restoration=restoration,
+            cutoff_fraction=thresholds.cutoff_mismatch_fraction,
+            cutoff_pixels=thresholds.cutoff_mismatch_pixels,
+            spread_fraction=thresholds.separation_spread_fraction,
+            spread_pixels=thresholds.separation_spread_pixels)
+        restoration = with_fault_checks(restoration, at_faults)
+        area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
+        kin = check_kinematics(draft, restoration)
     notes = []
     if draft.method == "edited":
         notes.append("horizons and faults were read from an edited section file, not rebuilt")
@@ -118,8 +124,12 @@ def run_checks(
         notes.append(f"the figures are drawn at vertical exaggeration {draft.ve:g}: "
                      "dips and thicknesses look steeper and thicker than they are; "
                      "every check is measured at true scale")
+    if per_sequence:
+        notes.append("unconformities: restoration and area balance measured per sequence, "
+                     "each to its own datum; the figures shown are the oldest sequence's, its "
+                     "eroded part reported under 'sequences' and not drawn")
     report = CheckReport(draft.name, draft.method, float(draft.ve), thresholds, topo,
-                         restoration, area, kin, notes)
+                         restoration, area, kin, notes, per_sequence)
     if warn is not None:
         failed = [k for k, st in report.statuses.items() if st == "fail"]
         if failed:
