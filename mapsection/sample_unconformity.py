@@ -31,7 +31,8 @@ import shapely
 
 from .stratigraphy import Column, Unit
 
-__all__ = ["UnconformityModel", "TABLELAND", "layer_cake_model", "generate", "true_elevation"]
+__all__ = ["UnconformityModel", "TABLELAND", "layer_cake_model", "generate", "true_elevation",
+           "unconformity_project"]
 
 CRS = "EPSG:32612"
 X0, Y0 = 402_000.0, 4_310_000.0  # lower-left corner
@@ -83,6 +84,8 @@ class UnconformityModel:
     older: Column = OLDER
     alluvium_below: float | None = None  # valley floors below this elevation: alluvium
     title: str = "Carrick Tableland sample area"
+    ve: float = 1.0  # the sections' vertical exaggeration and depth below the lowest ground
+    depth: float = 3000.0
     sections: dict = field(default_factory=lambda: {
         "U": [(X0 + 300.0, CENTRE[1]), (X0 + NCOLS * CELL - 300.0, CENTRE[1])]})
 
@@ -134,10 +137,12 @@ def layer_cake_model(alluvium: bool = False) -> UnconformityModel:
                              title="Angular unconformity (analytic test case)")
 
 
-# The demo: a kink syncline (limbs 25° east and 30° west) eroded flat, under flat beds.
-TABLELAND = UnconformityModel(limbs=((25.0, 90.0), (30.0, 270.0)), crest_z=660.0,
-                              hinge=(CENTRE[0] - 900.0, CENTRE[1]), syncline=True,
-                              alluvium_below=575.0)
+# The demo: a kink syncline (limbs 25° east and 20° west) eroded flat, under flat beds.
+TABLELAND = UnconformityModel(
+    limbs=((25.0, 90.0), (20.0, 270.0)), crest_z=660.0, hinge=CENTRE, syncline=True,
+    older=Column((*OLDER.units[:-1], Unit("Skerry Quartzite", 700.0, None, "Ordovician",
+                                          "massive quartzite"))),
+    alluvium_below=568.0, ve=2.0, depth=2000.0)
 
 
 def dem_surface(x, y):
@@ -245,7 +250,7 @@ def project_text(model: UnconformityModel) -> str:
         pts = ", ".join(f"[{x:.0f}, {y:.0f}]" for x, y in verts)
         out += [f"# Section {name}: across the fold, through ridges capped by the younger beds.",
                 "[[section]]", f'name = "{name}"', f"line = [{pts}]", "corridor = 600.0",
-                'method = "kink"', ""]
+                'method = "kink"', f"ve = {model.ve:g}", f"depth = {model.depth:g}", ""]
     return "\n".join(out)
 
 
@@ -303,3 +308,9 @@ def generate(folder: str | os.PathLike, model: UnconformityModel = TABLELAND,
     for p in paths.values():
         p.chmod(0o644)
     return paths
+
+
+def unconformity_project() -> Path | None:
+    """The committed second sample area's project file in a source checkout, or None."""
+    path = Path(__file__).resolve().parents[1] / "sample_unconformity" / "project.toml"
+    return path if path.is_file() else None

@@ -416,7 +416,7 @@ def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float)
         if a is None or b is None or a == b or a not in idx or b not in idx:
             continue  # the edge of a map gap, or a unit the column lacks: not a top
         top = a if idx[a] > idx[b] else b
-        if a in seq_base and seq_base[a] != seq_base[b]:  # across an unconformity
+        if a in seq_base and b in seq_base and seq_base[a] != seq_base[b]:  # unconformity
             top = unconformity_key(seq_base[a] if idx[a] < idx[b] else seq_base[b])
         item = UnpairedContact(float(c.distance_m), top, float(c.elevation_m), f"{a} | {b}")
         if _near(np.array([c.distance_m]), faults_x, fault_tol)[0]:
