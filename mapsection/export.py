@@ -425,6 +425,15 @@ def section_3d_frames(draft: Draft) -> dict[str, gpd.GeoDataFrame]:
             rows["sense"].append(f.sense)
             geoms.append(g)
     frames["faults"] = _frame(rows, geoms, crs)
+    if draft.unconformities:  # the erosion surfaces standing in place too
+        rows = {"unit": [], "above_ground": []}
+        geoms = []
+        for u in draft.unconformities:
+            for g in to_map_3d(line, u.geometry):
+                rows["unit"].append(u.unit)
+                rows["above_ground"].append(bool(u.above_ground))
+                geoms.append(g)
+        frames["unconformities"] = _frame(rows, geoms, crs)
     return frames
 
 

@@ -190,5 +190,5 @@ def test_second_sample_builds_a_truncated_syncline_under_flat_beds(tmp_path):
     assert eroded["Bellin Shale"] > eroded["Ardle Limestone"] > eroded["Quill Sandstone"] > 0
     svg = (folder / "section.svg").read_text()
     assert 'id="unconformity-0"' in svg and "Unconformity (erosion surface" in svg
-    assert "unconformities" in {str(r[0]) for r in pyogrio.list_layers(folder /
-                                                                        "section.gpkg")}
+    for name in ("section.gpkg", "section_3d.gpkg"):
+        assert "unconformities" in {str(r[0]) for r in pyogrio.list_layers(folder / name)}
