@@ -9,8 +9,8 @@ above that surface -- eroded before the younger beds were laid down, or by today
 -- is reported (bed length and unit area eroded), never drawn as restored rock. The area
 balance (Chamberlin 1910; Epard & Groshong 1993) is measured per sequence likewise.
 
-The section's restoration and area balance are those of the oldest sequence (its figures),
-their status the worst over the sequences (one that fails fails the test; one measured
+The section's restoration, area balance and kinematics are those of the oldest sequence (its
+figures), their status the worst over the sequences (one that fails fails the test; one measured
 nowhere says so, and is never counted as a pass); ``checks.json`` holds each sequence's own
 results under ``sequences``.
 """
@@ -125,6 +125,8 @@ def check_sequences(draft: Draft, thresholds, pin: float | None, loose: float | 
     rest.passed = rest.status == "pass"
     area = merged(area, "area_balance")
     area.passed = area.status == "pass"
+    if all("kinematics" in r for r in results):
+        kin = merged(kin, "kinematics")
     return rest, area, kin, results
 
 

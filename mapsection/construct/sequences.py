@@ -249,11 +249,15 @@ def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
         poly = poly_parts(u.geometry.intersection(below))
         if poly is not None:
             units.append(dataclasses.replace(u, geometry=poly))
-    y_names = {f.name for f in yd.faults}
+    # the same fault in both builds: its trace leaves the ground at the same distance
+    y_tops = [float(np.asarray(f.geometry.coords)[0, 0]) for f in yd.faults]
     faults = []
     for f in od.faults:
-        if f.name in y_names:
-            faults.append(f)
+        x0 = float(np.asarray(f.geometry.coords)[0, 0])
+        same = [g for g, x in zip(yd.faults, y_tops, strict=True) if abs(x0 - x) <= 1.0]
+        if same:  # it cuts both sequences: the separations of both
+            seps = {k: v for k, v in same[0].separations.items() if BELOW not in k}
+            faults.append(dataclasses.replace(f, separations={**seps, **f.separations}))
             continue
         parts = line_parts(f.geometry.intersection(below))
         if parts:
