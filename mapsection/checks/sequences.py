@@ -24,12 +24,18 @@ import shapely
 
 from ..draft import Draft
 from ..errors import CheckError
-from .area import AreaBalance, _polygon_between, area_balance
+from .area import AreaBalance, area_balance
 from .cutoffs import check_fault_restoration
-from .geometry import clip_x, joined_horizons
+from .geometry import clip_x, joined_horizons, line_xy
 from .kinematics import Kinematics, check_kinematics
 from .restore import Restoration, restore_section, with_fault_checks
 from .status import NOT_TESTED, worst
+
+
+def _between(top, base):
+    """The region between two x-ordered lines, closed at both ends (as the area balance)."""
+    poly = shapely.Polygon(np.vstack([line_xy(top), line_xy(base)[::-1]]))
+    return poly if poly.is_valid else poly.buffer(0)
 
 
 def _label(seq: Draft, k: int, n: int) -> str:
@@ -62,7 +68,7 @@ def eroded_figures(seq: Draft, restoration: Restoration) -> dict:
         b = clip_x(base, lo, hi) if base is not None else None
         if t is None or b is None:
             continue
-        poly = _polygon_between(t, b)
+        poly = _between(t, b)
         areas[u.unit] = areas.get(u.unit, 0.0) + float(poly.difference(surface).area)
     return {
         "horizons": [{"top_of": k, "eroded_length_m": v[0], "restored_length_m": v[1]}

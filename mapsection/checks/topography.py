@@ -330,6 +330,21 @@ def _unit_from_horizons(draft: Draft, x: np.ndarray, y: np.ndarray) -> np.ndarra
             above_y[upd], above_u[upd] = a[upd], idx[h.top_of]
             upd = (b > below_y) & mine
             below_y[upd], below_u[upd] = b[upd], idx[h.top_of]
+    # An unconformity bounds the stacks: below it a point lies in the older sequence (the
+    # unit just younger than the horizon below it), above it in the younger one (its
+    # oldest unit when no younger horizon lies above).
+    for u in draft.unconformities:
+        if u.unit not in idx or u.geometry is None or u.geometry.is_empty:
+            continue
+        mine = blocks == u.block
+        ys = _elevations_on(shapely.get_coordinates(u.geometry), x)
+        with np.errstate(invalid="ignore"):
+            a = np.nanmin(np.where(ys >= y[:, None], ys, np.nan), axis=1, initial=np.inf)
+            b = np.nanmax(np.where(ys < y[:, None], ys, np.nan), axis=1, initial=-np.inf)
+        upd = (a < above_y) & mine
+        above_y[upd], above_u[upd] = a[upd], -2
+        upd = (b > below_y) & mine
+        below_y[upd], below_u[upd] = b[upd], idx[u.unit] + 1
     unit = np.where(above_u >= 0, above_u, np.where(below_u > 0, below_u - 1, -1))
     out = np.full(len(x), None, dtype=object)
     out[unit >= 0] = np.asarray(names, dtype=object)[unit[unit >= 0]]

@@ -265,11 +265,14 @@ def _draw_units_and_horizons(ax, pg: _Page) -> None:
         solid, dashed = _split(h.geometry, pg.z_c)
         _plot_parts(ax, [(xy, C.CONTACT) for xy in solid]
                     + [(xy, C.CONTACT_INFERRED) for xy in dashed], f"horizon-{i}", 3)
-    if draft.unconformities:
-        from .unconformity import draw_unconformities
+    if draft.unconformities:  # wavy where preserved, short-dashed above the ground
+        from .unconformity import wavy
 
-        draw_unconformities(ax, draft, pg.m_per_mm(), pg.ve, C.UNCONFORMITY,
-                            C.CONTACT_PROJECTED)
+        for i, u in enumerate(draft.unconformities):
+            parts = [(xy, C.CONTACT_PROJECTED) if u.above_ground
+                     else (wavy(xy, pg.m_per_mm(), pg.m_per_mm() / pg.ve), C.UNCONFORMITY)
+                     for xy in lines_xy(u.geometry)]
+            _plot_parts(ax, parts, f"unconformity-{i}", 3.5)
     ax.plot(draft.profile.distance, draft.profile.z, zorder=5, **C.GROUND.kwargs())
 
 

@@ -45,17 +45,3 @@ def legend_wave(x: float, y: float, width: float, height: float) -> tuple[np.nda
     """The legend's sample of the wavy line, in the legend's own units."""
     xs = np.linspace(x, x + width, 41)
     return xs, y + 0.5 * height * np.sin(2 * np.pi * (xs - x) / (width / 2.5))
-
-
-def draw_unconformities(ax, draft, m_per_mm: float, ve: float, style, projected) -> None:
-    """Each unconformity piece: wavy where preserved, short-dashed where above the ground."""
-    from .section import _plot_parts  # one artist per line, as the horizons
-    from .shapes import lines_xy
-
-    for i, u in enumerate(draft.unconformities):
-        if u.above_ground:
-            _plot_parts(ax, [(xy, projected) for xy in lines_xy(u.geometry)],
-                        f"unconformity-{i}", 3.5)
-            continue
-        parts = [(wavy(xy, m_per_mm, m_per_mm / ve), style) for xy in lines_xy(u.geometry)]
-        _plot_parts(ax, parts, f"unconformity-{i}", 3.5)
