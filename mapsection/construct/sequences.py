@@ -45,6 +45,7 @@ import numpy as np
 import shapely
 from shapely.geometry import LineString, Polygon
 
+from .._messages import default_warn as _default_warn
 from ..draft import Draft, Unconformity, unconformity_key
 from ..geology import Contact, SurfaceGeology, UnitInterval
 from ..notes import Warn
@@ -159,9 +160,12 @@ def build_sequences(build: Callable[..., Draft], line, profile, geology: Surface
     older_geo = _relabel(geology, older, set(), geology.faults)
 
     def build_older(young_mask):
+        def said(message: str) -> None:
+            (warn or _default_warn)(f"older sequence: {message}")
+
         return build(line, profile, older_geo, subset_dips(dips, ~young_mask), older_col,
                      default_dip=default_dip, corridor_contacts=corridor_contacts,
-                     plunge_axis=plunge_axis, **options)
+                     plunge_axis=plunge_axis, **{**options, "warn": said})
 
     if not _has_units(geology, corridor_contacts, young):
         od = build_older(in_young)
@@ -182,23 +186,21 @@ def build_sequences(build: Callable[..., Draft], line, profile, geology: Surface
     y_geo = _relabel(geology, young, older, y_faults)
     y_cc = _corridor_for_younger(corridor_contacts, young, older)
 
-    def build_younger(young_mask, quiet=False):
+    def build_younger(young_mask, said: list[str]):
         y_dips = subset_dips(dips, young_mask)
         y_default = default_dip
         if not np.isfinite(np.asarray(y_dips.apparent_dip, float)).any() and y_default is None:
             y_default = 0.0
-            if not quiet:
-                log.append(f"younger sequence ({', '.join(young_col.names)}): no dips of its "
-                           "own within the corridor: drawn with horizontal beds (the tool's "
-                           "default for a sequence without dips; set default_dip to change)")
+            said.append("")  # marks: no dips of its own
         return build(line, profile, y_geo, y_dips, ycol, default_dip=y_default,
                      corridor_contacts=y_cc, plunge_axis=None,
-                     **{**options, "warn": (lambda m: None) if quiet else warn})
+                     **{**options, "warn": said.append})
 
     # A reading belongs to the sequence whose rocks it was taken in: first the unit at the
     # ground where it projects onto the line, then its elevation against the unconformity
     # as constructed (above it: younger), the younger sequence rebuilt if that changed.
-    yd = build_younger(in_young, quiet=True)
+    said: list[str] = []
+    yd = build_younger(in_young, said)
     path = _surface_path([h for h in yd.horizons if h.top_of == BELOW], float(line.length))
     if path is not None:
         z = np.asarray(dips.elevation_m, float)
@@ -209,8 +211,17 @@ def build_sequences(build: Callable[..., Draft], line, profile, geology: Surface
             log.append(f"{moved} reading(s) assigned to the sequence their elevation puts them "
                        "in (above or below the unconformity as constructed), not the unit at "
                        "the ground where they project onto the line")
+            said = []
+            yd = build_younger(by_height, said)
         in_young = by_height
-    yd = build_younger(in_young)
+    if "" in said:
+        log.append(f"younger sequence ({', '.join(young_col.names)}): no dips of its own "
+                   "within the corridor: drawn with horizontal beds (the tool's default for a "
+                   "sequence without dips; set default_dip to change)")
+    for message in said:  # the younger sequence's warnings, once, from the build kept
+        if message:
+            (warn or _default_warn)(f"younger sequence ({', '.join(young_col.names)}): "
+                                    f"{message}")
     od = build_older(in_young)
     cut = [f.name or "?" for f in geology.faults if f not in y_faults]
     if cut:
