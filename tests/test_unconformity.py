@@ -195,3 +195,44 @@ def test_second_sample_builds_a_truncated_syncline_under_flat_beds(tmp_path):
     assert 'id="unconformity-0"' in svg and "Unconformity (erosion surface" in svg
     for name in ("section.gpkg", "section_3d.gpkg"):
         assert "unconformities" in {str(r[0]) for r in pyogrio.list_layers(folder / name)}
+
+
+def test_a_fault_in_younger_rocks_cuts_both_one_in_older_rocks_ends_at_the_unconformity(
+        unconformity_cake, tmp_path):
+    """The documented rule (docs/construction.md): a fault crossing the line in younger rocks
+    cuts both sequences; one crossing it in older rocks only ends at the unconformity."""
+    import shutil
+
+    import geopandas as gpd
+    from shapely.geometry import LineString
+
+    from mapsection.sample_unconformity import CRS, X0, Y0
+
+    model, path = unconformity_cake
+    area = tmp_path / "area"
+    shutil.copytree(path.parent, area)
+    # two vertical faults of no offset (invented): at a ridge (younger rocks at the ground)
+    # and in a valley (older rocks at the ground)
+    gpd.GeoDataFrame({"name": ["Ridge fault", "Valley fault"], "dip": [89.0, 89.0],
+                      "dip_direction": [90.0, 90.0], "sense": ["normal", "normal"]},
+                     geometry=[LineString([(X0 + 1400, Y0 + 100), (X0 + 1400, Y0 + 5900)]),
+                               LineString([(X0 + 2800, Y0 + 100), (X0 + 2800, Y0 + 5900)])],
+                     crs=CRS).to_file(area / "geology.gpkg", layer="faults", driver="GPKG")
+    text = (area / "project.toml").read_text().replace(
+        'unit_field = "unit"', 'unit_field = "unit"\nfaults_layer = "faults"')
+    (area / "project.toml").write_text(text)
+    draft = build_section(load_project(area / "project.toml"), "U", warn=lambda m: None)
+    assert any("taken to end at the unconformity: Valley fault" in ln for ln in draft.log)
+    # the younger beds are one fault block each side of the ridge fault, and continuous
+    # across the valley fault (it does not cut them)
+    top = [h for h in draft.horizons if h.top_of == "Carrick Conglomerate"]
+    blocks_at = {}
+    for h in top:
+        x = _vertices(h.geometry)[:, 0]
+        for d in (1000.0, 2300.0, 2700.0, 4000.0):  # section distances (faults: 1100, 2500)
+            if x.min() <= d <= x.max():
+                blocks_at[d] = h.block
+    assert blocks_at[1000.0] != blocks_at[2300.0]
+    assert blocks_at[2300.0] == blocks_at[2700.0] == blocks_at[4000.0]
+    names = {f.name for f in draft.faults}
+    assert names == {"Ridge fault", "Valley fault"}
