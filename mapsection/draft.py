@@ -59,6 +59,24 @@ class UnitPolygon:
 
 
 @dataclass(frozen=True)
+class Unconformity:
+    """A piece of an erosion surface in the section: the base of ``unit``, the oldest unit
+    of a younger sequence (``unconformity = true`` in the column). ``above_ground`` pieces
+    are its projected (eroded) continuation above the topographic profile."""
+
+    unit: str
+    geometry: LineString
+    above_ground: bool = False
+    block: int = 0
+
+
+def unconformity_key(unit: str) -> str:
+    """The name under which the checks pair the map's contacts between two sequences with the
+    unconformity at the base of ``unit`` (a "base ..." name, never a unit's top)."""
+    return f"base of {unit} (unconformity)"
+
+
+@dataclass(frozen=True)
 class DipDomain:
     """A run of consecutive dips within the tolerance, drawn at one dip."""
 
@@ -129,3 +147,10 @@ class Draft:
     base_elevation_m: float = float("nan")  # the section's lower edge
     log: list[str] = field(default_factory=list)
     outliers: list[DipOutlier] = field(default_factory=list)  # readings kept out of domains
+    # A column with unconformities: the erosion surfaces, and one draft per sequence
+    # (youngest first; see mapsection.construct.sequences); empty for one sequence.
+    unconformities: list[Unconformity] = field(default_factory=list)
+    sequences: list[Draft] = field(default_factory=list)
+    # An older sequence's beds above the unconformity, as constructed: eroded, not drawn,
+    # kept so that its restoration can report what was eroded.
+    eroded_horizons: list[Horizon] = field(default_factory=list)

@@ -98,6 +98,12 @@ LAYERS: dict[str, tuple[str, tuple[str, ...]]] = {
     "axial_surfaces": ("LineString", ("ground_distance_m", "dip_left", "dip_right")),
     "dip_domains": ("LineString", ("start_m", "end_m", "dip", "n_dips", "block")),
 }
+# Written only for a column with unconformities (mapsection.construct.sequences): one line
+# per piece of erosion surface, ``unit`` the unit whose base it is.
+UNCONFORMITY_LAYER = ("unconformities", "LineString", ("unit", "above_ground", "block"))
+# and the older beds above an unconformity, as constructed: eroded, not drawn; the checks
+# report from them what was eroded.
+ERODED_LAYER = ("eroded_horizons", "LineString", ("top_of", "block"))
 
 
 # --- section space -> GeoDataFrames ------------------------------------------------
@@ -207,6 +213,17 @@ def section_frames(draft: Draft) -> dict[str, gpd.GeoDataFrame]:
          "dip": [d.dip for d in dd], "n_dips": np.array([d.n_dips for d in dd], dtype=np.int32),
          "block": np.array([d.block for d in dd], dtype=np.int32)},
         _along_ground(prof, [d.start_m for d in dd], [d.end_m for d in dd]))
+    if draft.unconformities or len(draft.column.layered().sequences()) > 1:
+        uc = draft.unconformities
+        frames[UNCONFORMITY_LAYER[0]] = _frame(
+            {"unit": [u.unit for u in uc], "above_ground": [bool(u.above_ground) for u in uc],
+             "block": np.array([u.block for u in uc], dtype=np.int32)},
+            [u.geometry for u in uc])
+        eh = draft.eroded_horizons
+        frames[ERODED_LAYER[0]] = _frame(
+            {"top_of": [h.top_of for h in eh],
+             "block": np.array([h.block for h in eh], dtype=np.int32)},
+            [h.geometry for h in eh])
     return frames
 
 
@@ -291,6 +308,9 @@ def write_section_gpkg(draft: Draft, path: str | os.PathLike,
         # A layer holding any multipart geometry is declared multipart (parts promoted).
         multi = frames[name].geometry.dropna().geom_type.str.startswith("Multi").any()
         types[name] = f"Multi{gtype}" if multi and gtype != "Point" else gtype
+    for name, gtype, _fields in (UNCONFORMITY_LAYER, ERODED_LAYER):
+        if name in frames:
+            types[name] = gtype
     for name, frame in (extra_layers or {}).items():
         if name in frames:
             raise OutputError(f"{path}: extra layer {name!r} clashes with a section layer")
@@ -407,6 +427,15 @@ def section_3d_frames(draft: Draft) -> dict[str, gpd.GeoDataFrame]:
             rows["sense"].append(f.sense)
             geoms.append(g)
     frames["faults"] = _frame(rows, geoms, crs)
+    if draft.unconformities:  # the erosion surfaces standing in place too
+        rows = {"unit": [], "above_ground": []}
+        geoms = []
+        for u in draft.unconformities:
+            for g in to_map_3d(line, u.geometry):
+                rows["unit"].append(u.unit)
+                rows["above_ground"].append(bool(u.above_ground))
+                geoms.append(g)
+        frames["unconformities"] = _frame(rows, geoms, crs)
     return frames
 
 
@@ -554,6 +583,18 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
                              int(_num(r.n_dips, 0.0)), int(_num(r.block, 0.0)))
                    for r in d_frame.itertuples(index=False)]
 
+    unconformities = _read_unconformities(path, layers, column)
+    eroded = []
+    if ERODED_LAYER[0] in layers:
+        e_frame = pyogrio.read_dataframe(path, layer=ERODED_LAYER[0])
+        for i, row in enumerate(e_frame.itertuples(index=False)):
+            top = _text(getattr(row, "top_of", None))
+            if top not in known:
+                raise MapLayerError(f"{path}: layer {ERODED_LAYER[0]!r} row {i}: top_of {top!r} "
+                                    "is not a unit of the column")
+            for ls in _lines(path, ERODED_LAYER[0], row.geometry, i):
+                eroded.append(Horizon(top, ls, True, int(_num(getattr(row, "block", 0), 0.0))))
+
     if profile is None:
         profile = _read_profile(path, layers, line, meta.get("pixel_size_m"))
     if geology is None:
@@ -561,7 +602,7 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
     if dips is None:
         dips = _read_dips(path, layers)
     base = min((g.geometry.bounds[1] for g in units), default=float("nan"))
-    return Draft(
+    draft = Draft(
         name=name or meta.get("section") or line.name,
         method="edited",
         line=line,
@@ -577,7 +618,38 @@ def read_section_gpkg(path: str | os.PathLike, column: Column, line: SectionLine
         ve=_num(meta.get("ve"), 1.0),
         base_elevation_m=_num(meta.get("base_elevation_m"), base),
         log=[f"read from {path.name} (edited section: horizons, faults and units as in the file)"],
+        unconformities=unconformities,
+        eroded_horizons=eroded,
     )
+    if len(column.layered().sequences()) > 1:  # each sequence checked on its own
+        from .construct.sequences import split_sequences
+
+        draft.sequences = split_sequences(draft)
+    return draft
+
+
+def _read_unconformities(path: Path, layers: set[str], column: Column) -> list:
+    """The ``unconformities`` layer (a column with unconformities), if any."""
+    from .draft import Unconformity
+
+    name, _gtype, need = UNCONFORMITY_LAYER
+    if name not in layers:
+        return []
+    frame = pyogrio.read_dataframe(path, layer=name)
+    missing = [f for f in need[:1] if f not in frame.columns]
+    if missing:
+        raise MapLayerError(f"{path}: layer {name!r} has no field {missing[0]!r}")
+    out = []
+    for i, row in enumerate(frame.itertuples(index=False)):
+        unit = _text(row.unit)
+        if unit not in column.names:
+            raise MapLayerError(f"{path}: layer {name!r} row {i}: unit {unit!r} is not in the "
+                                "column")
+        above = _flag(getattr(row, "above_ground", False))
+        block = int(_num(getattr(row, "block", 0), 0.0))
+        for ls in _lines(path, name, row.geometry, i):
+            out.append(Unconformity(unit, ls, above, block))
+    return out
 
 
 def section_info(path: Path, layers: set[str]) -> dict:

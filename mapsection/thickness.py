@@ -639,7 +639,8 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
 
     step = float(spacing or pixel_size)
     rng = np.random.default_rng(seed)
-    names = column.layered().names  # adjacent layered units: cover and intrusive skipped
+    layered = column.layered().units
+    names = [u.name for u in layered]  # adjacent layered units: cover and intrusive skipped
     faults = list(map_data.fault_geoms)
     rows = np.arange(len(faults))
     fnames = map_data.fault_value("name", rows) if faults else None
@@ -691,6 +692,8 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
     groups: dict[tuple[str, str], list[_Group]] = {}
     fits: list[ContactFit] = []
     for upper, lower in zip(names[:-1], names[1:], strict=True):
+        if column.unit(upper).unconformity:
+            continue  # an erosion surface, not a conformable contact: it measures nothing
         x, y, run = contact_points(geoms[upper], geoms[lower], step, 0.5 * pixel_size,
                                    avoid, 2.0 * pixel_size)
         z = np.asarray(elevation(x, y), float) if len(x) else np.empty(0)
@@ -735,8 +738,15 @@ def estimate_column(column: Column, map_data: MapData, elevation: Elevation,
         base = groups.get((name, names[i + 1]), []) if i + 1 < len(names) else []
         above = everywhere.get((names[i - 1], name)) if i > 0 else None
         below = everywhere.get((name, names[i + 1])) if i + 1 < len(names) else None
-        units.append(_unit_thickness(name, top, base, fit_of, step, rng, bootstrap,
-                                     geoms[name], elevation, label, tolerance, above, below))
+        u = _unit_thickness(name, top, base, fit_of, step, rng, bootstrap,
+                            geoms[name], elevation, label, tolerance, above, below)
+        for side, k in (("base", i), ("top", i - 1)):  # the erosion surface measures nothing
+            if k >= 0 and layered[k].unconformity and u.why:
+                u = dataclasses.replace(u, why=u.why.replace(
+                    f"its {side} contact is not mapped",
+                    f"its {side} is an unconformity (an erosion surface, not a conformable "
+                    "contact)"))
+        units.append(u)
     measured = {u.unit: _named_neighbours(u, names) for u in units}
     units = [measured.get(u.name) or UnitThickness(
         u.name, "none", why=f"{'an' if u.kind == 'intrusive' else 'a'} {u.kind} unit is not "

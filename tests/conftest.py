@@ -608,3 +608,22 @@ def point_on_line(line_xy, distance: float):
     (x0, y0), (x1, y1) = line_xy
     f = distance / math.hypot(x1 - x0, y1 - y0)
     return x0 + f * (x1 - x0), y0 + f * (y1 - y0)
+# --- an angular unconformity (invented; mapsection.sample_unconformity) ----------------
+
+
+@pytest.fixture(scope="module")
+def unconformity_cake(tmp_path_factory):
+    """The analytic angular unconformity written once per module: beds dipping 20° east cut
+    flat at 620 m under horizontal younger beds. Returns (model, project.toml path)."""
+    from mapsection.sample_unconformity import generate, layer_cake_model
+
+    model = layer_cake_model()
+    paths = generate(tmp_path_factory.mktemp("unconformity"), model)
+    return model, paths["project.toml"]
+
+
+def section_to_map(line, d):
+    """Map (x, y) of distances along a straight section line."""
+    (ax, ay), (bx, by) = np.asarray(line.vertices, float)[[0, -1]]
+    t = np.asarray(d, float) / math.hypot(bx - ax, by - ay)
+    return ax + t * (bx - ax), ay + t * (by - ay)

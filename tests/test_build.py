@@ -172,8 +172,10 @@ def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
     runner = CliRunner()
     result = runner.invoke(cli, ["demo", "-o", str(tmp_path / "d")])
     assert result.exit_code == 0, result.output
-    # the sample area, then its flawed variant, each with its one-line summary
-    assert calls == [SAMPLE, SAMPLE.with_name("project_flawed.toml")]
+    # the sample area, then its flawed variant, then the second sample area (an angular
+    # unconformity), each with its one-line summary
+    assert calls[:2] == [SAMPLE, SAMPLE.with_name("project_flawed.toml")]
+    assert calls[2].parent.name == "sample_unconformity" and len(calls) == 3
     assert "CAUTION" in result.output and str(tmp_path / "d" / "A") in result.output
     assert "topography PASS" in result.output and "topography FAIL" in result.output
     assert "kinematics NOT TESTED" in result.output  # never shown as a pass
@@ -187,7 +189,7 @@ def test_demo_uses_the_sample_area_or_generates_it(tmp_path, monkeypatch):
     monkeypatch.setattr(mapsection.sample, "generate", fake_generate)
     result = runner.invoke(cli, ["demo", "-o", str(tmp_path / "d")])
     assert result.exit_code == 0, result.output
-    assert calls[-1].name == "project.toml" and calls[-1].parent != SAMPLE.parent
+    assert calls[-3].name == "project.toml" and calls[-3].parent != SAMPLE.parent
 
 
 def test_help_carries_the_caution():

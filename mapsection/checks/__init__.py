@@ -102,18 +102,27 @@ def run_checks(
     whole, draft = draft, layered_draft(draft)  # cover and intrusive units: not restored
     if topo.status == "fail":  # name the likely fix, ranked (issue 12)
         topo.diagnosis = diagnose(draft, attitude_xy=attitude_xy, corridor_m=corridor_m)
-    restoration = _restoration(draft, thresholds, pin, loose)
-    area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
-    kin = check_kinematics(draft, restoration)
+    per_sequence: list[dict] = []
+    if draft.sequences:  # unconformities: each sequence restored to its own datum
+        from .sequences import check_sequences
+
+        restoration, area, kin, per_sequence = check_sequences(draft, thresholds, pin, loose)
+    else:
+        restoration = _restoration(draft, thresholds, pin, loose)
+        area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
+        kin = check_kinematics(draft, restoration)
     notes = unlayered_notes(whole) + _notes(draft)
+    if per_sequence:
+        notes.append("unconformities: restoration and area balance measured per sequence, "
+                     "each to its own datum; the figures shown are the oldest sequence's, its "
+                     "eroded part reported under 'sequences' and not drawn")
     report = CheckReport(draft.name, draft.method, float(draft.ve), thresholds, topo,
-                         restoration, area, kin, notes)
+                         restoration, area, kin, notes, per_sequence)
     if warn is not None:
         failed = [k for k, st in report.statuses.items() if st == "fail"]
         if failed:
             warn(f"section {draft.name}: failed {', '.join(failed)}")
     return report
-
 
 
 def _restoration(draft: Draft, thresholds: Thresholds, pin: float | None,

@@ -62,6 +62,9 @@ class CheckReport:
     area_balance: AreaBalance
     kinematics: Kinematics
     notes: list[str] = field(default_factory=list)
+    # A column with unconformities: each sequence's restoration, area balance and eroded
+    # part (mapsection.checks.sequences), youngest first; empty for one sequence.
+    sequences: list[dict] = field(default_factory=list)
 
     # -- each test as a dict with its own "passed", "status" and "reasons" ---
     def test_dicts(self) -> dict[str, dict]:
@@ -129,4 +132,6 @@ class CheckReport:
             "caution": CAUTION,
         }
         out.update(tests)
+        if self.sequences:
+            out["sequences"] = self.sequences
         return jsonable(out)

@@ -36,6 +36,7 @@ The pass rule is documented in docs/checks.md.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import asdict, dataclass, field
 
@@ -45,7 +46,7 @@ from scipy.optimize import linear_sum_assignment
 from shapely.geometry import MultiLineString
 
 from ..angles import wrap90
-from ..draft import Draft
+from ..draft import Draft, Horizon, unconformity_key
 from ..errors import CheckError
 from ..settings import Thresholds, threshold_problem
 from .kinds import unlayered_units
@@ -355,6 +356,21 @@ def _unit_from_horizons(draft: Draft, x: np.ndarray, y: np.ndarray) -> np.ndarra
             above_y[upd], above_u[upd] = a[upd], idx[h.top_of]
             upd = (b > below_y) & mine
             below_y[upd], below_u[upd] = b[upd], idx[h.top_of]
+    # An unconformity bounds the stacks: below it a point lies in the older sequence (the
+    # unit just younger than the horizon below it), above it in the younger one (its
+    # oldest unit when no younger horizon lies above).
+    for u in draft.unconformities:
+        if u.unit not in idx or u.geometry is None or u.geometry.is_empty:
+            continue
+        mine = blocks == u.block
+        ys = _elevations_on(shapely.get_coordinates(u.geometry), x)
+        with np.errstate(invalid="ignore"):
+            a = np.nanmin(np.where(ys >= y[:, None], ys, np.nan), axis=1, initial=np.inf)
+            b = np.nanmax(np.where(ys < y[:, None], ys, np.nan), axis=1, initial=-np.inf)
+        upd = (a < above_y) & mine
+        above_y[upd], above_u[upd] = a[upd], -2
+        upd = (b > below_y) & mine
+        below_y[upd], below_u[upd] = b[upd], idx[u.unit] + 1
     unit = np.where(above_u >= 0, above_u, np.where(below_u > 0, below_u - 1, -1))
     out = np.full(len(x), None, dtype=object)
     out[unit >= 0] = np.asarray(names, dtype=object)[unit[unit >= 0]]
@@ -399,6 +415,30 @@ def _slivers(xs: np.ndarray, unpaired: set[int], limit: float) -> list[tuple[int
     return out
 
 
+def _sequence_bases(draft: Draft) -> dict[str, str]:
+    """unit -> the oldest unit of its sequence, for a column with unconformities (else {})."""
+    seqs = draft.column.layered().sequences()
+    if len(seqs) < 2:
+        return {}
+    return {n: s.names[-1] for s in seqs for n in s.names}
+
+
+def _other_sequence(draft: Draft, pts, lines) -> np.ndarray | None:
+    """For a column with unconformities: True where a horizon belongs to another sequence
+    than the unit polygon holding the reading (None for one sequence, or no polygons)."""
+    bases = _sequence_bases(draft)
+    if not bases or not draft.units:
+        return None
+    polys = np.array([u.geometry for u in draft.units], dtype=object)
+    inside = shapely.distance(pts[:, None], polys[None, :])
+    seq = np.array([bases.get(draft.units[k].unit) for k in np.argmin(inside, axis=1)],
+                   dtype=object)
+    oldest = draft.column.layered().names[-1]
+    hz = np.array([bases.get(h.top_of, bases[oldest] if h.top_of.lower().startswith("base")
+                             else None) for h in lines], dtype=object)
+    return seq[:, None] != hz[None, :]
+
+
 def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float) -> dict:
     radius = max(PAIRING_RADIUS_M, PAIRING_RADIUS_PIXELS * pixel if math.isfinite(pixel) else 0.0)
     fault_tol = max(FAULT_TOLERANCE_M, 2.0 * pixel if math.isfinite(pixel) else 0.0)
@@ -410,6 +450,7 @@ def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float)
     def z_at(x):
         return float(draft.profile.elevation_at(np.array([x]))[0])
 
+    seq_base = _sequence_bases(draft)
     mapped: dict[str, list] = {}
     fault_contacts: list[UnpairedContact] = []
     for c in draft.geology.contacts:
@@ -417,6 +458,8 @@ def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float)
         if a is None or b is None or a == b or a not in idx or b not in idx:
             continue  # the edge of a map gap, or a unit the column lacks: not a top
         top = a if idx[a] > idx[b] else b
+        if a in seq_base and b in seq_base and seq_base[a] != seq_base[b]:  # unconformity
+            top = unconformity_key(seq_base[a] if idx[a] < idx[b] else seq_base[b])
         item = UnpairedContact(float(c.distance_m), top, float(c.elevation_m), f"{a} | {b}")
         if _near(np.array([c.distance_m]), faults_x, fault_tol)[0]:
             fault_contacts.append(item)
@@ -424,6 +467,10 @@ def _contacts(draft: Draft, ground: MultiLineString, pixel: float, limit: float)
             mapped.setdefault(top, []).append(item)
 
     predicted = section_ground_contacts(draft, ground)
+    if draft.unconformities:  # the erosion surfaces meet the ground too
+        predicted.update(section_ground_contacts(dataclasses.replace(draft, horizons=[
+            Horizon(unconformity_key(u.unit), u.geometry, u.above_ground, u.block)
+            for u in draft.unconformities]), ground))
     misfits, un_map, un_sec, unverified, concealed = [], [], [], [], []
     for top in sorted(set(mapped) | set(predicted), key=lambda t: idx.get(t, -1)):
         m_items = sorted(mapped.get(top, []), key=lambda c: c.distance_m)
@@ -529,6 +576,9 @@ def _dip_agreement(draft: Draft) -> list[DipMisfit]:
     geoms = np.array([h.geometry for h in lines], dtype=object)
     pts = shapely.points(d[ok], e[ok])
     dist = shapely.distance(pts[:, None], geoms[None, :])
+    other = _other_sequence(draft, pts, lines)
+    if other is not None:  # a reading is compared with the beds of its own sequence
+        dist = np.where(other & ~other.all(axis=1, keepdims=True), np.inf, dist)
     j = np.argmin(dist, axis=1)
     near = geoms[j]
     pos = shapely.line_locate_point(near, pts)

@@ -28,7 +28,10 @@ def command(outdir: str) -> None:
     restored.png/.svg/.pdf, the incremental sequence, build.log, checks.json and
     report.html, as 'mapsection build' writes them. OUTDIR/flawed/ holds the same for
     sample_area/project_flawed.toml, whose column has one unit 40 % too thick: its
-    sections fail the topography test, as they should. The summary lines give each
+    sections fail the topography test, as they should. OUTDIR/unconformity/ holds the
+    second sample area (sample_unconformity/project.toml): a folded older sequence under an
+    angular unconformity, flat-lying younger beds and valley alluvium, each sequence
+    constructed and restored on its own. The summary lines give each
     test's verdict per section: PASS, FAIL or NOT TESTED (nothing to measure; never
     counted as a pass).
 
@@ -56,6 +59,16 @@ def command(outdir: str) -> None:
         runs = [("sample area", project, out)]
         if flawed.is_file():
             runs.append(("flawed variant (one unit 40 % too thick)", flawed, out / "flawed"))
+        from ..sample_unconformity import unconformity_project
+
+        second = unconformity_project()
+        if second is None:
+            from ..sample_unconformity import generate as generate_second
+
+            note("sample_unconformity/ not found beside the package: generating it")
+            second = generate_second(Path(tmp) / "unconformity")["project.toml"]
+        runs.append(("second sample area (an angular unconformity, valley alluvium)", second,
+                     out / "unconformity"))
         for title, proj, dest in runs:
             click.echo(f"{title}: {proj.name}")  # first: this project's warnings follow it
             summaries: dict = {}

@@ -166,6 +166,18 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
                               plunge_axis=plunge_axis, faults=faults,
                               default_fault_dip=default_fault_dip, warn=warn)
         return add_unlayered(layered, geology, column)
+    if len(column.layered().sequences()) > 1:  # unconformities: each sequence on its own
+        from .sequences import build_sequences
+
+        map_units = [iv.unit for iv in geology.intervals]
+        map_units += [u for c in geology.contacts for u in (c.unit_before, c.unit_after)]
+        column.check_map_units(map_units, source="map")
+        return build_sequences(
+            build_draft, line, profile, geology, dips, column, name=name, method=method,
+            ve=ve, dip_tolerance=dip_tolerance, depth=depth, fault_depth=fault_depth,
+            default_dip=default_dip, keep_readings=keep_readings,
+            corridor_contacts=corridor_contacts, plunge_axis=plunge_axis, faults=faults,
+            default_fault_dip=default_fault_dip, warn=warn)
     if plunge_axis is not None:
         pm = plunge_map(line, *plunge_axis)
         if pm is not None:

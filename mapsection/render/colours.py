@@ -180,6 +180,7 @@ class LineStyle:
     width: float
     colour: str = "black"
     dashes: tuple[float, ...] | None = None
+    wavy: bool = False  # drawn as a wave (the unconformity; see render.unconformity)
 
     def kwargs(self) -> dict:
         kw = {"linewidth": self.width, "color": self.colour}
@@ -200,6 +201,7 @@ SECTION_LINE = LineStyle(1.6, "#d00000")
 CONTACT_INFERRED = LineStyle(0.8, "black", (6.0, 3.0))  # below the constrained depth
 FAULT_INFERRED = LineStyle(2.0, "black", (6.0, 3.0))
 MISFIT = LineStyle(1.2, "#d00000")
+UNCONFORMITY = LineStyle(1.1, "black", None, True)  # our own symbol, explained in the legend
 
 
 def colour_sources(column: Column) -> dict[str, str]:

@@ -320,6 +320,8 @@ def _restoration(report: CheckReport, draft: Draft) -> str:
         ("Gaps and overlaps between fault blocks (% of the restored area)",
          fmt(r.gap_overlap_pct, 2), f"at most {fmt(t.line_length_spread_pct, 1)} %"),
     ])]
+    if report.sequences:
+        parts.append(_sequences(report))
     fr = r.at_faults
     if fr is not None:
         parts.append("<h3>At each fault: the hanging wall restored by the fault's slip</h3>")
@@ -369,6 +371,29 @@ def _restoration(report: CheckReport, draft: Draft) -> str:
               fmt(g.base_gap_m), fmt(g.gap_area_m2), fmt(g.overlap_area_m2)) for g in r.gaps],
             numeric=(2, 3, 4, 5)))
     return "\n".join(parts)
+
+
+def _sequences(report: CheckReport) -> str:
+    """Each sequence restored to its own datum, and what was eroded of the older ones."""
+    rows, eroded = [], []
+    for q in report.sequences:
+        for test in ("restoration", "area_balance"):
+            d = q.get(test, {})
+            st = d.get("status", "not_tested")
+            rows.append((q["sequence"], TITLES.get(test, test), q["datum"], (_badge(st), ""),
+                         "; ".join(d.get("reasons", [])) or DASH))
+        for h in q.get("eroded", {}).get("horizons", []):
+            eroded.append((q["sequence"], h["top_of"], fmt(h["eroded_length_m"]),
+                           fmt(h["restored_length_m"])))
+    out = ["<h3>Per sequence (unconformities): each restored to its own datum; the figures "
+           "above are the oldest sequence's</h3>",
+           _table(("Sequence", "Test", "Datum", "Result", "Why"), rows)]
+    if eroded:
+        out += ["<h3>Eroded above the unconformity or the ground (reported, not drawn as "
+                "restored rock)</h3>",
+                _table(("Sequence", "Top of", "Eroded bed length (m)", "Restored length (m)"),
+                       eroded, numeric=(2, 3))]
+    return "\n".join(out)
 
 
 def _area_balance(report: CheckReport) -> str:

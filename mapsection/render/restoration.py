@@ -190,12 +190,16 @@ def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> 
     handles = [Line2D([], [], color=cols.get(u, "#dddddd"), linewidth=6, label=u)
                for u in (r.column.names if r.column is not None else names) if u in units_drawn]
     handles.append(Line2D([], [], color="black", linewidth=0.8, label="bed, preserved"))
+    # an older sequence (restored below an unconformity) is eroded at it too
+    where = ("above the ground or the unconformity" if any(
+        w.startswith(("oldest sequence", "middle sequence")) for w in r.reasons)
+        else "above the ground")
     if eroded_beds:
         handles.append(Line2D([], [], color="#777777", linewidth=0.8, linestyle=(0, (4, 3)),
-                              label="bed eroded (above the ground; projected, never observed)"))
+                              label=f"bed eroded ({where}; projected, never observed)"))
     if eroded_fills:
         handles.append(Patch(facecolor="#e6e6e6", edgecolor="none",
-                             label="paler fill: rock eroded (above the ground)"))
+                             label=f"paler fill: rock eroded ({where})"))
     if n_gap:
         handles.append(Patch(facecolor="white", edgecolor="#333333", hatch="////",
                              label="gap between fault blocks (m)"))

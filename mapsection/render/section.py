@@ -273,6 +273,14 @@ def _draw_units_and_horizons(ax, pg: _Page) -> None:
         solid, dashed = _split(h.geometry, pg.z_c)
         _plot_parts(ax, [(xy, C.CONTACT) for xy in solid]
                     + [(xy, C.CONTACT_INFERRED) for xy in dashed], f"horizon-{i}", 3)
+    if draft.unconformities:  # wavy where preserved, short-dashed above the ground
+        from .unconformity import wavy
+
+        for i, u in enumerate(draft.unconformities):
+            parts = [(xy, C.CONTACT_PROJECTED) if u.above_ground
+                     else (wavy(xy, pg.m_per_mm(), pg.m_per_mm() / pg.ve), C.UNCONFORMITY)
+                     for xy in lines_xy(u.geometry)]
+            _plot_parts(ax, parts, f"unconformity-{i}", 3.5)
     ax.plot(draft.profile.distance, draft.profile.z, zorder=5, **C.GROUND.kwargs())
 
 
@@ -593,6 +601,9 @@ def _legend_rows(draft: Draft, palette: dict[str, str], shift_m: float, misfits:
         (f"Bedding dip, apparent dip (°), on the ground line (readings up to "
          f"{shift_m:.0f} m off it)", C.DIP_TICK),
     ]
+    if draft.unconformities:
+        rows.append(("Unconformity (erosion surface; wavy line, our own symbol)",
+                     C.UNCONFORMITY))
     if draft.axial_surfaces:
         rows.append(("Axial surface", C.AXIAL_SURFACE))
     if misfits:
@@ -623,6 +634,11 @@ def _legend(fig: Figure, rows: list[tuple[str, object]], box) -> None:
         elif isinstance(sym, str):  # a unit's colour swatch
             art = Rectangle((x, yc - 0.35 * LEGEND_EM), 2.0 * LEGEND_EM, 0.7 * LEGEND_EM,
                             transform=tr, facecolor=sym, edgecolor="#333333", linewidth=0.4)
+        elif getattr(sym, "wavy", False):  # the unconformity
+            from .unconformity import legend_wave
+
+            art = Line2D(*legend_wave(x, yc, 2.0 * LEGEND_EM, 0.5 * LEGEND_EM), transform=tr,
+                         **sym.kwargs())
         else:
             kw = sym.kwargs()
             art = Line2D([x, x + 2.0 * LEGEND_EM], [yc, yc], transform=tr, **kw)
