@@ -1,5 +1,12 @@
 """Reading bedding attitudes from a CSV or a point vector file, every row validated.
 
+A row with an impossible value (dip outside 0-90, azimuth outside 0-360, text
+that is not a number, inconsistent quadrant text) is reported through ``warn``
+with its CSV line number (or feature number) and reason and dropped; the count
+of dropped rows is reported once. CSV coordinates are taken to be in the
+project's CRS; a vector file in another CRS is reprojected to it (its azimuths
+rotated to the new grid north) and that is said once.
+
 The value object and the conventions are in :mod:`mapsection.attitudes`.
 """
 
@@ -256,15 +263,9 @@ def _to_float(values: list) -> tuple[np.ndarray, np.ndarray]:
     return num, bad
 
 
-def read_attitudes(
-    path: str | os.PathLike,
-    *,
-    convention: str = "rhr",
-    layer: str | None = None,
-    fields: Mapping[str, str] | None = None,
-    crs: str | pyproj.CRS | None = None,
-    warn: Warn | None = None,
-) -> Attitudes:
+def read_attitudes(path: str | os.PathLike, *, convention: str = "rhr",
+                   layer: str | None = None, fields: Mapping[str, str] | None = None,
+                   crs: str | pyproj.CRS | None = None, warn: Warn | None = None) -> Attitudes:
     """Read bedding attitudes from a CSV or a point vector file, validating every row.
 
     CSV columns: ``x, y`` and, by ``convention``, ``strike, dip`` (``rhr``),
@@ -276,12 +277,9 @@ def read_attitudes(
     ``fields`` maps those logical names to the file's own column names; matching
     is case-insensitive.
 
-    A row with an impossible value (dip outside 0-90, azimuth outside 0-360, text
-    that is not a number, inconsistent quadrant text) is reported through ``warn``
-    with its CSV line number (or feature number) and reason and dropped; the count
-    of dropped rows is reported once. CSV coordinates are taken to be in ``crs``;
-    a vector file in another CRS is reprojected to ``crs`` (its azimuths rotated to
-    the new grid north) and that is said once.
+    Rows with an impossible value are said and dropped (see the module's docstring).
+    Raises :class:`AttitudeError` for a missing file, a missing column (listing the
+    columns there are), an unknown convention, or a file with no usable rows.
 
     Parameters
     ----------
@@ -296,12 +294,6 @@ def read_attitudes(
     -------
     Attitudes
         The usable rows, azimuths as right-hand-rule strikes in 0-360.
-
-    Raises
-    ------
-    AttitudeError
-        For a missing file, a missing column (listing the columns there are), an
-        unknown convention, or a file with no usable rows.
 
     Examples
     --------

@@ -11,7 +11,7 @@ that imports matplotlib.
 - :mod:`~mapsection.render.sequence` -- the incremental sequence, frames and GIF;
 - :mod:`~mapsection.render.report` -- report.html, self-contained: each test's tables from
   :mod:`~mapsection.render.report_tests`, built of the numbers, badges and tables of
-  :mod:`~mapsection.render.html`;
+  :mod:`~mapsection.render.report_parts`;
 - :mod:`~mapsection.render.section_folder` -- the one writer of a section's check
   outputs (checks.json, the figures above, report.html), for ``build`` and ``check``.
 

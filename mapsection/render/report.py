@@ -4,7 +4,7 @@ Each test opens with its verdict (PASS, FAIL or NOT TESTED), one summary line an
 verdict of each of its parts with the reasons; then its tables, every column labelled
 with its unit. Lengths are in metres, angles to 0.1 degree, directions as compass
 bearings; a figure not measured is a dash, and no value reads ``-0``
-(:mod:`mapsection.render.html`). Each test's tables are made in
+(:mod:`mapsection.render.report_parts`). Each test's tables are made in
 :mod:`mapsection.render.report_tests`.
 
 Figures are embedded as base64 data URIs and the styling is inline, so the file
@@ -30,7 +30,7 @@ from ..caution import CAUTION
 from ..checks import TESTS, CheckReport, key_figures
 from ..checks.status import BY_CONSTRUCTION, Part, label
 from ..draft import Draft
-from .html import DASH, badge, compass, fmt, parts_table
+from .report_parts import DASH, badge, compass, fmt, parts_table
 from .report_tests import area_balance_html, kinematics_html, restoration_html, topography_html
 
 __all__ = ["compass", "fmt", "render_report", "summary_texts", "write_report"]

@@ -14,7 +14,7 @@ import numpy as np
 
 from ..checks import CheckReport
 from ..draft import Draft
-from .html import DASH, badge, compass, figures_table, fmt, table
+from .report_parts import DASH, badge, compass, figures_table, fmt, table
 
 __all__ = ["area_balance_html", "kinematics_html", "restoration_html", "topography_html"]
 

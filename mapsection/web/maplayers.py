@@ -34,6 +34,22 @@ def tiled_map(map_data, cells: int = 24, min_vertices: int = 2000):
     neighbouring stretches of one unit, so the tiles leave no trace in the result;
     they only make each intersection with a line cheap. Maps with fewer than
     ``min_vertices`` polygon vertices are returned as they are.
+
+    Parameters
+    ----------
+    map_data : the map (:class:`~mapsection.mapdata.MapData`).
+    cells : tiles along each side of the map's extent.
+    min_vertices : below this many polygon vertices the map is not cut.
+
+    Returns
+    -------
+    MapData
+        The same units and faults, the unit polygons in pieces.
+
+    Examples
+    --------
+    >>> # tiled = tiled_map(inputs.map_data)
+    >>> # surface_geology(line, tiled, ...) gives the units and contacts of the map itself
     """
     import geopandas as gpd
 

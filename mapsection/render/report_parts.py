@@ -58,7 +58,24 @@ def badge(status: str) -> str:
 
 def table(head: Sequence[str], rows: Iterable[Sequence[Any]], numeric: Sequence[int] = ()
           ) -> str:
-    """A table of formatted cells (strings, or (html, raw) for markup already escaped)."""
+    """A table of formatted cells (strings, or (html, raw) for markup already escaped).
+
+    Parameters
+    ----------
+    head : the column titles.
+    rows : the rows, each a sequence of cells.
+    numeric : the columns aligned right in a fixed-width font.
+
+    Returns
+    -------
+    str
+        The HTML table, or "none" when there is no row.
+
+    Examples
+    --------
+    >>> table(("Unit", "Top (m)"), [("Osk <Sandstone>", "120")], numeric=(1,))[45:]
+    '<tr><td>Osk &lt;Sandstone&gt;</td><td class="num">120</td></tr></table>'
+    """
     rows = list(rows)
     if not rows:
         return "<p class='meta'>none</p>"
