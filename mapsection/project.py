@@ -264,7 +264,9 @@ def _unit(r: TableReader) -> Unit:
     # a cover unit's thickness is optional: a thin veneer by default
     default = COVER_THICKNESS if kind == "cover" else (
         math.nan if kind == "intrusive" else ...)
-    thickness = math.nan if from_map else r.number("thickness", default)
+    # an intrusive unit is no layer: no thickness unless one is given (then unused)
+    no_number = from_map or (kind == "intrusive" and "thickness" not in r.table)
+    thickness = math.nan if no_number else r.number("thickness", default)
     return Unit(
         r.text("unit"),
         thickness,
