@@ -129,7 +129,7 @@ def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _de
     from .thickness import resolve_map_thicknesses
 
     own = inputs is None
-    inputs = load_inputs(project, warn_fn) if own else inputs
+    inputs = load_inputs(project, warn_fn, [spec]) if own else inputs
     try:
         project = resolve_map_thicknesses(project, inputs, warn_fn)  # thickness = "map"
         data = SectionSession.from_inputs(inputs, project, spec, warn=warn_fn).run()

@@ -91,7 +91,7 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
     statuses: list[str] = []
     # Read once for every section: the report's section figure has its location inset on
     # the map, and a failed topography test's diagnosis looks at the attitudes nearby.
-    inputs = load_inputs(project, warn)
+    inputs = load_inputs(project, warn, specs)  # the sections' neighbourhood of the map
     try:
         for spec in specs:
             draft, report = check_section(project, spec, from_path, warn, inputs=inputs)

@@ -49,6 +49,7 @@ from .._atomic import atomic_file
 from ..caution import CAUTION
 from ..draft import Draft
 from ..errors import ParameterError
+from ..extent import location_view_limit
 from ..mapdata import MapData
 from . import colours as C
 from .layout import (
@@ -888,18 +889,20 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
     ah = min(height - mb - mt, 1.4 * aw)  # not much taller than wide: kept around the line
     line = draft.line
     v = line.vertices
-    # The line with a margin, widened to the panel's shape: the whole panel is map.
+    # The line with a margin, widened to the panel's shape: the whole panel is map. The
+    # widening stops at a limit known before the sheet is laid out (a build reads the map
+    # only that far: mapsection.extent); the panel then shrinks to the view.
     lo, hi = v.min(axis=0), v.max(axis=0)
-    centre = (lo + hi) / 2
-    half = (hi - lo) / 2 + 0.12 * line.length
+    centre, half, reach = location_view_limit(v)
     if half[0] / half[1] < aw / ah:
         half[0] = half[1] * aw / ah
     else:
         half[1] = half[0] * ah / aw
+    half = np.minimum(half, reach)
     # Kept on the map: where the map is smaller than that, the panel shrinks to it (no
     # white strips beyond the map's edge), keeping the whole line in view.
     if len(map_data.unit_geoms):
-        mb_ = shapely.total_bounds(map_data.unit_geoms)
+        mb_ = map_data.layer_bounds()
         for k in range(2):
             m_lo, m_hi = mb_[k], mb_[k + 2]
             if m_hi - m_lo >= 2 * half[k]:
@@ -908,10 +911,10 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
                 a_lo = min(m_lo, lo[k] - 0.03 * line.length)
                 a_hi = max(m_hi, hi[k] + 0.03 * line.length)
                 centre[k], half[k] = (a_lo + a_hi) / 2, min(half[k], (a_hi - a_lo) / 2)
-        if half[0] / half[1] > aw / ah:
-            ah = aw * half[1] / half[0]
-        else:
-            aw = ah * half[0] / half[1]
+    if half[0] / half[1] > aw / ah:
+        ah = aw * half[1] / half[0]
+    else:
+        aw = ah * half[0] / half[1]
     bottom += height - (ah + mb + mt)
     iax = fig.add_axes(((left + ml) / W, (bottom + mb) / H, aw / W, ah / H))
     xmin, ymin = centre - half
