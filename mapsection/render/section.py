@@ -72,7 +72,7 @@ from .layout import (
     tick_segment,
     ve_text,
 )
-from .shapes import lines_xy, polygon_path
+from .shapes import lines_xy, polygon_path, polygons_path
 from .sheet import SheetOptions, TitleInfo, scale_text, sheet_size_mm
 
 matplotlib.use("Agg")  # headless: figures are only ever written to files
@@ -831,9 +831,12 @@ def _inset_units(iax, map_data: MapData, palette: dict[str, str],
         tol = (xmax - xmin) / 1500.0
         clipped = shapely.clip_by_rect(shapely.simplify(geoms[idx], tol, preserve_topology=False),
                                        xmin, ymin, xmax, ymax)
+        # One compound path per unit: a map of thousands of polygons is a handful of
+        # artists, built and written without a Python loop over the polygons.
         patches, faces = [], []
-        for g, nm in zip(clipped, names[idx], strict=True):
-            path = polygon_path(g)
+        shown = names[idx]
+        for nm in dict.fromkeys(shown):
+            path = polygons_path(clipped[shown == nm])
             if path is not None:
                 patches.append(PathPatch(path))
                 faces.append(palette.get(nm, "#dddddd"))
@@ -853,8 +856,13 @@ def _inset_faults(iax, map_data: MapData, bounds: tuple[float, float, float, flo
         ddir = _column(faults, ff.get("dip_direction", "dip_direction"))
         size = 0.02 * max(xmax - xmin, ymax - ymin)
         tris, bars, balls = [], [], []
-        for k, g in enumerate(faults.geometry.values):
-            if g is None or g.is_empty or not g.intersects(box):
+        geoms = faults.geometry.values
+        # Only the faults in view, from the map's index (not a test of every fault).
+        shown = ([] if map_data.fault_tree is None
+                 else np.sort(map_data.fault_tree.query(box, predicate="intersects")))
+        for k in shown:
+            g = geoms[k]
+            if g is None or g.is_empty:
                 continue
             for xy in lines_xy(g):
                 iax.plot(xy[:, 0], xy[:, 1], color="black", linewidth=1.2)
