@@ -219,7 +219,7 @@ def generate_world(folder: str | os.PathLike, size: int = 16000, polygons: int =
 
 def cut_world(world: World, folder: str | os.PathLike, distance: float = CUT_M) -> World:
     """A copy of ``world`` whose map and attitudes are cut to ``distance`` around its lines
-    (the polygons clipped, the attitudes kept within); the same DEM (linked)."""
+    (the polygons meeting that area, the attitudes inside it); the same DEM (linked)."""
     import geopandas as gpd
     import pandas as pd
     import shapely
@@ -230,8 +230,9 @@ def cut_world(world: World, folder: str | os.PathLike, distance: float = CUT_M) 
     area = shapely.union_all([shapely.LineString(ln).buffer(distance) for ln in world.lines])
     units = gpd.read_file(src / "geology.gpkg", layer="units", engine="pyogrio",
                           bbox=area.bounds)
-    units = units[units.intersects(area)].copy()
-    units["geometry"] = units.geometry.intersection(area)
+    # The polygons meeting the area, kept whole: clipping would move their vertices by
+    # rounding (a few 1e-7 m), and the two builds would no longer see the same map.
+    units = units[units.intersects(area)]
     units.to_file(folder / "geology.gpkg", layer="units", driver="GPKG", engine="pyogrio")
     att = pd.read_csv(src / "attitudes.csv", dtype={"id": str})
     keep = shapely.contains_xy(area, att["x"].to_numpy(), att["y"].to_numpy())
