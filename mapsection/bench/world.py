@@ -309,7 +309,10 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--sections", type=int, default=1, help="parallel sections [1]")
     ap.add_argument("--growth", action="store_true",
                     help="also the growth tables (line length, attitudes, polygons, DEM size)")
-    ap.add_argument("--keep", metavar="DIR", help="generate into DIR and keep it")
+    ap.add_argument("--repeat", type=int, default=1,
+                    help="builds of each world, interleaved; medians are shown [1]")
+    ap.add_argument("--keep", metavar="DIR",
+                    help="generate into DIR and keep it (a world already there is reused)")
     args = ap.parse_args(argv)
     for name in ("size", "polygons", "attitudes", "sections"):
         if getattr(args, name) < 1:
@@ -317,16 +320,25 @@ def main(argv: list[str] | None = None) -> int:
     with tempfile.TemporaryDirectory(prefix="mapsection-world-") as tmpdir:
         tmp = Path(args.keep) if args.keep else Path(tmpdir)
         t0 = time.perf_counter()
-        world = generate_world(tmp / "whole", args.size, args.polygons, args.attitudes,
-                               args.length, args.sections)
-        cut = cut_world(world, tmp / "cut")
-        print(f"world generated in {time.perf_counter() - t0:.1f} s: DEM {args.size}^2 at "
+        if (tmp / "whole" / "project.toml").is_file() and (tmp / "cut" / "project.toml").is_file():
+            world = World(tmp / "whole" / "project.toml", args.size, -1, -1,
+                          section_lines(args.size, args.length, args.sections))
+            cut = World(tmp / "cut" / "project.toml", args.size, -1, -1, world.lines)
+            print(f"reusing the world in {tmp} (counts not known: -1)")
+        else:
+            world = generate_world(tmp / "whole", args.size, args.polygons, args.attitudes,
+                                   args.length, args.sections)
+            cut = cut_world(world, tmp / "cut")
+        print(f"world ready in {time.perf_counter() - t0:.1f} s: DEM {args.size}^2 at "
               f"{PIXEL:g} m, {world.polygons} polygons, {world.attitudes} attitudes; "
               f"{args.sections} section(s) of {args.length / 1000:g} km; cut to "
               f"{CUT_M / 1000:g} km around the line(s): {cut.polygons} polygons, "
               f"{cut.attitudes} attitudes")
-        t_whole, m_whole = measure_build(world.project, tmp / "whole" / "out")
-        t_cut, m_cut = measure_build(cut.project, tmp / "cut" / "out")
+        runs = []
+        for _ in range(max(args.repeat, 1)):  # interleaved: both see the same machine load
+            runs.append((*measure_build(world.project, tmp / "whole" / "out"),
+                         *measure_build(cut.project, tmp / "cut" / "out")))
+        t_whole, m_whole, t_cut, m_cut = (float(np.median(c)) for c in zip(*runs, strict=True))
         print()
         print("| build | wall s | peak MB |")
         print("|---|---:|---:|")

@@ -124,6 +124,8 @@ def read_map(
     units = units[[unit_field, "geometry"]].reset_index(drop=True)
     if not len(units):
         if bbox is not None:
+            # The whole layer read again (only on this error) says whether it has none at all.
+            read_map(path, units_layer, unit_field, crs=crs, warn=lambda message: None)
             raise MapLayerError(f"{path.name}: layer {units_layer!r} has no unit polygons "
                                 f"near the section lines (x {bbox[0]:.1f} to {bbox[2]:.1f}, "
                                 f"y {bbox[1]:.1f} to {bbox[3]:.1f}): is it the map of this "
