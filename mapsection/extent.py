@@ -21,7 +21,7 @@ import numpy as np
 VIEW_MARGIN = 0.12
 # Widening the location map to its panel stops at this many times its larger half-side
 # (the tool's default: the sample area's sheets widen by 1.2 at most).
-VIEW_SPREAD = 2.5
+VIEW_SPREAD = 1.5
 # Read beyond the corridors and location maps (m): contacts and attitudes near the edge of
 # the view still have their neighbours (the tool's default).
 NEIGHBOURHOOD_M = 1000.0
@@ -63,7 +63,7 @@ def sections_box(lines: Iterable[np.ndarray], corridors: Iterable[float],
     Examples
     --------
     >>> sections_box([np.array([[0.0, 0.0], [10_000.0, 0.0]])], [500.0])
-    (-11500.0, -16500.0, 21500.0, 16500.0)
+    (-5300.0, -10300.0, 15300.0, 10300.0)
     """
     boxes = []
     for v, c in zip(lines, corridors, strict=True):

@@ -139,7 +139,8 @@ def read_window(project: Project, sections: Sequence[SectionSpec] | None) \
     """The box of the map (and attitudes) a build of ``sections`` reads, or None: all.
 
     The neighbourhood of the sections (:func:`mapsection.extent.sections_box`: their
-    corridors and location maps, plus ``NEIGHBOURHOOD_M``). None (the whole map and every
+    corridors and location maps, plus ``NEIGHBOURHOOD_M``; and ``THICKNESS_NEAR_M`` around
+    the corridors, where the thickness comparison looks). None (the whole map and every
     attitude) when no sections are given, when a unit takes its thickness from the map
     (``thickness = "map"``: the column is measured on the whole map, whatever sections
     are built), or when a section projects down-plunge on the fold axis of all the
@@ -157,7 +158,10 @@ def read_window(project: Project, sections: Sequence[SectionSpec] | None) \
     target = pyproj.CRS(project.crs)
     lines = [ln if ln.crs is None or same_crs(ln.crs, target) else ln.to_crs(target)
              for ln in lines]
-    return sections_box([ln.vertices for ln in lines], [s.corridor for s in sections])
+    view = sections_box([ln.vertices for ln in lines], [s.corridor for s in sections])
+    near = _near_box(project, sections)  # the thickness comparison's reach
+    return (min(view[0], near[0]), min(view[1], near[1]), max(view[2], near[2]),
+            max(view[3], near[3]))
 
 
 def _near_box(project: Project, sections: Sequence[SectionSpec]):
@@ -175,8 +179,9 @@ def load_inputs(project: Project, warn: Warn | None = None,
     """Read the map and the attitudes and open the DEM of a project (once).
 
     Every map unit must be in the project's column. With ``sections`` (those a build
-    makes), only their neighbourhood of the map is read and only the attitudes within it
-    are kept (:func:`read_window`); the unit checks then see that part of the map.
+    makes), only their neighbourhood of the map is read (:func:`read_window`) and only the
+    attitudes within ``extent.THICKNESS_NEAR_M`` of their corridors are kept; the unit
+    checks then see that part of the map.
     """
     from .attitudes import check_attitudes_on_dem
     from .readers.attitudes import read_attitudes
@@ -200,14 +205,14 @@ def load_inputs(project: Project, warn: Warn | None = None,
     except BaseException:
         dem.close()
         raise
-    if window is not None:
-        # Only the attitudes near the sections are used (projected, beside the contacts,
+    near = _near_box(project, sections) if window is not None else None
+    if near is not None:
+        # Only the attitudes near the corridors are used (projected, beside the contacts,
         # in the thickness comparison); the others would cost memory and indexing.
         x, y = np.asarray(attitudes.x, float), np.asarray(attitudes.y, float)
-        inside = (x >= window[0]) & (x <= window[2]) & (y >= window[1]) & (y <= window[3])
+        inside = (x >= near[0]) & (x <= near[2]) & (y >= near[1]) & (y <= near[3])
         if not inside.all():
             attitudes = attitudes.subset(np.flatnonzero(inside))
-    near = _near_box(project, sections) if window is not None else None
     return ProjectInputs(map_data, attitudes, dem, near=near)
 
 
