@@ -24,9 +24,11 @@ Targets (issue 15): whole / cut at most 1.5x in wall time and in peak memory.
 
 ``--growth`` also prints growth tables (line length, attitudes, polygons, DEM size): the
 whole-world build for each value, one input grown at a time from a base world, with the
-fitted growth exponent (the slope of log time against log size). ``--sections N`` puts
-N parallel sections in the project (built one after the other or in parallel, as the
-build does; the cut world is cut around all of them).
+fitted growth exponent (the slope of log time against log size). More attitudes or
+polygons in the same world are denser, near the line too; a larger DEM is a larger world
+with the same density of polygons and attitudes (so more of both, far from the line).
+``--sections N`` puts N parallel sections in the project (built one after the other or in
+parallel, as the build does; the cut world is cut around all of them).
 """
 
 from __future__ import annotations
@@ -282,6 +284,10 @@ def _growth(tmp: Path, base: dict, name: str, values: list, dem_cache: dict) -> 
     walls, mems = [], []
     for v in values:
         kw = {**base, name: v}
+        if name == "size":  # a larger world at the same density of polygons and attitudes
+            grow = (v / base["size"]) ** 2
+            kw["polygons"] = max(1, round(base["polygons"] * grow))
+            kw["attitudes"] = max(1, round(base["attitudes"] * grow))
         folder = tmp / f"g-{name}-{v}"
         dem = dem_cache.get(kw["size"])
         w = generate_world(folder, dem=dem, **kw)
