@@ -43,12 +43,12 @@ def read_map(
     Layers in another CRS than ``crs`` are reprojected to it (said once through
     ``warn``); a layer without a CRS is taken to be in ``crs`` (with a warning).
 
-    ``bbox`` (xmin, ymin, xmax, ymax in ``crs``): only the features whose bounding box
-    meets it are read (a GeoPackage answers from its R-tree spatial index; other formats
-    are scanned); the MapData then knows the window, how many unit polygons were left out
-    and the whole layer's extent (:attr:`MapData.partial`, :meth:`MapData.layer_bounds`).
-    The checks made on the map's contents (overlaps, empty unit names) and those made
-    later (units missing from the column) see only the features read.
+    ``bbox`` (xmin, ymin, xmax, ymax in ``crs``): only the unit polygons whose bounding box
+    meets it are read (a GeoPackage answers from its R-tree spatial index; other formats are
+    scanned; the faults layer is read whole); the MapData then knows the window, how many
+    unit polygons were left out and the whole layer's extent (:attr:`MapData.partial`,
+    :meth:`MapData.layer_bounds`). The checks made on the polygons (overlaps, empty unit
+    names) and those made later (units missing from the column) see only those read.
     """
     warn = warn or _default_warn
     path = Path(path)
@@ -62,7 +62,7 @@ def read_map(
     except Exception as exc:  # the vector driver raises several kinds for unreadable files
         raise MapLayerError(f"{path}: not a readable map file ({first_line(exc)})") from None
 
-    def read(layer: str, fields: list[str], role: str) -> gpd.GeoDataFrame:
+    def read(layer: str, fields: list[str], role: str, box=bbox) -> gpd.GeoDataFrame:
         if layer not in layers:
             raise MapLayerError(f"{path.name}: no layer {layer!r} (layers: {', '.join(layers)})")
         try:
@@ -78,7 +78,7 @@ def read_map(
                     f"(fields: {_names(existing)})"
                 )
         try:
-            window = None if bbox is None else _layer_box(bbox, info.get("crs"), target)
+            window = None if box is None else _layer_box(box, info.get("crs"), target)
             df = pyogrio.read_dataframe(path, layer=layer, bbox=window)
             counts[layer] = (int(info.get("features", -1)), len(df), info.get("total_bounds"),
                              info.get("crs"))
@@ -95,7 +95,10 @@ def read_map(
     if faults_layer is not None:
         given = dict(fault_fields or {})
         wanted = {r: given.get(r, r) for r in REQUIRED_FAULT_FIELDS + OPTIONAL_FAULT_FIELDS}
-        faults = read(faults_layer, [wanted[r] for r in REQUIRED_FAULT_FIELDS], "fault")
+        # The faults layer is read whole (faults are few): every [[fault]] table finds its
+        # fault, and a bad value is named by its feature number in the layer.
+        faults = read(faults_layer, [wanted[r] for r in REQUIRED_FAULT_FIELDS], "fault",
+                      None)
         roles = {r: c for r, c in wanted.items() if c in faults.columns}
         faults = _clean(faults, _LINES, f"{path.name}: layer {faults_layer!r}", warn)
         _check_fault_values(faults, roles, f"{path.name}: layer {faults_layer!r}")
