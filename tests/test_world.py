@@ -104,3 +104,20 @@ def test_world_benchmark_runs_on_a_tiny_world(capsys):
     out = capsys.readouterr().out
     assert "whole / cut" in out
     assert "| whole world |" in out and "| cut world |" in out
+
+
+def test_window_read_keeps_every_fault():
+    """The faults layer is read whole: a [[fault]] table finds its fault wherever it is
+    (reference: the unfiltered read of the sample map)."""
+    from pathlib import Path
+
+    sample = Path(__file__).resolve().parents[1] / "sample_area"
+    project = load_project(sample / "project.toml", lambda m: None)
+    args = (project.map_path, project.units_layer, project.unit_field, "faults")
+    full = read_map(*args, crs=project.crs, warn=lambda m: None)
+    x0, y0, x1, y1 = shapely.total_bounds(full.unit_geoms)
+    corner = (x0, y0, x0 + 0.1 * (x1 - x0), y0 + 0.1 * (y1 - y0))
+    part = read_map(*args, crs=project.crs, warn=lambda m: None, bbox=corner)
+    assert len(part.unit_geoms) < len(full.unit_geoms)
+    assert len(part.fault_geoms) == len(full.fault_geoms) > 0
+    assert part.fault_names() == full.fault_names()
