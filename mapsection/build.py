@@ -162,7 +162,7 @@ def _build_section(project: Project, spec: SectionSpec, warn: Warn | None,
     warn = warn or _default_warn
     with _stage(timings, "section data"):
         own = inputs is None
-        inputs = load_inputs(project, warn) if own else inputs
+        inputs = load_inputs(project, warn, [spec]) if own else inputs
         try:
             project = resolve_map_thicknesses(project, inputs, warn)  # thickness = "map"
             session = SectionSession.from_inputs(inputs, project, spec, warn)
@@ -341,7 +341,8 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
             with _stage(timings, "load"):
                 if progress is not None:
                     progress("", "reading the map, the attitudes and the DEM")
-                inputs = load_inputs(project, warn)
+                # Only the neighbourhood of the sections built is read from the map.
+                inputs = load_inputs(project, warn, specs)
                 column_said: list[str] = []  # thickness = "map": said once, and in build.log
 
                 def say(message: str) -> None:

@@ -142,7 +142,7 @@ def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _de
     from .thickness import resolve_map_thicknesses
 
     own = inputs is None
-    inputs = load_inputs(project, warn_fn) if own else inputs
+    inputs = load_inputs(project, warn_fn, [spec]) if own else inputs
     try:
         project = resolve_map_thicknesses(project, inputs, warn_fn)  # thickness = "map"
         data = SectionSession.from_inputs(inputs, project, spec, warn=warn_fn).run()
@@ -208,7 +208,7 @@ class CheckRun:
 
         # Read once for every section: the report's section figure has its location inset on
         # the map, and a failed topography test's diagnosis looks at the attitudes nearby.
-        inputs = load_inputs(self.project, warn_fn)
+        inputs = load_inputs(self.project, warn_fn, self.specs)  # the sections' neighbourhood
         try:
             for spec in self.specs:
                 draft, report = check_section(self.project, spec, self.from_path, warn_fn,

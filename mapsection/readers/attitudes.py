@@ -78,7 +78,8 @@ def _read_csv(path: Path) -> _Table:
     import pandas as pd
 
     try:
-        text = path.read_bytes().decode("utf-8-sig")
+        raw = path.read_bytes()
+        text = raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
     except OSError as exc:
@@ -87,10 +88,16 @@ def _read_csv(path: Path) -> _Table:
     if not first.strip() or "\x00" in text:
         return _read_csv_rows(path)
     dialect = _sniff(first)
-    header_reader = csv.reader(io.StringIO(text), dialect)
+    header_reader = csv.reader(io.StringIO(text[:1 << 20]), dialect)
     header = next(header_reader, None)
     if header is None or header_reader.line_num != 1:
         return _read_csv_rows(path)  # a quoted header over several lines
+    # One record per physical line, or a quoted field runs over several: other line numbers.
+    # (Counted on the bytes: in UTF-8 a newline byte is always a newline.)
+    n_lines = raw.count(b"\n") + raw.count(b"\r") - raw.count(b"\r\n")
+    if not raw.endswith((b"\n", b"\r")):
+        n_lines += 1
+    del text  # the C engine reads the bytes: no copy of the text as wide characters
     names = [h.strip() for h in header]
     k = len(names)
     try:
@@ -98,7 +105,8 @@ def _read_csv(path: Path) -> _Table:
             warnings.simplefilter("always", pd.errors.ParserWarning)
             # One column more than the header: a row ending in a delimiter stays here.
             df = pd.read_csv(
-                io.StringIO(text), sep=dialect.delimiter, quotechar=dialect.quotechar,
+                io.BytesIO(raw), encoding="utf-8-sig", sep=dialect.delimiter,
+                quotechar=dialect.quotechar,
                 doublequote=dialect.doublequote, skipinitialspace=dialect.skipinitialspace,
                 quoting=csv.QUOTE_MINIMAL, header=None, names=range(k + 1), skiprows=1,
                 index_col=False, dtype=str, na_filter=False, keep_default_na=False,
@@ -107,10 +115,7 @@ def _read_csv(path: Path) -> _Table:
         return _read_csv_rows(path)
     if any(issubclass(w.category, pd.errors.ParserWarning) for w in said):
         return _read_csv_rows(path)  # a row longer still: cut by the csv module's rules
-    # One record per physical line, or a quoted field runs over several: other line numbers.
-    n_lines = text.count("\n") + text.count("\r") - text.count("\r\n")
-    if not text.endswith(("\n", "\r")):
-        n_lines += 1
+    del raw
     if len(df) + 1 != n_lines:
         return _read_csv_rows(path)
     stripped = [_stripped(df[j].to_numpy(dtype=object)) for j in range(k + 1)]
