@@ -40,6 +40,7 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Callable
+from dataclasses import dataclass
 
 import numpy as np
 import shapely
@@ -156,19 +157,11 @@ def build_sequences(build: Callable[..., Draft], line, profile, geology: Surface
     log = [f"sequences: {len(seqs)} separated by unconformities ("
            + "; ".join(", ".join(s.names) for s in seqs) + "), youngest first: each "
            "constructed from its own contacts and dips; the older cut at the unconformity"]
-
-    older_geo = _relabel(geology, older, set(), geology.faults)
-
-    def build_older(young_mask):
-        def said(message: str) -> None:
-            (warn or _default_warn)(f"older sequence: {message}")
-
-        return build(line, profile, older_geo, subset_dips(dips, ~young_mask), older_col,
-                     default_dip=default_dip, corridor_contacts=corridor_contacts,
-                     plunge_axis=plunge_axis, **{**options, "warn": said})
-
+    builds = _Builds(build, line, profile, dips, options, default_dip, corridor_contacts,
+                     plunge_axis, warn, _relabel(geology, older, set(), geology.faults),
+                     older_col)
     if not _has_units(geology, corridor_contacts, young):
-        od = build_older(in_young)
+        od = builds.older(in_young)
         log.append(f"the younger sequence ({', '.join(young_col.names)}) is not mapped along "
                    "the line nor beside it: not drafted, and the unconformity at its base not "
                    "located (eroded here)")
@@ -180,28 +173,74 @@ def build_sequences(build: Callable[..., Draft], line, profile, geology: Surface
     # The younger sequence, every older unit one unit below its base.
     big = 2.0 * layered.total_thickness + depth_used + float(np.nanmax(profile.z)
                                                              - np.nanmin(profile.z))
-    ycol = Column((*(dataclasses.replace(u, unconformity=False) for u in young_col.units),
-                   Unit(BELOW, big)))
+    builds.young_col = Column((*(dataclasses.replace(u, unconformity=False)
+                                 for u in young_col.units), Unit(BELOW, big)))
     y_faults = [f for f in geology.faults if _cuts_younger(f, geology, young)]
-    y_geo = _relabel(geology, young, older, y_faults)
-    y_cc = _corridor_for_younger(corridor_contacts, young, older)
+    builds.young_geo = _relabel(geology, young, older, y_faults)
+    builds.young_cc = _corridor_for_younger(corridor_contacts, young, older)
+    yd, in_young = _younger(builds, in_young, young_col, log)
+    od = builds.older(in_young)
+    cut = [f.name or "?" for f in geology.faults if f not in y_faults]
+    if cut:
+        log.append(f"fault(s) crossing the line in older rocks only, taken to end at the "
+                   f"unconformity: {', '.join(cut)}")
+    merged = _merge(yd, od, column, young_col, label, log, geology, dips)
+    merged.sequences = split_sequences(merged)
+    return merged
 
-    def build_younger(young_mask, said: list[str]):
-        y_dips = subset_dips(dips, young_mask)
-        y_default = default_dip
+
+@dataclass
+class _Builds:
+    """The constructions of the two sequences, each from its own map data and dips."""
+
+    build: Callable[..., Draft]
+    line: object
+    profile: object
+    dips: object
+    options: dict
+    default_dip: float | None
+    corridor_contacts: object
+    plunge_axis: object
+    warn: Warn | None
+    older_geo: SurfaceGeology
+    older_col: Column
+    young_geo: SurfaceGeology | None = None
+    young_col: Column | None = None  # the younger sequence over one unit BELOW
+    young_cc: object = None
+
+    def older(self, young_mask: np.ndarray) -> Draft:
+        def said(message: str) -> None:
+            (self.warn or _default_warn)(f"older sequence: {message}")
+
+        return self.build(self.line, self.profile, self.older_geo,
+                          subset_dips(self.dips, ~young_mask), self.older_col,
+                          default_dip=self.default_dip, corridor_contacts=self.corridor_contacts,
+                          plunge_axis=self.plunge_axis, **{**self.options, "warn": said})
+
+    def younger(self, young_mask: np.ndarray, said: list[str]) -> Draft:
+        y_dips = subset_dips(self.dips, young_mask)
+        y_default = self.default_dip
         if not np.isfinite(np.asarray(y_dips.apparent_dip, float)).any() and y_default is None:
             y_default = 0.0
             said.append("")  # marks: no dips of its own
-        return build(line, profile, y_geo, y_dips, ycol, default_dip=y_default,
-                     corridor_contacts=y_cc, plunge_axis=None,
-                     **{**options, "warn": said.append})
+        return self.build(self.line, self.profile, self.young_geo, y_dips, self.young_col,
+                          default_dip=y_default, corridor_contacts=self.young_cc,
+                          plunge_axis=None, **{**self.options, "warn": said.append})
 
-    # A reading belongs to the sequence whose rocks it was taken in: first the unit at the
-    # ground where it projects onto the line, then its elevation against the unconformity
-    # as constructed (above it: younger), the younger sequence rebuilt if that changed.
+
+def _younger(builds: _Builds, in_young: np.ndarray, young_col: Column, log: list[str]
+             ) -> tuple[Draft, np.ndarray]:
+    """The younger sequence's draft and which readings are its own.
+
+    A reading belongs to the sequence whose rocks it was taken in: first the unit at the
+    ground where it projects onto the line, then its elevation against the unconformity
+    as constructed (above it: younger), the younger sequence rebuilt if that changed.
+    """
+    dips = builds.dips
     said: list[str] = []
-    yd = build_younger(in_young, said)
-    path = _surface_path([h for h in yd.horizons if h.top_of == BELOW], float(line.length))
+    yd = builds.younger(in_young, said)
+    path = _surface_path([h for h in yd.horizons if h.top_of == BELOW],
+                         float(builds.line.length))
     if path is not None:
         z = np.asarray(dips.elevation_m, float)
         u = np.interp(np.asarray(dips.distance_m, float), path[:, 0], path[:, 1])
@@ -212,7 +251,7 @@ def build_sequences(build: Callable[..., Draft], line, profile, geology: Surface
                        "in (above or below the unconformity as constructed), not the unit at "
                        "the ground where they project onto the line")
             said = []
-            yd = build_younger(by_height, said)
+            yd = builds.younger(by_height, said)
         in_young = by_height
     if "" in said:
         log.append(f"younger sequence ({', '.join(young_col.names)}): no dips of its own "
@@ -220,16 +259,9 @@ def build_sequences(build: Callable[..., Draft], line, profile, geology: Surface
                    "sequence without dips; set default_dip to change)")
     for message in said:  # the younger sequence's warnings, once, from the build kept
         if message:
-            (warn or _default_warn)(f"younger sequence ({', '.join(young_col.names)}): "
-                                    f"{message}")
-    od = build_older(in_young)
-    cut = [f.name or "?" for f in geology.faults if f not in y_faults]
-    if cut:
-        log.append(f"fault(s) crossing the line in older rocks only, taken to end at the "
-                   f"unconformity: {', '.join(cut)}")
-    merged = _merge(yd, od, column, young_col, label, log, geology, dips)
-    merged.sequences = split_sequences(merged)
-    return merged
+            (builds.warn or _default_warn)(f"younger sequence ({', '.join(young_col.names)}): "
+                                           f"{message}")
+    return yd, in_young
 
 
 def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
@@ -247,32 +279,13 @@ def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
             else Polygon())
     keep_all = below.union(lens)
 
-    horizons = [h for h in yd.horizons if h.top_of in young_col.names]
-    eroded = list(od.eroded_horizons)
-    for h in od.horizons:
-        region = lens if h.above_ground else below
-        for part in line_parts(h.geometry.intersection(region)):
-            horizons.append(dataclasses.replace(h, geometry=part))
-        for part in line_parts(h.geometry.difference(region)):
-            eroded.append(dataclasses.replace(h, geometry=part, above_ground=True))
+    horizons, eroded = _cut_horizons(yd, od, young_col, below, lens)
     units = [u for u in yd.units if u.unit in young_col.names]
     for u in od.units:
         poly = poly_parts(u.geometry.intersection(below))
         if poly is not None:
             units.append(dataclasses.replace(u, geometry=poly))
-    # the same fault in both builds: its trace leaves the ground at the same distance
-    y_tops = [float(np.asarray(f.geometry.coords)[0, 0]) for f in yd.faults]
-    faults = []
-    for f in od.faults:
-        x0 = float(np.asarray(f.geometry.coords)[0, 0])
-        same = [g for g, x in zip(yd.faults, y_tops, strict=True) if abs(x0 - x) <= 1.0]
-        if same:  # it cuts both sequences: the separations of both
-            seps = {k: v for k, v in same[0].separations.items() if BELOW not in k}
-            faults.append(dataclasses.replace(f, separations={**seps, **f.separations}))
-            continue
-        parts = line_parts(f.geometry.intersection(below))
-        if parts:
-            faults.append(dataclasses.replace(f, geometry=max(parts, key=lambda p: p.length)))
+    faults = _merge_faults(yd, od, below)
     axial = []
     for a in od.axial_surfaces:
         axial += [dataclasses.replace(a, geometry=p)
@@ -297,6 +310,41 @@ def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
                  ve=od.ve, base_elevation_m=min(od.base_elevation_m, yd.base_elevation_m),
                  log=full_log, outliers=[*yd.outliers, *od.outliers],
                  unconformities=unconformities, eroded_horizons=eroded)
+
+
+def _cut_horizons(yd: Draft, od: Draft, young_col: Column, below, lens
+                  ) -> tuple[list, list]:
+    """The younger sequence's horizons and the older one's kept below the unconformity
+    (above the ground: within the lens between it and the ground); the older beds above it
+    are the eroded horizons."""
+    horizons = [h for h in yd.horizons if h.top_of in young_col.names]
+    eroded = list(od.eroded_horizons)
+    for h in od.horizons:
+        region = lens if h.above_ground else below
+        for part in line_parts(h.geometry.intersection(region)):
+            horizons.append(dataclasses.replace(h, geometry=part))
+        for part in line_parts(h.geometry.difference(region)):
+            eroded.append(dataclasses.replace(h, geometry=part, above_ground=True))
+    return horizons, eroded
+
+
+def _merge_faults(yd: Draft, od: Draft, below) -> list:
+    """The older build's faults: one that the younger build has too (its trace leaves the
+    ground at the same distance) cuts both sequences and keeps the separations of both;
+    any other ends at the unconformity."""
+    y_tops = [float(np.asarray(f.geometry.coords)[0, 0]) for f in yd.faults]
+    faults = []
+    for f in od.faults:
+        x0 = float(np.asarray(f.geometry.coords)[0, 0])
+        same = [g for g, x in zip(yd.faults, y_tops, strict=True) if abs(x0 - x) <= 1.0]
+        if same:  # it cuts both sequences: the separations of both
+            seps = {k: v for k, v in same[0].separations.items() if BELOW not in k}
+            faults.append(dataclasses.replace(f, separations={**seps, **f.separations}))
+            continue
+        parts = line_parts(f.geometry.intersection(below))
+        if parts:
+            faults.append(dataclasses.replace(f, geometry=max(parts, key=lambda p: p.length)))
+    return faults
 
 
 def _surface_path(pieces, length: float) -> np.ndarray | None:
