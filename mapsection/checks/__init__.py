@@ -102,15 +102,7 @@ def run_checks(
     whole, draft = draft, layered_draft(draft)  # cover and intrusive units: not restored
     if topo.status == "fail":  # name the likely fix, ranked (issue 12)
         topo.diagnosis = diagnose(draft, attitude_xy=attitude_xy, corridor_m=corridor_m)
-    per_sequence: list[dict] = []
-    if draft.sequences:  # unconformities: each sequence restored to its own datum
-        from .sequences import check_sequences
-
-        restoration, area, kin, per_sequence = check_sequences(draft, thresholds, pin, loose)
-    else:
-        restoration = _restoration(draft, thresholds, pin, loose)
-        area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
-        kin = check_kinematics(draft, restoration)
+    restoration, area, kin, per_sequence = _balance(draft, thresholds, pin, loose)
     notes = unlayered_notes(whole) + _notes(draft)
     if per_sequence:
         notes.append("unconformities: restoration and area balance measured per sequence, "
@@ -123,6 +115,18 @@ def run_checks(
         if failed:
             warn(f"section {draft.name}: failed {', '.join(failed)}")
     return report
+
+
+def _balance(draft: Draft, thresholds: Thresholds, pin: float | None, loose: float | None):
+    """The restoration, the area balance and the kinematics, and the per-sequence results
+    (empty without unconformities; with them each sequence is restored to its own datum)."""
+    if draft.sequences:
+        from .sequences import check_sequences
+
+        return check_sequences(draft, thresholds, pin, loose)
+    restoration = _restoration(draft, thresholds, pin, loose)
+    area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
+    return restoration, area, check_kinematics(draft, restoration), []
 
 
 def _restoration(draft: Draft, thresholds: Thresholds, pin: float | None,
