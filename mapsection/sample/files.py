@@ -10,7 +10,8 @@ from pathlib import Path
 import numpy as np
 import shapely
 
-from . import model as m  # the grid and the sections
+import mapsection.sample.model as m  # the grid, CRS and sections (not "from . import": a circle)
+
 from .generator import fault_trace, make_attitudes, make_dem, map_units
 from .model import SAMPLE_MODEL, SampleModel
 
