@@ -150,15 +150,18 @@ def remove_stale(folder: str | os.PathLike, name: str | None = None) -> list[Pat
 _HELD: dict[tuple[int, int], int] = {}  # (st_dev, st_ino) of the folders this process locked
 
 
-
 @contextlib.contextmanager
 def _holding(key) -> Iterator[None]:
-    """This process holds the lock of ``key`` (a folder's device and inode) meanwhile."""
-    _HELD[key] = 1
+    """This process holds the lock of ``key`` (a folder's device and inode) meanwhile;
+    counted, so that the same folder can be held again inside (reentrant)."""
+    _HELD[key] = _HELD.get(key, 0) + 1
     try:
         yield
     finally:
-        del _HELD[key]
+        _HELD[key] -= 1
+        if not _HELD[key]:
+            del _HELD[key]
+
 
 @contextlib.contextmanager
 def folder_lock(folder: str | os.PathLike, waiting: Callable[[str], None] | None = None,
@@ -169,6 +172,17 @@ def folder_lock(folder: str | os.PathLike, waiting: Callable[[str], None] | None
     ``waiting`` is told once when that happens. The lock goes with the process,
     so a killed process never leaves it held; no lock file is written. Reentrant
     within a process. ``create``: make the folder (again) if it is not there.
+
+    Parameters
+    ----------
+    folder : the folder to lock.
+    waiting : told (once) when another process holds the folder and this one waits.
+    create : make the folder first when it is not there.
+
+    Examples
+    --------
+    >>> # with folder_lock("out", waiting=print, create=True):
+    >>> #     ...  # no other mapsection run writes into out/ meanwhile
     """
     folder = Path(folder)
     if fcntl is None:  # pragma: no cover - no POSIX locks
@@ -176,52 +190,67 @@ def folder_lock(folder: str | os.PathLike, waiting: Callable[[str], None] | None
         return
     told = False
     while True:
-        if create:
-            try:
-                folder.mkdir(parents=True, exist_ok=True)
-            except OSError as exc:
-                raise OutputError(f"{folder}: cannot create the output folder "
-                                  f"({exc.strerror})") from None
-        try:
-            fd = os.open(folder, os.O_RDONLY | getattr(os, "O_DIRECTORY", 0))
-        except OSError as exc:
-            raise OutputError(f"{folder}: cannot open the output folder ({exc.strerror})") \
-                from None
+        fd = _open_folder(folder, create)
         st = os.fstat(fd)
         key = (st.st_dev, st.st_ino)
-        if key in _HELD:
+        if key in _HELD:  # this process holds it already
             os.close(fd)
-            _HELD[key] += 1
-            try:
+            with _holding(key):
                 yield
-            finally:
-                _HELD[key] -= 1
-                if not _HELD[key]:
-                    del _HELD[key]
             return
         try:
-            try:
-                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-            except BlockingIOError:
-                if waiting is not None and not told:
-                    waiting(f"{folder}: another mapsection run is writing here; waiting for it")
-                    told = True
-                fcntl.flock(fd, fcntl.LOCK_EX)
-            except OSError:  # a file system without locks (some network shares): go unlocked
-                with _holding(key):
-                    yield
-                return
-            try:
-                same = os.stat(folder)
-            except OSError:
-                same = None
-            if same is None or (same.st_dev, same.st_ino) != key:
+            locked, waited = _flock(fd, folder, None if told else waiting)
+            told = told or waited
+            if locked and not _same_folder(folder, key):
                 continue  # the folder was removed (and maybe made again) meanwhile: lock anew
             with _holding(key):
                 yield
             return
         finally:
             os.close(fd)  # closing the descriptor releases the lock
+
+
+def _open_folder(folder: Path, create: bool) -> int:
+    """A descriptor of ``folder`` (made first when ``create``); OutputError if impossible."""
+    if create:
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise OutputError(f"{folder}: cannot create the output folder "
+                              f"({exc.strerror})") from None
+    try:
+        return os.open(folder, os.O_RDONLY | getattr(os, "O_DIRECTORY", 0))
+    except OSError as exc:
+        raise OutputError(f"{folder}: cannot open the output folder ({exc.strerror})") \
+            from None
+
+
+def _flock(fd: int, folder: Path, waiting: Callable[[str], None] | None
+           ) -> tuple[bool, bool]:
+    """Lock ``fd`` exclusively, waiting while another process holds it (``waiting`` is told).
+
+    Returns (locked, told): not locked on a file system without locks (some network
+    shares), where the run goes on unlocked.
+    """
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except BlockingIOError:
+        if waiting is not None:
+            waiting(f"{folder}: another mapsection run is writing here; waiting for it")
+        fcntl.flock(fd, fcntl.LOCK_EX)
+        return True, waiting is not None
+    except OSError:
+        return False, False
+    return True, False
+
+
+def _same_folder(folder: Path, key: tuple[int, int]) -> bool:
+    """Whether ``folder`` is still the folder of device and inode ``key``."""
+    try:
+        st = os.stat(folder)
+    except OSError:
+        return False
+    return (st.st_dev, st.st_ino) == key
 
 
 # --- write errors ----------------------------------------------------------------------------

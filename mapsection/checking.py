@@ -10,6 +10,15 @@ way::
     draft, report = check_section(project, project.section("A"))
     print("\n".join(summary_lines(report)))
 
+or, as ``mapsection check`` does, for every section of a project with its files::
+
+    from mapsection.checking import plan_checks
+
+    run = plan_checks("sample_area/project.toml", section="A", html_path="A.html")
+    for report in run.reports():
+        print("\n".join(summary_lines(report)))
+    run.failed  # any test failed
+
 The figures of the table come from :func:`mapsection.checks.key_figures`; the files
 (``--json``, ``--html``) are written by :mod:`mapsection.render.section_folder`, the
 writer ``mapsection build`` uses.
@@ -17,7 +26,8 @@ writer ``mapsection build`` uses.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -25,10 +35,13 @@ from ._messages import default_warn as _default_warn
 from .checks.summary import result_line, status_word, summary_lines, verdict_line
 from .errors import CheckError
 
-__all__ = ["check_section", "edited_draft", "gpkg_layers_and_section", "infer_section",
-           "result_line", "status_word", "summary_lines", "verdict_line"]
+__all__ = ["CheckRun", "check_section", "edited_draft", "gpkg_layers_and_section",
+           "infer_section", "plan_checks", "result_line", "status_word", "summary_lines",
+           "verdict_line"]
 
 if TYPE_CHECKING:
+    from .checks import CheckReport
+    from .project import Project, SectionSpec
     from .session import ProjectInputs
 
 
@@ -129,7 +142,7 @@ def edited_draft(project, spec, path: Path, warn_fn: Callable[[str], None] = _de
     from .thickness import resolve_map_thicknesses
 
     own = inputs is None
-    inputs = load_inputs(project, warn_fn) if own else inputs
+    inputs = load_inputs(project, warn_fn, [spec]) if own else inputs
     try:
         project = resolve_map_thicknesses(project, inputs, warn_fn)  # thickness = "map"
         data = SectionSession.from_inputs(inputs, project, spec, warn=warn_fn).run()
@@ -166,3 +179,109 @@ def check_section(project, spec, from_path: Path | None = None,
     with reporting(None, spec.name), _stage(None, "checks"):  # told to a progress display
         return draft, run_checks(draft, project.thresholds, pin=spec.pin, loose=spec.loose,
                                  attitude_xy=xy, corridor_m=spec.corridor)
+
+
+@dataclass
+class CheckRun:
+    """The sections one ``mapsection check`` tests, checked before any is built, and the
+    files it writes (``json_path``, ``html_path``: one section only)."""
+
+    project: Project
+    specs: list[SectionSpec]
+    from_path: Path | None = None
+    json_path: Path | None = None
+    html_path: Path | None = None
+    statuses: list[str] = field(default_factory=list)  # every test's, as the reports came
+
+    @property
+    def failed(self) -> bool:
+        """Whether any test of the reports so far failed."""
+        return "fail" in self.statuses
+
+    def reports(self, warn_fn: Callable[[str], None] = _default_warn
+                ) -> Iterator[CheckReport]:
+        """Check each section in turn: its report as soon as it is done, then its
+        checks.json and report.html when asked (written as the iteration goes on)."""
+        from .build import sheet_options, title_info
+        from .render.section_folder import write_check_report, write_checks_json
+        from .session import load_inputs
+
+        # Read once for every section: the report's section figure has its location inset on
+        # the map, and a failed topography test's diagnosis looks at the attitudes nearby.
+        inputs = load_inputs(self.project, warn_fn, self.specs)  # the sections' neighbourhood
+        try:
+            for spec in self.specs:
+                draft, report = check_section(self.project, spec, self.from_path, warn_fn,
+                                              inputs=inputs)
+                self.statuses += report.statuses.values()
+                yield report  # said before its files are written, as the command has it
+                if self.json_path is not None:
+                    write_checks_json(report, self.json_path)
+                if self.html_path is not None:
+                    # The same sheet and title block as a build's figure of the section.
+                    write_check_report(self.html_path, draft, report, inputs.map_data,
+                                       sheet=sheet_options(spec, draft),
+                                       info=title_info(self.project, inputs.dem.crs))
+        finally:
+            inputs.close()
+
+
+def plan_checks(project_file: str | Path, section: str | None = None,
+                from_path: Path | None = None, json_path: str | None = None,
+                html_path: str | None = None,
+                warn_fn: Callable[[str], None] = _default_warn) -> CheckRun:
+    """What ``mapsection check`` will test and write, every argument checked first.
+
+    Parameters
+    ----------
+    project_file : the project file.
+    section : the one section to check; default: every section (with ``from_path``: the
+        section the file belongs to, see :func:`infer_section`).
+    from_path : a section.gpkg whose horizons and faults are checked instead of a build.
+    json_path, html_path : checks.json and report.html to write (one section only); neither
+        may replace an input or the other.
+    warn_fn : where notes on the project file are said.
+
+    Returns
+    -------
+    CheckRun
+        Its :meth:`CheckRun.reports` runs the checks.
+
+    Raises
+    ------
+    CheckError
+        For --json/--html with several sections; OutputError for an output that would
+        replace an input; the project's own errors for a bad project file.
+
+    Examples
+    --------
+    >>> # run = plan_checks("sample_area/project.toml", section="A")
+    >>> # [r.status for r in run.reports()], run.failed  -> (['pass'], False)
+    """
+    from .project import load_project
+
+    project = load_project(project_file, warn_fn)
+    if section is not None:
+        specs = [project.section(section)]
+    elif from_path is not None:
+        specs = [infer_section(project, from_path)]
+    else:
+        specs = list(project.sections)
+    if (json_path or html_path) and len(specs) > 1:
+        raise CheckError("--json/--html: write one section at a time; add --section NAME")
+    json_out, html_out = _output_paths(project, from_path, json_path, html_path)
+    return CheckRun(project, specs, from_path, json_out, html_out)
+
+
+def _output_paths(project, from_path: Path | None, json_path: str | None,
+                  html_path: str | None) -> tuple[Path | None, Path | None]:
+    """--json and --html as paths, once sure that neither replaces an input or the other."""
+    from .outputs import check_distinct, check_output, project_inputs
+
+    sources = [*project_inputs(project), ("--from file", from_path)]
+    for option, path in (("--json", json_path), ("--html", html_path)):
+        if path is not None:
+            check_output(path, sources, option=option, file=True)
+    check_distinct([("--json", json_path), ("--html", html_path)])
+    return (None if json_path is None else Path(json_path),
+            None if html_path is None else Path(html_path))

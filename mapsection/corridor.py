@@ -65,7 +65,9 @@ def boundary_lines(map_data: MapData, band, fault_margin: float = 1.0
     (line geometry, unit, unit); parts within ``fault_margin`` metres of a mapped fault
     left out. A boundary that
     crosses ``band`` more than once gives one part per crossing."""
-    cand = map_data.unit_tree.query(band)
+    # In the map's order, not the index's: the result does not depend on how many other
+    # polygons the index holds (a map read whole or through a window).
+    cand = np.sort(map_data.unit_tree.query(band))
     names = map_data.unit_names[cand]
     ok = np.array([n is not None for n in names], bool)
     cand, names = cand[ok], names[ok]

@@ -49,6 +49,12 @@ class MapData:
     unit_geoms: np.ndarray = field(init=False, repr=False)
     unit_names: np.ndarray = field(init=False, repr=False)
     unit_tree: STRtree = field(init=False, repr=False)
+    # Read through a bounding box (xmin, ymin, xmax, ymax; mapsection.extent): only the
+    # features meeting it are here; ``left_out`` counts the unit polygons outside it and
+    # ``extent`` is the whole layer's (None: the whole layer was read).
+    window: tuple[float, float, float, float] | None = None
+    left_out: int = 0
+    extent: tuple[float, float, float, float] | None = None
     fault_geoms: np.ndarray = field(init=False, repr=False)
     fault_tree: STRtree | None = field(init=False, repr=False)
 
@@ -75,6 +81,18 @@ class MapData:
             object.__setattr__(self, "fault_tree", None)
         if self.crs is None and self.units.crs is not None:
             object.__setattr__(self, "crs", pyproj.CRS(self.units.crs))
+
+    @property
+    def partial(self) -> bool:
+        """Whether the map was read through a window that left polygons out."""
+        return self.window is not None and self.left_out > 0
+
+    def layer_bounds(self) -> np.ndarray:
+        """The extent of the whole units layer (xmin, ymin, xmax, ymax), also when only a
+        window of it was read."""
+        if self.extent is not None:
+            return np.asarray(self.extent, float)
+        return shapely.total_bounds(self.unit_geoms)
 
     @property
     def unit_list(self) -> list[str]:

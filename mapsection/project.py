@@ -29,10 +29,9 @@ from .settings import (
     FaultSpec,
     SectionSettings,
     Thresholds,
-    check_choice,
-    check_number,
 )
 from .stratigraphy import COVER_THICKNESS, INTRUSIVE_DEPTH, Column, Unit
+from .toml_table import TableReader, array_of_tables, check_known
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from .line import SectionLine
@@ -114,107 +113,72 @@ class Project:
         return SectionLine(spec.line, self.crs, spec.name)
 
 
-class _Reader:
-    """Typed access to a TOML table that names the key path in every error."""
-
-    def __init__(self, fname: str, table: dict[str, Any], prefix: str = ""):
-        self.fname, self.table, self.prefix = fname, table, prefix
-
-    def _key(self, key: str) -> str:
-        return f"{self.prefix}{key}"
-
-    def fail(self, key: str, msg: str) -> ProjectFileError:
-        return ProjectFileError(f"{self.fname}: {self._key(key)}: {msg}")
-
-    def sub(self, key: str, required: bool = True) -> _Reader | None:
-        if key not in self.table:
-            if required:
-                raise self.fail(key, "missing table")
-            return None
-        val = self.table[key]
-        if not isinstance(val, dict):
-            raise self.fail(key, "must be a table")
-        return _Reader(self.fname, val, f"{self._key(key)}.")
-
-    def get(self, key: str, kind: type | tuple, default: Any = ...):
-        """The value of ``key`` checked for its type (a missing key: ``default``, or an error)."""
-        if key not in self.table:
-            if default is ...:
-                raise self.fail(key, "missing key")
-            return default
-        val = self.table[key]
-        if kind is float and isinstance(val, int) and not isinstance(val, bool):
-            val = float(val)
-        if not isinstance(val, kind) or isinstance(val, bool) and kind is not bool:
-            name = getattr(kind, "__name__", "value")
-            raise self.fail(key, f"must be a {'number' if kind is float else name}, got {val!r}")
-        return val
-
-    def number(self, key: str, default: Any = ...) -> float:
-        """A number checked against its documented range (settings.RANGES[key])."""
-        val = self.get(key, float, default)
-        try:
-            return val if val is None else check_number(key, val)
-        except SettingError as exc:
-            raise self.fail(exc.key, exc.reason) from None
-
-    def text(self, key: str) -> str:
-        """A required name: a string that is not blank."""
-        val = self.get(key, str)
-        if not val.strip():
-            raise self.fail(key, "must not be empty")
-        return val
-
-    def choice(self, key: str, default: str) -> str:
-        """A named choice (settings.CHOICES[key]), the error naming the choices."""
-        try:
-            return check_choice(key, self.get(key, str, default))
-        except SettingError as exc:
-            raise self.fail(exc.key, exc.reason) from None
-
-    def path(self, key: str, base: Path) -> Path:
-        val = self.get(key, str)
-        p = Path(os.path.expanduser(val))
-        return p if p.is_absolute() else (base / p)
-
-
-def _unknown(reader: _Reader, allowed: frozenset[str]) -> None:
-    extra = sorted(set(reader.table) - allowed)
-    if extra:
-        raise reader.fail(extra[0], f"unknown key (known keys: {', '.join(sorted(allowed))})")
-
-
-def _array_of_tables(fname: str, raw: dict[str, Any], key: str, what: str,
-                     allowed: frozenset[str]) -> list[_Reader]:
-    """Readers over a ``[[key]]`` array of tables; at least one table is required."""
-    entries = raw.get(key)
-    if entries is None or isinstance(entries, list) and not entries:
-        raise ProjectFileError(f"{fname}: {key}: missing [[{key}]] {what}")
-    if not isinstance(entries, list):
-        raise ProjectFileError(f"{fname}: {key}: must be a [[{key}]] {what}")
-    readers = []
-    for i, entry in enumerate(entries):
-        if not isinstance(entry, dict):
-            raise ProjectFileError(f"{fname}: {key}[{i}]: must be a table")
-        r = _Reader(fname, entry, f"{key}[{i}].")
-        _unknown(r, allowed)
-        readers.append(r)
-    return readers
-
-
 def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
     """Read and validate a project file.
 
     Every setting is checked against its documented range
     (:mod:`mapsection.settings`); a value in range but unusually large is said
     through ``warn``. A UTF-8 byte-order mark at the start of the file is accepted.
+    The tables are read in turn: the CRS, ``[dem]``, ``[map]``, ``[attitudes]``,
+    ``[[stratigraphy]]``, ``[[section]]``, ``[[fault]]``, ``[checks]``; the first
+    problem found stops the reading with its key path.
+
+    Parameters
+    ----------
+    path : the project file (TOML).
+    warn : where notes on unusual settings are said (default: stderr).
+
+    Returns
+    -------
+    Project
+        Its paths resolved against the project file's folder.
+
+    Raises
+    ------
+    ProjectFileError
+        For a file that cannot be read or is not TOML, and for a missing, unknown or
+        wrong key, naming the file and the key path.
+
+    Examples
+    --------
+    >>> # project = load_project("sample_area/project.toml")
+    >>> # project.crs.to_epsg(), [s.name for s in project.sections]  -> (32611, ['A', 'B'])
     """
     warn = warn or _default_warn
     path = Path(path)
     fname = path.name
+    raw = _read_toml(path)
+    base = path.resolve().parent
+    top = TableReader(fname, raw)
+    check_known(top, TOP_KEYS)
+    crs = _crs(top)
+    # Every input table is there and holds only known keys before any value is read.
+    tables = {key: _table(top, key, keys) for key, keys in
+              (("dem", DEM_KEYS), ("map", MAP_KEYS), ("attitudes", ATTITUDE_KEYS))}
+    inputs = {**_dem(tables["dem"], base), **_map(tables["map"], base),
+              **_attitudes(tables["attitudes"], base)}
+    column = _column(fname, raw)
+    sections = _sections(fname, raw, warn)
+    faults = _faults(fname, raw, column)
+    return Project(
+        path=path,
+        crs=crs,
+        column=column,
+        sections=sections,
+        thresholds=_thresholds(top.sub("checks", required=False)),
+        faults=faults,
+        title=top.get("title", str, ""),
+        sources={k: r.get("source", str) for k, r in tables.items() if "source" in r.table},
+        **inputs,
+    )
+
+
+def _read_toml(path: Path) -> dict[str, Any]:
+    """The project file's TOML; ProjectFileError for a file that cannot be read or parsed."""
+    fname = path.name
     try:
         # utf-8-sig: a byte-order mark, as some editors write, is accepted and dropped.
-        raw = tomllib.loads(path.read_text(encoding="utf-8-sig"))
+        return tomllib.loads(path.read_text(encoding="utf-8-sig"))
     except FileNotFoundError:
         raise ProjectFileError(f"{path}: no such project file") from None
     except IsADirectoryError:
@@ -226,10 +190,10 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
                                "save it as UTF-8") from None
     except tomllib.TOMLDecodeError as exc:
         raise ProjectFileError(f"{fname}: not valid TOML ({exc})") from None
-    base = path.resolve().parent
-    top = _Reader(fname, raw)
-    _unknown(top, TOP_KEYS)
 
+
+def _crs(top: TableReader) -> pyproj.CRS:
+    """``crs``: a projected CRS in metres."""
     crs_text = top.get("crs", str)
     try:
         crs = pyproj.CRS(crs_text)
@@ -238,55 +202,88 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
     axis_units = {a.unit_name.lower() for a in crs.axis_info[:2]}
     if not crs.is_projected or not axis_units <= {"metre", "meter"}:
         raise top.fail("crs", f"{crs_text} is not a projected CRS in metres")
+    return crs
 
-    dem = top.sub("dem")
-    _unknown(dem, DEM_KEYS)
-    mp = top.sub("map")
-    _unknown(mp, MAP_KEYS)
-    att = top.sub("attitudes")
-    _unknown(att, ATTITUDE_KEYS)
 
-    fault_fields = {k: mp.get(f"fault_{k}_field", str, k) for k in FAULT_ROLES}
-    attitude_fields = {k: att.get(f"{k}_field", str, k) for k in ATTITUDE_ROLES}
+def _table(top: TableReader, key: str, allowed: frozenset[str]) -> TableReader:
+    """A required table holding only the ``allowed`` keys."""
+    table = top.sub(key)
+    check_known(table, allowed)
+    return table
 
-    units = []
-    for r in _array_of_tables(fname, raw, "stratigraphy", "list of units", UNIT_KEYS):
-        colour = r.get("colour", str, None) or r.get("color", str, None)
-        if colour is not None and not _is_hex_colour(colour):
-            raise r.fail("colour", f"must be '#rrggbb', got {colour!r}")
-        # "map": measured from the map's contacts when the inputs are loaded (thickness.py)
-        from_map = r.table.get("thickness") == "map"
-        if isinstance(r.table.get("thickness"), str) and not from_map:
-            raise r.fail("thickness", f'must be a number of metres or "map", '
-                                      f'got {r.table["thickness"]!r}')
-        kind = r.choice("kind", "layered")
-        # a cover unit's thickness is optional: a thin veneer by default
-        default = COVER_THICKNESS if kind == "cover" else (
-            math.nan if kind == "intrusive" else ...)
-        # an intrusive unit is no layer: no thickness unless one is given (then unused)
-        no_number = from_map or (kind == "intrusive" and "thickness" not in r.table)
-        thickness = math.nan if no_number else r.number("thickness", default)
-        units.append(
-            Unit(
-                r.text("unit"),
-                thickness,
-                colour,
-                r.get("age", str, None),
-                r.get("lithology", str, None),
-                thickness_from_map=from_map,
-                label=r.get("label", str, None),
-                kind=kind,
-                unconformity=r.get("unconformity", bool, False),
-                depth=r.number("depth", INTRUSIVE_DEPTH),
-            )
-        )
+
+def _dem(dem: TableReader, base: Path) -> dict[str, Any]:
+    """``[dem]``: the DEM's path and the vertical unit to use when the DEM does not say."""
+    return {"dem_path": dem.path("path", base),
+            "dem_vertical_unit": (dem.choice("vertical_unit", "metre")
+                                  if "vertical_unit" in dem.table else None)}
+
+
+def _map(mp: TableReader, base: Path) -> dict[str, Any]:
+    """``[map]``: the map's path, layers, fields and the faults' default dip."""
+    return {"map_path": mp.path("path", base),
+            "units_layer": mp.get("units_layer", str),
+            "unit_field": mp.get("unit_field", str),
+            "faults_layer": mp.get("faults_layer", str, None),
+            "fault_fields": {k: mp.get(f"fault_{k}_field", str, k) for k in FAULT_ROLES},
+            "default_fault_dip": mp.number("default_fault_dip", None)}
+
+
+def _attitudes(att: TableReader, base: Path) -> dict[str, Any]:
+    """``[attitudes]``: the file's path, layer, convention, fields and readings kept."""
+    return {"attitudes_path": att.path("path", base),
+            "attitudes_layer": att.get("layer", str, None),
+            "convention": att.choice("convention", CONVENTIONS[0]),
+            "attitude_fields": {k: att.get(f"{k}_field", str, k) for k in ATTITUDE_ROLES},
+            "keep_readings": _keep_readings(att)}
+
+
+def _column(fname: str, raw: dict[str, Any]) -> Column:
+    """``[[stratigraphy]]``: the column, youngest unit first, its unconformities checked."""
+    units = [_unit(r) for r in array_of_tables(fname, raw, "stratigraphy", "list of units",
+                                                UNIT_KEYS)]
     try:
         column = Column(tuple(units))
         column.check_unconformities()
     except StratigraphyError as exc:
         raise ProjectFileError(f"{fname}: {exc}") from None
+    return column
 
-    sections = [_section(r, warn) for r in _array_of_tables(fname, raw, "section",
+
+def _unit(r: TableReader) -> Unit:
+    """One ``[[stratigraphy]]`` unit."""
+    colour = r.get("colour", str, None) or r.get("color", str, None)
+    if colour is not None and not _is_hex_colour(colour):
+        raise r.fail("colour", f"must be '#rrggbb', got {colour!r}")
+    # "map": measured from the map's contacts when the inputs are loaded (thickness.py)
+    from_map = r.table.get("thickness") == "map"
+    if isinstance(r.table.get("thickness"), str) and not from_map:
+        raise r.fail("thickness", f'must be a number of metres or "map", '
+                                  f'got {r.table["thickness"]!r}')
+    kind = r.choice("kind", "layered")
+    # a cover unit's thickness is optional: a thin veneer by default
+    default = COVER_THICKNESS if kind == "cover" else (
+        math.nan if kind == "intrusive" else ...)
+    # an intrusive unit is no layer: no thickness unless one is given (then unused)
+    no_number = from_map or (kind == "intrusive" and "thickness" not in r.table)
+    thickness = math.nan if no_number else r.number("thickness", default)
+    return Unit(
+        r.text("unit"),
+        thickness,
+        colour,
+        r.get("age", str, None),
+        r.get("lithology", str, None),
+        thickness_from_map=from_map,
+        label=r.get("label", str, None),
+        kind=kind,
+        unconformity=r.get("unconformity", bool, False),
+        depth=r.number("depth", INTRUSIVE_DEPTH),
+    )
+
+
+def _sections(fname: str, raw: dict[str, Any], warn: Warn) -> tuple[SectionSpec, ...]:
+    """``[[section]]``: the sections, each with a name (and folder) of its own."""
+    sections = [_section(r, warn) for r in array_of_tables(fname, raw, "section",
                                                       "list of section lines", SECTION_KEYS)]
     names = [s.name for s in sections]
     dup = sorted({n for n in names if names.count(n) > 1})
@@ -295,49 +292,22 @@ def load_project(path: str | os.PathLike, warn: Warn | None = None) -> Project:
     from .outputs import check_section_names
 
     check_section_names(fname, names)  # each section needs a folder of its own
-
-    faults = _faults(fname, raw, column)
-    default_fault_dip = mp.number("default_fault_dip", None)
-
-    checks = top.sub("checks", required=False)
-    thresholds = Thresholds()
-    if checks is not None:
-        _unknown(checks, CHECK_KEYS)
-        vals = {k: checks.get(k, float, dflt) for k, dflt in Thresholds().__dict__.items()}
-        try:  # the ranges are checked once, by Thresholds itself
-            thresholds = Thresholds(**vals)
-        except ThresholdError as exc:
-            raise checks.fail(exc.key, exc.reason) from None
-
-    return Project(
-        path=path,
-        crs=crs,
-        dem_path=dem.path("path", base),
-        map_path=mp.path("path", base),
-        units_layer=mp.get("units_layer", str),
-        unit_field=mp.get("unit_field", str),
-        faults_layer=mp.get("faults_layer", str, None),
-        attitudes_path=att.path("path", base),
-        attitudes_layer=att.get("layer", str, None),
-        convention=att.choice("convention", CONVENTIONS[0]),
-        column=column,
-        sections=tuple(sections),
-        thresholds=thresholds,
-        fault_fields=fault_fields,
-        attitude_fields=attitude_fields,
-        dem_vertical_unit=(dem.choice("vertical_unit", "metre")
-                           if "vertical_unit" in dem.table else None),
-        keep_readings=_keep_readings(att),
-        faults=faults,
-        default_fault_dip=default_fault_dip,
-        title=top.get("title", str, ""),
-        sources={k: r.get("source", str) for k, r in (("dem", dem), ("map", mp),
-                                                     ("attitudes", att))
-                 if "source" in r.table},
-    )
+    return tuple(sections)
 
 
-def _keep_readings(att: _Reader) -> tuple[str, ...]:
+def _thresholds(checks: TableReader | None) -> Thresholds:
+    """The optional ``[checks]`` table: the tests' thresholds."""
+    if checks is None:
+        return Thresholds()
+    check_known(checks, CHECK_KEYS)
+    vals = {k: checks.get(k, float, dflt) for k, dflt in Thresholds().__dict__.items()}
+    try:  # the ranges are checked once, by Thresholds itself
+        return Thresholds(**vals)
+    except ThresholdError as exc:
+        raise checks.fail(exc.key, exc.reason) from None
+
+
+def _keep_readings(att: TableReader) -> tuple[str, ...]:
     """``[attitudes] keep_readings``: ids (strings or integers) of readings kept in the dip
     domains even where their neighbours disagree with them."""
     ids = att.get("keep_readings", list, [])
@@ -353,7 +323,7 @@ def _faults(fname: str, raw: dict[str, Any], column: Column) -> tuple[FaultSpec,
     if "fault" not in raw:
         return ()
     out = []
-    for r in _array_of_tables(fname, raw, "fault", "list of faults", FAULT_KEYS):
+    for r in array_of_tables(fname, raw, "fault", "list of faults", FAULT_KEYS):
         dip = r.number("dip", None)
         det = r.get("detachment", (float, int, str), None)
         if isinstance(det, int | float):
@@ -384,7 +354,7 @@ def _faults(fname: str, raw: dict[str, Any], column: Column) -> tuple[FaultSpec,
     return tuple(out)
 
 
-def _section(r: _Reader, warn: Warn) -> SectionSpec:
+def _section(r: TableReader, warn: Warn) -> SectionSpec:
     name = r.text("name")
     line = r.get("line", list)
     if len(line) < 2:
@@ -428,7 +398,7 @@ def _section(r: _Reader, warn: Warn) -> SectionSpec:
     return spec
 
 
-def _fold_axis(r: _Reader) -> tuple[float, float] | None:
+def _fold_axis(r: TableReader) -> tuple[float, float] | None:
     """``fold_axis = [trend, plunge]`` (degrees) of a [[section]], or None."""
     val = r.get("fold_axis", list, None)
     if val is None:
@@ -441,7 +411,7 @@ def _fold_axis(r: _Reader) -> tuple[float, float] | None:
     return float(val[0]) % 360.0, float(val[1])
 
 
-def _sheet_keys(r: _Reader) -> dict[str, Any]:
+def _sheet_keys(r: TableReader) -> dict[str, Any]:
     """The figure's sheet, scale, orientation and constrained depth of a [[section]]."""
     from .errors import ParameterError
     from .render.sheet import parse_scale, sheet_name

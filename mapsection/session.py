@@ -91,6 +91,10 @@ class ProjectInputs:
     _thickness_said: bool = False
     # Which attitudes have had their ground elevation looked for (sample_corridors)
     _z_sought: np.ndarray | None = field(default=None, repr=False)
+    # A build's read (load_inputs with sections): the box around the corridors within which
+    # the column's thicknesses are compared with the map's (mapsection.extent)
+    near: tuple[float, float, float, float] | None = None
+    _near_partial: bool = False  # the thickness comparison saw only the map near the sections
 
     def sample_corridors(self, lines: Sequence[SectionLine], corridors: Sequence[float],
                          warn: Warn | None = None) -> None:
@@ -130,18 +134,64 @@ class ProjectInputs:
         self.dem.close()
 
 
-def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
+def read_window(project: Project, sections: Sequence[SectionSpec] | None) \
+        -> tuple[float, float, float, float] | None:
+    """The box of the map (and attitudes) a build of ``sections`` reads, or None: all.
+
+    The neighbourhood of the sections (:func:`mapsection.extent.sections_box`: their
+    corridors and location maps, plus ``NEIGHBOURHOOD_M``; and ``THICKNESS_NEAR_M`` around
+    the corridors, where the thickness comparison looks). None (the whole map and every
+    attitude) when no sections are given, when a unit takes its thickness from the map
+    (``thickness = "map"``: the column is measured on the whole map, whatever sections
+    are built), or when a section projects down-plunge on the fold axis of all the
+    attitudes (no ``fold_axis`` given).
+    """
+    from .extent import sections_box
+
+    if not sections or project.crs is None:
+        return None
+    if any(u.thickness_from_map for u in project.column.units):
+        return None
+    if any(s.projection == "plunge" and s.fold_axis is None for s in sections):
+        return None
+    lines = [project.section_line(s) for s in sections]
+    target = pyproj.CRS(project.crs)
+    lines = [ln if ln.crs is None or same_crs(ln.crs, target) else ln.to_crs(target)
+             for ln in lines]
+    view = sections_box([ln.vertices for ln in lines], [s.corridor for s in sections])
+    near = _near_box(project, sections)  # the thickness comparison's reach
+    return (min(view[0], near[0]), min(view[1], near[1]), max(view[2], near[2]),
+            max(view[3], near[3]))
+
+
+def _near_box(project: Project, sections: Sequence[SectionSpec]):
+    from .extent import corridors_box
+
+    target = pyproj.CRS(project.crs)
+    lines = [project.section_line(s) for s in sections]
+    lines = [ln if ln.crs is None or same_crs(ln.crs, target) else ln.to_crs(target)
+             for ln in lines]
+    return corridors_box([ln.vertices for ln in lines], [s.corridor for s in sections])
+
+
+def load_inputs(project: Project, warn: Warn | None = None,
+                sections: Sequence[SectionSpec] | None = None) -> ProjectInputs:
     """Read the map and the attitudes and open the DEM of a project (once).
 
-    Every map unit must be in the project's column.
+    Every map unit must be in the project's column. With ``sections`` (those a build
+    makes), only their neighbourhood of the map is read (:func:`read_window`) and only the
+    attitudes within ``extent.THICKNESS_NEAR_M`` of their corridors are kept; the unit
+    checks then see that part of the map.
     """
     from .attitudes import check_attitudes_on_dem
     from .readers.attitudes import read_attitudes
     from .readers.dem import Dem
 
     warn = warn or _default_warn
+    window = read_window(project, sections)
     map_data = read_map(project.map_path, project.units_layer, project.unit_field,
-                        project.faults_layer, project.fault_fields, crs=project.crs, warn=warn)
+                        project.faults_layer, project.fault_fields, crs=project.crs, warn=warn,
+                        bbox=window)
     project.column.check_map_units(
         map_data.unit_list, source=f"{project.map_path.name}: layer {project.units_layer!r}")
     check_fault_tables(project, map_data)
@@ -155,7 +205,15 @@ def load_inputs(project: Project, warn: Warn | None = None) -> ProjectInputs:
     except BaseException:
         dem.close()
         raise
-    return ProjectInputs(map_data, attitudes, dem)
+    near = _near_box(project, sections) if window is not None else None
+    if near is not None:
+        # Only the attitudes near the corridors are used (projected, beside the contacts,
+        # in the thickness comparison); the others would cost memory and indexing.
+        x, y = np.asarray(attitudes.x, float), np.asarray(attitudes.y, float)
+        inside = (x >= near[0]) & (x <= near[2]) & (y >= near[1]) & (y <= near[3])
+        if not inside.all():
+            attitudes = attitudes.subset(np.flatnonzero(inside))
+    return ProjectInputs(map_data, attitudes, dem, near=near)
 
 
 def check_fault_tables(project: Project, map_data: MapData) -> None:
@@ -182,13 +240,15 @@ class SectionSession:
     ``plunge`` (the latter needs ``axis``, a fold axis); ``step`` is the profile
     sample spacing (default: the profile's own). ``elevations=False``: the attitudes
     already carry the z they need (:meth:`ProjectInputs.sample_corridors`), none is
-    sampled here.
+    sampled here. ``warm=False``: the DEM blocks under the map are not decoded ahead (a
+    line that does not move needs only those under it).
     """
 
     def __init__(self, dem: Dem | str | os.PathLike, map_data: MapData, attitudes: Attitudes,
                  corridor: float, projection: str = "perpendicular",
                  axis: FoldAxis | None = None, step: float | None = None,
-                 warn: Warn | None = None, *, elevations: bool = True) -> None:
+                 warn: Warn | None = None, *, elevations: bool = True,
+                 warm: bool = True) -> None:
         from .readers.dem import Dem
         from .settings import check_choice, check_number
 
@@ -218,7 +278,8 @@ class SectionSession:
         self._points = shapely.points(np.asarray(self.attitudes.x, float),
                                       np.asarray(self.attitudes.y, float))
         self._tree = STRtree(self._points)
-        self._warm_dem()
+        if warm:
+            self._warm_dem()
 
     # --- loading --------------------------------------------------------------------------
     def _with_elevations(self, attitudes: Attitudes) -> Attitudes:
@@ -275,7 +336,7 @@ class SectionSession:
             for why in axis.cylindrical_problems():
                 warn(f"section {spec.name}: down-plunge projection may mislead: {why}")
         session = cls(inputs.dem, inputs.map_data, inputs.attitudes, spec.corridor,
-                      spec.projection, axis, warn=warn, elevations=anywhere)
+                      spec.projection, axis, warn=warn, elevations=anywhere, warm=anywhere)
         session.line = session._as_line(line)
         return session
 
@@ -286,7 +347,9 @@ class SectionSession:
         spec = project.section(spec)
         inputs = load_inputs(project, warn)
         try:
-            return cls.from_inputs(inputs, project, spec, warn)
+            session = cls.from_inputs(inputs, project, spec, warn)
+            session._warm_dem()  # the line will move: the blocks under the map, ahead
+            return session
         except BaseException:
             inputs.close()
             raise

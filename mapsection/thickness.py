@@ -949,10 +949,35 @@ def project_estimate(project: Project, inputs: ProjectInputs) -> ColumnEstimate:
     def elevation(x, y):
         return dem.sample(x, y, crs=crs)
 
-    est = estimate_column(project.column, inputs.map_data, elevation, inputs.attitudes,
+    map_data, attitudes = _near_inputs(inputs)
+    inputs._near_partial = map_data.partial
+    est = estimate_column(project.column, map_data, elevation, attitudes,
                           float(dem.pixel_size))
     inputs._column_estimate = est
     return est
+
+
+def _near_inputs(inputs: ProjectInputs):
+    """The map and attitudes a build compares the column with: for a build's read
+    (``inputs.near``), the polygons meeting the box around its corridors and the attitudes
+    inside it (mapsection.extent.THICKNESS_NEAR_M); otherwise all of them."""
+    md, att = inputs.map_data, inputs.attitudes
+    if inputs.near is None:
+        return md, att
+    box = shapely.box(*inputs.near)
+    idx = np.sort(md.unit_tree.query(box, predicate="intersects"))
+    if len(idx) < len(md.unit_geoms):
+        from .mapdata import MapData
+
+        md = MapData(md.units.iloc[idx].reset_index(drop=True), md.unit_field, md.faults,
+                     dict(md.fault_fields), md.crs, window=inputs.near,
+                     left_out=md.left_out + len(md.unit_geoms) - len(idx), extent=md.extent)
+    x0, y0, x1, y1 = inputs.near
+    x, y = np.asarray(att.x, float), np.asarray(att.y, float)
+    inside = (x >= x0) & (x <= x1) & (y >= y0) & (y <= y1)
+    if not inside.all():
+        att = att.subset(np.flatnonzero(inside))
+    return md, att
 
 
 def measure_column(project: Project, warn: Warn | None = None) -> ColumnEstimate:
@@ -1007,8 +1032,9 @@ def resolve_map_thicknesses(project: Project, inputs: ProjectInputs,
             if (say and e.kind == "measured" and e.uncertainty is not None
                     and math.isfinite(e.uncertainty)
                     and abs(e.thickness - u.thickness) > e.uncertainty):
+                near = " near the sections" if inputs._near_partial else ""
                 warn(f"{fname}: stratigraphy[{i}] ({u.name}): thickness {u.thickness:g} m given; "
-                     f"the map's contacts give {e.thickness:.0f} +/- {_m(e.uncertainty)} m "
+                     f"the map's contacts{near} give {e.thickness:.0f} +/- {_m(e.uncertainty)} m "
                      f"({e.n_points} points; see 'mapsection column')")
             units.append(u)
             continue

@@ -52,3 +52,28 @@ def test_profile_is_the_function_and_lazy():
 
     assert mapsection.profile is profile
     assert "profile" in dir(mapsection)
+
+
+# The heavy libraries made unimportable: the command's help and the import of the command
+# group must not need them (issue 15's start-up rule; the tool's own design rule).
+_BLOCK = f"""
+import sys
+class _Block:
+    def find_spec(self, name, path=None, target=None):
+        if name.split('.')[0] in {HEAVY!r}:
+            raise ImportError('blocked: ' + name)
+        return None
+sys.meta_path.insert(0, _Block())
+"""
+
+
+@pytest.mark.parametrize("code", [
+    "import mapsection.cli.main",
+    "from mapsection.cli.main import cli\ntry:\n    cli(['--help'])\nexcept SystemExit as e:\n"
+    "    assert e.code in (0, None), e.code",
+    "from mapsection.cli.main import cli\ntry:\n    cli(['build', '--help'])\n"
+    "except SystemExit as e:\n    assert e.code in (0, None), e.code",
+])
+def test_start_up_runs_with_the_heavy_libraries_blocked(code):
+    run = subprocess.run([sys.executable, "-c", _BLOCK + code], capture_output=True, text=True)
+    assert run.returncode == 0, run.stderr[-800:]

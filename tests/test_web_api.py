@@ -22,7 +22,8 @@ pytest.importorskip("starlette")
 pytest.importorskip("httpx")
 from starlette.testclient import TestClient  # noqa: E402
 
-from mapsection.web.api import ViewState, check_status, hillshade, save_line  # noqa: E402
+from mapsection.checks.status import status_of as check_status  # noqa: E402
+from mapsection.web.api import ViewState, hillshade, save_line  # noqa: E402
 from mapsection.web.app import create_app  # noqa: E402
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_area"

@@ -18,7 +18,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 
 __all__ = ["BY_CONSTRUCTION", "FAIL", "LABELS", "NOT_TESTED", "PASS", "STATUSES", "Part",
-           "combine", "label", "passed_of", "worst"]
+           "combine", "label", "passed_of", "status_of", "worst"]
 
 PASS, FAIL, NOT_TESTED = "pass", "fail", "not_tested"
 STATUSES = (PASS, FAIL, NOT_TESTED)
@@ -40,6 +40,24 @@ def label(name: str) -> str:
 def passed_of(status: str) -> bool | None:
     """checks.json's ``passed``: True, False, or None (null) when not tested."""
     return None if status == NOT_TESTED else status == PASS
+
+
+def status_of(result: Mapping) -> str:
+    """A check result's verdict (a dict of checks.json) as ``"pass"``, ``"fail"`` or
+    ``"not_tested"``: the inverse of :func:`passed_of`.
+
+    A ``status`` the result gives itself wins (spelt with spaces or hyphens, or as
+    "passed", "ok", "failed"); otherwise ``passed`` True / False / None (not
+    measured) maps to pass / fail / not_tested. Never "pass" for what was not measured.
+    """
+    status = result.get("status")
+    if isinstance(status, str):
+        s = status.strip().lower().replace(" ", "_").replace("-", "_")
+        if s in STATUSES:
+            return s
+        return {"passed": PASS, "ok": PASS, "failed": FAIL}.get(s, NOT_TESTED)
+    passed = result.get("passed")
+    return PASS if passed is True else FAIL if passed is False else NOT_TESTED
 
 
 def worst(statuses: Iterable[str]) -> str:

@@ -7,24 +7,9 @@ from pathlib import Path
 import click
 
 from ..caution import CAUTION
-from ..checking import check_section, infer_section, summary_lines, verdict_line
-from ..errors import CheckError
+from ..checking import plan_checks, summary_lines, verdict_line
 from ._common import warn
 from ._progress import start_progress
-
-
-def _outputs(project, from_path: Path | None, json_path: str | None, html_path: str | None
-             ) -> tuple[Path | None, Path | None]:
-    """--json and --html as paths, once sure that neither replaces an input or the other."""
-    from ..outputs import check_distinct, check_output, project_inputs
-
-    sources = [*project_inputs(project), ("--from file", from_path)]
-    for option, path in (("--json", json_path), ("--html", html_path)):
-        if path is not None:
-            check_output(path, sources, option=option, file=True)
-    check_distinct([("--json", json_path), ("--html", html_path)])
-    return (None if json_path is None else Path(json_path),
-            None if html_path is None else Path(html_path))
 
 
 @click.command(
@@ -72,42 +57,10 @@ def command(project_file: str, section_name: str | None, from_path: Path | None,
       mapsection build sample_area/project.toml -o out
       mapsection check sample_area/project.toml --from out/A/section.gpkg
     """
-    from ..project import load_project
-    from ..render.section_folder import write_check_report, write_checks_json
-    from ..session import load_inputs
-
-    project = load_project(project_file, warn)
-    if section_name is not None:
-        specs = [project.section(section_name)]
-    elif from_path is not None:
-        specs = [infer_section(project, from_path)]
-    else:
-        specs = list(project.sections)
-    if (json_path or html_path) and len(specs) > 1:
-        raise CheckError("--json/--html: write one section at a time; add --section NAME")
-    json_path, html_path = _outputs(project, from_path, json_path, html_path)
+    run = plan_checks(project_file, section_name, from_path, json_path, html_path, warn)
     start_progress()
-
-    statuses: list[str] = []
-    # Read once for every section: the report's section figure has its location inset on
-    # the map, and a failed topography test's diagnosis looks at the attitudes nearby.
-    inputs = load_inputs(project, warn)
-    try:
-        for spec in specs:
-            draft, report = check_section(project, spec, from_path, warn, inputs=inputs)
-            for line in summary_lines(report):
-                click.echo(line)
-            statuses += report.statuses.values()
-            if json_path is not None:
-                write_checks_json(report, json_path)
-            if html_path is not None:
-                from ..build import sheet_options, title_info
-
-                # The same sheet and title block as a build's figure of the section.
-                write_check_report(html_path, draft, report, inputs.map_data,
-                                   sheet=sheet_options(spec, draft),
-                                   info=title_info(project, inputs.dem.crs))
-    finally:
-        inputs.close()
-    click.echo(verdict_line(statuses))
-    click.get_current_context().exit(1 if "fail" in statuses else 0)
+    for report in run.reports(warn):
+        for line in summary_lines(report):
+            click.echo(line)
+    click.echo(verdict_line(run.statuses))
+    click.get_current_context().exit(1 if run.failed else 0)

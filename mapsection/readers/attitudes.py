@@ -1,5 +1,12 @@
 """Reading bedding attitudes from a CSV or a point vector file, every row validated.
 
+A row with an impossible value (dip outside 0-90, azimuth outside 0-360, text
+that is not a number, inconsistent quadrant text) is reported through ``warn``
+with its CSV line number (or feature number) and reason and dropped; the count
+of dropped rows is reported once. CSV coordinates are taken to be in the
+project's CRS; a vector file in another CRS is reprojected to it (its azimuths
+rotated to the new grid north) and that is said once.
+
 The value object and the conventions are in :mod:`mapsection.attitudes`.
 """
 
@@ -71,7 +78,8 @@ def _read_csv(path: Path) -> _Table:
     import pandas as pd
 
     try:
-        text = path.read_bytes().decode("utf-8-sig")
+        raw = path.read_bytes()
+        text = raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
     except OSError as exc:
@@ -80,10 +88,16 @@ def _read_csv(path: Path) -> _Table:
     if not first.strip() or "\x00" in text:
         return _read_csv_rows(path)
     dialect = _sniff(first)
-    header_reader = csv.reader(io.StringIO(text), dialect)
+    header_reader = csv.reader(io.StringIO(text[:1 << 20]), dialect)
     header = next(header_reader, None)
     if header is None or header_reader.line_num != 1:
         return _read_csv_rows(path)  # a quoted header over several lines
+    # One record per physical line, or a quoted field runs over several: other line numbers.
+    # (Counted on the bytes: in UTF-8 a newline byte is always a newline.)
+    n_lines = raw.count(b"\n") + raw.count(b"\r") - raw.count(b"\r\n")
+    if not raw.endswith((b"\n", b"\r")):
+        n_lines += 1
+    del text  # the C engine reads the bytes: no copy of the text as wide characters
     names = [h.strip() for h in header]
     k = len(names)
     try:
@@ -91,7 +105,8 @@ def _read_csv(path: Path) -> _Table:
             warnings.simplefilter("always", pd.errors.ParserWarning)
             # One column more than the header: a row ending in a delimiter stays here.
             df = pd.read_csv(
-                io.StringIO(text), sep=dialect.delimiter, quotechar=dialect.quotechar,
+                io.BytesIO(raw), encoding="utf-8-sig", sep=dialect.delimiter,
+                quotechar=dialect.quotechar,
                 doublequote=dialect.doublequote, skipinitialspace=dialect.skipinitialspace,
                 quoting=csv.QUOTE_MINIMAL, header=None, names=range(k + 1), skiprows=1,
                 index_col=False, dtype=str, na_filter=False, keep_default_na=False,
@@ -100,10 +115,7 @@ def _read_csv(path: Path) -> _Table:
         return _read_csv_rows(path)
     if any(issubclass(w.category, pd.errors.ParserWarning) for w in said):
         return _read_csv_rows(path)  # a row longer still: cut by the csv module's rules
-    # One record per physical line, or a quoted field runs over several: other line numbers.
-    n_lines = text.count("\n") + text.count("\r") - text.count("\r\n")
-    if not text.endswith(("\n", "\r")):
-        n_lines += 1
+    del raw
     if len(df) + 1 != n_lines:
         return _read_csv_rows(path)
     stripped = [_stripped(df[j].to_numpy(dtype=object)) for j in range(k + 1)]
@@ -256,15 +268,9 @@ def _to_float(values: list) -> tuple[np.ndarray, np.ndarray]:
     return num, bad
 
 
-def read_attitudes(
-    path: str | os.PathLike,
-    *,
-    convention: str = "rhr",
-    layer: str | None = None,
-    fields: Mapping[str, str] | None = None,
-    crs: str | pyproj.CRS | None = None,
-    warn: Warn | None = None,
-) -> Attitudes:
+def read_attitudes(path: str | os.PathLike, *, convention: str = "rhr",
+                   layer: str | None = None, fields: Mapping[str, str] | None = None,
+                   crs: str | pyproj.CRS | None = None, warn: Warn | None = None) -> Attitudes:
     """Read bedding attitudes from a CSV or a point vector file, validating every row.
 
     CSV columns: ``x, y`` and, by ``convention``, ``strike, dip`` (``rhr``),
@@ -276,18 +282,54 @@ def read_attitudes(
     ``fields`` maps those logical names to the file's own column names; matching
     is case-insensitive.
 
-    A row with an impossible value (dip outside 0-90, azimuth outside 0-360, text
-    that is not a number, inconsistent quadrant text) is reported through ``warn``
-    with its CSV line number (or feature number) and reason and dropped; the count
-    of dropped rows is reported once. CSV coordinates are taken to be in ``crs``;
-    a vector file in another CRS is reprojected to ``crs`` (its azimuths rotated to
-    the new grid north) and that is said once.
-
+    Rows with an impossible value are said and dropped (see the module's docstring).
     Raises :class:`AttitudeError` for a missing file, a missing column (listing the
     columns there are), an unknown convention, or a file with no usable rows.
+
+    Parameters
+    ----------
+    path : the CSV (``.csv``, ``.txt``, ``.tsv``) or point vector file.
+    convention : ``rhr``, ``dip-direction`` or ``quadrant``.
+    layer : the vector file's layer (needed when it holds several).
+    fields : logical name -> the file's column name.
+    crs : the project CRS: CSV coordinates are in it, vector files are reprojected to it.
+    warn : where dropped rows and the reprojection are said (default: stderr).
+
+    Returns
+    -------
+    Attitudes
+        The usable rows, azimuths as right-hand-rule strikes in 0-360.
+
+    Examples
+    --------
+    >>> # attitudes.csv:  id,x,y,strike,dip  /  1,604200,5216300,30,45
+    >>> # read_attitudes("attitudes.csv", crs="EPSG:32611").strike  -> array([30.])
     """
     warn = warn or _default_warn
     path = Path(path)
+    _check_path(path, convention)
+    target = pyproj.CRS(crs) if crs is not None else None
+    is_csv = path.suffix.lower() in CSV_SUFFIXES
+    rows = _Rows(path, _read_csv(path) if is_csv else _read_vector(path, layer), fields)
+    x, y, z, src_crs = _coordinates(rows, is_csv)
+    strike, dip = _orientation(rows, convention)
+    ids_txt = rows.column("id", False)  # looked up before 'overturned', flagged after it
+    overturned = _overturned(rows)
+    ids = _ids(rows, ids_txt)
+    good = _kept(rows, warn)
+    n = rows.n
+    att = Attitudes(
+        id=ids[good], x=x[good], y=y[good], z=z[good], strike=strike[good] % 360.0,
+        dip=dip[good], overturned=overturned[good], crs=target if src_crs is None else src_crs,
+        source=f"{path} ({n} row{'s' if n != 1 else ''} read, {int(good.sum())} usable)",
+    )
+    if src_crs is not None and target is not None and not same_crs(src_crs, target):
+        att = reproject_attitudes(att, target, warn=warn, source=str(path))
+    return att
+
+
+def _check_path(path: Path, convention: str) -> None:
+    """Refuse an unknown convention, a missing file and a folder."""
     if convention not in CONVENTIONS:
         raise AttitudeError(
             f"unknown attitude convention {convention!r} (use {', '.join(CONVENTIONS)})"
@@ -296,109 +338,143 @@ def read_attitudes(
         raise AttitudeError(f"{path}: no such attitudes file")
     if path.is_dir():
         raise AttitudeError(f"{path}: is a folder, not an attitudes file")
-    target = pyproj.CRS(crs) if crs is not None else None
-    is_csv = path.suffix.lower() in CSV_SUFFIXES
-    table = _read_csv(path) if is_csv else _read_vector(path, layer)
-    n = len(table.rows)
-    existing = list(table.columns)
-    lower = {c.lower(): c for c in existing}
-    fields = dict(fields or {})
 
-    def column(logical: str, required: bool, hint: str = "") -> list | None:
-        name = fields.get(logical) or logical
-        real = lower.get(name.lower())
+
+class _Rows:
+    """A table being validated: its columns by logical name, and each bad row's reasons."""
+
+    def __init__(self, path: Path, table: _Table, fields: Mapping[str, str] | None) -> None:
+        self.path = path
+        self.table = table
+        self.n = len(table.rows)
+        self.existing = list(table.columns)
+        self.lower = {c.lower(): c for c in self.existing}
+        self.fields = dict(fields or {})
+        self.reasons: dict[int, list[str]] = {}  # bad rows only
+
+    def has(self, logical: str) -> bool:
+        """Whether the file has the column for ``logical``."""
+        return (self.fields.get(logical) or logical).lower() in self.lower
+
+    def column(self, logical: str, required: bool, hint: str = "") -> list | None:
+        """The values of the column for ``logical``; None if absent and not required."""
+        table = self.table
+        name = self.fields.get(logical) or logical
+        real = self.lower.get(name.lower())
         if real is None and required:
-            listed = ", ".join(existing) if existing else "none"
+            listed = ", ".join(self.existing) if self.existing else "none"
             raise AttitudeError(
-                f"{path}: no column {name!r}{hint} (columns: {listed})"
+                f"{self.path}: no column {name!r}{hint} (columns: {listed})"
             )
         if real is not None and real.lower() in table.repeated:
             nums = table.repeated[real.lower()]
             raise AttitudeError(
-                f"{path}: column {real!r} appears {len(nums)} times in the header (columns "
-                f"{', '.join(map(str, nums))}); keep one or rename the others"
+                f"{self.path}: column {real!r} appears {len(nums)} times in the header "
+                f"(columns {', '.join(map(str, nums))}); keep one or rename the others"
             )
         return None if real is None else table.columns[real]
 
-    reasons: dict[int, list[str]] = {}  # bad rows only
-
-    def flag(mask: np.ndarray, why: Callable[[int], str]) -> None:
+    def flag(self, mask: np.ndarray, why: Callable[[int], str]) -> None:
+        """Give each row of ``mask`` the reason ``why(row)``."""
         for i in np.flatnonzero(mask):  # only the bad rows are visited
-            reasons.setdefault(int(i), []).append(why(int(i)))
+            self.reasons.setdefault(int(i), []).append(why(int(i)))
 
-    # Coordinates
+
+def _coordinates(rows: _Rows, is_csv: bool
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, pyproj.CRS | None]:
+    """x, y, z of every row (a CSV's columns or a vector file's points) and the file's CRS."""
     if is_csv:
-        xs, ys = column("x", True), column("y", True)
+        xs, ys = rows.column("x", True), rows.column("y", True)
         x, bx = _to_float(xs)
         y, by = _to_float(ys)
-        flag(bx | ~np.isfinite(x), lambda i: f"x {xs[i]!r} is not a number")
-        flag(by | ~np.isfinite(y), lambda i: f"y {ys[i]!r} is not a number")
-        z = np.full(n, np.nan)
+        rows.flag(bx | ~np.isfinite(x), lambda i: f"x {xs[i]!r} is not a number")
+        rows.flag(by | ~np.isfinite(y), lambda i: f"y {ys[i]!r} is not a number")
+        z = np.full(rows.n, np.nan)
         src_crs = None
     else:
-        x, y, z = table.x, table.y, table.z
-        flag(~np.isfinite(x), lambda i: "has no point geometry")
-        src_crs = table.crs
-    zs = column("z", False)
+        x, y, z = rows.table.x, rows.table.y, rows.table.z
+        rows.flag(~np.isfinite(x), lambda i: "has no point geometry")
+        src_crs = rows.table.crs
+    zs = rows.column("z", False)
     if zs is not None:
         zc, bz = _to_float(zs)
-        flag(bz, lambda i: f"z {zs[i]!r} is not a number")
+        rows.flag(bz, lambda i: f"z {zs[i]!r} is not a number")
         z = np.where(np.isfinite(zc), zc, z)
+    return x, y, z, src_crs
 
-    # Orientation
-    strike = np.full(n, np.nan)
-    dip = np.full(n, np.nan)
+
+def _orientation(rows: _Rows, convention: str) -> tuple[np.ndarray, np.ndarray]:
+    """Strike (right-hand rule) and dip of every row, by ``convention``."""
     if convention == "quadrant":
-        att = column("attitude", False)
-        if att is None:
-            s_txt, d_txt = column("strike", False), column("dip", False)
-            if s_txt is None or d_txt is None:
-                column("attitude", True, " with quadrant text such as 'N30E 45SE'")
-            att = [f"{a} {b}" for a, b in zip(s_txt, d_txt, strict=True)]
-        for i, t in enumerate(att):  # text parsing is per row by nature
-            try:
-                strike[i], dip[i] = parse_one_quadrant(str(t))
-            except ValueError as exc:
-                reasons.setdefault(i, []).append(str(exc))
-    else:
-        az_name = "strike" if convention == "rhr" else "dip_direction"
-        other = "dip_direction" if convention == "rhr" else "strike"
-        hint = (f"; the file has {other!r}: use convention "
-                f"{'dip-direction' if other == 'dip_direction' else 'rhr'}"
-                if (fields.get(other) or other).lower() in lower else "")
-        az_txt = column(az_name, True, hint)
-        d_txt = column("dip", True)
-        az, baz = _to_float(az_txt)
-        dip, bd = _to_float(d_txt)
-        flag(baz | ~np.isfinite(az) & ~baz, lambda i: f"{az_name} {az_txt[i]!r} is not a number")
-        flag(bd | ~np.isfinite(dip) & ~bd, lambda i: f"dip {d_txt[i]!r} is not a number")
-        flag(np.isfinite(az) & ((az < 0) | (az > 360)),
-             lambda i: f"{az_name} {human(az[i])} is outside 0-360")
-        flag(np.isfinite(dip) & ((dip < 0) | (dip > 90)),
-             lambda i: f"dip {human(dip[i])} is outside 0-90")
-        strike = az % 360.0 if convention == "rhr" else dip_direction_to_strike(az)
+        return _quadrant(rows)
+    az_name = "strike" if convention == "rhr" else "dip_direction"
+    other = "dip_direction" if convention == "rhr" else "strike"
+    hint = (f"; the file has {other!r}: use convention "
+            f"{'dip-direction' if other == 'dip_direction' else 'rhr'}"
+            if rows.has(other) else "")
+    az_txt = rows.column(az_name, True, hint)
+    d_txt = rows.column("dip", True)
+    az, baz = _to_float(az_txt)
+    dip, bd = _to_float(d_txt)
+    rows.flag(baz | ~np.isfinite(az) & ~baz,
+              lambda i: f"{az_name} {az_txt[i]!r} is not a number")
+    rows.flag(bd | ~np.isfinite(dip) & ~bd, lambda i: f"dip {d_txt[i]!r} is not a number")
+    rows.flag(np.isfinite(az) & ((az < 0) | (az > 360)),
+              lambda i: f"{az_name} {human(az[i])} is outside 0-360")
+    rows.flag(np.isfinite(dip) & ((dip < 0) | (dip > 90)),
+              lambda i: f"dip {human(dip[i])} is outside 0-90")
+    strike = az % 360.0 if convention == "rhr" else dip_direction_to_strike(az)
+    return strike, dip
 
-    # Optional columns
-    ids_txt = column("id", False)
-    ov_txt = column("overturned", False)
-    overturned = np.zeros(n, bool)
-    if ov_txt is not None:
-        low = np.array([str(v).strip().lower() for v in ov_txt], dtype=object)
-        is_true = np.isin(low, list(_TRUE))
-        is_false = np.isin(low, list(_FALSE)) | np.array([v is None for v in ov_txt], bool)
-        overturned = is_true
-        flag(~is_true & ~is_false,
-             lambda i: f"overturned {ov_txt[i]!r} is not true/false/yes/no/1/0")
-    if ids_txt is not None:
-        raw = [str(v).strip() for v in ids_txt]
+
+def _quadrant(rows: _Rows) -> tuple[np.ndarray, np.ndarray]:
+    """Strike and dip from quadrant text: an ``attitude`` column, or ``strike`` and ``dip``."""
+    strike = np.full(rows.n, np.nan)
+    dip = np.full(rows.n, np.nan)
+    att = rows.column("attitude", False)
+    if att is None:
+        s_txt, d_txt = rows.column("strike", False), rows.column("dip", False)
+        if s_txt is None or d_txt is None:
+            rows.column("attitude", True, " with quadrant text such as 'N30E 45SE'")
+        att = [f"{a} {b}" for a, b in zip(s_txt, d_txt, strict=True)]
+    for i, t in enumerate(att):  # text parsing is per row by nature
         try:
-            ids = np.array([int(v) for v in raw])
-        except ValueError:
-            ids = np.array(raw, dtype=object)
-        flag(np.array([v == "" for v in raw], bool), lambda i: "id is blank")
-    else:
-        ids = np.arange(1, n + 1)
+            strike[i], dip[i] = parse_one_quadrant(str(t))
+        except ValueError as exc:
+            rows.reasons.setdefault(i, []).append(str(exc))
+    return strike, dip
 
+
+def _overturned(rows: _Rows) -> np.ndarray:
+    """The optional ``overturned`` column as booleans (false where absent)."""
+    ov_txt = rows.column("overturned", False)
+    if ov_txt is None:
+        return np.zeros(rows.n, bool)
+    low = np.array([str(v).strip().lower() for v in ov_txt], dtype=object)
+    is_true = np.isin(low, list(_TRUE))
+    is_false = np.isin(low, list(_FALSE)) | np.array([v is None for v in ov_txt], bool)
+    rows.flag(~is_true & ~is_false,
+              lambda i: f"overturned {ov_txt[i]!r} is not true/false/yes/no/1/0")
+    return is_true
+
+
+def _ids(rows: _Rows, ids_txt: list | None) -> np.ndarray:
+    """The optional ``id`` column (integers where all are), else the data row number."""
+    if ids_txt is None:
+        return np.arange(1, rows.n + 1)
+    raw = [str(v).strip() for v in ids_txt]
+    try:
+        ids = np.array([int(v) for v in raw])
+    except ValueError:
+        ids = np.array(raw, dtype=object)
+    rows.flag(np.array([v == "" for v in raw], bool), lambda i: "id is blank")
+    return ids
+
+
+def _kept(rows: _Rows, warn: Warn) -> np.ndarray:
+    """The rows without a reason to drop them; the others said (the first 20) and counted.
+    AttitudeError when none is left."""
+    path, n, reasons, labels = rows.path, rows.n, rows.reasons, rows.table.rows
     good = np.ones(n, bool)
     good[list(reasons)] = False
     dropped = n - int(good.sum())
@@ -408,21 +484,13 @@ def read_attitudes(
             if shown == 20:
                 warn(f"{path}: ... and {dropped - 20} more bad rows")
                 break
-            warn(f"{path}, {table.rows[i]}: {'; '.join(reasons[i])}; row dropped")
+            warn(f"{path}, {labels[i]}: {'; '.join(reasons[i])}; row dropped")
             shown += 1
         warn(f"{path}: dropped {dropped} of {n} rows; kept {n - dropped}")
     if not good.any():
         raise AttitudeError(
             f"{path}: no usable attitude rows"
-            + (f" ({n} row{'s' if n != 1 else ''}, all bad; {table.rows[0]}: "
+            + (f" ({n} row{'s' if n != 1 else ''}, all bad; {labels[0]}: "
                f"{'; '.join(reasons[0])})" if n else " (no data rows)")
         )
-
-    att = Attitudes(
-        id=ids[good], x=x[good], y=y[good], z=z[good], strike=strike[good] % 360.0,
-        dip=dip[good], overturned=overturned[good], crs=target if src_crs is None else src_crs,
-        source=f"{path} ({n} row{'s' if n != 1 else ''} read, {n - dropped} usable)",
-    )
-    if src_crs is not None and target is not None and not same_crs(src_crs, target):
-        att = reproject_attitudes(att, target, warn=warn, source=str(path))
-    return att
+    return good

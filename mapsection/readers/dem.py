@@ -13,6 +13,7 @@ import contextlib
 import os
 from collections import OrderedDict
 from pathlib import Path
+from typing import Self
 
 import numpy as np
 import pyproj
@@ -46,7 +47,23 @@ _UNIT_NAMES = {
 _PLURAL = {"metre": "metres", "foot": "feet", "us-foot": "US survey feet"}
 
 
-class Dem:
+class Closing:
+    """Its own context manager: leaving a ``with`` block calls ``close()``.
+
+    For the values that hold an open file (:class:`Dem`, and what holds a Dem).
+    """
+
+    def close(self) -> None:  # pragma: no cover - each subclass closes its own
+        raise NotImplementedError
+
+    def __enter__(self) -> Self:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+
+class Dem(Closing):
     """A single-band elevation raster (metres), opened read-only.
 
     Attributes: ``path``, ``crs`` (pyproj.CRS), ``transform`` (affine),
@@ -160,15 +177,9 @@ class Dem:
         if ds.transform.is_identity:
             raise DEMError(f"{self.path}: the DEM has no georeferencing (identity transform)")
 
-    # --- context manager -------------------------------------------------
+    # --- context manager (Closing) ----------------------------------------
     def close(self) -> None:
         self._ds.close()
-
-    def __enter__(self) -> Dem:
-        return self
-
-    def __exit__(self, *exc) -> None:
-        self.close()
 
     def __repr__(self) -> str:
         return f"Dem({str(self.path)!r}, {self.width}x{self.height}, {self.pixel_size:.3g} m)"

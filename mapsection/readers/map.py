@@ -34,6 +34,7 @@ def read_map(
     fault_fields: dict[str, str] | None = None,
     crs: str | pyproj.CRS | None = None,
     warn: Warn | None = None,
+    bbox: tuple[float, float, float, float] | None = None,
 ) -> MapData:
     """Read the unit polygons (and fault lines) of a geologic map.
 
@@ -41,6 +42,13 @@ def read_map(
     ``name`` to the column names of the faults layer (default: the role names).
     Layers in another CRS than ``crs`` are reprojected to it (said once through
     ``warn``); a layer without a CRS is taken to be in ``crs`` (with a warning).
+
+    ``bbox`` (xmin, ymin, xmax, ymax in ``crs``): only the unit polygons whose bounding box
+    meets it are read (a GeoPackage answers from its R-tree spatial index; other formats are
+    scanned; the faults layer is read whole); the MapData then knows the window, how many
+    unit polygons were left out and the whole layer's extent (:attr:`MapData.partial`,
+    :meth:`MapData.layer_bounds`). The checks made on the polygons (overlaps, empty unit
+    names) and those made later (units missing from the column) see only those read.
     """
     warn = warn or _default_warn
     path = Path(path)
@@ -54,7 +62,7 @@ def read_map(
     except Exception as exc:  # the vector driver raises several kinds for unreadable files
         raise MapLayerError(f"{path}: not a readable map file ({first_line(exc)})") from None
 
-    def read(layer: str, fields: list[str], role: str) -> gpd.GeoDataFrame:
+    def read(layer: str, fields: list[str], role: str, box=bbox) -> gpd.GeoDataFrame:
         if layer not in layers:
             raise MapLayerError(f"{path.name}: no layer {layer!r} (layers: {', '.join(layers)})")
         try:
@@ -70,11 +78,16 @@ def read_map(
                     f"(fields: {_names(existing)})"
                 )
         try:
-            return pyogrio.read_dataframe(path, layer=layer)
+            window = None if box is None else _layer_box(box, info.get("crs"), target)
+            df = pyogrio.read_dataframe(path, layer=layer, bbox=window)
+            counts[layer] = (int(info.get("features", -1)), len(df), info.get("total_bounds"),
+                             info.get("crs"))
+            return df
         except Exception as exc:
             raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({first_line(exc)})") \
                 from None
 
+    counts: dict[str, tuple] = {}
     units = read(units_layer, [unit_field], "unit")
     units = _clean(units, _POLYGONS, f"{path.name}: layer {units_layer!r}", warn)
     faults = None
@@ -82,7 +95,10 @@ def read_map(
     if faults_layer is not None:
         given = dict(fault_fields or {})
         wanted = {r: given.get(r, r) for r in REQUIRED_FAULT_FIELDS + OPTIONAL_FAULT_FIELDS}
-        faults = read(faults_layer, [wanted[r] for r in REQUIRED_FAULT_FIELDS], "fault")
+        # The faults layer is read whole (faults are few): every [[fault]] table finds its
+        # fault, and a bad value is named by its feature number in the layer.
+        faults = read(faults_layer, [wanted[r] for r in REQUIRED_FAULT_FIELDS], "fault",
+                      None)
         roles = {r: c for r, c in wanted.items() if c in faults.columns}
         faults = _clean(faults, _LINES, f"{path.name}: layer {faults_layer!r}", warn)
         _check_fault_values(faults, roles, f"{path.name}: layer {faults_layer!r}")
@@ -110,6 +126,13 @@ def read_map(
         faults = frames[faults_layer]
     units = units[[unit_field, "geometry"]].reset_index(drop=True)
     if not len(units):
+        if bbox is not None:
+            # The whole layer read again (only on this error) says whether it has none at all.
+            read_map(path, units_layer, unit_field, crs=crs, warn=lambda message: None)
+            raise MapLayerError(f"{path.name}: layer {units_layer!r} has no unit polygons "
+                                f"near the section lines (x {bbox[0]:.1f} to {bbox[2]:.1f}, "
+                                f"y {bbox[1]:.1f} to {bbox[3]:.1f}): is it the map of this "
+                                "area, with the right CRS?")
         raise MapLayerError(f"{path.name}: layer {units_layer!r} has no unit polygons "
                             "(no features with a geometry)")
     _warn_overlaps(units, unit_field, f"{path.name}: layer {units_layer!r}", warn)
@@ -117,7 +140,32 @@ def read_map(
         n = int(units[unit_field].isna().sum())
         warn(f"{path.name}: layer {units_layer!r}: {n} polygon(s) with no {unit_field!r} value "
              "are treated as unmapped ground")
-    return MapData(units, unit_field, faults, roles, target)
+    if bbox is None:
+        return MapData(units, unit_field, faults, roles, target)
+    total, got, extent, layer_crs = counts[units_layer]
+    # The whole layer's extent, in the map's CRS, for the location map's framing.
+    if extent is not None and np.all(np.isfinite(extent)):
+        extent = _to_target(tuple(float(v) for v in extent), layer_crs, target)
+    else:
+        extent = None
+    return MapData(units, unit_field, faults, roles, target,
+                   window=tuple(float(v) for v in bbox),
+                   left_out=max(total - got, 0) if total >= 0 else 1, extent=extent)
+
+
+def _layer_box(bbox, layer_crs, target) -> tuple[float, float, float, float]:
+    """``bbox`` (in ``target``) in the layer's CRS, for a spatially filtered read."""
+    if layer_crs is None or target is None or same_crs(layer_crs, target):
+        return tuple(float(v) for v in bbox)
+    t = pyproj.Transformer.from_crs(target, layer_crs, always_xy=True)
+    return tuple(float(v) for v in t.transform_bounds(*bbox, densify_pts=21))
+
+
+def _to_target(box, layer_crs, target) -> tuple[float, float, float, float]:
+    if layer_crs is None or target is None or same_crs(layer_crs, target):
+        return box
+    t = pyproj.Transformer.from_crs(layer_crs, target, always_xy=True)
+    return tuple(float(v) for v in t.transform_bounds(*box, densify_pts=21))
 
 
 def _clean(df: gpd.GeoDataFrame, kinds: tuple[str, ...], where: str, warn: Warn) \

@@ -9,7 +9,9 @@ that imports matplotlib.
 - :mod:`~mapsection.render.restoration` -- the restored section;
 - :mod:`~mapsection.render.area_depth` -- excess area against depth;
 - :mod:`~mapsection.render.sequence` -- the incremental sequence, frames and GIF;
-- :mod:`~mapsection.render.report` -- report.html, self-contained;
+- :mod:`~mapsection.render.report` -- report.html, self-contained: each test's tables from
+  :mod:`~mapsection.render.report_tests`, built of the numbers, badges and tables of
+  :mod:`~mapsection.render.report_parts`;
 - :mod:`~mapsection.render.section_folder` -- the one writer of a section's check
   outputs (checks.json, the figures above, report.html), for ``build`` and ``check``.
 

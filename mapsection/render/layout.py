@@ -55,6 +55,7 @@ def end_bearings(first_azimuth: float, last_azimuth: float) -> tuple[float, floa
 
 
 # --- the sheet's layout (inches) ----------------------------------------------------
+Box = tuple[float, float, float, float]  # left, bottom, width, height
 LEGEND_FONT = 6.5  # points
 LEGEND_EM = LEGEND_FONT / 72.0  # the legend font's em, inches
 LEGEND_PITCH = 1.45 * LEGEND_EM  # one text line plus the label spacing of a legend
@@ -126,13 +127,30 @@ def sheet_layout(width: float, height: float, xspan: float, yspan: float, ve: fl
     ------
     ParameterError
         When the section does not fit the sheet at the scale asked.
-    """
-    from ..errors import ParameterError
-    from .sheet import choose_scale, scale_text
 
+    Examples
+    --------
+    >>> lay = sheet_layout(16.54, 11.69, 6000.0, 1500.0, 1.0, legend_rows=8, title_rows=6)
+    >>> lay.scale, round(lay.axes[2] * 25.4, 1)   # the section's box: 6 km at 1:25 000, in mm
+    (25000.0, 240.0)
+    """
     top = height - MARGIN - HEADER
     tb_h = (title_rows + 1) * TITLE_PITCH
-    lg_h = legend_height(legend_rows)
+    side, room = _side_and_room(width, height, top, tb_h, portrait)
+    scale = _fitting_scale(xspan, yspan * ve, room, scale)
+    aw = xspan / scale * 1000 * MM
+    ah = yspan * ve / scale * 1000 * MM
+    axes = (room[0], top - ENDS - ah, aw, ah)
+    below = axes[1] - 13 * MM
+    inset, legend, tb = _boxes(side, room, below, tb_h, legend_height(legend_rows), portrait)
+    return SheetLayout(width, height, float(scale), axes, room, below, inset, legend, tb,
+                       legend_rows)
+
+
+def _side_and_room(width: float, height: float, top: float, tb_h: float, portrait: bool
+                   ) -> tuple[Box, Box]:
+    """The box of the location map, legend and title block (beside the section, or under
+    it on a portrait sheet) and the room left for the section."""
     if portrait:
         strip = max(tb_h, 0.25 * height)
         side = (MARGIN, MARGIN, width - 2 * MARGIN, strip)
@@ -143,20 +161,31 @@ def sheet_layout(width: float, height: float, xspan: float, yspan: float, ve: fl
         side = (width - MARGIN - sw, MARGIN, sw, top - MARGIN)
         room = (MARGIN + AXIS_LEFT, MARGIN + BELOW,
                 width - 2 * MARGIN - sw - GAP - AXIS_LEFT - AXIS_RIGHT, 0.0)
-    room = (room[0], room[1], room[2], top - ENDS - room[1])
-    fit = choose_scale(xspan, yspan * ve, room[2] / MM, room[3] / MM)
+    return side, (room[0], room[1], room[2], top - ENDS - room[1])
+
+
+def _fitting_scale(xspan: float, yspan_ve: float, room: Box, scale: float | None) -> float:
+    """The scale asked for, or the largest standard one that fits; ParameterError when the
+    section does not fit the room at the scale asked."""
+    from ..errors import ParameterError
+    from .sheet import choose_scale, scale_text
+
+    fit = choose_scale(xspan, yspan_ve, room[2] / MM, room[3] / MM)
     if scale is None:
-        scale = fit
-    elif scale < fit * (1 - 1e-9) and (xspan / scale * 1000 * MM > room[2] * 1.0001
-                                       or yspan * ve / scale * 1000 * MM > room[3] * 1.0001):
+        return fit
+    if scale < fit * (1 - 1e-9) and (xspan / scale * 1000 * MM > room[2] * 1.0001
+                                     or yspan_ve / scale * 1000 * MM > room[3] * 1.0001):
         raise ParameterError(
             f"scale {scale_text(scale)}: the section ({xspan / 1000:.2f} km long) does not fit "
             f"the sheet at that scale; the largest standard scale that fits is "
             f"{scale_text(fit)} (or choose a larger sheet)")
-    aw = xspan / scale * 1000 * MM
-    ah = yspan * ve / scale * 1000 * MM
-    axes = (room[0], top - ENDS - ah, aw, ah)
-    below = axes[1] - 13 * MM
+    return scale
+
+
+def _boxes(side: Box, room: Box, below: float, tb_h: float, lg_h: float, portrait: bool
+           ) -> tuple[Box, Box, Box]:
+    """The location map's, the legend's and the title block's boxes: the legend under the
+    section where there is room for it, else beside (or, portrait, under) it."""
     sl, sb, sw_, sh = side
     floor = sb + sh + GAP if portrait else MARGIN  # the lowest the legend may reach under
     under = below - 8 * MM - floor  # the room left under the section's scale row
@@ -183,8 +212,7 @@ def sheet_layout(width: float, height: float, xspan: float, yspan: float, ve: fl
             inset_s = float(min(sw_, max(free, 40 * MM)))
             inset = (sl, sb + sh - inset_s, sw_, inset_s)
             legend = (sl, sb + tb_h + GAP, sw_, sh - inset_s - tb_h - 2 * GAP)
-    return SheetLayout(width, height, float(scale), axes, room, below, inset, legend, tb,
-                       legend_rows)
+    return inset, legend, tb
 
 
 def tick_segment(d, z, apparent_dip, ve: float, half_length: float):

@@ -154,6 +154,35 @@ def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> 
     FigureCanvasAgg(fig)
     fig.subplots_adjust(bottom=0.33)
     ax = fig.add_subplot()
+    eroded_fills, eroded_beds = _draw_units(ax, r, cols)
+    n_gap, n_overlap = _draw_gaps(ax, r)
+    ax.autoscale_view()
+    _draw_pin_and_loose(ax, r)
+    units_drawn = {u.unit for u in r.units}
+    handles = [Line2D([], [], color=cols.get(u, "#dddddd"), linewidth=6, label=u)
+               for u in (r.column.names if r.column is not None else names) if u in units_drawn]
+    # an older sequence (restored below an unconformity) is eroded at it too
+    where = ("above the ground or the unconformity" if any(
+        w.startswith(("oldest sequence", "middle sequence")) for w in r.reasons)
+        else "above the ground")
+    handles += _line_handles(bool(eroded_beds), bool(eroded_fills), n_gap, n_overlap, where)
+    if handles:
+        ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.22),
+                  fontsize=7, ncol=min(len(handles), 4), frameon=False)
+    ax.set_xlabel("restored distance from the section start (m)")
+    ax.set_ylabel("restored level: m below the top of the column")
+    mm = r.line_length_mismatch_pct
+    ax.set_title(f"{r.section}: flexural-slip restoration (Dahlstrom 1969) - shortening "
+                 f"{r.shortening_pct:.1f} %, line-length spread {mm:.1f} %", fontsize=10,
+                 y=1.0)
+    ax.set_aspect("equal", adjustable="datalim")
+    # Pre-wrapped: matplotlib's own wrapping measures the text word by word on every draw.
+    fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 225)), fontsize=6, color="#444444")
+    return _save(fig, path_stem)
+
+
+def _draw_units(ax, r: Restoration, cols: dict[str, str]) -> tuple[list, list]:
+    """The restored unit fills and beds, eroded parts paler and dashed; those eroded parts."""
     # One collection for all the unit fills and one for all the beds: far fewer artists.
     paths, faces = [], []
     for u in r.units:
@@ -174,8 +203,11 @@ def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> 
     if eroded_beds:
         ax.add_collection(LineCollection(eroded_beds, colors="#777777", linewidths=0.8,
                                          linestyles=(0, (4, 3))), autolim=True)
-    n_gap, n_overlap = _draw_gaps(ax, r)
-    ax.autoscale_view()
+    return eroded_fills, eroded_beds
+
+
+def _draw_pin_and_loose(ax, r: Restoration) -> None:
+    """The pin line and the restored loose line, labelled."""
     ys = [p.restored_elevation_m for p in r.pieces]
     ax.axvline(r.pin_m, color="#b00000", linewidth=1.4)
     ax.annotate("pin", (r.pin_m, max(ys)), textcoords="offset points", xytext=(3, 6),
@@ -186,14 +218,12 @@ def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> 
         ax.plot(x, y, color="#0050b0", linewidth=1.4)
         ax.annotate("restored loose line", (x[0], y[0]), textcoords="offset points",
                     xytext=(3, 6), color="#0050b0", fontsize=9, ha="left")
-    units_drawn = {u.unit for u in r.units}
-    handles = [Line2D([], [], color=cols.get(u, "#dddddd"), linewidth=6, label=u)
-               for u in (r.column.names if r.column is not None else names) if u in units_drawn]
-    handles.append(Line2D([], [], color="black", linewidth=0.8, label="bed, preserved"))
-    # an older sequence (restored below an unconformity) is eroded at it too
-    where = ("above the ground or the unconformity" if any(
-        w.startswith(("oldest sequence", "middle sequence")) for w in r.reasons)
-        else "above the ground")
+
+
+def _line_handles(eroded_beds: bool, eroded_fills: bool, n_gap: int, n_overlap: int,
+                  where: str = "above the ground") -> list:
+    """The legend's entries after the units: beds, eroded rock, gaps and overlaps."""
+    handles: list = [Line2D([], [], color="black", linewidth=0.8, label="bed, preserved")]
     if eroded_beds:
         handles.append(Line2D([], [], color="#777777", linewidth=0.8, linestyle=(0, (4, 3)),
                               label=f"bed eroded ({where}; projected, never observed)"))
@@ -206,18 +236,11 @@ def draw_restoration(restoration: Restoration, path_stem: str | os.PathLike) -> 
     if n_overlap:
         handles.append(Patch(facecolor="#f4b6b6", edgecolor="#b00000", hatch="xxx",
                              label="overlap between fault blocks (m)"))
-    if handles:
-        ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.22),
-                  fontsize=7, ncol=min(len(handles), 4), frameon=False)
-    ax.set_xlabel("restored distance from the section start (m)")
-    ax.set_ylabel("restored level: m below the top of the column")
-    mm = r.line_length_mismatch_pct
-    ax.set_title(f"{r.section}: flexural-slip restoration (Dahlstrom 1969) - shortening "
-                 f"{r.shortening_pct:.1f} %, line-length spread {mm:.1f} %", fontsize=10,
-                 y=1.0)
-    ax.set_aspect("equal", adjustable="datalim")
-    # Pre-wrapped: matplotlib's own wrapping measures the text word by word on every draw.
-    fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 225)), fontsize=6, color="#444444")
+    return handles
+
+
+def _save(fig: Figure, path_stem: str | os.PathLike) -> list[Path]:
+    """The figure as ``<stem>.png``, ``.svg`` and ``.pdf``, each written whole or not at all."""
     out = []
     # Text stays text in the SVG (searchable, and no glyph outlines to write).
     with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}):

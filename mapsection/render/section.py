@@ -49,6 +49,7 @@ from .._atomic import atomic_file
 from ..caution import CAUTION
 from ..draft import Draft
 from ..errors import ParameterError
+from ..extent import location_view_limit
 from ..mapdata import MapData
 from . import colours as C
 from .layout import (
@@ -71,7 +72,7 @@ from .layout import (
     tick_segment,
     ve_text,
 )
-from .shapes import lines_xy, polygon_path
+from .shapes import lines_xy, polygon_path, polygons_path
 from .sheet import SheetOptions, TitleInfo, scale_text, sheet_size_mm
 
 matplotlib.use("Agg")  # headless: figures are only ever written to files
@@ -863,9 +864,12 @@ def _inset_units(iax, map_data: MapData, palette: dict[str, str],
         tol = (xmax - xmin) / 1500.0
         clipped = shapely.clip_by_rect(shapely.simplify(geoms[idx], tol, preserve_topology=False),
                                        xmin, ymin, xmax, ymax)
+        # One compound path per unit: a map of thousands of polygons is a handful of
+        # artists, built and written without a Python loop over the polygons.
         patches, faces = [], []
-        for g, nm in zip(clipped, names[idx], strict=True):
-            path = polygon_path(g)
+        shown = names[idx]
+        for nm in dict.fromkeys(shown):
+            path = polygons_path(clipped[shown == nm])
             if path is not None:
                 patches.append(PathPatch(path))
                 faces.append(palette.get(nm, "#dddddd"))
@@ -885,8 +889,13 @@ def _inset_faults(iax, map_data: MapData, bounds: tuple[float, float, float, flo
         ddir = _column(faults, ff.get("dip_direction", "dip_direction"))
         size = 0.02 * max(xmax - xmin, ymax - ymin)
         tris, bars, balls = [], [], []
-        for k, g in enumerate(faults.geometry.values):
-            if g is None or g.is_empty or not g.intersects(box):
+        geoms = faults.geometry.values
+        # Only the faults in view, from the map's index (not a test of every fault).
+        shown = ([] if map_data.fault_tree is None
+                 else np.sort(map_data.fault_tree.query(box, predicate="intersects")))
+        for k in shown:
+            g = geoms[k]
+            if g is None or g.is_empty:
                 continue
             for xy in lines_xy(g):
                 iax.plot(xy[:, 0], xy[:, 1], color="black", linewidth=1.2)
@@ -921,18 +930,20 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
     ah = min(height - mb - mt, 1.4 * aw)  # not much taller than wide: kept around the line
     line = draft.line
     v = line.vertices
-    # The line with a margin, widened to the panel's shape: the whole panel is map.
+    # The line with a margin, widened to the panel's shape: the whole panel is map. The
+    # widening stops at a limit known before the sheet is laid out (a build reads the map
+    # only that far: mapsection.extent); the panel then shrinks to the view.
     lo, hi = v.min(axis=0), v.max(axis=0)
-    centre = (lo + hi) / 2
-    half = (hi - lo) / 2 + 0.12 * line.length
+    centre, half, reach = location_view_limit(v)
     if half[0] / half[1] < aw / ah:
         half[0] = half[1] * aw / ah
     else:
         half[1] = half[0] * ah / aw
+    half = np.minimum(half, reach)
     # Kept on the map: where the map is smaller than that, the panel shrinks to it (no
     # white strips beyond the map's edge), keeping the whole line in view.
     if len(map_data.unit_geoms):
-        mb_ = shapely.total_bounds(map_data.unit_geoms)
+        mb_ = map_data.layer_bounds()
         for k in range(2):
             m_lo, m_hi = mb_[k], mb_[k + 2]
             if m_hi - m_lo >= 2 * half[k]:
@@ -941,10 +952,10 @@ def _inset(fig: Figure, draft: Draft, map_data: MapData, palette: dict[str, str]
                 a_lo = min(m_lo, lo[k] - 0.03 * line.length)
                 a_hi = max(m_hi, hi[k] + 0.03 * line.length)
                 centre[k], half[k] = (a_lo + a_hi) / 2, min(half[k], (a_hi - a_lo) / 2)
-        if half[0] / half[1] > aw / ah:
-            ah = aw * half[1] / half[0]
-        else:
-            aw = ah * half[0] / half[1]
+    if half[0] / half[1] > aw / ah:
+        ah = aw * half[1] / half[0]
+    else:
+        aw = ah * half[0] / half[1]
     bottom += height - (ah + mb + mt)
     iax = fig.add_axes(((left + ml) / W, (bottom + mb) / H, aw / W, ah / H))
     xmin, ymin = centre - half

@@ -16,14 +16,18 @@ from __future__ import annotations
 import math
 import os
 import textwrap
+from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
+from matplotlib.axes import Axes
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.collections import LineCollection, PolyCollection
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Rectangle
+from matplotlib.text import Text
 from PIL import Image
 
 from .._atomic import atomic_file
@@ -116,9 +120,45 @@ def write_sequence(frames: list[Frame], folder: str | os.PathLike, *,
     order = {n: i for i, n in enumerate(column.names)} if column is not None else {
         n: i for i, n in enumerate(names)}
     n = len(frames) - 1
-
-    x0, x1, y0, y1 = _limits(frames, ground)
     ve = float(ve) if ve and math.isfinite(ve) and ve > 0 else 1.0
+    legend = [(u, cols[u]) for u in (column.names if column is not None else names) if u in cols]
+    art = _background(_limits(frames, ground), ve, ground, legend)
+
+    paths, images = [], []
+    for fr in frames:
+        rgb = _draw_frame(art, fr, order, cols,
+                          f"{'Section ' + title + ':  ' if title else ''}step {fr.step} of "
+                          f"{n}  ({100 * fr.fraction:.0f} % of the deformation)")
+        path = folder / f"sequence_{fr.step + 1:02d}.png"
+        with atomic_file(path) as tmp:
+            rgb.save(tmp, format="PNG", compress_level=3)
+        paths.append(path)
+        # Few flat colours: the fast octree palette loses nothing visible here.
+        images.append(rgb.quantize(256, method=Image.Quantize.FASTOCTREE))
+    paths.append(_save_gif(images, folder / "sequence.gif", duration_ms))
+    return paths
+
+
+@dataclass
+class _Frames:
+    """One figure drawn once, and the artists each frame redraws onto its background."""
+
+    canvas: FigureCanvasAgg
+    ax: Axes
+    fills: PolyCollection
+    beds: LineCollection
+    faults: LineCollection
+    head: Text
+    bar: Rectangle
+    ground_line: list
+    background: Any
+
+
+def _background(limits: tuple[float, float, float, float], ve: float,
+                ground: tuple[np.ndarray, np.ndarray] | None,
+                units: list[tuple[str, str]]) -> _Frames:
+    """The figure with what every frame shares (axes, ground, legend, caution), drawn once."""
+    x0, x1, y0, y1 = limits
     ax_h = float(np.clip(_AX_W * (y1 - y0) * ve / max(x1 - x0, 1.0), 1.2, 5.0))
     fig_h = _TOP + ax_h + _BOTTOM
     fig = Figure(figsize=(FRAME_WIDTH_IN, fig_h), dpi=FRAME_DPI)
@@ -134,27 +174,7 @@ def write_sequence(frames: list[Frame], folder: str | os.PathLike, *,
     if ground is not None:  # drawn over the fills in every frame
         ground_line = ax.plot(ground[0], ground[1], color="#3b2a1a", linewidth=1.2,
                               linestyle=(0, (4, 2)), zorder=4, animated=True)
-    # Legend: the units (youngest first) and the lines.
-    lx = (_AX_LEFT + _AX_W + 0.2) / FRAME_WIDTH_IN
-    legend_units = [u for u in (column.names if column is not None else names) if u in cols]
-    pitch = 0.17 / fig_h
-    y = 1 - _TOP / fig_h
-    fig.text(lx, y, "Legend", fontsize=8, fontweight="bold", va="top")
-    rows = [(u, cols[u]) for u in legend_units] + [("fault", None), ("present ground", "g")]
-    for k, (label, colour) in enumerate(rows):
-        yy = y - (k + 1.3) * pitch
-        if colour is None or colour == "g":
-            style = {"color": "black", "linewidth": 1.8} if colour is None else {
-                "color": "#3b2a1a", "linewidth": 1.0, "linestyle": (0, (4, 2))}
-            fig.add_artist(Line2D(
-                [lx, lx + 0.025], [yy, yy], transform=fig.transFigure, **style))
-        else:
-            fig.add_artist(Rectangle((lx, yy - 0.35 * pitch), 0.025, 0.7 * pitch,
-                                     transform=fig.transFigure, facecolor=colour,
-                                     edgecolor="#333333", linewidth=0.4))
-        fig.text(lx + 0.032, yy, label[:28], fontsize=7, va="center")
-    ve_label = "V.E. 1:1" if math.isclose(ve, 1.0) else f"V.E. {ve:g}×"
-    fig.text(lx, y - (len(rows) + 2) * pitch, ve_label, fontsize=7, va="center")
+    _legend(fig, fig_h, units, ve)
     # Pre-wrapped: matplotlib's own wrapping measures the text word by word on every draw.
     fig.text(0.01, 0.01, "CAUTION: " + "\n".join(textwrap.wrap(CAUTION, 170)), fontsize=6.5,
              color="#333333", va="bottom")
@@ -173,33 +193,51 @@ def write_sequence(frames: list[Frame], folder: str | os.PathLike, *,
                              facecolor="none", edgecolor="#1a1a8c", linewidth=0.8))
     fig.add_artist(bar)
     canvas.draw()  # the static background, once
-    background = canvas.copy_from_bbox(fig.bbox)
-    renderer = canvas.get_renderer()
+    return _Frames(canvas, ax, fills, beds, faults, head, bar, ground_line,
+                   canvas.copy_from_bbox(fig.bbox))
 
-    paths, images = [], []
-    for fr in frames:
-        canvas.restore_region(background)
-        polys, units = _fills(fr, order)
-        fills.set_verts(polys)
-        fills.set_facecolor([cols.get(u, "#dddddd") for u in units])
-        beds.set_segments([line_xy(h.geometry) for h in fr.horizons])
-        faults.set_segments([line_xy(g) for g in fr.faults])
-        head.set_text(f"{'Section ' + title + ':  ' if title else ''}step {fr.step} of {n}  "
-                      f"({100 * fr.fraction:.0f} % of the deformation)")
-        bar.set_width(2.0 / FRAME_WIDTH_IN * fr.fraction)
-        for artist in (fills, beds, faults, *ground_line):
-            ax.draw_artist(artist)
-        for artist in (head, bar):
-            artist.draw(renderer)
-        rgb = Image.fromarray(np.asarray(canvas.buffer_rgba())[..., :3].copy(), "RGB")
-        path = folder / f"sequence_{fr.step + 1:02d}.png"
-        with atomic_file(path) as tmp:
-            rgb.save(tmp, format="PNG", compress_level=3)
-        paths.append(path)
-        # Few flat colours: the fast octree palette loses nothing visible here.
-        images.append(rgb.quantize(256, method=Image.Quantize.FASTOCTREE))
-    paths.append(_save_gif(images, folder / "sequence.gif", duration_ms))
-    return paths
+
+def _legend(fig: Figure, fig_h: float, units: list[tuple[str, str]], ve: float) -> None:
+    """Beside the section: the units (youngest first), the lines, the vertical exaggeration."""
+    lx = (_AX_LEFT + _AX_W + 0.2) / FRAME_WIDTH_IN
+    pitch = 0.17 / fig_h
+    y = 1 - _TOP / fig_h
+    fig.text(lx, y, "Legend", fontsize=8, fontweight="bold", va="top")
+    rows = [*units, ("fault", None), ("present ground", "g")]
+    for k, (label, colour) in enumerate(rows):
+        yy = y - (k + 1.3) * pitch
+        if colour is None or colour == "g":
+            style = {"color": "black", "linewidth": 1.8} if colour is None else {
+                "color": "#3b2a1a", "linewidth": 1.0, "linestyle": (0, (4, 2))}
+            fig.add_artist(Line2D(
+                [lx, lx + 0.025], [yy, yy], transform=fig.transFigure, **style))
+        else:
+            fig.add_artist(Rectangle((lx, yy - 0.35 * pitch), 0.025, 0.7 * pitch,
+                                     transform=fig.transFigure, facecolor=colour,
+                                     edgecolor="#333333", linewidth=0.4))
+        fig.text(lx + 0.032, yy, label[:28], fontsize=7, va="center")
+    ve_label = "V.E. 1:1" if math.isclose(ve, 1.0) else f"V.E. {ve:g}×"
+    fig.text(lx, y - (len(rows) + 2) * pitch, ve_label, fontsize=7, va="center")
+
+
+def _draw_frame(art: _Frames, fr: Frame, order: dict[str, int], cols: dict[str, str],
+                heading: str) -> Image.Image:
+    """One frame drawn onto the shared background: its pixels as an RGB image."""
+    canvas = art.canvas
+    canvas.restore_region(art.background)
+    polys, units = _fills(fr, order)
+    art.fills.set_verts(polys)
+    art.fills.set_facecolor([cols.get(u, "#dddddd") for u in units])
+    art.beds.set_segments([line_xy(h.geometry) for h in fr.horizons])
+    art.faults.set_segments([line_xy(g) for g in fr.faults])
+    art.head.set_text(heading)
+    art.bar.set_width(2.0 / FRAME_WIDTH_IN * fr.fraction)
+    for artist in (art.fills, art.beds, art.faults, *art.ground_line):
+        art.ax.draw_artist(artist)
+    renderer = canvas.get_renderer()
+    for artist in (art.head, art.bar):
+        artist.draw(renderer)
+    return Image.fromarray(np.asarray(canvas.buffer_rgba())[..., :3].copy(), "RGB")
 
 
 def _save_gif(images: list[Image.Image], path: Path, duration_ms: int) -> Path:

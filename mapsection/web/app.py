@@ -30,7 +30,8 @@ from starlette.routing import Mount, Route
 from starlette.staticfiles import StaticFiles
 
 from ..errors import MapsectionError
-from .api import RequestError, ViewState
+from .api import ViewState
+from .payload import RequestError
 
 STATIC = Path(__file__).resolve().parent / "static"
 LOOPBACK = frozenset({"127.0.0.1", "localhost"})
@@ -91,65 +92,82 @@ async def _json_body(request: Request) -> Any:
         raise RequestError(f"request body: not valid JSON ({exc})"[:300]) from None
 
 
+# --- endpoints: each reads the served project from the app's state -------------------------
+def _state(request: Request) -> ViewState:
+    return request.app.state.view
+
+
+async def _page(request: Request) -> Response:
+    return FileResponse(STATIC / "index.html", headers={"Cache-Control": "no-store"})
+
+
+async def _project(request: Request) -> Response:
+    return JSONResponse(await run_in_threadpool(_state(request).project_info))
+
+
+def _geojson(method: str):
+    """An endpoint answering the GeoJSON bytes of ViewState's ``method``."""
+    async def endpoint(request: Request) -> Response:
+        body = await run_in_threadpool(getattr(_state(request), method))
+        return Response(body, media_type="application/geo+json")
+    return endpoint
+
+
+async def _hillshade(request: Request) -> Response:
+    png, bounds = await run_in_threadpool(_state(request).hillshade)
+    return Response(png, media_type="image/png",
+                    headers={"X-Bounds": json.dumps(bounds),
+                             "Cache-Control": "private, max-age=3600"})
+
+
+def _post(method: str):
+    """An endpoint answering ViewState's ``method`` of the request's JSON body."""
+    async def endpoint(request: Request) -> Response:
+        payload = await _json_body(request)
+        return JSONResponse(await run_in_threadpool(getattr(_state(request), method), payload))
+    return endpoint
+
+
+async def _report(request: Request) -> Response:
+    name = request.query_params.get("section", "")
+    path = _state(request).reports.get(name)
+    if path is None or not path.is_file():
+        return _error(f"section {name!r}: no report built from this page yet", 404)
+    return FileResponse(path, media_type="text/html")
+
+
+# --- errors: one JSON message each -------------------------------------------------------
+async def _on_request_error(request: Request, exc: RequestError) -> Response:
+    return _error(str(exc), exc.status)
+
+
+async def _on_input_error(request: Request, exc: MapsectionError) -> Response:
+    return _error(str(exc), 422)
+
+
+async def _on_other(request: Request, exc: Exception) -> Response:
+    first = str(exc).splitlines()[0] if str(exc) else ""
+    return _error(f"internal error: {type(exc).__name__}: {first}", 500)
+
+
 def create_app(state: ViewState, token: str) -> Starlette:
     """The application serving ``state``; requests must carry ``token``."""
-
-    async def page(request: Request) -> Response:
-        return FileResponse(STATIC / "index.html", headers={"Cache-Control": "no-store"})
-
-    async def project(request: Request) -> Response:
-        return JSONResponse(await run_in_threadpool(state.project_info))
-
-    def geojson(fn):
-        async def endpoint(request: Request) -> Response:
-            body = await run_in_threadpool(fn)
-            return Response(body, media_type="application/geo+json")
-        return endpoint
-
-    async def hillshade(request: Request) -> Response:
-        png, bounds = await run_in_threadpool(state.hillshade)
-        return Response(png, media_type="image/png",
-                        headers={"X-Bounds": json.dumps(bounds),
-                                 "Cache-Control": "private, max-age=3600"})
-
-    def post(fn):
-        async def endpoint(request: Request) -> Response:
-            payload = await _json_body(request)
-            return JSONResponse(await run_in_threadpool(fn, payload))
-        return endpoint
-
-    async def report(request: Request) -> Response:
-        name = request.query_params.get("section", "")
-        path = state.reports.get(name)
-        if path is None or not path.is_file():
-            return _error(f"section {name!r}: no report built from this page yet", 404)
-        return FileResponse(path, media_type="text/html")
-
-    async def on_request_error(request: Request, exc: RequestError) -> Response:
-        return _error(str(exc), exc.status)
-
-    async def on_input_error(request: Request, exc: MapsectionError) -> Response:
-        return _error(str(exc), 422)
-
-    async def on_other(request: Request, exc: Exception) -> Response:
-        first = str(exc).splitlines()[0] if str(exc) else ""
-        return _error(f"internal error: {type(exc).__name__}: {first}", 500)
-
     routes = [
-        Route("/", page),
-        Route("/api/project", project),
-        Route("/api/map/units", geojson(state.units_geojson)),
-        Route("/api/map/faults", geojson(state.faults_geojson)),
-        Route("/api/map/attitudes", geojson(state.attitudes_geojson)),
-        Route("/api/map/hillshade.png", hillshade),
-        Route("/api/section", post(state.section), methods=["POST"]),
-        Route("/api/save", post(state.save), methods=["POST"]),
-        Route("/api/build", post(state.build), methods=["POST"]),
-        Route("/api/report", report),
+        Route("/", _page),
+        Route("/api/project", _project),
+        Route("/api/map/units", _geojson("units_geojson")),
+        Route("/api/map/faults", _geojson("faults_geojson")),
+        Route("/api/map/attitudes", _geojson("attitudes_geojson")),
+        Route("/api/map/hillshade.png", _hillshade),
+        Route("/api/section", _post("section"), methods=["POST"]),
+        Route("/api/save", _post("save"), methods=["POST"]),
+        Route("/api/build", _post("build"), methods=["POST"]),
+        Route("/api/report", _report),
         Mount("/static", StaticFiles(directory=STATIC), name="static"),
     ]
     app = Starlette(routes=routes, exception_handlers={
-        RequestError: on_request_error, MapsectionError: on_input_error, Exception: on_other})
+        RequestError: _on_request_error, MapsectionError: _on_input_error,
+        Exception: _on_other})
     app.state.view = state
     # Outermost: the guard sees every request first, errors included.
     return GuardMiddleware(app, token)
