@@ -157,9 +157,26 @@ def build_section(project: Project, spec: SectionSpec | str, *, method: str | No
 
 def _build_section(project: Project, spec: SectionSpec, warn: Warn | None,
                    inputs: ProjectInputs | None, timings: dict[str, float] | None) -> Draft:
-    from .construct import build_draft
-
     warn = warn or _default_warn
+    args = _section_data(project, spec, warn, inputs, timings)
+    return _construct(*args, warn=warn, timings=timings)
+
+
+@dataclass(eq=False)
+class _SectionData:
+    """What a section's construction needs once the inputs are read: the project (with
+    its thicknesses resolved), the section and its data."""
+
+    project: Project
+    spec: SectionSpec
+    data: Any  # mapsection.session.SectionData
+    plunge_axis: tuple[float, float] | None
+
+
+def _section_data(project: Project, spec: SectionSpec, warn: Warn,
+                  inputs: ProjectInputs | None, timings: dict[str, float] | None
+                  ) -> tuple[_SectionData]:
+    """The section's data (profile, surface geology, dips, contacts beside the line)."""
     with _stage(timings, "section data"):
         own = inputs is None
         inputs = load_inputs(project, warn, [spec]) if own else inputs
@@ -167,21 +184,29 @@ def _build_section(project: Project, spec: SectionSpec, warn: Warn | None,
             project = resolve_map_thicknesses(project, inputs, warn)  # thickness = "map"
             session = SectionSession.from_inputs(inputs, project, spec, warn)
             data = session.run()
-            beside = data.corridor_contacts  # found while the inputs are open
+            _ = data.corridor_contacts  # found while the inputs are open
         finally:
             if own:
                 inputs.close()
     plunge_axis = spec.fold_axis
     if plunge_axis is None and session.axis is not None:
         plunge_axis = (float(session.axis.trend), float(session.axis.plunge))
+    return (_SectionData(project, spec, data, plunge_axis),)
+
+
+def _construct(sd: _SectionData, *, warn: Warn, timings: dict[str, float] | None) -> Draft:
+    """The section's draft from its data (no file is read)."""
+    from .construct import build_draft
+
+    project, spec, data = sd.project, sd.spec, sd.data
     with _stage(timings, "construction"):
         return build_draft(
             data.line, data.profile, data.geology, data.dips, project.column,
             name=spec.name, method=spec.method, ve=spec.ve,
             dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
             default_dip=spec.default_dip, keep_readings=project.keep_readings,
-            corridor_contacts=beside, plunge_axis=plunge_axis, faults=project.faults,
-            default_fault_dip=project.default_fault_dip, warn=warn)
+            corridor_contacts=data.corridor_contacts, plunge_axis=sd.plunge_axis,
+            faults=project.faults, default_fault_dip=project.default_fault_dip, warn=warn)
 
 
 def write_build_log(draft: Draft, path: Path, warnings: list[str] = (),
@@ -289,7 +314,6 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     folder is there and is not a previous build (see :mod:`mapsection.outputs`).
     """
     from .outputs import check_build_target, check_output, project_inputs
-    from .render.section import plan_sheet
     from .render.sheet import parse_scale, sheet_name
 
     if sheet is not None:
@@ -360,25 +384,17 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                 for spec, target in zip(specs, targets, strict=True):
                     said: list[str] = list(column_said)
                     with reporting(progress, spec.name):
-                        draft = build_section(project, spec,
-                                              warn=_section_warn(warn, spec.name, said),
-                                              inputs=inputs, timings=timings)
-                    options = sheet_options(spec, draft, sheet=sheet, scale=scale,
-                                            portrait=portrait)
-                    try:  # the section fits its sheet, or the build stops here
-                        plan_sheet(draft, options, info)
-                    except ParameterError as exc:
-                        raise ParameterError(f"section {spec.name}: {options.sheet} sheet: "
-                                             f"{exc}") from None
+                        (sd,) = _section_data(project, spec,
+                                              _section_warn(warn, spec.name, said), inputs,
+                                              timings)
                     tmp = folders_in_progress.enter_context(atomic_dir(target))
-                    xy = _nearby_attitudes(inputs.attitudes, draft.line, spec.corridor)
-                    jobs.append(_Job(tmp, draft, project, spec, said, target, xy, options,
-                                     info))
+                    jobs.append(_Job(tmp, None, project, spec, said, target, None, None, info,
+                                     sd, inputs.attitudes, (sheet, scale, portrait)))
             finally:
                 # Closed before any fork: no GDAL file handle is shared with a worker.
                 inputs.close()
-            for job, said, job_timings, figures in _run_jobs(jobs, inputs.map_data, workers,
-                                                             progress):
+            for job, said, job_timings, figures in _run_jobs(jobs, inputs.map_data,
+                                                             _workers(workers), progress):
                 for message in said[len(job.said):]:  # the checks' warnings, said in a worker
                     warn(_named(message, job.spec.name))
                 if timings is not None:
@@ -409,6 +425,50 @@ class _Job:
     attitude_xy: Any = None  # attitudes near the line, for a failed test's diagnosis
     sheet: Any = None
     info: Any = None
+    data: _SectionData | None = None  # the draft is constructed from it (in the worker)
+    attitudes: Any = None
+    options: tuple = (None, None, None)  # the command line's sheet, scale and portrait
+
+
+WORKERS_ENV = "MAPSECTION_WORKERS"
+
+
+def _workers(workers: int | None) -> int:
+    """How many sections are built at once: ``workers``, else the MAPSECTION_WORKERS
+    environment variable, else one per CPU core."""
+    import os
+
+    if workers is None:
+        text = os.environ.get(WORKERS_ENV, "").strip()
+        if text:
+            try:
+                workers = int(text)
+            except ValueError:
+                raise ParameterError(f"{WORKERS_ENV}={text!r}: not a whole number of "
+                                     "workers") from None
+    if workers is not None and workers < 1:
+        raise ParameterError(f"workers: {workers}: must be 1 or more")
+    return workers or os.cpu_count() or 1
+
+
+def _prepare(job: _Job, said: list[str], timings: dict[str, float]) -> None:
+    """Construct the job's draft (where it runs: in a worker when built in parallel), check
+    that it fits its sheet, and find the attitudes near its line."""
+    from .render.section import plan_sheet
+
+    if job.data is None:
+        return
+    spec = job.spec
+    draft = _construct(job.data, warn=said.append, timings=timings)  # named by the parent
+    sheet, scale, portrait = job.options
+    options = sheet_options(spec, draft, sheet=sheet, scale=scale, portrait=portrait)
+    try:  # the section fits its sheet, or the build stops here
+        plan_sheet(draft, options, job.info)
+    except ParameterError as exc:
+        raise ParameterError(f"section {spec.name}: {options.sheet} sheet: {exc}") from None
+    job.draft, job.sheet = draft, options
+    job.attitude_xy = _nearby_attitudes(job.attitudes, draft.line, spec.corridor)
+    job.data = None
 
 
 def _nearby_attitudes(attitudes, line, corridor_m: float):
@@ -439,6 +499,7 @@ def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], K
 
     said = list(job.said)
     timings: dict[str, float] = {}
+    _prepare(job, said, timings)
     # The checks first: the figure marks a failed draft and its misfits.
     with _stage(timings, "checks"):
         report = run_checks(job.draft, job.project.thresholds, pin=job.spec.pin,
@@ -500,8 +561,9 @@ def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None,
         return
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
-    # Import the drawing and writing code once, here, so that workers inherit it.
-    from . import checks, export  # noqa: F401
+    # Import the construction, drawing and writing code once, here, so that workers
+    # inherit it.
+    from . import checks, construct, export  # noqa: F401
     from .render import area_depth, report, restoration, section, section_folder  # noqa: F401
     from .render import sequence as render_sequence  # noqa: F401
 

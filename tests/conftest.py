@@ -627,3 +627,47 @@ def section_to_map(line, d):
     (ax, ay), (bx, by) = np.asarray(line.vertices, float)[[0, -1]]
     t = np.asarray(d, float) / math.hypot(bx - ax, by - ay)
     return ax + t * (bx - ax), ay + t * (by - ay)
+# --- a long train of kink folds (construction cost along long lines) ------------------
+
+TRAIN_COLUMN = Column((Unit("Ash", 200.0), Unit("Bay", 300.0), Unit("Cob", 400.0),
+                       Unit("Dun", 500.0), Unit("Eld", 600.0), Unit("Fen", 600.0)))
+
+
+def fold_train(length: float, half: float = 2500.0, spacing: float = 500.0,
+               dip: float = 30.0, noise: float = 1.5, seed: int = 0):
+    """Kink folds (limbs ±``dip``, axial surfaces every ``half`` m) under flat ground
+    at 0 m along a straight line of ``length`` m: a dip every ``spacing`` m (none within
+    300 m of a hinge) with uniform noise of ±``noise`` degrees, and the map contacts
+    where the tops of TRAIN_COLUMN meet the ground (Suppe 1985 kink geometry: the
+    stratigraphic depth at the ground changes by sin(dip) per metre along a limb).
+    Returns (line, profile, geology, dips)."""
+    line = SectionLine(np.array([[0.0, 0.0], [length, 0.0]]), name="K")
+    d = np.arange(0.0, length + 5.0, 10.0)
+    prof = Profile(d, d, np.zeros_like(d), np.zeros_like(d), line, None, 10.0)
+    sn = math.sin(math.radians(dip))
+
+    def phase(x):
+        return np.mod(x, 2 * half) / half  # 0..1 the depth rises, 1..2 it falls
+
+    xs = np.arange(spacing / 2, length, spacing)
+    ph = phase(xs)
+    xs = xs[np.abs(ph - np.round(ph)) * half >= 300.0]
+    ph = phase(xs)
+    rng = np.random.default_rng(seed)
+    apparent = np.where(ph < 1, -dip, dip) + rng.uniform(-noise, noise, len(xs))
+    k = len(xs)
+    z = np.zeros(k)
+    dips = ProjectedDips(np.arange(k), xs, z, xs, z, z, z, np.abs(apparent), apparent,
+                         np.zeros(k, bool), np.zeros(k, bool))
+    pd = phase(d)
+    s = 300.0 + sn * half * np.where(pd < 1, pd, 2 - pd)
+    tops = TRAIN_COLUMN.depth_to_top
+    names = TRAIN_COLUMN.names
+    idx = np.searchsorted(tops, s, side="right") - 1
+    contacts = []
+    for i in np.flatnonzero(np.diff(idx) != 0):
+        top = tops[max(idx[i], idx[i + 1])]
+        x = d[i] + (top - s[i]) / (s[i + 1] - s[i]) * (d[i + 1] - d[i])
+        contacts.append(Contact(float(x), 0.0, names[idx[i]], names[idx[i + 1]]))
+    geology = SurfaceGeology((UnitInterval(0.0, length, names[idx[0]]),), tuple(contacts), ())
+    return line, prof, geology, dips

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 import shapely
 
+from mapsection.construct import arc as arc_module
 from mapsection.construct import base_name, build_draft
 from mapsection.construct.arc import ArcModel
 from mapsection.construct.constraints import contact_constraints
@@ -238,3 +239,98 @@ def test_sample_sections_with_arc_pass_topography_and_recover_the_model():
         assert np.median(err) < 0.10 * thinnest, spec.name
         assert np.percentile(err, 90) < 0.15 * thinnest, spec.name
         assert all(h.geometry.is_simple for h in draft.horizons)
+
+
+class _ChainBySector:
+    """The arc chain built one sector after the other (the plain form of Busk's
+    construction, as the module did before its sectors were solved in one batch)."""
+
+    def __init__(self, q, phi) -> None:  # put in place of _Chain.__init__
+        from mapsection.angles import wrap180
+        from mapsection.construct.domains import unit_vectors
+
+        self.q = np.asarray(q, float).reshape(-1, 2)
+        self.phi = np.asarray(phi, float)
+        self.t, self.n = unit_vectors(self.phi)
+        m = len(self.q)
+        k = max(m - 1, 0)
+        self.kind = []
+        self.centre = np.full((k, 2), np.nan)
+        self.mu, self.nu = np.zeros(k), np.zeros(k)
+        self.e, self.e2 = np.ones(k), np.ones(k)
+        self.nbar = np.zeros((k, 2))
+        lam = np.zeros(m)
+        for i in range(k):
+            dphi = float(wrap180(self.phi[i + 1] - self.phi[i]))
+            dq = self.q[i + 1] - self.q[i]
+            straight = abs(dphi) < arc_module._STRAIGHT_DEG
+            if not straight:
+                mu, nu = np.linalg.solve(np.column_stack([self.n[i], -self.n[i + 1]]), dq)
+                straight = np.sign(mu) != np.sign(nu) or mu == 0
+            nbar = self.n[i] + self.n[i + 1]
+            self.nbar[i] = nbar / np.hypot(*nbar)
+            if straight:
+                self.kind.append("straight")
+                lam[i + 1] = lam[i] - self.nbar[i] @ dq
+                continue
+            self.kind.append("arc")
+            self.mu[i], self.nu[i] = mu, nu
+            self.centre[i] = self.q[i] + mu * self.n[i]
+            self.e[i], self.e2[i] = np.sign(-mu), np.sign(-nu)
+            lam[i + 1] = lam[i] - mu + nu
+        self.is_arc = np.array([kd == "arc" for kd in self.kind], bool)
+        self.lam = lam
+
+
+def _trim_all_pairs(p):
+    """Loops cut by testing every pair of segments (the plain form of the trim)."""
+    cusps = []
+    for _ in range(len(p)):
+        a, v = p[:-1], np.diff(p, axis=0)
+        n = len(a)
+        if n < 3:
+            break
+        den = v[:, None, 0] * v[None, :, 1] - v[:, None, 1] * v[None, :, 0]
+        dx = a[None, :, :] - a[:, None, :]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = (dx[..., 0] * v[None, :, 1] - dx[..., 1] * v[None, :, 0]) / den
+            u = (dx[..., 0] * v[:, None, 1] - dx[..., 1] * v[:, None, 0]) / den
+        eps = 1e-9
+        hit = (np.abs(den) > 1e-12) & (t > eps) & (t < 1 - eps) & (u > eps) & (u < 1 - eps)
+        hit &= np.triu(np.ones((n, n), bool), 2)
+        if not hit.any():
+            break
+        i = int(np.flatnonzero(hit.any(axis=1))[0])
+        j = int(np.flatnonzero(hit[i])[-1])
+        x = a[i] + t[i, j] * v[i]
+        p = np.vstack([p[:i + 1], x[None, :], p[j + 1:]])
+        cusps = [c if c <= i else c - (j - i - 1) for c in cusps if c <= i or c > j]
+        cusps.append(i + 1)
+    return p, sorted(cusps)
+
+
+def test_long_fold_train_gives_the_horizons_of_the_plain_construction(monkeypatch):
+    # A 20 km train of kink folds (8 hinges, 24 contacts): the batched sectors and the
+    # indexed loop trimming give the horizons of the sector-by-sector chain and the
+    # all-pairs trim (the plain construction, Busk 1929) within 1e-6 m.
+    from conftest import TRAIN_COLUMN, fold_train
+
+    line, prof, geology, dips = fold_train(20_000.0)
+
+    def horizons():
+        draft = build_draft(line, prof, geology, dips, TRAIN_COLUMN, method="arc",
+                            depth=3000.0, dip_tolerance=5.0)
+        return draft, [(h.top_of, h.above_ground, shapely.get_coordinates(h.geometry))
+                       for h in draft.horizons]
+
+    fast, got = horizons()
+    with monkeypatch.context() as m:
+        m.setattr(arc_module._Chain, "__init__", _ChainBySector.__init__)
+        m.setattr(arc_module, "_trim_loops", _trim_all_pairs)
+        plain, want = horizons()
+    assert len(got) == len(want) > 20
+    for (name, above, xy), (name0, above0, xy0) in zip(got, want, strict=True):
+        assert (name, above) == (name0, above0)
+        assert xy.shape == xy0.shape
+        assert np.abs(xy - xy0).max() <= 1e-6
+    assert fast.log == plain.log

@@ -12,8 +12,10 @@ import json
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
+import numpy as np
 import pyogrio
 import pytest
+import shapely
 from click.testing import CliRunner
 from PIL import Image
 
@@ -214,6 +216,48 @@ def test_parallel_writing_gives_the_same_outputs(built, tmp_path):
         assert a == b
         assert {p.relative_to(serial / name) for p in (serial / name).rglob("*")} == \
             {p.relative_to(out / name) for p in (out / name).rglob("*")}
+        # the drafts were constructed in the workers too: the same horizons (pyogrio
+        # reads them back), within 1e-6 m
+        h0 = pyogrio.read_dataframe(serial / name / "section.gpkg", layer="horizons")
+        h1 = pyogrio.read_dataframe(out / name / "section.gpkg", layer="horizons")
+        assert list(h0["top_of"]) == list(h1["top_of"]) and len(h0) > 3
+        for g0, g1 in zip(h0.geometry, h1.geometry, strict=True):
+            c0, c1 = shapely.get_coordinates(g0), shapely.get_coordinates(g1)
+            assert c0.shape == c1.shape and np.abs(c0 - c1).max() <= 1e-6
+        assert (serial / name / "build.log").read_text() == (out / name / "build.log").read_text()
+
+
+def test_a_section_that_cannot_be_constructed_in_a_worker_leaves_nothing(built, monkeypatch):
+    # A construction error raised in a worker process comes back as the command's one
+    # error line (exit 2), and no section folder is swapped in.
+    import mapsection.construct
+
+    out, _, _ = built
+    before = {name: _digest(out / name) for name in ("A", "B")}
+    real = mapsection.construct.build_draft
+
+    def fail_on_b(*args, **kwargs):
+        if kwargs.get("name") == "B":
+            raise ConstructionError("section B: no dips within the corridor and no default_dip")
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(mapsection.construct, "build_draft", fail_on_b)
+    result = CliRunner().invoke(cli, ["build", str(SAMPLE), "-o", str(out), "--workers", "2"])
+    assert result.exit_code == 2, result.output
+    assert "mapsection: error: section B: no dips" in result.output
+    assert "Traceback" not in result.output
+    assert {name: _digest(out / name) for name in ("A", "B")} == before
+    assert sorted(p.name for p in out.iterdir()) == ["A", "B"]
+
+
+def test_workers_from_the_environment(monkeypatch):
+    from mapsection.build import _workers
+
+    monkeypatch.setenv("MAPSECTION_WORKERS", "3")
+    assert _workers(None) == 3 and _workers(1) == 1
+    monkeypatch.setenv("MAPSECTION_WORKERS", "many")
+    with pytest.raises(ParameterError, match="MAPSECTION_WORKERS"):
+        _workers(None)
 
 
 def test_a_failing_section_leaves_every_folder_as_it_was(built, monkeypatch):

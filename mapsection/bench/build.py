@@ -19,6 +19,14 @@ Measures, in the same run:
   their figures and report), figures, GeoPackages.
 
 Target (issue 4): the whole sample area within 3 s wall.
+
+    python -m mapsection.bench build --sections 10 [--repeat N]
+
+Measures instead, in the same run, the in-process build of a copy of the project with
+``N`` sections (the project's own lines, repeated with numbered names) built with every
+core (the default: each section constructed and written in its own process) against one
+section after the other (``workers=1``); median of the runs, interleaved. Target (issue
+15): 10 sections in parallel within 0.65 x of one at a time, on 2 cores.
 """
 
 from __future__ import annotations
@@ -73,8 +81,14 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--previous", metavar="TREE",
                     help="also time the command from this source tree (the folder holding "
                          "an earlier mapsection/ package)")
+    ap.add_argument("--sections", type=int, metavar="N",
+                    help="time a copy of the project with N sections, in parallel against "
+                         "one at a time")
     args = ap.parse_args(argv)
     from ..build import STAGES, build_project
+
+    if args.sections:
+        return _many_sections(args.project, args.sections, args.repeat)
 
     with tempfile.TemporaryDirectory(prefix="mapsection-bench-") as tmpdir:
         tmp = Path(tmpdir)
@@ -157,6 +171,59 @@ def main(argv: list[str] | None = None) -> int:
                               for t, r in zip(totals, runs, strict=True))
     print(f"| other (logs, folder swap) | {other:.3f} | {100 * other / total:.0f} % |")
     return 0
+
+
+def _many_sections(project_arg: str | None, n: int, repeat: int) -> int:
+    import shutil
+    import tomllib
+
+    from ..build import build_project
+
+    with tempfile.TemporaryDirectory(prefix="mapsection-bench-") as tmpdir:
+        tmp = Path(tmpdir)
+        source = _project(project_arg, tmp).resolve()
+        area = tmp / "area"
+        shutil.copytree(source.parent, area)
+        text = source.read_text(encoding="utf-8")
+        sections = tomllib.loads(text)["section"]
+        head = text[:text.index("[[section]]")]
+        body = []
+        for i in range(n):
+            spec = sections[i % len(sections)]
+            body.append("[[section]]")
+            for key, value in spec.items():
+                if key == "name":
+                    value = f"{value}{i + 1}"
+                body.append(f"{key} = {_toml(value)}")
+            body.append("")
+        project = area / "many.toml"
+        project.write_text(head + "\n".join(body), encoding="utf-8")
+        build_project(project, tmp / "warm", warn=lambda m: None)  # warm-up
+        serial, parallel = [], []
+        for i in range(repeat):
+            t0 = time.perf_counter()
+            build_project(project, tmp / f"one{i}", warn=lambda m: None, workers=1)
+            serial.append(time.perf_counter() - t0)
+            t0 = time.perf_counter()
+            folders = build_project(project, tmp / f"all{i}", warn=lambda m: None)
+            parallel.append(time.perf_counter() - t0)
+    s, p = statistics.median(serial), statistics.median(parallel)
+    print(f"{len(folders)} sections of {source.name}, {os.cpu_count()} cores, median of "
+          f"{repeat} in-process builds (warm)")
+    print(f"one after another (workers=1): {s:.2f} s   in parallel (default): {p:.2f} s   "
+          f"parallel / one at a time = {p / s:.2f}   target 0.65   "
+          f"{'met' if p / s <= 0.65 else 'NOT met'}")
+    return 0
+
+
+def _toml(value) -> str:
+    if isinstance(value, str):
+        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, list):
+        return "[" + ", ".join(_toml(v) for v in value) + "]"
+    return repr(value)
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -32,9 +32,13 @@ from ._progress import start_progress
                    "1:50,000, 1:100,000 ... at which the section fits the sheet].")
 @click.option("--portrait", is_flag=True, default=None,
               help="Portrait sheet (map, legend and title block under the section).")
+@click.option("--workers", type=click.IntRange(min=1), metavar="N",
+              help="Sections built at once, each in its own process (1: one after "
+                   "another) [default: the MAPSECTION_WORKERS environment variable, else "
+                   "one per CPU core].")
 def command(project: str, outdir: str, section: str | None, method: str | None,
             ve: float | None, sheet: str | None = None, scale: str | None = None,
-            portrait: bool | None = None) -> None:
+            portrait: bool | None = None, workers: int | None = None) -> None:
     """Construct the draft section of each section line of a project and write its outputs.
 
     For every [[section]] of PROJECT.toml (or the one named with --section), the
@@ -65,7 +69,7 @@ def command(project: str, outdir: str, section: str | None, method: str | None,
     summaries: dict = {}
     folders = build_project(project, outdir, section=section, method=method, ve=ve, warn=warn,
                             note=note, summaries=summaries, sheet=sheet, scale=scale,
-                            portrait=portrait or None)
+                            portrait=portrait or None, workers=workers)
     for folder in folders:
         # the line demo prints for a section: PASS, FAIL or NOT TESTED (never a pass unmeasured)
         click.echo(f"{folder}: {result_line(summaries[folder])}" if folder in summaries

@@ -208,7 +208,7 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     contacts = drop_fault_contacts(contact_constraints(geology, column, ground, notes), faults,
                                    profile, notes)
     support = _contact_support(dips, contacts, ground, frame, float(column.thicknesses.min()),
-                               dip_tolerance)
+                               dip_tolerance, notes)
     screened, outliers = screen_dips(dips, ranges, dip_tolerance, keep_readings, notes,
                                      support)
     dipset = section_dips(screened, notes)
@@ -282,16 +282,43 @@ def _fit_blocks(blocks: list[FaultBlock], fit: Callable[[FaultBlock, BlockSettin
 
 SUPPORT_GAIN = 0.5  # the tool's default: the contacts' RMS must at least halve ...
 SUPPORT_MIN = 0.1  # ... and drop by 10 % of the thinnest unit for a lone reading to stay
+# The tool's default limit: a block with more map contacts than twice this judges a lone
+# reading by the contacts nearest to it (this many on either side) and the readings
+# between them, not by the whole block (whose fit grows faster than its size).
+SUPPORT_CONTACTS = 6
+SUPPORT_READINGS = 30  # ... and at most this many readings on either side, when that
+# stretch holds three contacts or more
+
+
+def _around(sorted_d: np.ndarray, at: float, k: int, lo: float, hi: float
+            ) -> tuple[float, float]:
+    """From the ``k``-th of ``sorted_d`` before ``at`` to just past the ``k``-th after it
+    (``lo``/``hi`` where there are no more than ``k`` on that side)."""
+    j = int(np.searchsorted(sorted_d, at))
+    a = lo if j - k <= 0 else float(sorted_d[j - k])
+    b = hi if j + k >= len(sorted_d) else float(np.nextafter(sorted_d[j + k - 1], np.inf))
+    return a, b
 
 
 def _contact_support(dips: ProjectedDips, contacts: Constraints, ground, frame: SectionFrame,
-                     scale: float, tolerance: float):
+                     scale: float, tolerance: float, notes: Notes | None = None):
     """Whether a block's map contacts need a lone reading as a dip domain of its own: the
     block's kink construction (Suppe 1985) fitted to its contacts with and without it;
     the reading stays where it halves the contacts' RMS residual and gains more than
-    a tenth of the thinnest unit."""
+    a tenth of the thinnest unit.
+
+    In a long block (more than ``2 * SUPPORT_CONTACTS`` contacts, or more than
+    ``2 * SUPPORT_READINGS`` readings) only the stretch around the reading is fitted:
+    from the ``SUPPORT_CONTACTS``-th contact before it to the ``SUPPORT_CONTACTS``-th
+    after it, narrowed to ``SUPPORT_READINGS`` readings either side where that keeps three
+    contacts; the log says so once. The fit without the reading is reused while the
+    readings in use stay the same."""
     from .kink import fit_kink
     from .outliers import subset_dips
+
+    d_all = np.asarray(dips.distance_m, float) if dips is not None else np.zeros(0)
+    fits: dict[tuple[float, float, bytes], float] = {}  # rms without a reading, reused
+    said: list[bool] = []
 
     def rms(mask, cons, lo, hi) -> float:
         ds = section_dips(subset_dips(dips, mask), Notes(lambda m: None)).within(lo, hi)
@@ -302,12 +329,34 @@ def _contact_support(dips: ProjectedDips, contacts: Constraints, ground, frame: 
         r = model.depth_at(cons.distance, cons.elevation) - cons.depth
         return float(np.sqrt(np.mean(r * r)))
 
+    def window(lo: float, hi: float, at: float, used: np.ndarray) -> tuple[float, float]:
+        """The stretch of the block the reading at ``at`` is judged on."""
+        inside = (contacts.distance >= lo) & (contacts.distance < hi) & contacts.is_contact
+        cd = np.sort(contacts.distance[inside])
+        a, b = _around(cd, at, SUPPORT_CONTACTS, lo, hi)
+        rd = np.sort(d_all[used & (d_all >= lo) & (d_all < hi)])
+        ra, rb = _around(rd, at, SUPPORT_READINGS, lo, hi)
+        if ra > a or rb < b:
+            n_in = np.count_nonzero((cd >= max(a, ra)) & (cd < min(b, rb)))
+            if n_in >= 3:  # enough contacts to judge by among the nearest readings
+                a, b = max(a, ra), min(b, rb)
+        if (a, b) != (lo, hi) and notes is not None and not said:
+            said.append(True)
+            notes.log(f"lone readings judged on the stretch around them: the "
+                      f"{SUPPORT_CONTACTS} map contacts and the {SUPPORT_READINGS} readings "
+                      "on either side (the tool's default limit for long blocks)")
+        return a, b
+
     def support(lo: float, hi: float, used: np.ndarray, i: int) -> bool:
+        lo, hi = window(lo, hi, float(d_all[i]), used)
         cons = contacts.subset((contacts.distance >= lo) & (contacts.distance < hi)
                                & contacts.is_contact)
         if len(cons) < 3:  # two contacts and one dip fit any stack: nothing to judge by
             return False
-        without = rms(used, cons, lo, hi)
+        key = (lo, hi, np.packbits(used).tobytes())
+        if key not in fits:  # the same readings without it: the same fit
+            fits[key] = rms(used, cons, lo, hi)
+        without = fits[key]
         with_it = used.copy()
         with_it[i] = True
         gained = rms(with_it, cons, lo, hi)

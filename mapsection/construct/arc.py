@@ -56,32 +56,39 @@ class _Chain:
         self.t, self.n = unit_vectors(self.phi)
         m = len(self.q)
         k = max(m - 1, 0)
-        self.kind: list[str] = []
         self.centre = np.full((k, 2), np.nan)
         self.mu, self.nu = np.zeros(k), np.zeros(k)
         self.e, self.e2 = np.ones(k), np.ones(k)
-        self.nbar = np.zeros((k, 2))
-        lam = np.zeros(m)
-        for i in range(k):  # a chain: each sector starts where the last one ended
-            dphi = float(wrap180(self.phi[i + 1] - self.phi[i]))
-            dq = self.q[i + 1] - self.q[i]
-            straight = abs(dphi) < _STRAIGHT_DEG
-            if not straight:
-                a = np.column_stack([self.n[i], -self.n[i + 1]])
-                mu, nu = np.linalg.solve(a, dq)
-                straight = np.sign(mu) != np.sign(nu) or mu == 0
-            nbar = self.n[i] + self.n[i + 1]
-            self.nbar[i] = nbar / np.hypot(*nbar)
-            if straight:
-                self.kind.append("straight")
-                lam[i + 1] = lam[i] - self.nbar[i] @ dq
-                continue
-            self.kind.append("arc")
-            self.mu[i], self.nu[i] = mu, nu
-            self.centre[i] = self.q[i] + mu * self.n[i]
-            self.e[i], self.e2[i] = np.sign(-mu), np.sign(-nu)
-            lam[i + 1] = lam[i] - mu + nu
-        self.is_arc = np.array([kd == "arc" for kd in self.kind], bool)
+        # All sectors at once (one batched 2 x 2 solve): the fit calls this for every
+        # trial of its unknowns, so a loop over sectors made the fit grow with the square
+        # of the number of dips.
+        dphi = np.asarray(wrap180(self.phi[1:] - self.phi[:-1]), float)
+        dq = self.q[1:] - self.q[:-1]
+        straight = np.abs(dphi) < _STRAIGHT_DEG
+        turn = np.flatnonzero(~straight)
+        mu = np.zeros(k)
+        nu = np.zeros(k)
+        if turn.size:
+            a = np.stack([self.n[turn], -self.n[turn + 1]], axis=2)  # columns n_i, -n_i+1
+            sol = np.linalg.solve(a, dq[turn][:, :, None])[:, :, 0]
+            mu[turn], nu[turn] = sol[:, 0], sol[:, 1]
+            straight[turn] = (np.sign(mu[turn]) != np.sign(nu[turn])) | (mu[turn] == 0)
+        nbar = self.n[:-1] + self.n[1:]
+        self.nbar = nbar / np.hypot(nbar[:, 0], nbar[:, 1])[:, None]
+        arc = ~straight
+        self.kind: list[str] = ["arc" if a else "straight" for a in arc]
+        self.mu[arc], self.nu[arc] = mu[arc], nu[arc]
+        self.centre[arc] = self.q[:-1][arc] + mu[arc, None] * self.n[:-1][arc]
+        self.e[arc], self.e2[arc] = np.sign(-mu[arc]), np.sign(-nu[arc])
+        # (matmul of 1 x 2 by 2 x 1 rounds exactly as the dot product of the two vectors)
+        along = np.matmul(self.nbar[:, None, :], dq[:, :, None])[:, 0, 0]
+        # a chain: each sector starts where the last one ended (summed in order)
+        lam = [0.0]
+        for is_arc, m_i, n_i, a_i in zip(arc.tolist(), mu.tolist(), nu.tolist(),
+                                         along.tolist(), strict=True):
+            lam.append(lam[-1] - m_i + n_i if is_arc else lam[-1] - a_i)
+        lam = np.array(lam[:m] if m else [], float)
+        self.is_arc = arc
         self.lam = lam
 
     # --- depth field ---------------------------------------------------
@@ -316,30 +323,49 @@ def _ground_estimate(cons: Constraints, d: np.ndarray, z: np.ndarray) -> Callabl
 def _trim_loops(p: np.ndarray) -> tuple[np.ndarray, list[int]]:
     """Cut the loops out of a horizon path (where it passes beyond a centre of curvature
     the raw concentric path folds back on itself): each loop is replaced by the point
-    where the path crosses itself. Returns the path and the indices of those points."""
+    where the path crosses itself. Returns the path and the indices of those points.
+
+    Only the pairs of segments whose boxes meet (an STRtree query) are tested for a
+    crossing, so a long horizon costs about its number of segments, not its square."""
     cusps: list[int] = []
     for _ in range(len(p)):
         a, v = p[:-1], np.diff(p, axis=0)
         n = len(a)
         if n < 3:
             break
-        den = v[:, None, 0] * v[None, :, 1] - v[:, None, 1] * v[None, :, 0]
-        dx = a[None, :, :] - a[:, None, :]
+        pairs = _box_pairs(a, a + v)
+        i_s, j_s = pairs[0], pairs[1]
+        keep = j_s >= i_s + 2
+        i_s, j_s = i_s[keep], j_s[keep]
+        if not i_s.size:
+            break
+        den = v[i_s, 0] * v[j_s, 1] - v[i_s, 1] * v[j_s, 0]
+        dx = a[j_s] - a[i_s]
         with np.errstate(divide="ignore", invalid="ignore"):
-            t = (dx[..., 0] * v[None, :, 1] - dx[..., 1] * v[None, :, 0]) / den
-            u = (dx[..., 0] * v[:, None, 1] - dx[..., 1] * v[:, None, 0]) / den
+            t = (dx[:, 0] * v[j_s, 1] - dx[:, 1] * v[j_s, 0]) / den
+            u = (dx[:, 0] * v[i_s, 1] - dx[:, 1] * v[i_s, 0]) / den
         eps = 1e-9
         hit = (np.abs(den) > 1e-12) & (t > eps) & (t < 1 - eps) & (u > eps) & (u < 1 - eps)
-        hit &= np.triu(np.ones((n, n), bool), 2)
         if not hit.any():
             break
-        i = int(np.flatnonzero(hit.any(axis=1))[0])
-        j = int(np.flatnonzero(hit[i])[-1])
-        x = a[i] + t[i, j] * v[i]
+        i = int(i_s[hit].min())
+        first = hit & (i_s == i)
+        j = int(j_s[first].max())
+        x = a[i] + t[first & (j_s == j)][0] * v[i]
         p = np.vstack([p[:i + 1], x[None, :], p[j + 1:]])
         cusps = [c if c <= i else c - (j - i - 1) for c in cusps if c <= i or c > j]
         cusps.append(i + 1)
     return p, sorted(cusps)
+
+
+def _box_pairs(p0: np.ndarray, p1: np.ndarray) -> np.ndarray:
+    """Index pairs (i, j), i < j, of the segments p0-p1 that may cross (they meet: an
+    STRtree query, which tests the boxes first)."""
+    import shapely
+
+    segments = shapely.linestrings(np.stack([p0, p1], axis=1))
+    pairs = shapely.STRtree(segments).query(segments, predicate="intersects")
+    return pairs[:, pairs[0] < pairs[1]]
 
 
 def _dedupe(p: np.ndarray) -> np.ndarray:
