@@ -300,6 +300,14 @@ def _growth(tmp: Path, base: dict, name: str, values: list, dem_cache: dict) -> 
           f"peak memory {_slope(values, mems):.2f}")
 
 
+def _load() -> tuple[float, ...]:
+    """The machine's load averages (1, 5, 15 min), where the system tells them."""
+    try:
+        return os.getloadavg()
+    except (AttributeError, OSError):
+        return ()
+
+
 def _said(kw: dict) -> str:
     return (f"DEM {kw['size']}^2, {kw['polygons']} polygons, {kw['attitudes']} attitudes, "
             f"{kw['length'] / 1000:g} km line")
@@ -341,9 +349,13 @@ def main(argv: list[str] | None = None) -> int:
               f"{CUT_M / 1000:g} km around the line(s): {cut.polygons} polygons, "
               f"{cut.attitudes} attitudes")
         runs = []
-        for _ in range(max(args.repeat, 1)):  # interleaved: both see the same machine load
+        for i in range(max(args.repeat, 1)):  # interleaved: both see the same machine load
             runs.append((*measure_build(world.project, tmp / "whole" / "out"),
                          *measure_build(cut.project, tmp / "cut" / "out")))
+            tw, mw, tc, mc = runs[-1]
+            print(f"run {i + 1}: whole {tw:.2f} s {mw:.0f} MB, cut {tc:.2f} s {mc:.0f} MB "
+                  f"({tw / tc:.2f}x, {mw / mc:.2f}x); load average "
+                  f"{', '.join(f'{v:.1f}' for v in _load())}", flush=True)
         t_whole, m_whole, t_cut, m_cut = (float(np.median(c)) for c in zip(*runs, strict=True))
         print()
         print("| build | wall s | peak MB |")
