@@ -180,11 +180,13 @@ def load_inputs(project: Project, warn: Warn | None = None,
 
     Every map unit must be in the project's column. With ``sections`` (those a build
     makes), only their neighbourhood of the map is read (:func:`read_window`) and only the
-    attitudes within ``extent.THICKNESS_NEAR_M`` of their corridors are kept; the unit
-    checks then see that part of the map.
+    attitudes within ``extent.THICKNESS_NEAR_M`` of their corridors are kept (a CSV read
+    chunk by chunk, :func:`mapsection.readers.attitudes.read_attitudes_in_box`, every row
+    still checked and every message as for the whole file); the unit checks then see that
+    part of the map.
     """
     from .attitudes import check_attitudes_on_dem
-    from .readers.attitudes import read_attitudes
+    from .readers.attitudes import read_attitudes, read_attitudes_in_box
     from .readers.dem import Dem
 
     warn = warn or _default_warn
@@ -195,24 +197,30 @@ def load_inputs(project: Project, warn: Warn | None = None,
     project.column.check_map_units(
         map_data.unit_list, source=f"{project.map_path.name}: layer {project.units_layer!r}")
     check_fault_tables(project, map_data)
-    attitudes = read_attitudes(project.attitudes_path, convention=project.convention,
-                               layer=project.attitudes_layer, fields=project.attitude_fields,
-                               crs=project.crs, warn=warn)
+    near = _near_box(project, sections) if window is not None else None
+    kw = dict(convention=project.convention, layer=project.attitudes_layer,
+              fields=project.attitude_fields, crs=project.crs, warn=warn)
+    if near is None:
+        attitudes = read_attitudes(project.attitudes_path, **kw)
+        everywhere = None
+    else:
+        # Only the attitudes near the corridors are used (projected, beside the contacts,
+        # in the thickness comparison): the others are let go as the file is read, chunk
+        # by chunk, every row still checked.
+        got = read_attitudes_in_box(project.attitudes_path, near, **kw)
+        attitudes, everywhere = got.attitudes, got
     dem = Dem.open(project.dem_path, vertical_unit=project.dem_vertical_unit, warn=warn)
     try:
         check_map_on_dem(map_data, dem, f"{project.map_path.name}: layer {project.units_layer!r}")
-        check_attitudes_on_dem(attitudes, dem)
+        if everywhere is None:
+            check_attitudes_on_dem(attitudes, dem)
+        elif not (len(attitudes) and dem.inside(np.asarray(attitudes.x, float),
+                                                np.asarray(attitudes.y, float),
+                                                crs=attitudes.crs).any()):
+            check_attitudes_on_dem(everywhere.everywhere(), dem)  # the whole file's check
     except BaseException:
         dem.close()
         raise
-    near = _near_box(project, sections) if window is not None else None
-    if near is not None:
-        # Only the attitudes near the corridors are used (projected, beside the contacts,
-        # in the thickness comparison); the others would cost memory and indexing.
-        x, y = np.asarray(attitudes.x, float), np.asarray(attitudes.y, float)
-        inside = (x >= near[0]) & (x <= near[2]) & (y >= near[1]) & (y <= near[3])
-        if not inside.all():
-            attitudes = attitudes.subset(np.flatnonzero(inside))
     return ProjectInputs(map_data, attitudes, dem, near=near)
 
 

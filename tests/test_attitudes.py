@@ -229,3 +229,137 @@ def test_from_arrays_defaults():
     a = Attitudes.from_arrays([0, 1], [0, 1], [370.0, 10.0], [10, 20])
     assert list(a.id) == [1, 2] and a.strike[0] == pytest.approx(10.0)
     assert len(a) == 2 and np.isnan(a.z).all()
+
+
+# --- a build's read: the rows inside a box, chunk by chunk -------------------------------
+def _big_csv(tmp_path, n=600, *, ids="int", bad_rows=(), newline="\n", bom=False,
+             blank_every=0, name="att.csv"):
+    """An invented attitude file of ``n`` rows over a 10 km square (``ids``: "int", "text
+    late" (integers but one text id near the end), "none" or "dup" (ids repeated))."""
+    rng = np.random.default_rng(7)
+    x = 600_000 + rng.uniform(0, 10_000, n)
+    y = 5_200_000 + rng.uniform(0, 10_000, n)
+    strike = rng.integers(0, 360, n)
+    dip = rng.integers(0, 90, n)
+    head = ("" if ids == "none" else "id,") + "x,y,strike,dip"
+    lines = [head]
+    for i in range(n):
+        if ids == "none":
+            ident = ""
+        elif ids == "dup":
+            ident = f"{i % 50},"
+        elif ids == "text late" and i == n - 3:
+            ident = "K9,"
+        else:
+            ident = f"{i + 1:04d},"
+        d = "95" if i in bad_rows else str(dip[i])
+        lines.append(f"{ident}{x[i]:.1f},{y[i]:.1f},{strike[i]},{d}")
+        if blank_every and i % blank_every == 0:
+            lines.append(",,,," if ids != "none" else ",,,")
+    path = tmp_path / name
+    data = newline.join(lines) + newline
+    path.write_bytes((b"\xef\xbb\xbf" if bom else b"") + data.encode("utf-8"))
+    return path
+
+
+_BOX = (602_000.0, 5_203_000.0, 607_000.0, 5_206_500.0)
+
+
+def _same_as_whole_cut(path, box, chunk_rows, monkeypatch, convention="rhr"):
+    """The chunked read inside ``box`` against the whole read then cut to it (the
+    reference: read_attitudes, every row, then a plain numpy mask)."""
+    from mapsection.readers.attitudes import read_attitudes_in_box
+
+    whole_said: list[str] = []
+    whole = read_attitudes(path, convention=convention, warn=whole_said.append)
+    x, y = np.asarray(whole.x, float), np.asarray(whole.y, float)
+    cut = whole.subset((x >= box[0]) & (x <= box[2]) & (y >= box[1]) & (y <= box[3]))
+    said: list[str] = []
+    got = read_attitudes_in_box(path, box, convention=convention, warn=said.append,
+                                chunk_rows=chunk_rows)
+    att = got.attitudes
+    assert said == whole_said
+    assert att.source == whole.source and len(att) == len(cut) > 0
+    for f in ("id", "x", "y", "z", "strike", "dip", "overturned"):
+        a, b = getattr(att, f), getattr(cut, f)
+        assert a.dtype == b.dtype, f
+        assert np.array_equal(a, b, equal_nan=a.dtype.kind == "f"), f
+    # every usable row's position, for the whole file's check against the DEM
+    assert np.array_equal(got.x, x) and np.array_equal(got.y, y)
+    return said
+
+
+@pytest.mark.parametrize("chunk_rows", [1, 7, 64, 100_000])
+@pytest.mark.parametrize("kind", ["int", "text late", "none", "dup", "bom crlf blanks"])
+def test_box_read_in_chunks_equals_the_whole_read_cut_to_the_box(kind, chunk_rows, tmp_path,
+                                                                 monkeypatch):
+    # Reference: the whole-file read (the csv module's rows, tests/test_shortcuts.py) cut
+    # to the box with a numpy mask: the same rows, order, ids, values and messages.
+    import mapsection.readers.attitudes as reader
+
+    def no_fallback(p):
+        raise AssertionError("fell back to the row-by-row reader")
+
+    kw = {"bad_rows": (3, 250, 597)}
+    if kind == "bom crlf blanks":
+        kw.update(bom=True, newline="\r\n", blank_every=9)
+    path = _big_csv(tmp_path, ids=kind if kind != "bom crlf blanks" else "int", **kw)
+    monkeypatch.setattr(reader, "_read_csv_rows", no_fallback)
+    said = _same_as_whole_cut(path, _BOX, chunk_rows, monkeypatch)
+    assert said[-1].endswith("dropped 3 of 600 rows; kept 597")
+
+
+def test_box_read_names_the_file_line_of_a_bad_row_in_a_late_chunk(tmp_path, monkeypatch):
+    # Line numbers are the file's physical lines (header = line 1; blank lines counted),
+    # as the csv module's reader counts them (Python's csv.reader line_num).
+    import csv
+
+    from mapsection.readers.attitudes import read_attitudes_in_box
+
+    path = _big_csv(tmp_path, bad_rows=(587,), blank_every=5, newline="\r\n")
+    with open(path, newline="", encoding="utf-8") as fh:
+        r = csv.reader(fh)
+        line = next(r.line_num for rec in r if len(rec) > 4 and rec[4] == "95")
+    said: list[str] = []
+    read_attitudes_in_box(path, _BOX, warn=said.append, chunk_rows=50)
+    assert said[0] == f"{path}, line {line}: dip 95 is outside 0-90; row dropped"
+    assert line > 600  # in the last chunks, after many blank lines
+
+
+def test_box_read_falls_back_to_the_row_reader_for_a_late_multiline_field(tmp_path,
+                                                                          monkeypatch):
+    # A quoted field over two lines near the end: the csv module's line numbers (the
+    # reference) for every later row, as the whole read gives them.
+    path = _big_csv(tmp_path, ids="int", bad_rows=(598,))
+    lines = path.read_text("utf-8").splitlines()
+    lines[590] = '"05\n90"' + lines[590][4:]  # an id over two lines
+    path.write_text("\n".join(lines) + "\n", "utf-8")
+    said = _same_as_whole_cut(path, (0, 0, 1e9, 1e9), 64, monkeypatch)
+    assert f"{path}, line 601: dip 95 is outside 0-90; row dropped" in said
+
+
+def test_box_read_quadrant_and_errors_as_the_whole_read(tmp_path, monkeypatch):
+    from mapsection.readers.attitudes import read_attitudes_in_box
+
+    rows = ["id,x,y,attitude"] + [f"{i},{600000 + 10 * i},{5200000 + 10 * i},N30E 45SE"
+                                  for i in range(200)]
+    rows[150] = "149,601490,5201490,N30E 45NE"  # inconsistent quadrant (line 151)
+    path = tmp_path / "q.csv"
+    path.write_text("\n".join(rows) + "\n", "utf-8")
+    said = _same_as_whole_cut(path, (600_500, 5_200_500, 601_800, 5_201_800), 16,
+                              monkeypatch, convention="quadrant")
+    assert said[0].startswith(f"{path}, line 151: ")
+    # A missing column is said as for the whole file, whatever the chunk size.
+    path.write_text("id,x,y,strike\n1,600000,5200000,30\n", "utf-8")
+    with pytest.raises(AttitudeError) as whole:
+        read_attitudes(path)
+    with pytest.raises(AttitudeError) as cut:
+        read_attitudes_in_box(path, _BOX, chunk_rows=1)
+    assert str(cut.value) == str(whole.value)
+    # All rows bad: the same message, naming the first row.
+    path.write_text("id,x,y,strike,dip\n" + "1,600000,5200000,30,99\n" * 5, "utf-8")
+    with pytest.raises(AttitudeError) as whole:
+        read_attitudes(path, warn=lambda m: None)
+    with pytest.raises(AttitudeError) as cut:
+        read_attitudes_in_box(path, _BOX, chunk_rows=2, warn=lambda m: None)
+    assert str(cut.value) == str(whole.value)

@@ -16,7 +16,7 @@ import csv
 import dataclasses
 import io
 import os
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -130,6 +130,103 @@ def _read_csv(path: Path) -> _Table:
         where.setdefault(name.lower(), []).append(j + 1)
     repeated = {key: v for key, v in where.items() if len(v) > 1}
     return _Table(cols, _LineLabels(lines), repeated=repeated)
+
+
+def _read_csv_chunks(path: Path, chunk_rows: int) -> Iterator[_Table]:
+    """The CSV as :func:`_read_csv` gives it, in tables of ``chunk_rows`` records (their
+    line numbers the file's), parsed by pandas' C engine a chunk at a time.
+
+    The file is first scanned in blocks (UTF-8, NUL bytes, its physical lines) so that
+    its errors are those of :func:`_read_csv`; raises :class:`_WholeFile` where the
+    reading would differ from the csv module's (the caller then reads it row by row).
+    """
+    import codecs
+    import warnings
+
+    import pandas as pd
+
+    decoder = codecs.getincrementaldecoder("utf-8-sig")()
+    head = ""
+    n_lines = 0
+    nul = False
+    last = b""
+    try:
+        with open(path, "rb") as fh:
+            while block := fh.read(1 << 23):
+                text = decoder.decode(block)
+                if len(head) < 1 << 20:
+                    head += text[: (1 << 20) - len(head)]
+                nul |= b"\x00" in block
+                # A newline byte is always a newline in UTF-8; CR LF across blocks counted once.
+                n_lines += block.count(b"\n") + block.count(b"\r") - block.count(b"\r\n")
+                if last == b"\r" and block[:1] == b"\n":
+                    n_lines -= 1
+                last = block[-1:]
+            decoder.decode(b"", final=True)
+    except UnicodeDecodeError:
+        raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
+    except OSError as exc:
+        raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
+    if last not in (b"\n", b"\r"):
+        n_lines += 1
+    first = head[:4096].splitlines()[0] if head else ""
+    if not first.strip() or nul:
+        raise _WholeFile
+    dialect = _sniff(first)
+    header_reader = csv.reader(io.StringIO(head), dialect)
+    header = next(header_reader, None)
+    if header is None or header_reader.line_num != 1:
+        raise _WholeFile  # a quoted header over several lines
+    del head
+    names = [h.strip() for h in header]
+    k = len(names)
+    where: dict[str, list[int]] = {}
+    for j, name in enumerate(names):
+        where.setdefault(name.lower(), []).append(j + 1)
+    repeated = {key: v for key, v in where.items() if len(v) > 1}
+    done = 0  # records read so far
+    chunks = None
+    try:
+        while True:
+            # The parser's warnings caught around the parsing only, not the caller's work.
+            with warnings.catch_warnings(record=True) as said:
+                warnings.simplefilter("always", pd.errors.ParserWarning)
+                try:
+                    if chunks is None:
+                        # As in _read_csv: one column more than the header keeps a trailing
+                        # delimiter.
+                        chunks = pd.read_csv(
+                            path, encoding="utf-8-sig", sep=dialect.delimiter,
+                            quotechar=dialect.quotechar, doublequote=dialect.doublequote,
+                            skipinitialspace=dialect.skipinitialspace, quoting=csv.QUOTE_MINIMAL,
+                            header=None, names=range(k + 1), skiprows=1, index_col=False,
+                            dtype=str, na_filter=False, keep_default_na=False,
+                            skip_blank_lines=False, engine="c", chunksize=chunk_rows)
+                    df = next(chunks, None)
+                except Exception:  # noqa: BLE001 - what the C engine refuses, the csv module decides
+                    raise _WholeFile from None
+            if any(issubclass(w.category, pd.errors.ParserWarning) for w in said):
+                raise _WholeFile  # a row longer still: cut by the csv module's rules
+            if df is None:
+                break
+            stripped = [_stripped(df[j].to_numpy(dtype=object)) for j in range(k + 1)]
+            del df
+            # Blank lines (nothing but delimiters and spaces) skipped, their lines still counted.
+            keep = np.zeros(len(stripped[0]), bool)
+            for c in stripped:
+                keep |= c != ""
+            lines = np.flatnonzero(keep) + 2 + done
+            done += len(keep)
+            cols = {n: c[keep].tolist() for n, c in zip(names, stripped[:k], strict=True)}
+            del stripped
+            yield _Table(cols, _LineLabels(lines), repeated=repeated)
+    finally:
+        if chunks is not None:
+            chunks.close()
+    if done == 0:
+        yield _Table({n: [] for n in names}, _LineLabels(np.zeros(0, int)), repeated=repeated)
+    if done + 1 != n_lines:
+        raise _WholeFile  # a quoted field over several lines: other line numbers
 
 
 _ASCII_SPACE = (" ", "\t", "\x0b", "\x0c", "\x1c", "\x1d", "\x1e", "\x1f")
@@ -305,27 +402,229 @@ def read_attitudes(path: str | os.PathLike, *, convention: str = "rhr",
     >>> # attitudes.csv:  id,x,y,strike,dip  /  1,604200,5216300,30,45
     >>> # read_attitudes("attitudes.csv", crs="EPSG:32611").strike  -> array([30.])
     """
+    return _read(path, convention, layer, fields, crs, warn, None, CHUNK_ROWS).attitudes
+
+
+@dataclass(frozen=True)
+class AttitudesInBox:
+    """The attitudes of a file inside a box, and where every usable row of the file lies.
+
+    ``x`` and ``y`` (every usable row's position, in the project's CRS) let the whole
+    file be checked against the DEM (:func:`mapsection.attitudes.check_attitudes_on_dem`)
+    without keeping its other columns.
+    """
+
+    attitudes: Attitudes  # the usable rows inside the box, in the file's order
+    x: np.ndarray
+    y: np.ndarray
+
+    def everywhere(self) -> Attitudes:
+        """Every usable row of the file as positions only (no orientation), for checks
+        that look at where the whole file lies."""
+        n = len(self.x)
+        return dataclasses.replace(
+            Attitudes.from_arrays(self.x, self.y, np.zeros(n), np.zeros(n),
+                                  crs=self.attitudes.crs),
+            source=self.attitudes.source)
+
+
+def read_attitudes_in_box(path: str | os.PathLike, box: tuple[float, float, float, float], *,
+                          convention: str = "rhr", layer: str | None = None,
+                          fields: Mapping[str, str] | None = None,
+                          crs: str | pyproj.CRS | None = None, warn: Warn | None = None,
+                          chunk_rows: int | None = None) -> AttitudesInBox:
+    """Read the attitudes of a file that lie inside ``box``, every row still validated.
+
+    A CSV is read ``chunk_rows`` records at a time and each chunk checked as
+    :func:`read_attitudes` checks the whole file before its rows outside the box are let
+    go, so that memory follows the rows kept, not the size of the file. Every message
+    (bad rows with their line numbers, the count of rows dropped, missing columns) and
+    every kept attitude (values, ids, order, ``source``) is what :func:`read_attitudes`
+    gives for the whole file, the rows then taken inside the box. A vector file is read
+    whole, reprojected, then cut.
+
+    Parameters
+    ----------
+    path : the CSV or point vector file.
+    box : (xmin, ymin, xmax, ymax) in the project's CRS; its edges are inside.
+    convention, layer, fields, crs, warn : as for :func:`read_attitudes`.
+    chunk_rows : records per chunk (default ``CHUNK_ROWS``).
+
+    Returns
+    -------
+    AttitudesInBox
+
+    Examples
+    --------
+    >>> # read_attitudes_in_box("attitudes.csv", (604000, 5216000, 605000, 5217000),
+    >>> #                       crs="EPSG:32611").attitudes  -> the rows in that square
+    """
+    got = _read(path, convention, layer, fields, crs, warn, tuple(map(float, box)),
+                chunk_rows or CHUNK_ROWS)
+    att = got.attitudes
+    if got.x is None:  # a vector file: cut after its reprojection
+        x, y = np.asarray(att.x, float), np.asarray(att.y, float)
+        return AttitudesInBox(att.subset(np.flatnonzero(_inside(x, y, box))), x, y)
+    return got
+
+
+# Records of a CSV checked at a time when only a box of it is kept (the tool's default:
+# about 40 MB of text columns for five columns).
+CHUNK_ROWS = 100_000
+
+
+def _inside(x: np.ndarray, y: np.ndarray, box) -> np.ndarray:
+    return (x >= box[0]) & (x <= box[2]) & (y >= box[1]) & (y <= box[3])
+
+
+class _WholeFile(Exception):
+    """The chunked C-engine reading cannot give the csv module's rows: read it row by row."""
+
+
+def _read(path, convention, layer, fields, crs, warn, box, chunk_rows) -> AttitudesInBox:
+    """The reading behind :func:`read_attitudes` (``box`` None: every row) and
+    :func:`read_attitudes_in_box` (a CSV's rows cut to ``box`` chunk by chunk)."""
     warn = warn or _default_warn
     path = Path(path)
     _check_path(path, convention)
     target = pyproj.CRS(crs) if crs is not None else None
     is_csv = path.suffix.lower() in CSV_SUFFIXES
-    rows = _Rows(path, _read_csv(path) if is_csv else _read_vector(path, layer), fields)
+    if is_csv and box is not None:
+        try:
+            gather = _Gather(path, box)
+            for table in _read_csv_chunks(path, chunk_rows):
+                gather.add(_checked(_Rows(path, table, fields), convention, True))
+        except _WholeFile:
+            gather = _Gather(path, box)
+            gather.add(_checked(_Rows(path, _read_csv_rows(path), fields), convention, True))
+    else:
+        table = _read_csv(path) if is_csv else _read_vector(path, layer)
+        gather = _Gather(path, None)
+        gather.add(_checked(_Rows(path, table, fields), convention, is_csv))
+    att = gather.finish(warn, target)
+    if gather.src_crs is not None and target is not None and not same_crs(gather.src_crs, target):
+        att = reproject_attitudes(att, target, warn=warn, source=str(path))
+    if box is None or not is_csv:
+        return AttitudesInBox(att, None, None)
+    return AttitudesInBox(att, gather.every_x(), gather.every_y())
+
+
+@dataclass
+class _Checked:
+    """One table (a whole file or a chunk of a CSV) checked: its values and bad rows."""
+
+    n: int
+    x: np.ndarray
+    y: np.ndarray
+    z: np.ndarray
+    strike: np.ndarray
+    dip: np.ndarray
+    overturned: np.ndarray
+    ids: np.ndarray | None  # None: no id column (the data row numbers)
+    ids_are_int: bool
+    ids_txt: list | None  # the id column as read
+    reasons: dict[int, list[str]]
+    labels: Sequence[str]
+    src_crs: pyproj.CRS | None
+
+
+def _checked(rows: _Rows, convention: str, is_csv: bool) -> _Checked:
+    """Every value of ``rows`` parsed and every bad row given its reasons (in the order the
+    columns are looked up, so that a missing column is said the same way)."""
     x, y, z, src_crs = _coordinates(rows, is_csv)
     strike, dip = _orientation(rows, convention)
     ids_txt = rows.column("id", False)  # looked up before 'overturned', flagged after it
     overturned = _overturned(rows)
-    ids = _ids(rows, ids_txt)
-    good = _kept(rows, warn)
-    n = rows.n
-    att = Attitudes(
-        id=ids[good], x=x[good], y=y[good], z=z[good], strike=strike[good] % 360.0,
-        dip=dip[good], overturned=overturned[good], crs=target if src_crs is None else src_crs,
-        source=f"{path} ({n} row{'s' if n != 1 else ''} read, {int(good.sum())} usable)",
-    )
-    if src_crs is not None and target is not None and not same_crs(src_crs, target):
-        att = reproject_attitudes(att, target, warn=warn, source=str(path))
-    return att
+    ids, are_int = _ids(rows, ids_txt)
+    return _Checked(rows.n, x, y, z, strike, dip, overturned,
+                    None if ids_txt is None else ids, are_int, ids_txt, rows.reasons,
+                    rows.table.rows, src_crs)
+
+
+class _Gather:
+    """The usable rows of one or more checked tables (in the file's order), those inside
+    ``box`` kept, and the first bad rows' messages and the counts for the whole file."""
+
+    SHOWN = 20  # bad rows said one by one
+
+    def __init__(self, path: Path, box) -> None:
+        self.path, self.box = path, box
+        self.n = 0
+        self.dropped = 0
+        self.said: list[str] = []  # the first SHOWN bad rows' messages
+        self.first: str | None = None  # the file's first row's label and reasons
+        self.parts: list[dict] = []
+        self.ids_are_int = True
+        self.has_ids = False
+        self.src_crs: pyproj.CRS | None = None
+        self._every: list[tuple[np.ndarray, np.ndarray]] = []
+
+    def add(self, c: _Checked) -> None:
+        self.src_crs = c.src_crs
+        if not c.n:  # a chunk of blank lines (its empty columns would not be integers)
+            return
+        good = np.ones(c.n, bool)
+        good[list(c.reasons)] = False
+        if self.n == 0 and 0 in c.reasons:
+            self.first = f"{c.labels[0]}: {'; '.join(c.reasons[0])}"
+        for i in np.flatnonzero(~good)[: self.SHOWN - len(self.said)]:
+            self.said.append(f"{self.path}, {c.labels[i]}: {'; '.join(c.reasons[i])}; "
+                             "row dropped")
+        keep, raw = good, None
+        if self.box is not None:
+            keep = good & _inside(c.x, c.y, self.box)
+            self._every.append((c.x[good], c.y[good]))
+        if c.ids is None:
+            ids = np.arange(self.n + 1, self.n + c.n + 1)[keep]
+        else:
+            self.has_ids = True
+            self.ids_are_int &= c.ids_are_int
+            ids = c.ids[keep]
+            if self.box is not None:  # text kept too: a later chunk may hold a text id
+                raw = [str(c.ids_txt[i]).strip() for i in np.flatnonzero(keep)]
+        self.parts.append({"id": ids, "raw": raw, "x": c.x[keep], "y": c.y[keep], "z": c.z[keep],
+                           "strike": c.strike[keep], "dip": c.dip[keep],
+                           "overturned": c.overturned[keep], "int": c.ids_are_int})
+        self.n += c.n
+        self.dropped += c.n - int(good.sum())
+
+    def _ids(self) -> np.ndarray:
+        parts = self.parts
+        if self.has_ids and not self.ids_are_int:
+            # Text ids where any row's id is not an integer, as when the whole file is read.
+            return np.array([v for p in parts for v in (p["id"] if p["raw"] is None
+                                                        else p["raw"])], dtype=object)
+        return np.concatenate([p["id"] for p in parts])
+
+    def finish(self, warn: Warn, target: pyproj.CRS | None) -> Attitudes:
+        """The kept attitudes; the bad rows said (the first 20) and counted. AttitudeError
+        when the file has no usable row."""
+        path, n, dropped = self.path, self.n, self.dropped
+        if dropped:
+            for line in self.said:
+                warn(line)
+            if dropped > self.SHOWN:
+                warn(f"{path}: ... and {dropped - self.SHOWN} more bad rows")
+            warn(f"{path}: dropped {dropped} of {n} rows; kept {n - dropped}")
+        if dropped == n:
+            raise AttitudeError(
+                f"{path}: no usable attitude rows"
+                + (f" ({n} row{'s' if n != 1 else ''}, all bad; {self.first})" if n
+                   else " (no data rows)"))
+        col = {k: np.concatenate([p[k] for p in self.parts])
+               for k in ("x", "y", "z", "strike", "dip", "overturned")}
+        return Attitudes(
+            id=self._ids(), x=col["x"], y=col["y"], z=col["z"], strike=col["strike"] % 360.0,
+            dip=col["dip"], overturned=col["overturned"],
+            crs=target if self.src_crs is None else self.src_crs,
+            source=f"{path} ({n} row{'s' if n != 1 else ''} read, {n - dropped} usable)",
+        )
+
+    def every_x(self) -> np.ndarray:
+        return np.concatenate([e[0] for e in self._every]) if self._every else np.zeros(0)
+
+    def every_y(self) -> np.ndarray:
+        return np.concatenate([e[1] for e in self._every]) if self._every else np.zeros(0)
 
 
 def _check_path(path: Path, convention: str) -> None:
@@ -458,39 +757,43 @@ def _overturned(rows: _Rows) -> np.ndarray:
     return is_true
 
 
-def _ids(rows: _Rows, ids_txt: list | None) -> np.ndarray:
-    """The optional ``id`` column (integers where all are), else the data row number."""
-    if ids_txt is None:
-        return np.arange(1, rows.n + 1)
-    raw = [str(v).strip() for v in ids_txt]
+def _digit_ids(ids_txt: list) -> np.ndarray | None:
+    """The ids as integers when every one is text of 1 to 18 ASCII digits (where ``int``
+    and numpy's parsing agree and nothing overflows), parsed without Python per row; else
+    None."""
     try:
-        ids = np.array([int(v) for v in raw])
+        joined = "\x01".join(ids_txt)
+    except TypeError:  # not all text (a vector file's numbers)
+        return None
+    if (not joined.isascii() or not joined.replace("\x01", "").isdigit()
+            or "\x01\x01" in joined or joined.startswith("\x01") or joined.endswith("\x01")):
+        return None
+    text = np.array(ids_txt, dtype=str)
+    if text.dtype.itemsize // 4 > 18:
+        return None
+    return text.astype(np.int64)
+
+
+def _ids(rows: _Rows, ids_txt: list | None) -> tuple[np.ndarray, bool]:
+    """The optional ``id`` column (integers where all are), else the data row number; and
+    whether they are integers."""
+    if ids_txt is None:
+        return np.arange(1, rows.n + 1), True
+    fast = _digit_ids(ids_txt)
+    if fast is not None:
+        return fast, True
+    try:
+        joined = "\x01".join(ids_txt)
+    except TypeError:  # not all text (a vector file's numbers)
+        joined = None
+    if joined is not None and joined.isascii() and not any(
+            c in joined for c in (*_ASCII_SPACE, "\n", "\r")):
+        raw = ids_txt  # text with no surrounding whitespace: str.strip would change nothing
+    else:
+        raw = [str(v).strip() for v in ids_txt]
+    try:
+        return np.array([int(v) for v in raw]), True  # no blank id: int("") fails
     except ValueError:
         ids = np.array(raw, dtype=object)
-    rows.flag(np.array([v == "" for v in raw], bool), lambda i: "id is blank")
-    return ids
-
-
-def _kept(rows: _Rows, warn: Warn) -> np.ndarray:
-    """The rows without a reason to drop them; the others said (the first 20) and counted.
-    AttitudeError when none is left."""
-    path, n, reasons, labels = rows.path, rows.n, rows.reasons, rows.table.rows
-    good = np.ones(n, bool)
-    good[list(reasons)] = False
-    dropped = n - int(good.sum())
-    if dropped:
-        shown = 0
-        for i in np.flatnonzero(~good):
-            if shown == 20:
-                warn(f"{path}: ... and {dropped - 20} more bad rows")
-                break
-            warn(f"{path}, {labels[i]}: {'; '.join(reasons[i])}; row dropped")
-            shown += 1
-        warn(f"{path}: dropped {dropped} of {n} rows; kept {n - dropped}")
-    if not good.any():
-        raise AttitudeError(
-            f"{path}: no usable attitude rows"
-            + (f" ({n} row{'s' if n != 1 else ''}, all bad; {labels[0]}: "
-               f"{'; '.join(reasons[0])})" if n else " (no data rows)")
-        )
-    return good
+    rows.flag(ids == "", lambda i: "id is blank")
+    return ids, False
