@@ -52,6 +52,7 @@ from ..errors import ParameterError
 from ..extent import location_view_limit
 from ..mapdata import MapData
 from . import colours as C
+from .fonts import pdf_fonts
 from .layout import (
     AXIS_RIGHT,
     HEADER,
@@ -1030,9 +1031,8 @@ def draw_section(draft: Draft, path_stem: str | os.PathLike, map_data: MapData |
     # No creation dates: rebuilding the same draft gives byte-identical files.
     meta = {"png": None, "svg": {"Date": None}, "pdf": {"CreationDate": None}}
     png_dpi = min(PNG_DPI, PNG_MAX_PX / fig.get_figwidth())
-    rc = {"svg.fonttype": "none", "svg.hashsalt": "mapsection", "pdf.fonttype": 42,
-          "ps.fonttype": 42}
-    with matplotlib.rc_context(rc):
+    rc = {"svg.fonttype": "none", "svg.hashsalt": "mapsection"}
+    with matplotlib.rc_context(rc), pdf_fonts():
         for fmt in formats:
             path = stem.with_name(f"{stem.name}.{fmt}")
             with atomic_file(path) as tmp:
