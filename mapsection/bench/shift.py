@@ -18,7 +18,6 @@ Targets: dips <= 50 ms, whole re-run <= 150 ms.
 from __future__ import annotations
 
 import argparse
-import statistics
 import sys
 import tempfile
 import time
@@ -26,12 +25,10 @@ from pathlib import Path
 
 import numpy as np
 
+from ._report import medians, sample_project
+
 DIPS_TARGET_S = 0.050
 RERUN_TARGET_S = 0.150
-
-
-def _default_project() -> Path:
-    return Path(__file__).resolve().parents[2] / "sample_area" / "project.toml"
 
 
 def _write_attitudes(path: Path, project, n: int, rng: np.random.Generator) -> None:
@@ -60,37 +57,29 @@ def _shifted(base: np.ndarray, rng: np.random.Generator) -> np.ndarray:
     return (base - c) @ rot.T + c + rng.uniform(-300.0, 300.0, 2)
 
 
-def main(argv: list[str] | None = None) -> int:
+def _parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="python -m mapsection.bench shift", description=__doc__,
                                 formatter_class=argparse.RawDescriptionHelpFormatter)
-    p.add_argument("--project", type=Path, default=_default_project(),
+    p.add_argument("--project", type=Path, default=sample_project(),
                    help="project file (default: the sample area's)")
     p.add_argument("--section", default=None, help="section name (default: the first)")
     p.add_argument("--attitudes", type=int, default=100_000, help="number of attitudes")
     p.add_argument("--shifts", type=int, default=50, help="number of line shifts")
     p.add_argument("--seed", type=int, default=11)
-    args = p.parse_args(argv)
+    return p
 
-    from mapsection.dips import project_attitudes
-    from mapsection.geology import surface_geology
-    from mapsection.project import load_project
+
+def _first_run(project, spec, n: int, rng: np.random.Generator, said: list[str]):
+    """Read the map, ``n`` invented attitudes and the DEM, build the session and run the
+    section: (session, its line, the first run's data, the first run's time in s)."""
     from mapsection.readers.attitudes import read_attitudes
     from mapsection.readers.dem import Dem
     from mapsection.readers.map import read_map
     from mapsection.session import SectionSession
-    from mapsection.topo_profile import profile
 
-    if not args.project.exists():
-        print(f"mapsection.bench shift: error: {args.project}: no project file (generate the "
-              "sample area first: python sample_area/generate.py)", file=sys.stderr)
-        return 2
-    project = load_project(args.project)
-    spec = project.section(args.section) if args.section else project.sections[0]
-    rng = np.random.default_rng(args.seed)
-    said: list[str] = []
     with tempfile.TemporaryDirectory() as tmp:
         csv = Path(tmp) / "attitudes.csv"
-        _write_attitudes(csv, project, args.attitudes, rng)
+        _write_attitudes(csv, project, n, rng)
 
         t0 = time.perf_counter()
         map_data = read_map(project.map_path, project.units_layer, project.unit_field,
@@ -104,48 +93,78 @@ def main(argv: list[str] | None = None) -> int:
         base = project.section_line(spec)
         first_data = session.run(base)
         first = time.perf_counter() - t0
+    return session, base, first_data, first
 
-    lines = [session._as_line(_shifted(base.vertices, rng)) for _ in range(args.shifts)]
+
+def _time_shifts(session, lines: list, said: list[str]) -> dict[str, list[float]]:
+    """Per shifted line: the dips re-projection, profile, surface geology and whole re-run
+    times; for the first ten, the dips over all attitudes without the index (s)."""
+    from mapsection.dips import project_attitudes
+    from mapsection.geology import surface_geology
+    from mapsection.topo_profile import profile
+
     session.shift_line(lines[0])  # warm-up: first call of each code path
-    t_dips, t_whole, t_scan, n_dips, t_prof, t_geo = [], [], [], [], [], []
+    t: dict[str, list[float]] = {k: [] for k in ("dips", "whole", "scan", "n_dips", "prof",
+                                                 "geo")}
     for line in lines:
-        t = time.perf_counter()
+        t0 = time.perf_counter()
         dips = session.project_dips(line)
-        t_dips.append(time.perf_counter() - t)
-        n_dips.append(len(dips))
-        t = time.perf_counter()
+        t["dips"].append(time.perf_counter() - t0)
+        t["n_dips"].append(len(dips))
+        t0 = time.perf_counter()
         prof = profile(session.dem, line, session.step, warn=said.append)
-        t_prof.append(time.perf_counter() - t)
-        t = time.perf_counter()
+        t["prof"].append(time.perf_counter() - t0)
+        t0 = time.perf_counter()
         surface_geology(session.map_data, line, prof, warn=said.append)
-        t_geo.append(time.perf_counter() - t)
-        t = time.perf_counter()
+        t["geo"].append(time.perf_counter() - t0)
+        t0 = time.perf_counter()
         session.shift_line(line)
-        t_whole.append(time.perf_counter() - t)
+        t["whole"].append(time.perf_counter() - t0)
     for line in lines[:10]:
-        t = time.perf_counter()
+        t0 = time.perf_counter()
         project_attitudes(session.attitudes, line, session.corridor, method=session.projection,
                           axis=session.axis, warn=said.append)
-        t_scan.append(time.perf_counter() - t)
-    session.close()
+        t["scan"].append(time.perf_counter() - t0)
+    return t
 
-    dips_med = statistics.median(t_dips)
-    whole_med = statistics.median(t_whole)
-    scan_med = statistics.median(t_scan)
+
+def _print_report(args, spec, first: float, first_data, t: dict[str, list[float]]) -> bool:
+    """Print the timings against the first run and the targets; True when they are met."""
+    dips_med, whole_med, scan_med, prof_med, geo_med = medians(
+        t["dips"], t["whole"], t["scan"], t["prof"], t["geo"])
     print(f"project {args.project.name}, section {spec.name}, corridor {spec.corridor:g} m, "
           f"{args.attitudes} attitudes, {args.shifts} shifts")
     print(f"first run (read map + attitudes CSV + open DEM + session + run): {first:.3f} s; "
           f"{len(first_data.geology.intervals)} unit intervals, {len(first_data.dips)} dips")
     print(f"median dips re-projection after a shift: {1e3 * dips_med:.1f} ms "
           f"(ratio to first run {dips_med / first:.4f}; target <= {1e3 * DIPS_TARGET_S:.0f} ms;"
-          f" median {int(np.median(n_dips))} dips in the corridor)")
+          f" median {int(np.median(t['n_dips']))} dips in the corridor)")
     print(f"median whole re-run (profile, surface geology, dips): {1e3 * whole_med:.1f} ms "
           f"(ratio to first run {whole_med / first:.4f}; target <= "
           f"{1e3 * RERUN_TARGET_S:.0f} ms; of which profile "
-          f"{1e3 * statistics.median(t_prof):.1f} ms, surface geology "
-          f"{1e3 * statistics.median(t_geo):.1f} ms)")
+          f"{1e3 * prof_med:.1f} ms, surface geology "
+          f"{1e3 * geo_med:.1f} ms)")
     print(f"dips over all attitudes without the index: {1e3 * scan_med:.1f} ms "
           f"(index speed-up x{scan_med / dips_med:.1f})")
     ok = dips_med <= DIPS_TARGET_S and whole_med <= RERUN_TARGET_S
     print("targets met" if ok else "TARGETS MISSED")
-    return 0 if ok else 1
+    return ok
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    from mapsection.project import load_project
+
+    if not args.project.exists():
+        print(f"mapsection.bench shift: error: {args.project}: no project file (generate the "
+              "sample area first: python sample_area/generate.py)", file=sys.stderr)
+        return 2
+    project = load_project(args.project)
+    spec = project.section(args.section) if args.section else project.sections[0]
+    rng = np.random.default_rng(args.seed)
+    said: list[str] = []
+    session, base, first_data, first = _first_run(project, spec, args.attitudes, rng, said)
+    lines = [session._as_line(_shifted(base.vertices, rng)) for _ in range(args.shifts)]
+    t = _time_shifts(session, lines, said)
+    session.close()
+    return 0 if _print_report(args, spec, first, first_data, t) else 1

@@ -25,7 +25,6 @@ import http.client
 import json
 import os
 import shutil
-import statistics
 import sys
 import tempfile
 import time
@@ -33,16 +32,14 @@ from pathlib import Path
 
 import numpy as np
 
+from ._report import median_ms, sample_project
+
 TARGETS_MS = {"section": 30.0, "section_100k": 100.0, "draft": 300.0, "drag_step": 100.0,
               "drag_end": 500.0}
 CHROMIUM = "/usr/bin/chromium"
 CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
                  "--no-first-run", "--disable-background-networking",
                  "--disable-component-update", "--disable-sync"]
-
-
-def _default_project() -> Path:
-    return Path(__file__).resolve().parents[2] / "sample_area" / "project.toml"
 
 
 class _Client:
@@ -212,14 +209,10 @@ def _project_with_attitudes(src: Path, folder: Path, n: int) -> Path:
     return out
 
 
-def _median_ms(values: list[float], scale: float = 1e3) -> float:
-    return statistics.median(values) * scale if values else float("nan")
-
-
-def main(argv: list[str] | None = None) -> int:
+def _parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="python -m mapsection.bench view", description=__doc__,
                                 formatter_class=argparse.RawDescriptionHelpFormatter)
-    p.add_argument("--project", type=Path, default=_default_project())
+    p.add_argument("--project", type=Path, default=sample_project())
     p.add_argument("--section", default=None, help="section name (default: the first)")
     p.add_argument("--requests", type=int, default=40, help="requests without the draft")
     p.add_argument("--drafts", type=int, default=15, help="requests with the draft")
@@ -230,29 +223,31 @@ def main(argv: list[str] | None = None) -> int:
                    help="also time the browser on the large attitude set (no target)")
     p.add_argument("--screenshot", type=Path, default=None, metavar="PNG",
                    help="also save a screenshot of the page (as in docs/view.png)")
-    args = p.parse_args(argv)
+    return p
 
-    from mapsection.build import build_project
-    from mapsection.project import load_project
+
+def _time_browser(url: str, screenshot: Path | None, results: dict[str, float]) -> None:
+    """The drag timings in a real browser, when chromium and playwright are installed."""
+    if not os.path.exists(CHROMIUM):
+        print(f"browser timings skipped: {CHROMIUM} missing (apt-get install chromium)")
+        return
+    try:
+        bt = browser_timings(url, screenshot=screenshot)
+    except ImportError:
+        print("browser timings skipped: playwright not installed")
+        return
+    results["drag_step"] = median_ms(bt["drag_step"], 1.0)
+    results["drag_end"] = median_ms(bt["drag_end"], 1.0)
+    print(f"browser: {len(bt['drag_step'])} drag steps, {len(bt['drag_end'])} "
+          f"drag ends measured; requests leaving 127.0.0.1: "
+          f"{len(bt['outside'])}; console errors: {len(bt['errors'])}")
+
+
+def _time_page(args, spec, base: np.ndarray, quiet: list[str], results: dict[str, float],
+               computing: dict[str, float]) -> None:
+    """Start the page server and time its requests (and the browser's drags)."""
     from mapsection.web.api import ViewState
     from mapsection.web.app import BackgroundServer
-
-    if not args.project.exists():
-        print(f"mapsection.bench view: error: {args.project}: no project file", file=sys.stderr)
-        return 2
-    project = load_project(args.project)
-    spec = project.section(args.section) if args.section else project.sections[0]
-    base = np.asarray(spec.line, float)
-    quiet: list[str] = []
-    results: dict[str, float] = {}
-    computing: dict[str, float] = {}  # the server's own time, without HTTP
-
-    with tempfile.TemporaryDirectory() as tmp:
-        t = time.perf_counter()
-        build_project(args.project, Path(tmp) / "out", section=spec.name, warn=quiet.append)
-        build_s = time.perf_counter() - t
-    print(f"project {args.project.name}, section {spec.name}: full build {build_s:.2f} s "
-          "(the baseline of every ratio below)")
 
     t = time.perf_counter()
     state = ViewState(args.project, spec.name, warn=quiet.append)
@@ -263,47 +258,45 @@ def main(argv: list[str] | None = None) -> int:
     try:
         for key, n, draft in (("section", args.requests, False), ("draft", args.drafts, True)):
             wall, inside = time_requests(server.port, server.token, spec.name, base, n, draft)
-            results[key] = _median_ms(wall)
-            computing[key] = _median_ms(inside)
+            results[key] = median_ms(wall)
+            computing[key] = median_ms(inside)
         if not args.no_browser:
-            if not os.path.exists(CHROMIUM):
-                print(f"browser timings skipped: {CHROMIUM} missing (apt-get install chromium)")
-            else:
-                try:
-                    bt = browser_timings(server.url, screenshot=args.screenshot)
-                except ImportError:
-                    print("browser timings skipped: playwright not installed")
-                else:
-                    results["drag_step"] = _median_ms(bt["drag_step"], 1.0)
-                    results["drag_end"] = _median_ms(bt["drag_end"], 1.0)
-                    print(f"browser: {len(bt['drag_step'])} drag steps, {len(bt['drag_end'])} "
-                          f"drag ends measured; requests leaving 127.0.0.1: "
-                          f"{len(bt['outside'])}; console errors: {len(bt['errors'])}")
+            _time_browser(server.url, args.screenshot, results)
     finally:
         server.stop()
         state.close()
 
-    if args.attitudes:
-        with tempfile.TemporaryDirectory() as tmp:
-            many = _project_with_attitudes(args.project, Path(tmp), args.attitudes)
-            state = ViewState(many, spec.name, warn=quiet.append)
-            state.warm()
-            server = BackgroundServer(state)
-            try:
-                wall, inside = time_requests(server.port, server.token, spec.name, base,
-                                             args.requests, False)
-                results["section_100k"] = _median_ms(wall)
-                computing["section_100k"] = _median_ms(inside)
-                if args.browser_many and os.path.exists(CHROMIUM):
-                    bt = browser_timings(server.url, drags=3)
-                    print(f"browser with {args.attitudes} attitudes (no target): drag step "
-                          f"median {_median_ms(bt['drag_step'], 1.0):.0f} ms, drag end median "
-                          f"{_median_ms(bt['drag_end'], 1.0):.0f} ms")
-            finally:
-                server.stop()
-                state.close()
-            shutil.rmtree(tmp, ignore_errors=True)
 
+def _time_many(args, spec, base: np.ndarray, quiet: list[str], results: dict[str, float],
+               computing: dict[str, float]) -> None:
+    """The requests without the draft on a copy of the project with many attitudes."""
+    from mapsection.web.api import ViewState
+    from mapsection.web.app import BackgroundServer
+
+    with tempfile.TemporaryDirectory() as tmp:
+        many = _project_with_attitudes(args.project, Path(tmp), args.attitudes)
+        state = ViewState(many, spec.name, warn=quiet.append)
+        state.warm()
+        server = BackgroundServer(state)
+        try:
+            wall, inside = time_requests(server.port, server.token, spec.name, base,
+                                         args.requests, False)
+            results["section_100k"] = median_ms(wall)
+            computing["section_100k"] = median_ms(inside)
+            if args.browser_many and os.path.exists(CHROMIUM):
+                bt = browser_timings(server.url, drags=3)
+                print(f"browser with {args.attitudes} attitudes (no target): drag step "
+                      f"median {median_ms(bt['drag_step'], 1.0):.0f} ms, drag end median "
+                      f"{median_ms(bt['drag_end'], 1.0):.0f} ms")
+        finally:
+            server.stop()
+            state.close()
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _print_results(args, results: dict[str, float], computing: dict[str, float],
+                   build_s: float) -> bool:
+    """Print each timing against the full build and its target; True when all are met."""
     labels = {"section": "POST /api/section, no draft",
               "section_100k": f"POST /api/section, no draft, {args.attitudes} attitudes",
               "draft": "POST /api/section with draft and checks",
@@ -321,4 +314,32 @@ def main(argv: list[str] | None = None) -> int:
               f"{ms / 1e3 / build_s:.4f}; target <= {TARGETS_MS[key]:.0f} ms: "
               f"{'met' if met else 'MISSED'})")
     print("targets met" if ok else "TARGETS MISSED")
-    return 0 if ok else 1
+    return ok
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+
+    from mapsection.build import build_project
+    from mapsection.project import load_project
+
+    if not args.project.exists():
+        print(f"mapsection.bench view: error: {args.project}: no project file", file=sys.stderr)
+        return 2
+    project = load_project(args.project)
+    spec = project.section(args.section) if args.section else project.sections[0]
+    base = np.asarray(spec.line, float)
+    quiet: list[str] = []
+    results: dict[str, float] = {}
+    computing: dict[str, float] = {}  # the server's own time, without HTTP
+
+    with tempfile.TemporaryDirectory() as tmp:
+        t = time.perf_counter()
+        build_project(args.project, Path(tmp) / "out", section=spec.name, warn=quiet.append)
+        build_s = time.perf_counter() - t
+    print(f"project {args.project.name}, section {spec.name}: full build {build_s:.2f} s "
+          "(the baseline of every ratio below)")
+    _time_page(args, spec, base, quiet, results, computing)
+    if args.attitudes:
+        _time_many(args, spec, base, quiet, results, computing)
+    return 0 if _print_results(args, results, computing, build_s) else 1

@@ -95,22 +95,12 @@ def run_checks(
     """
     thresholds = thresholds or Thresholds()
     validate_thresholds(thresholds)
-    if not any(h.geometry is not None and not h.geometry.is_empty and not h.above_ground
-               for h in draft.horizons):
-        raise CheckError(f"section {draft.name or '(unnamed)'}: has no horizons below the ground")
+    _require_horizons(draft)
     topo = check_topography(draft, thresholds)
     whole, draft = draft, layered_draft(draft)  # cover and intrusive units: not restored
     if topo.status == "fail":  # name the likely fix, ranked (issue 12)
         topo.diagnosis = diagnose(draft, attitude_xy=attitude_xy, corridor_m=corridor_m)
-    per_sequence: list[dict] = []
-    if draft.sequences:  # unconformities: each sequence restored to its own datum
-        from .sequences import check_sequences
-
-        restoration, area, kin, per_sequence = check_sequences(draft, thresholds, pin, loose)
-    else:
-        restoration = _restoration(draft, thresholds, pin, loose)
-        area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
-        kin = check_kinematics(draft, restoration)
+    restoration, area, kin, per_sequence = _balance(draft, thresholds, pin, loose)
     notes = unlayered_notes(whole) + _notes(draft)
     if per_sequence:
         notes.append("unconformities: restoration and area balance measured per sequence, "
@@ -123,6 +113,26 @@ def run_checks(
         if failed:
             warn(f"section {draft.name}: failed {', '.join(failed)}")
     return report
+
+
+def _require_horizons(draft: Draft) -> None:
+    """CheckError for a draft with no horizon below the ground (nothing to measure)."""
+    if not any(h.geometry is not None and not h.geometry.is_empty and not h.above_ground
+               for h in draft.horizons):
+        raise CheckError(f"section {draft.name or '(unnamed)'}: has no horizons below the ground")
+
+
+def _balance(draft: Draft, thresholds: Thresholds, pin: float | None, loose: float | None):
+    """The restoration, area balance and kinematics of the layered draft, and the results
+    per sequence (empty without unconformities)."""
+    if draft.sequences:  # unconformities: each sequence restored to its own datum
+        from .sequences import check_sequences
+
+        return check_sequences(draft, thresholds, pin, loose)
+    restoration = _restoration(draft, thresholds, pin, loose)
+    area = area_balance(draft, restoration, thresholds.area_mismatch_pct)
+    kin = check_kinematics(draft, restoration)
+    return restoration, area, kin, []
 
 
 def _restoration(draft: Draft, thresholds: Thresholds, pin: float | None,

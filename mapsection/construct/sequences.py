@@ -128,6 +128,45 @@ def _has_units(geology: SurfaceGeology, cc, names: set[str]) -> bool:
     return False
 
 
+@dataclasses.dataclass
+class _Job:
+    """What every build of one sequence shares: the builder, the section's inputs and the
+    keyword options of :func:`mapsection.construct.build_draft`."""
+
+    build: Callable[..., Draft]
+    line: object
+    profile: object
+    dips: object
+    options: dict
+    default_dip: float | None
+    corridor_contacts: object
+    plunge_axis: object
+    warn: Warn | None
+
+    def older(self, geo: SurfaceGeology, col: Column, young_mask: np.ndarray) -> Draft:
+        """The older sequence from the readings not in the younger one."""
+        def said(message: str) -> None:
+            (self.warn or _default_warn)(f"older sequence: {message}")
+
+        return self.build(self.line, self.profile, geo, subset_dips(self.dips, ~young_mask),
+                          col, default_dip=self.default_dip,
+                          corridor_contacts=self.corridor_contacts,
+                          plunge_axis=self.plunge_axis, **{**self.options, "warn": said})
+
+    def younger(self, geo: SurfaceGeology, col: Column, cc, young_mask: np.ndarray,
+                said: list[str]) -> Draft:
+        """The younger sequence from its readings; its notes go to ``said`` (an empty
+        note marks a sequence drawn flat for want of dips of its own)."""
+        y_dips = subset_dips(self.dips, young_mask)
+        y_default = self.default_dip
+        if not np.isfinite(np.asarray(y_dips.apparent_dip, float)).any() and y_default is None:
+            y_default = 0.0
+            said.append("")  # marks: no dips of its own
+        return self.build(self.line, self.profile, geo, y_dips, col, default_dip=y_default,
+                          corridor_contacts=cc, plunge_axis=None,
+                          **{**self.options, "warn": said.append})
+
+
 def build_sequences(build: Callable[..., Draft], line, profile, geology: SurfaceGeology, dips,
                     column: Column, *, name: str, method: str, ve: float,
                     dip_tolerance: float, depth: float | None, fault_depth: float | None,
@@ -136,100 +175,118 @@ def build_sequences(build: Callable[..., Draft], line, profile, geology: Surface
                     warn: Warn | None) -> Draft:
     """Construct a section whose column holds unconformities (see the module's text).
 
-    ``build`` is :func:`mapsection.construct.build_draft`, called once per sequence with
-    that sequence's column, contacts and dips; the other parameters are its own.
-    Returns one draft: the younger sequence over the older one cut at the unconformity,
-    with ``draft.unconformities`` and ``draft.sequences`` (one draft per sequence).
+    Parameters
+    ----------
+    build : callable
+        :func:`mapsection.construct.build_draft`, called once per sequence with that
+        sequence's column, contacts and dips.
+    line, profile, geology, dips, column
+        The section line, its ground profile, its surface geology, its projected dips and
+        the whole stratigraphic column (with its unconformities).
+    name, method, ve, dip_tolerance, depth, fault_depth, default_dip, keep_readings, \
+corridor_contacts, plunge_axis, faults, default_fault_dip, warn
+        As for ``build``; ``depth`` defaults to 1.1 times the column's thickness.
+
+    Returns
+    -------
+    Draft
+        The younger sequence over the older one cut at the unconformity, with
+        ``draft.unconformities`` and ``draft.sequences`` (one draft per sequence).
     """
     layered = column.layered()
     seqs = layered.sequences()
     young_col, older_col = seqs[0], Column(tuple(u for s in seqs[1:] for u in s.units))
     young, older = set(young_col.names), set(older_col.names)
-    label = name or line.name
     depth_used = depth if depth is not None else 1.1 * layered.total_thickness
-    options = dict(name=name, method=method, ve=ve, dip_tolerance=dip_tolerance,
-                   depth=depth_used, fault_depth=fault_depth, keep_readings=keep_readings,
-                   faults=faults, default_fault_dip=default_fault_dip, warn=warn)
-
-    on_units = _unit_at(geology, dips.distance_m)
-    in_young = np.array([u in young for u in on_units], bool)
+    job = _Job(build, line, profile, dips,
+               dict(name=name, method=method, ve=ve, dip_tolerance=dip_tolerance,
+                    depth=depth_used, fault_depth=fault_depth, keep_readings=keep_readings,
+                    faults=faults, default_fault_dip=default_fault_dip, warn=warn),
+               default_dip, corridor_contacts, plunge_axis, warn)
+    in_young = np.array([u in young for u in _unit_at(geology, dips.distance_m)], bool)
     log = [f"sequences: {len(seqs)} separated by unconformities ("
            + "; ".join(", ".join(s.names) for s in seqs) + "), youngest first: each "
            "constructed from its own contacts and dips; the older cut at the unconformity"]
-
     older_geo = _relabel(geology, older, set(), geology.faults)
-
-    def build_older(young_mask):
-        def said(message: str) -> None:
-            (warn or _default_warn)(f"older sequence: {message}")
-
-        return build(line, profile, older_geo, subset_dips(dips, ~young_mask), older_col,
-                     default_dip=default_dip, corridor_contacts=corridor_contacts,
-                     plunge_axis=plunge_axis, **{**options, "warn": said})
-
     if not _has_units(geology, corridor_contacts, young):
-        od = build_older(in_young)
-        log.append(f"the younger sequence ({', '.join(young_col.names)}) is not mapped along "
-                   "the line nor beside it: not drafted, and the unconformity at its base not "
-                   "located (eroded here)")
-        od = dataclasses.replace(od, column=column, geology=geology, dips=dips,
-                                 log=[od.log[0], *log, *od.log[1:]])
-        od.sequences = split_sequences(od)
-        return od
+        od = job.older(older_geo, older_col, in_young)
+        return _older_only(od, young_col, log, column, geology, dips)
 
-    # The younger sequence, every older unit one unit below its base.
-    big = 2.0 * layered.total_thickness + depth_used + float(np.nanmax(profile.z)
-                                                             - np.nanmin(profile.z))
-    ycol = Column((*(dataclasses.replace(u, unconformity=False) for u in young_col.units),
-                   Unit(BELOW, big)))
+    ycol = _younger_column(young_col, layered.total_thickness, depth_used, profile)
     y_faults = [f for f in geology.faults if _cuts_younger(f, geology, young)]
     y_geo = _relabel(geology, young, older, y_faults)
     y_cc = _corridor_for_younger(corridor_contacts, young, older)
-
-    def build_younger(young_mask, said: list[str]):
-        y_dips = subset_dips(dips, young_mask)
-        y_default = default_dip
-        if not np.isfinite(np.asarray(y_dips.apparent_dip, float)).any() and y_default is None:
-            y_default = 0.0
-            said.append("")  # marks: no dips of its own
-        return build(line, profile, y_geo, y_dips, ycol, default_dip=y_default,
-                     corridor_contacts=y_cc, plunge_axis=None,
-                     **{**options, "warn": said.append})
-
-    # A reading belongs to the sequence whose rocks it was taken in: first the unit at the
-    # ground where it projects onto the line, then its elevation against the unconformity
-    # as constructed (above it: younger), the younger sequence rebuilt if that changed.
-    said: list[str] = []
-    yd = build_younger(in_young, said)
-    path = _surface_path([h for h in yd.horizons if h.top_of == BELOW], float(line.length))
-    if path is not None:
-        z = np.asarray(dips.elevation_m, float)
-        u = np.interp(np.asarray(dips.distance_m, float), path[:, 0], path[:, 1])
-        by_height = np.where(np.isfinite(z), z > u, in_young)
-        moved = int((by_height != in_young).sum())
-        if moved:
-            log.append(f"{moved} reading(s) assigned to the sequence their elevation puts them "
-                       "in (above or below the unconformity as constructed), not the unit at "
-                       "the ground where they project onto the line")
-            said = []
-            yd = build_younger(by_height, said)
-        in_young = by_height
-    if "" in said:
-        log.append(f"younger sequence ({', '.join(young_col.names)}): no dips of its own "
-                   "within the corridor: drawn with horizontal beds (the tool's default for a "
-                   "sequence without dips; set default_dip to change)")
-    for message in said:  # the younger sequence's warnings, once, from the build kept
-        if message:
-            (warn or _default_warn)(f"younger sequence ({', '.join(young_col.names)}): "
-                                    f"{message}")
-    od = build_older(in_young)
+    yd, in_young, said = _younger_by_height(job, y_geo, ycol, y_cc, in_young, log)
+    _pass_on(said, log, young_col, warn)
+    od = job.older(older_geo, older_col, in_young)
     cut = [f.name or "?" for f in geology.faults if f not in y_faults]
     if cut:
         log.append(f"fault(s) crossing the line in older rocks only, taken to end at the "
                    f"unconformity: {', '.join(cut)}")
-    merged = _merge(yd, od, column, young_col, label, log, geology, dips)
+    merged = _merge(yd, od, column, young_col, name or line.name, log, geology, dips)
     merged.sequences = split_sequences(merged)
     return merged
+
+
+def _older_only(od: Draft, young_col: Column, log: list[str], column: Column,
+                geology: SurfaceGeology, dips) -> Draft:
+    """The section when the younger sequence is mapped nowhere near the line: the older
+    sequence alone, with the whole column."""
+    log.append(f"the younger sequence ({', '.join(young_col.names)}) is not mapped along "
+               "the line nor beside it: not drafted, and the unconformity at its base not "
+               "located (eroded here)")
+    od = dataclasses.replace(od, column=column, geology=geology, dips=dips,
+                             log=[od.log[0], *log, *od.log[1:]])
+    od.sequences = split_sequences(od)
+    return od
+
+
+def _younger_column(young_col: Column, thickness: float, depth: float, profile) -> Column:
+    """The younger sequence's column with every older unit as one unit below its base,
+    thick enough to reach below the section (``thickness``: the layered column's,
+    ``depth``: the section's)."""
+    big = 2.0 * thickness + depth + float(np.nanmax(profile.z) - np.nanmin(profile.z))
+    return Column((*(dataclasses.replace(u, unconformity=False) for u in young_col.units),
+                   Unit(BELOW, big)))
+
+
+def _younger_by_height(job: _Job, y_geo: SurfaceGeology, ycol: Column, y_cc,
+                       in_young: np.ndarray, log: list[str]
+                       ) -> tuple[Draft, np.ndarray, list[str]]:
+    """The younger sequence's draft, the readings it holds and its notes.
+
+    A reading belongs to the sequence whose rocks it was taken in: first the unit at the
+    ground where it projects onto the line, then its elevation against the unconformity
+    as constructed (above it: younger), the younger sequence rebuilt if that changed.
+    """
+    said: list[str] = []
+    yd = job.younger(y_geo, ycol, y_cc, in_young, said)
+    path = _surface_path([h for h in yd.horizons if h.top_of == BELOW], float(job.line.length))
+    if path is None:
+        return yd, in_young, said
+    z = np.asarray(job.dips.elevation_m, float)
+    u = np.interp(np.asarray(job.dips.distance_m, float), path[:, 0], path[:, 1])
+    by_height = np.where(np.isfinite(z), z > u, in_young)
+    moved = int((by_height != in_young).sum())
+    if moved:
+        log.append(f"{moved} reading(s) assigned to the sequence their elevation puts them "
+                   "in (above or below the unconformity as constructed), not the unit at "
+                   "the ground where they project onto the line")
+        said = []
+        yd = job.younger(y_geo, ycol, y_cc, by_height, said)
+    return yd, by_height, said
+
+
+def _pass_on(said: list[str], log: list[str], young_col: Column, warn: Warn | None) -> None:
+    """The younger sequence's notes, once, from the build kept."""
+    if "" in said:
+        log.append(f"younger sequence ({', '.join(young_col.names)}): no dips of its own "
+                   "within the corridor: drawn with horizontal beds (the tool's default for a "
+                   "sequence without dips; set default_dip to change)")
+    for message in said:
+        if message:
+            (warn or _default_warn)(f"younger sequence ({', '.join(young_col.names)}): "
+                                    f"{message}")
 
 
 def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
@@ -245,8 +302,35 @@ def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
     path = _surface_path(uc_pieces, frame.length)
     lens = (below_polygon(path, frame).difference(ground_poly) if path is not None
             else Polygon())
-    keep_all = below.union(lens)
+    horizons, eroded = _merged_horizons(yd, od, young_col, below, lens)
+    units = [u for u in yd.units if u.unit in young_col.names]
+    for u in od.units:
+        poly = poly_parts(u.geometry.intersection(below))
+        if poly is not None:
+            units.append(dataclasses.replace(u, geometry=poly))
+    key = unconformity_key(base_unit)
+    residuals = [dataclasses.replace(r, top_of=key) if r.top_of == BELOW else r
+                 for r in yd.residuals if not is_base_name(r.top_of) or r.top_of == BELOW]
+    residuals += od.residuals
+    unconformities = [Unconformity(base_unit, h.geometry, h.above_ground, h.block)
+                      for h in uc_pieces] + list(od.unconformities)
+    seq_name = ", ".join(young_col.names)
+    full_log = [od.log[0] if od.log else f"method: {od.method}", *log,
+                *(f"younger sequence ({seq_name}): {m}" for m in yd.log[1:]),
+                *(f"older sequence: {m}" for m in od.log[1:])]
+    return Draft(name=label, method=od.method, line=od.line, profile=od.profile,
+                 geology=geology, dips=dips,
+                 column=column, horizons=horizons, faults=_merged_faults(yd, od, below),
+                 units=units, domains=[*yd.domains, *od.domains],
+                 axial_surfaces=_merged_axial(yd, od, below.union(lens)), residuals=residuals,
+                 ve=od.ve, base_elevation_m=min(od.base_elevation_m, yd.base_elevation_m),
+                 log=full_log, outliers=[*yd.outliers, *od.outliers],
+                 unconformities=unconformities, eroded_horizons=eroded)
 
+
+def _merged_horizons(yd: Draft, od: Draft, young_col: Column, below, lens) -> tuple[list, list]:
+    """The younger sequence's horizons and the older ones kept below the unconformity
+    (projected ones in the lens above the ground under it), and the older parts eroded."""
     horizons = [h for h in yd.horizons if h.top_of in young_col.names]
     eroded = list(od.eroded_horizons)
     for h in od.horizons:
@@ -255,11 +339,12 @@ def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
             horizons.append(dataclasses.replace(h, geometry=part))
         for part in line_parts(h.geometry.difference(region)):
             eroded.append(dataclasses.replace(h, geometry=part, above_ground=True))
-    units = [u for u in yd.units if u.unit in young_col.names]
-    for u in od.units:
-        poly = poly_parts(u.geometry.intersection(below))
-        if poly is not None:
-            units.append(dataclasses.replace(u, geometry=poly))
+    return horizons, eroded
+
+
+def _merged_faults(yd: Draft, od: Draft, below) -> list:
+    """The older build's faults: one that cuts both sequences with the separations of both,
+    one in older rocks only cut off at the unconformity."""
     # the same fault in both builds: its trace leaves the ground at the same distance
     y_tops = [float(np.asarray(f.geometry.coords)[0, 0]) for f in yd.faults]
     faults = []
@@ -273,6 +358,11 @@ def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
         parts = line_parts(f.geometry.intersection(below))
         if parts:
             faults.append(dataclasses.replace(f, geometry=max(parts, key=lambda p: p.length)))
+    return faults
+
+
+def _merged_axial(yd: Draft, od: Draft, keep_all) -> list:
+    """The older axial surfaces below the unconformity, the younger ones above it."""
     axial = []
     for a in od.axial_surfaces:
         axial += [dataclasses.replace(a, geometry=p)
@@ -280,23 +370,7 @@ def _merge(yd: Draft, od: Draft, column: Column, young_col: Column, label: str,
     for a in yd.axial_surfaces:
         axial += [dataclasses.replace(a, geometry=p)
                   for p in line_parts(a.geometry.difference(keep_all))]
-    key = unconformity_key(base_unit)
-    residuals = [dataclasses.replace(r, top_of=key) if r.top_of == BELOW else r
-                 for r in yd.residuals if not is_base_name(r.top_of) or r.top_of == BELOW]
-    residuals += od.residuals
-    unconformities = [Unconformity(base_unit, h.geometry, h.above_ground, h.block)
-                      for h in uc_pieces] + list(od.unconformities)
-    seq_name = ", ".join(young_col.names)
-    full_log = [od.log[0] if od.log else f"method: {od.method}", *log,
-                *(f"younger sequence ({seq_name}): {m}" for m in yd.log[1:]),
-                *(f"older sequence: {m}" for m in od.log[1:])]
-    return Draft(name=label, method=od.method, line=od.line, profile=od.profile,
-                 geology=geology, dips=dips,
-                 column=column, horizons=horizons, faults=faults, units=units,
-                 domains=[*yd.domains, *od.domains], axial_surfaces=axial, residuals=residuals,
-                 ve=od.ve, base_elevation_m=min(od.base_elevation_m, yd.base_elevation_m),
-                 log=full_log, outliers=[*yd.outliers, *od.outliers],
-                 unconformities=unconformities, eroded_horizons=eroded)
+    return axial
 
 
 def _surface_path(pieces, length: float) -> np.ndarray | None:

@@ -53,60 +53,110 @@ def read_map(
     warn = warn or _default_warn
     path = Path(path)
     target = pyproj.CRS(crs) if crs is not None else None
+    layers = _list_layers(path)
+    counts: dict[str, tuple] = {}
+    units = _read_layer(path, layers, units_layer, [unit_field], "unit", bbox, target, counts)
+    units = _clean(units, _POLYGONS, f"{path.name}: layer {units_layer!r}", warn)
+    faults, roles = None, {}
+    if faults_layer is not None:
+        faults, roles = _read_faults(path, layers, faults_layer, fault_fields, target, counts,
+                                     warn)
+    target = target or (pyproj.CRS(units.crs) if units.crs is not None else None)
+    frames = _one_crs(path, {units_layer: units,
+                             **({faults_layer: faults} if faults is not None else {})},
+                      target, warn)
+    units = frames[units_layer]
+    if faults is not None:
+        faults = frames[faults_layer]
+    units = units[[unit_field, "geometry"]].reset_index(drop=True)
+    if not len(units):
+        _no_units(path, units_layer, unit_field, crs, bbox)
+    _warn_overlaps(units, unit_field, f"{path.name}: layer {units_layer!r}", warn)
+    if units[unit_field].isna().any():
+        n = int(units[unit_field].isna().sum())
+        warn(f"{path.name}: layer {units_layer!r}: {n} polygon(s) with no {unit_field!r} value "
+             "are treated as unmapped ground")
+    if bbox is None:
+        return MapData(units, unit_field, faults, roles, target)
+    total, got, extent, layer_crs = counts[units_layer]
+    return MapData(units, unit_field, faults, roles, target,
+                   window=tuple(float(v) for v in bbox),
+                   left_out=max(total - got, 0) if total >= 0 else 1,
+                   extent=_layer_extent(extent, layer_crs, target))
+
+
+def _layer_extent(extent, layer_crs, target) -> tuple[float, float, float, float] | None:
+    """The whole layer's extent, in the map's CRS, for the location map's framing."""
+    if extent is not None and np.all(np.isfinite(extent)):
+        return _to_target(tuple(float(v) for v in extent), layer_crs, target)
+    return None
+
+
+def _list_layers(path: Path) -> list[str]:
+    """The names of the map file's layers (MapLayerError when it is missing or unreadable)."""
     if not path.exists():
         raise MapLayerError(f"{path}: no such map file")
     import pyogrio
 
     try:
-        layers = [str(name) for name in pyogrio.list_layers(path)[:, 0]]
+        return [str(name) for name in pyogrio.list_layers(path)[:, 0]]
     except Exception as exc:  # the vector driver raises several kinds for unreadable files
         raise MapLayerError(f"{path}: not a readable map file ({first_line(exc)})") from None
 
-    def read(layer: str, fields: list[str], role: str, box=bbox) -> gpd.GeoDataFrame:
-        if layer not in layers:
-            raise MapLayerError(f"{path.name}: no layer {layer!r} (layers: {', '.join(layers)})")
-        try:
-            info = pyogrio.read_info(path, layer=layer)
-            existing = [str(f) for f in info["fields"]]
-        except Exception as exc:
-            raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({first_line(exc)})") \
-                from None
-        for f in fields:
-            if f not in existing:
-                raise MapLayerError(
-                    f"{path.name}: layer {layer!r} has no {role} field {f!r} "
-                    f"(fields: {_names(existing)})"
-                )
-        try:
-            window = None if box is None else _layer_box(box, info.get("crs"), target)
-            df = pyogrio.read_dataframe(path, layer=layer, bbox=window)
-            counts[layer] = (int(info.get("features", -1)), len(df), info.get("total_bounds"),
-                             info.get("crs"))
-            return df
-        except Exception as exc:
-            raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({first_line(exc)})") \
-                from None
 
-    counts: dict[str, tuple] = {}
-    units = read(units_layer, [unit_field], "unit")
-    units = _clean(units, _POLYGONS, f"{path.name}: layer {units_layer!r}", warn)
-    faults = None
-    roles: dict[str, str] = {}
-    if faults_layer is not None:
-        given = dict(fault_fields or {})
-        wanted = {r: given.get(r, r) for r in REQUIRED_FAULT_FIELDS + OPTIONAL_FAULT_FIELDS}
-        # The faults layer is read whole (faults are few): every [[fault]] table finds its
-        # fault, and a bad value is named by its feature number in the layer.
-        faults = read(faults_layer, [wanted[r] for r in REQUIRED_FAULT_FIELDS], "fault",
-                      None)
-        roles = {r: c for r, c in wanted.items() if c in faults.columns}
-        faults = _clean(faults, _LINES, f"{path.name}: layer {faults_layer!r}", warn)
-        _check_fault_values(faults, roles, f"{path.name}: layer {faults_layer!r}")
+def _read_layer(path: Path, layers: list[str], layer: str, fields: list[str], role: str,
+                box, target, counts: dict[str, tuple]) -> gpd.GeoDataFrame:
+    """One layer, checked for its ``fields`` (the ``role`` names them in a message), read
+    within ``box`` (in ``target``) when given; ``counts[layer]`` gets (features in the
+    layer, features read, the layer's bounds, its CRS)."""
+    import pyogrio
 
-    # Bring every layer into one CRS; name all reprojected layers in one message.
-    target = target or (pyproj.CRS(units.crs) if units.crs is not None else None)
+    if layer not in layers:
+        raise MapLayerError(f"{path.name}: no layer {layer!r} (layers: {', '.join(layers)})")
+    try:
+        info = pyogrio.read_info(path, layer=layer)
+        existing = [str(f) for f in info["fields"]]
+    except Exception as exc:
+        raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({first_line(exc)})") \
+            from None
+    for f in fields:
+        if f not in existing:
+            raise MapLayerError(
+                f"{path.name}: layer {layer!r} has no {role} field {f!r} "
+                f"(fields: {_names(existing)})"
+            )
+    try:
+        window = None if box is None else _layer_box(box, info.get("crs"), target)
+        df = pyogrio.read_dataframe(path, layer=layer, bbox=window)
+        counts[layer] = (int(info.get("features", -1)), len(df), info.get("total_bounds"),
+                         info.get("crs"))
+        return df
+    except Exception as exc:
+        raise MapLayerError(f"{path.name}: layer {layer!r} unreadable ({first_line(exc)})") \
+            from None
+
+
+def _read_faults(path: Path, layers: list[str], faults_layer: str,
+                 fault_fields: dict[str, str] | None, target, counts: dict[str, tuple],
+                 warn: Warn) -> tuple[gpd.GeoDataFrame, dict[str, str]]:
+    """The faults layer, cleaned and its values checked, and its columns by role."""
+    given = dict(fault_fields or {})
+    wanted = {r: given.get(r, r) for r in REQUIRED_FAULT_FIELDS + OPTIONAL_FAULT_FIELDS}
+    # The faults layer is read whole (faults are few): every [[fault]] table finds its
+    # fault, and a bad value is named by its feature number in the layer.
+    faults = _read_layer(path, layers, faults_layer, [wanted[r] for r in REQUIRED_FAULT_FIELDS],
+                         "fault", None, target, counts)
+    roles = {r: c for r, c in wanted.items() if c in faults.columns}
+    faults = _clean(faults, _LINES, f"{path.name}: layer {faults_layer!r}", warn)
+    _check_fault_values(faults, roles, f"{path.name}: layer {faults_layer!r}")
+    return faults, roles
+
+
+def _one_crs(path: Path, frames: dict[str, gpd.GeoDataFrame], target, warn: Warn
+             ) -> dict[str, gpd.GeoDataFrame]:
+    """Every layer in ``target``: reprojected, or taken to be in it when it has no CRS;
+    all the layers reprojected are named in one message."""
     moved, assumed = [], []
-    frames = {units_layer: units, **({faults_layer: faults} if faults is not None else {})}
     for name, df in frames.items():
         if target is None:
             continue
@@ -121,36 +171,20 @@ def read_map(
              f"assuming {_crs_name(target)}")
     if moved:
         warn(f"{path.name}: reprojected layer(s) {', '.join(moved)} to {_crs_name(target)}")
-    units = frames[units_layer]
-    if faults is not None:
-        faults = frames[faults_layer]
-    units = units[[unit_field, "geometry"]].reset_index(drop=True)
-    if not len(units):
-        if bbox is not None:
-            # The whole layer read again (only on this error) says whether it has none at all.
-            read_map(path, units_layer, unit_field, crs=crs, warn=lambda message: None)
-            raise MapLayerError(f"{path.name}: layer {units_layer!r} has no unit polygons "
-                                f"near the section lines (x {bbox[0]:.1f} to {bbox[2]:.1f}, "
-                                f"y {bbox[1]:.1f} to {bbox[3]:.1f}): is it the map of this "
-                                "area, with the right CRS?")
+    return frames
+
+
+def _no_units(path: Path, units_layer: str, unit_field: str, crs, bbox) -> None:
+    """Raise MapLayerError for a units layer with no polygons (near the section lines)."""
+    if bbox is not None:
+        # The whole layer read again (only on this error) says whether it has none at all.
+        read_map(path, units_layer, unit_field, crs=crs, warn=lambda message: None)
         raise MapLayerError(f"{path.name}: layer {units_layer!r} has no unit polygons "
-                            "(no features with a geometry)")
-    _warn_overlaps(units, unit_field, f"{path.name}: layer {units_layer!r}", warn)
-    if units[unit_field].isna().any():
-        n = int(units[unit_field].isna().sum())
-        warn(f"{path.name}: layer {units_layer!r}: {n} polygon(s) with no {unit_field!r} value "
-             "are treated as unmapped ground")
-    if bbox is None:
-        return MapData(units, unit_field, faults, roles, target)
-    total, got, extent, layer_crs = counts[units_layer]
-    # The whole layer's extent, in the map's CRS, for the location map's framing.
-    if extent is not None and np.all(np.isfinite(extent)):
-        extent = _to_target(tuple(float(v) for v in extent), layer_crs, target)
-    else:
-        extent = None
-    return MapData(units, unit_field, faults, roles, target,
-                   window=tuple(float(v) for v in bbox),
-                   left_out=max(total - got, 0) if total >= 0 else 1, extent=extent)
+                            f"near the section lines (x {bbox[0]:.1f} to {bbox[2]:.1f}, "
+                            f"y {bbox[1]:.1f} to {bbox[3]:.1f}): is it the map of this "
+                            "area, with the right CRS?")
+    raise MapLayerError(f"{path.name}: layer {units_layer!r} has no unit polygons "
+                        "(no features with a geometry)")
 
 
 def _layer_box(bbox, layer_crs, target) -> tuple[float, float, float, float]:

@@ -5,7 +5,10 @@ plain results; this package turns them into pictures and pages, and is the only 
 that imports matplotlib.
 
 - :mod:`~mapsection.render.section` -- the section figure (PNG, SVG, PDF), laid out by
-  :mod:`~mapsection.render.layout`, coloured by :mod:`~mapsection.render.colours`;
+  :mod:`~mapsection.render.layout`, coloured by :mod:`~mapsection.render.colours`: the
+  section itself drawn by :mod:`~mapsection.render.section_panel`, its frame, scale bars,
+  legend and title block by :mod:`~mapsection.render.section_margin`, the location map by
+  :mod:`~mapsection.render.location`;
 - :mod:`~mapsection.render.restoration` -- the restored section;
 - :mod:`~mapsection.render.area_depth` -- excess area against depth;
 - :mod:`~mapsection.render.sequence` -- the incremental sequence, frames and GIF;
