@@ -121,7 +121,6 @@ def unit_runs(map_data: MapData, line: SectionLine, warn: Callable[[str], None] 
         warn(f"section line {line.name}: its CRS differs from the map's; map features "
              "reprojected to the line's CRS")
     geoms = _map_geoms_for_line(map_data, line, map_data.unit_geoms, cand)
-    names = map_data.unit_names[cand]
     pieces = shapely.intersection(ls, geoms)
     coords = shapely.get_coordinates(pieces)
     d = shapely.line_locate_point(ls, shapely.points(coords)) if len(coords) else np.empty(0)
@@ -131,42 +130,50 @@ def unit_runs(map_data: MapData, line: SectionLine, warn: Callable[[str], None] 
     if len(edges) < 2:
         edges = np.array([0.0, length])
     mid = 0.5 * (edges[:-1] + edges[1:])
-    mx, my = line.point_at(mid)
-    pts = shapely.points(mx, my)
     units: list[str | None] = [None] * len(mid)
     if len(cand):
-        tree = STRtree(geoms)
-        # "within" is false on a boundary: these are the midpoints inside a unit.
-        inside = tree.query(pts, predicate="within")
-        # Where a map has overlapping polygons the first feature wins: sort, keep the first.
-        order = np.lexsort((cand[inside[1]], inside[0]))
-        rows, first = np.unique(inside[0][order], return_index=True)
-        for i, j in zip(rows, inside[1][order][first], strict=True):
-            units[i] = names[j]
-        hit = np.zeros(len(mid), bool)
-        hit[rows] = True
-        on_edge = tree.query(pts[~hit], predicate="intersects")
-        touching: dict[int, set] = {}
-        rows = np.flatnonzero(~hit)
-        for i, j in zip(rows[on_edge[0]], on_edge[1], strict=True):
-            if names[j] is not None:
-                touching.setdefault(int(i), set()).add(names[j])
-        # Stretches along a boundary join a neighbouring unit that touches them.
-        for i in sorted(touching):
-            opts = touching[i]
-            before = units[i - 1] if i > 0 else None
-            after = units[i + 1] if i + 1 < len(units) else None
-            if before in opts:
-                units[i] = before
-            elif after in opts:
-                units[i] = after
-            else:
-                units[i] = sorted(opts)[0]
+        units = _units_at(shapely.points(*line.point_at(mid)), geoms, cand,
+                          map_data.unit_names[cand])
     # Merge consecutive equal units (split or multipart polygons, vertices of the line).
     u = np.array(units, dtype=object)
     starts = np.flatnonzero(np.concatenate([[True], u[1:] != u[:-1]]))
     merged_edges = np.append(edges[starts], edges[-1])
     return merged_edges, [units[i] for i in starts]
+
+
+def _units_at(pts: np.ndarray, geoms: np.ndarray, cand: np.ndarray, names: np.ndarray
+              ) -> list[str | None]:
+    """The unit holding each midpoint: the polygon whose interior holds it, else (on a
+    boundary) a neighbour's unit that touches it."""
+    units: list[str | None] = [None] * len(pts)
+    tree = STRtree(geoms)
+    # "within" is false on a boundary: these are the midpoints inside a unit.
+    inside = tree.query(pts, predicate="within")
+    # Where a map has overlapping polygons the first feature wins: sort, keep the first.
+    order = np.lexsort((cand[inside[1]], inside[0]))
+    rows, first = np.unique(inside[0][order], return_index=True)
+    for i, j in zip(rows, inside[1][order][first], strict=True):
+        units[i] = names[j]
+    hit = np.zeros(len(pts), bool)
+    hit[rows] = True
+    on_edge = tree.query(pts[~hit], predicate="intersects")
+    touching: dict[int, set] = {}
+    rows = np.flatnonzero(~hit)
+    for i, j in zip(rows[on_edge[0]], on_edge[1], strict=True):
+        if names[j] is not None:
+            touching.setdefault(int(i), set()).add(names[j])
+    # Stretches along a boundary join a neighbouring unit that touches them.
+    for i in sorted(touching):
+        opts = touching[i]
+        before = units[i - 1] if i > 0 else None
+        after = units[i + 1] if i + 1 < len(units) else None
+        if before in opts:
+            units[i] = before
+        elif after in opts:
+            units[i] = after
+        else:
+            units[i] = sorted(opts)[0]
+    return units
 
 
 def fault_crossings(map_data: MapData, line: SectionLine, profile: Profile | None) \

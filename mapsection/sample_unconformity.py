@@ -263,7 +263,7 @@ def generate(folder: str | os.PathLike, model: UnconformityModel = TABLELAND,
     from affine import Affine
 
     from ._atomic import atomic_file
-    from .sample import _polygonal
+    from .sample import polygonal
 
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
@@ -281,7 +281,7 @@ def generate(folder: str | os.PathLike, model: UnconformityModel = TABLELAND,
     col = model.column
     units = gpd.GeoDataFrame({"unit": names, "age": [col.unit(n).age for n in names],
                               "lithology": [col.unit(n).lithology for n in names]},
-                             geometry=[_polygonal(g) for g in geoms], crs=CRS)
+                             geometry=[polygonal(g) for g in geoms], crs=CRS)
     with atomic_file(paths["geology.gpkg"]) as tmp:
         tmp.unlink()
         units.to_file(tmp, layer="units", driver="GPKG")

@@ -185,15 +185,7 @@ def fault_cuts(draft: Draft, fault: FaultTrace, hw_block: int, fw_block: int) ->
     ext, top_u, trace = _extended(fault, reach)
     seg_of = _segments(trace)
     seg_start = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(trace, axis=0).T))]) + top_u
-    top_y = float(trace[0, 1])
-    ends: dict[tuple[str, int], list[np.ndarray]] = {}
-    for (top_of, block), line in joined.items():
-        if block not in (hw_block, fw_block):
-            continue
-        c = line_xy(line)
-        for end in (c[0], c[-1]):
-            if ext.distance(Point(end)) <= tol:
-                ends.setdefault((top_of, block), []).append(end)
+    ends = _ends_at(joined, ext, tol, (hw_block, fw_block))
     p0 = trace[0]
 
     def nearest(pts: list[np.ndarray]) -> np.ndarray:
@@ -213,18 +205,35 @@ def fault_cuts(draft: Draft, fault: FaultTrace, hw_block: int, fw_block: int) ->
         u_hw, u_fw = float(ext.project(Point(hw))), float(ext.project(Point(fw)))
         sep = abs(u_hw - u_fw)
         sep = sep if hw[1] >= fw[1] else -sep
-        # the fault's direction at the footwall cutoff, for the cutoff angle
-        a = ext.interpolate(max(u_fw - 5.0, 0.0))
-        b = ext.interpolate(min(u_fw + 5.0, ext.length))
-        fdir = np.array([b.x - a.x, b.y - a.y])
-        fdir /= max(float(np.hypot(*fdir)), 1e-12)
-        angle = _bed_angle(joined[(top_of, fw_block)], fw, fdir)
+        angle = _bed_angle(joined[(top_of, fw_block)], fw, _direction_at(ext, u_fw))
         i = int(np.searchsorted(seg_start, u_fw, side="right")) - 1
         segment = seg_of[min(max(i, 0), len(seg_of) - 1)]
-        projected = bool(min(hw[1], fw[1]) > top_y + tol)
+        projected = bool(min(hw[1], fw[1]) > float(trace[0, 1]) + tol)
         out.append(Cut(top_of, (float(hw[0]), float(hw[1])), (float(fw[0]), float(fw[1])),
                         u_hw, u_fw, projected, float(sep), angle, int(segment)))
     return out
+
+
+def _ends_at(joined: dict, ext: LineString, tol: float, blocks: tuple[int, int]
+             ) -> dict[tuple[str, int], list[np.ndarray]]:
+    """The ends of the horizons of ``blocks`` that lie on the (prolonged) fault."""
+    ends: dict[tuple[str, int], list[np.ndarray]] = {}
+    for (top_of, block), line in joined.items():
+        if block not in blocks:
+            continue
+        c = line_xy(line)
+        for end in (c[0], c[-1]):
+            if ext.distance(Point(end)) <= tol:
+                ends.setdefault((top_of, block), []).append(end)
+    return ends
+
+
+def _direction_at(ext: LineString, u: float) -> np.ndarray:
+    """The fault's unit direction at ``u`` metres along it, for the cutoff angle."""
+    a = ext.interpolate(max(u - 5.0, 0.0))
+    b = ext.interpolate(min(u + 5.0, ext.length))
+    fdir = np.array([b.x - a.x, b.y - a.y])
+    return fdir / max(float(np.hypot(*fdir)), 1e-12)
 
 
 # --- a check judged fault by fault ---------------------------------------------

@@ -52,18 +52,20 @@ from .constraints import (
     contact_constraints,
     corridor_constraints,
     interval_constraints,
+    log_corridor,
 )
 from .cover import add_unlayered, bedrock_geology, has_unlayered
 from .domains import group_domains
 from .faults import (
     FaultLine,
     block_polygons,
-    detach_on_horizon,
+    detach_on_units,
     fault_lines,
     fault_settings,
     ground_ranges,
     order_crossings,
 )
+from .fbf import fault_bend_folds
 from .frame import SectionFrame, ground_below_polygon, ground_function
 from .methods import METHOD_TABLE, BlockModel, BlockSetting
 from .outliers import screen_dips
@@ -154,63 +156,91 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
     See docs/construction.md.
     """
     _check_options(method, ve, dip_tolerance, depth, fault_depth, default_dip)
+    options = dict(name=name, method=method, ve=ve, dip_tolerance=dip_tolerance, depth=depth,
+                   fault_depth=fault_depth, default_dip=default_dip,
+                   keep_readings=keep_readings, corridor_contacts=corridor_contacts,
+                   faults=faults, default_fault_dip=default_fault_dip, warn=warn)
     if has_unlayered(column):
         # Cover and intrusive units are no layers: the layered units are constructed from
         # the bedrock's own contacts, then the others are drawn over them (construct.cover).
         column.check_map_units([iv.unit for iv in geology.intervals], source="map")
         layered = build_draft(line, profile, bedrock_geology(geology, column), dips,
-                              column.layered(), name=name, method=method, ve=ve,
-                              dip_tolerance=dip_tolerance, depth=depth,
-                              fault_depth=fault_depth, default_dip=default_dip,
-                              keep_readings=keep_readings, corridor_contacts=corridor_contacts,
-                              plunge_axis=plunge_axis, faults=faults,
-                              default_fault_dip=default_fault_dip, warn=warn)
+                              column.layered(), plunge_axis=plunge_axis, **options)
         return add_unlayered(layered, geology, column)
     if len(column.layered().sequences()) > 1:  # unconformities: each sequence on its own
         from .sequences import build_sequences
 
-        map_units = [iv.unit for iv in geology.intervals]
-        map_units += [u for c in geology.contacts for u in (c.unit_before, c.unit_after)]
-        column.check_map_units(map_units, source="map")
-        return build_sequences(
-            build_draft, line, profile, geology, dips, column, name=name, method=method,
-            ve=ve, dip_tolerance=dip_tolerance, depth=depth, fault_depth=fault_depth,
-            default_dip=default_dip, keep_readings=keep_readings,
-            corridor_contacts=corridor_contacts, plunge_axis=plunge_axis, faults=faults,
-            default_fault_dip=default_fault_dip, warn=warn)
+        _check_map_units(geology, column)
+        return build_sequences(build_draft, line, profile, geology, dips, column,
+                               plunge_axis=plunge_axis, **options)
     if plunge_axis is not None:
         pm = plunge_map(line, *plunge_axis)
         if pm is not None:
-            return _build_plunging(pm, line, profile, geology, dips, column, name=name,
-                                   method=method, ve=ve, dip_tolerance=dip_tolerance,
-                                   depth=depth, fault_depth=fault_depth,
-                                   default_dip=default_dip, keep_readings=keep_readings,
-                                   corridor_contacts=corridor_contacts, faults=faults,
-                                   default_fault_dip=default_fault_dip, warn=warn)
+            return _build_plunging(pm, line, profile, geology, dips, column, **options)
         Notes(warn).warn(f"section {name or line.name}: the line (or a segment of it) runs "
                          f"within {MIN_ANGLE_DEG:g}° of the fold axis' trend "
                          f"({plunge_axis[0]:g}°) or turns across it: no down-plunge view; "
                          "built without the plunge correction", logged=False)
+    return _build_sequence(line, profile, geology, dips, column, **options)
+
+
+def _check_map_units(geology: SurfaceGeology, column: Column) -> None:
+    """Every unit of the map's intervals and contacts is in the column."""
     map_units = [iv.unit for iv in geology.intervals]
     map_units += [u for c in geology.contacts for u in (c.unit_before, c.unit_after)]
     column.check_map_units(map_units, source="map")
+
+
+def _build_sequence(line: SectionLine, profile: Profile, geology: SurfaceGeology,
+                    dips: ProjectedDips, column: Column, *, name: str, method: str, ve: float,
+                    dip_tolerance: float, depth: float | None, fault_depth: float | None,
+                    default_dip: float | None, keep_readings: Iterable[str],
+                    corridor_contacts: CorridorContacts | None, faults: Sequence,
+                    default_fault_dip: float | None, warn: Warn | None) -> Draft:
+    """One sequence of layered units, in the section's own plane: the frame and faults,
+    the contacts and dips that position each fault block, the blocks' models, the
+    hanging walls carried, then the draft assembled."""
+    _check_map_units(geology, column)
     notes = Notes(warn)
     notes.log(f"method: {method} (dip tolerance {dip_tolerance:g}°)")
     label = name or line.name
 
     ground = ground_function(profile)
     frame = _frame(profile, ground, float(line.length), column, depth)
-    settings = fault_settings(faults)
-    faults = fault_lines(geology.faults, frame, ground, fault_depth, notes, settings=settings,
-                         default_fault_dip=default_fault_dip, azimuth=line.azimuth_at)
+    faults = fault_lines(geology.faults, frame, ground, fault_depth, notes,
+                         settings=fault_settings(faults), default_fault_dip=default_fault_dip,
+                         azimuth=line.azimuth_at)
     ranges = ground_ranges(faults, frame.length)
-
     contacts = drop_fault_contacts(contact_constraints(geology, column, ground, notes), faults,
                                    profile, notes)
     support = _contact_support(dips, contacts, ground, frame, float(column.thicknesses.min()),
                                dip_tolerance, notes)
     screened, outliers = screen_dips(dips, ranges, dip_tolerance, keep_readings, notes,
                                      support)
+    dipset = _section_dipset(screened, default_dip, label, notes)
+    beside = corridor_constraints(corridor_contacts, column)
+    log_corridor(beside, contacts, ranges, notes)
+    contacts = Constraints.concat([contacts, beside])
+    if len(contacts) == 0 and not geology.intervals:
+        raise ConstructionError(f"section {label}: the line crosses no mapped "
+                                "contact or unit: nothing positions the horizons")
+
+    setting = BlockSetting(frame, ground, float(column.thicknesses.min()),
+                           np.append(column.depth_to_top, column.total_thickness),
+                           [*column.names, base_name(column)], dip_tolerance, notes)
+    blocks, models, faults, regions = _construct_blocks(
+        METHOD_TABLE[method], ranges, dipset, contacts, faults, default_dip, setting,
+        geology, column, profile)
+    draft = Draft(name=label, method=method, line=line, profile=profile, geology=geology,
+                  dips=dips, column=column, ve=float(ve), base_elevation_m=frame.base,
+                  log=notes.entries, outliers=outliers)
+    _assemble(draft, blocks, models, regions, faults, setting, profile)
+    return draft
+
+
+def _section_dipset(screened: ProjectedDips, default_dip: float | None, label: str,
+                    notes: Notes):
+    """The screened dips in section terms; none at all needs the default dip."""
     dipset = section_dips(screened, notes)
     if len(dipset) == 0:
         if default_dip is None:
@@ -220,39 +250,39 @@ def build_draft(line: SectionLine, profile: Profile, geology: SurfaceGeology,
         notes.warn(f"section {label}: no dips within the corridor; built from the contacts at "
                    f"the default dip {default_dip:g}°", logged=False)
         notes.log(f"no dips within the corridor: default dip {default_dip:g}° used throughout")
-    beside = corridor_constraints(corridor_contacts, column)
-    _log_corridor(beside, contacts, ranges, notes)
-    contacts = Constraints.concat([contacts, beside])
-    if len(contacts) == 0 and not geology.intervals:
-        raise ConstructionError(f"section {label}: the line crosses no mapped "
-                                "contact or unit: nothing positions the horizons")
+    return dipset
 
-    chosen = METHOD_TABLE[method]
+
+def _construct_blocks(chosen, ranges: list[tuple[float, float]], dipset, contacts: Constraints,
+                      faults: list[FaultLine], default_dip: float | None, setting: BlockSetting,
+                      geology: SurfaceGeology, column: Column, profile: Profile):
+    """Split the section into fault blocks, fit each with the chosen method, detach,
+    fold and carry the hanging walls; returns the blocks, their models, the faults in
+    the order they cut one another, and each block's region in the section."""
+    ground, frame, notes = setting.ground, setting.frame, setting.notes
     blocks = split_blocks(ranges, dipset, contacts,
                           prepare=lambda ds: chosen.prepare(ds, ground),
-                          group=lambda ds: chosen.group(ds, dip_tolerance),
+                          group=lambda ds: chosen.group(ds, setting.tolerance),
                           default_dip=default_dip, ground=ground, notes=notes)
-    blocks = pool_across_faults(blocks, faults, dip_tolerance, notes)
-    setting = BlockSetting(frame, ground, float(column.thicknesses.min()),
-                           np.append(column.depth_to_top, column.total_thickness),
-                           [*column.names, base_name(column)], dip_tolerance, notes)
+    blocks = pool_across_faults(blocks, faults, setting.tolerance, notes)
     models = _fit_blocks(blocks, chosen.fit, setting, geology, column, faults)
-    faults = _detach_on_units(faults, models, column, frame, notes)
-    _fault_bend_folds(faults, blocks, models, setting, profile)
+    faults = detach_on_units(faults, models, column, frame, notes)
+    fault_bend_folds(faults, blocks, models, setting, profile)
     faults, older = order_crossings(faults, frame, notes)
     models = carry_hanging_walls(faults, blocks, models, setting, older)
     regions = [p.intersection(frame.box) for p in block_polygons(faults, frame, older)]
+    return blocks, models, faults, regions
 
-    draft = Draft(name=label, method=method, line=line, profile=profile, geology=geology,
-                  dips=dips, column=column, ve=float(ve), base_elevation_m=frame.base,
-                  log=notes.entries, outliers=outliers)
-    ground_poly = ground_below_polygon(profile, frame)
+
+def _assemble(draft: Draft, blocks: list[FaultBlock], models: list[BlockModel], regions: list,
+              faults: list[FaultLine], setting: BlockSetting, profile: Profile) -> None:
+    """Each block's horizons, units and residuals, then the faults, into ``draft``."""
+    ground_poly = ground_below_polygon(profile, setting.frame)
     block_lines = []
     for b, block in enumerate(blocks):
         block_lines.append(add_block(draft, block, models[b], regions[b], ground_poly, setting))
-        add_residuals(draft, block, models[b], ground, notes)
-    add_faults(draft, faults, block_lines, frame, notes)
-    return draft
+        add_residuals(draft, block, models[b], setting.ground, setting.notes)
+    add_faults(draft, faults, block_lines, setting.frame, setting.notes)
 
 
 def _fit_blocks(blocks: list[FaultBlock], fit: Callable[[FaultBlock, BlockSetting], BlockModel],
@@ -396,90 +426,6 @@ def _build_plunging(pm: PlungeMap, line: SectionLine, profile: Profile, geology:
             "depths in the lines below are those of the down-plunge view")
     log = [inner.log[0], note, *inner.log[1:]] if inner.log else [note]
     return from_profile(pm, inner, line, profile, geology, dips, base, log)
-
-
-def _log_corridor(beside: Constraints, on_line: Constraints, ranges: list[tuple[float, float]],
-                  notes: Notes) -> None:
-    """Which map contacts beside the line each block uses."""
-    if not len(beside):
-        return
-    notes.log(f"{len(beside)} point(s) of map contacts beside the line (within the corridor) "
-              "projected into the section; weighted by their distance from the line")
-    for b, (lo, hi) in enumerate(ranges):
-        m = (beside.distance >= lo) & (beside.distance < hi)
-        if not m.any():
-            continue
-        sub = beside.subset(m)
-        pairs: dict[tuple[str, str], list[float]] = {}
-        for i in range(len(sub)):
-            key = tuple(sorted((str(sub.before[i]), str(sub.after[i]))))
-            pairs.setdefault(key, []).append(float(sub.distance[i]))
-        what = "; ".join(f"{a}|{c} ({len(v)} point(s), projected to {min(v):.0f}-{max(v):.0f} m)"
-                         for (a, c), v in sorted(pairs.items()))
-        n_line = int(((on_line.distance >= lo) & (on_line.distance < hi)).sum())
-        if n_line:
-            notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m): beside its {n_line} contact(s) on the "
-                      f"line, contacts from the corridor used: {what}")
-        else:
-            notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m) has no map contact on the line: "
-                      f"positioned by contacts from the corridor: {what}")
-def _fault_bend_folds(faults: list[FaultLine], blocks: list[FaultBlock],
-                      models: list[BlockModel], st: BlockSetting, profile: Profile) -> None:
-    """Hanging walls drafted as Suppe (1983) fault-bend folds where the project asks for it
-    (``fold = "fault-bend"``); ``blocks`` and ``models`` are updated in place. A hanging
-    wall that does not fit the model (dips or contacts off by more than the tolerances)
-    keeps its own construction, with a warning."""
-    from shapely.geometry import LineString
-
-    from .fbf import fit_fault_bend, log_fit
-
-    wanted = [(k, fl) for k, fl in enumerate(faults)
-              if fl.setting is not None and fl.setting.fold == "fault-bend"]
-    if not wanted:
-        return
-    d, z = np.asarray(profile.distance, float), np.asarray(profile.z, float)
-    ok = np.isfinite(d) & np.isfinite(z)
-    far = st.frame.size * 4
-    ground_line = LineString(np.column_stack([np.concatenate([[d[ok][0] - far], d[ok],
-                                                              [d[ok][-1] + far]]),
-                                              np.concatenate([[z[ok][0]], z[ok],
-                                                              [z[ok][-1]]])]))
-    for k, fl in wanted:
-        hw = k + 1 if fl.hanging_wall_right else k
-        out = fit_fault_bend(blocks[hw], fl, st.ground, st.frame, ground_line, st.scale,
-                             st.tolerance, st.notes)
-        if out is None:
-            st.notes.warn(f"fault {fl.name}: no ramp and flat in the section: the hanging wall "
-                          "is drafted from its own dips, not as a fault-bend fold")
-            continue
-        model, domains, fit = out
-        bad = (np.isfinite(fit.dip_rms) and fit.dip_rms > st.tolerance) or (
-            np.isfinite(fit.contact_rms) and fit.contact_rms > 0.15 * st.scale)
-        if bad:
-            st.notes.warn(f"fault {fl.name}: the hanging wall does not fit a fault-bend fold "
-                          f"(dip RMS {fit.dip_rms:.1f}°, contact RMS {fit.contact_rms:.0f} m): "
-                          "drafted from its own dips")
-            continue
-        models[hw] = model
-        blocks[hw] = dataclasses.replace(blocks[hw], domains=tuple(domains))
-        log_fit(fit, blocks[hw], fl.name, st.notes)
-
-
-def _detach_on_units(faults: list[FaultLine], models: list[BlockModel], column: Column,
-                     frame: SectionFrame, notes: Notes) -> list[FaultLine]:
-    """Faults whose detachment is a unit: the flat runs along the base of that unit in
-    the footwall block, as that block was constructed."""
-    out = []
-    for k, fl in enumerate(faults):
-        st = fl.setting
-        if st is not None and isinstance(st.detachment, str):
-            fw = k if fl.hanging_wall_right else k + 1
-            level = float(column.depth_to_top[column.index(st.detachment)]
-                          + column.thicknesses[column.index(st.detachment)])
-            fl = detach_on_horizon(fl, models[fw].horizon_path(level), st.detachment, frame,
-                                   notes)
-        out.append(fl)
-    return out
 
 
 def _check_options(method, ve, tol, depth, fault_depth, default_dip) -> None:

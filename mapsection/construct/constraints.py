@@ -143,3 +143,30 @@ def interval_constraints(geology: SurfaceGeology, column: Column, ground: Callab
     n = len(d)
     return Constraints(d, z, s, np.full(n, weight), ("",) * n, np.zeros(n, bool),
                        (None,) * n, (None,) * n)
+
+
+def log_corridor(beside: Constraints, on_line: Constraints, ranges: list[tuple[float, float]],
+                  notes: Notes) -> None:
+    """Which map contacts beside the line each block uses."""
+    if not len(beside):
+        return
+    notes.log(f"{len(beside)} point(s) of map contacts beside the line (within the corridor) "
+              "projected into the section; weighted by their distance from the line")
+    for b, (lo, hi) in enumerate(ranges):
+        m = (beside.distance >= lo) & (beside.distance < hi)
+        if not m.any():
+            continue
+        sub = beside.subset(m)
+        pairs: dict[tuple[str, str], list[float]] = {}
+        for i in range(len(sub)):
+            key = tuple(sorted((str(sub.before[i]), str(sub.after[i]))))
+            pairs.setdefault(key, []).append(float(sub.distance[i]))
+        what = "; ".join(f"{a}|{c} ({len(v)} point(s), projected to {min(v):.0f}-{max(v):.0f} m)"
+                         for (a, c), v in sorted(pairs.items()))
+        n_line = int(((on_line.distance >= lo) & (on_line.distance < hi)).sum())
+        if n_line:
+            notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m): beside its {n_line} contact(s) on the "
+                      f"line, contacts from the corridor used: {what}")
+        else:
+            notes.log(f"block {b} ({lo:.0f}-{hi:.0f} m) has no map contact on the line: "
+                      f"positioned by contacts from the corridor: {what}")

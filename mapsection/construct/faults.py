@@ -15,6 +15,7 @@ from __future__ import annotations
 import dataclasses
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 import shapely
@@ -27,6 +28,10 @@ from ..notes import Notes
 from ..settings import FaultSpec
 from .fault_regions import block_polygons, ground_ranges, order_crossings, separations
 from .frame import SectionFrame
+
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from ..stratigraphy import Column
+    from .methods import BlockModel
 
 _MIN_FAULT_DIP = 1.0  # degrees; a flatter trace cannot bound blocks along the line
 _ARC_STEP = 2.0  # degrees between the vertices of a listric bend
@@ -343,6 +348,24 @@ def detach_on_horizon(fl: FaultLine, horizon: np.ndarray, unit: str, frame: Sect
     return _with_bend(fl, bend, flat, f"the base of {unit}", notes)
 
 
+
+def detach_on_units(faults: list[FaultLine], models: list[BlockModel], column: Column,
+                     frame: SectionFrame, notes: Notes) -> list[FaultLine]:
+    """Faults whose detachment is a unit: the flat runs along the base of that unit in
+    the footwall block, as that block was constructed."""
+    out = []
+    for k, fl in enumerate(faults):
+        st = fl.setting
+        if st is not None and isinstance(st.detachment, str):
+            fw = k if fl.hanging_wall_right else k + 1
+            level = float(column.depth_to_top[column.index(st.detachment)]
+                          + column.thicknesses[column.index(st.detachment)])
+            fl = detach_on_horizon(fl, models[fw].horizon_path(level), st.detachment, frame,
+                                   notes)
+        out.append(fl)
+    return out
+
+
 # What the fault lines bound lives in fault_regions; its names stay importable from here.
-__all__ = ["FaultLine", "FaultSetting", "block_polygons", "detach_on_horizon", "fault_lines",
-           "fault_settings", "ground_ranges", "order_crossings", "separations"]
+__all__ = ["FaultLine", "FaultSetting", "block_polygons", "detach_on_horizon", "detach_on_units",
+           "fault_lines", "fault_settings", "ground_ranges", "order_crossings", "separations"]

@@ -20,8 +20,10 @@ dip-domain (kink) model with fixed dips, drawn by :class:`mapsection.construct.k
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 from scipy.optimize import minimize_scalar
@@ -34,6 +36,10 @@ from .domains import Domain, unit_vectors
 from .faults import FaultLine
 from .frame import SectionFrame
 from .kink import KinkModel
+
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from ..topo_profile import Profile
+    from .methods import BlockModel, BlockSetting
 
 
 @dataclass(frozen=True)
@@ -262,4 +268,42 @@ def log_fit(fit: FaultBendFit, block: FaultBlock, name: str, notes: Notes) -> No
                   f"placed by the fault-bend fold model ({gap})")
 
 
-__all__ = ["FaultBendFit", "fit_fault_bend", "log_fit"]
+def fault_bend_folds(faults: list[FaultLine], blocks: list[FaultBlock],
+                      models: list[BlockModel], st: BlockSetting, profile: Profile) -> None:
+    """Hanging walls drafted as Suppe (1983) fault-bend folds where the project asks for it
+    (``fold = "fault-bend"``); ``blocks`` and ``models`` are updated in place. A hanging
+    wall that does not fit the model (dips or contacts off by more than the tolerances)
+    keeps its own construction, with a warning."""
+    wanted = [(k, fl) for k, fl in enumerate(faults)
+              if fl.setting is not None and fl.setting.fold == "fault-bend"]
+    if not wanted:
+        return
+    d, z = np.asarray(profile.distance, float), np.asarray(profile.z, float)
+    ok = np.isfinite(d) & np.isfinite(z)
+    far = st.frame.size * 4
+    ground_line = LineString(np.column_stack([np.concatenate([[d[ok][0] - far], d[ok],
+                                                              [d[ok][-1] + far]]),
+                                              np.concatenate([[z[ok][0]], z[ok],
+                                                              [z[ok][-1]]])]))
+    for k, fl in wanted:
+        hw = k + 1 if fl.hanging_wall_right else k
+        out = fit_fault_bend(blocks[hw], fl, st.ground, st.frame, ground_line, st.scale,
+                             st.tolerance, st.notes)
+        if out is None:
+            st.notes.warn(f"fault {fl.name}: no ramp and flat in the section: the hanging wall "
+                          "is drafted from its own dips, not as a fault-bend fold")
+            continue
+        model, domains, fit = out
+        bad = (np.isfinite(fit.dip_rms) and fit.dip_rms > st.tolerance) or (
+            np.isfinite(fit.contact_rms) and fit.contact_rms > 0.15 * st.scale)
+        if bad:
+            st.notes.warn(f"fault {fl.name}: the hanging wall does not fit a fault-bend fold "
+                          f"(dip RMS {fit.dip_rms:.1f}°, contact RMS {fit.contact_rms:.0f} m): "
+                          "drafted from its own dips")
+            continue
+        models[hw] = model
+        blocks[hw] = dataclasses.replace(blocks[hw], domains=tuple(domains))
+        log_fit(fit, blocks[hw], fl.name, st.notes)
+
+
+__all__ = ["FaultBendFit", "fault_bend_folds", "fit_fault_bend", "log_fit"]
