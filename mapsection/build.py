@@ -567,6 +567,8 @@ def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None,
     from .render import area_depth, report, restoration, section, section_folder  # noqa: F401
     from .render import sequence as render_sequence  # noqa: F401
 
+    _preload_writers()
+
     context = multiprocessing.get_context("fork")
     queue = context.SimpleQueue() if progress is not None else None
 
@@ -595,6 +597,20 @@ def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None,
             queue.close()
     for job, result in zip(jobs, results, strict=True):
         yield (job, *result)
+
+
+def _preload_writers() -> None:
+    """Import, in the parent, what every worker would otherwise import for itself when it
+    first writes a figure (the PDF and SVG backends, the font subsetter, the GIF writer):
+    forked workers then share one copy instead of each paying the import."""
+    import importlib
+
+    for name in ("matplotlib.backends.backend_pdf", "matplotlib.backends.backend_svg",
+                 "fontTools.subset", "PIL.GifImagePlugin", "PIL.PngImagePlugin"):
+        try:
+            importlib.import_module(name)
+        except ImportError:  # not installed: the worker would have failed on it anyway
+            pass
 
 
 def _folder_name(name: str) -> str:

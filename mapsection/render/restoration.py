@@ -34,6 +34,7 @@ from ..caution import CAUTION
 from ..checks.geometry import line_xy
 from ..checks.restore import Restoration
 from .colours import unit_palette
+from .fonts import pdf_fonts
 from .shapes import polygon_path
 
 __all__ = ["draw_restoration"]
@@ -242,12 +243,16 @@ def _line_handles(eroded_beds: bool, eroded_fills: bool, n_gap: int, n_overlap: 
 def _save(fig: Figure, path_stem: str | os.PathLike) -> list[Path]:
     """The figure as ``<stem>.png``, ``.svg`` and ``.pdf``, each written whole or not at all."""
     out = []
+    # No creation dates: rebuilding the same draft gives byte-identical files.
+    meta = {"png": {}, "svg": {"metadata": {"Date": None}},
+            "pdf": {"metadata": {"CreationDate": None}}}
     # Text stays text in the SVG (searchable, and no glyph outlines to write).
-    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}):
+    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "mapsection"}), \
+            pdf_fonts():
         for ext in ("png", "svg", "pdf"):
             path = Path(f"{os.fspath(path_stem)}.{ext}")
             with atomic_file(path) as tmp:
-                fig.savefig(tmp, format=ext, dpi=150,
+                fig.savefig(tmp, format=ext, dpi=150, **meta[ext],
                             **({"pil_kwargs": {"compress_level": 3}} if ext == "png" else {}))
             out.append(path)
     return out

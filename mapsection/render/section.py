@@ -40,6 +40,7 @@ from ..draft import Draft
 from ..errors import ParameterError
 from ..mapdata import MapData
 from . import colours as C
+from .fonts import pdf_fonts
 from .layout import MARGIN, MM, SheetLayout, sheet_layout
 from .location import _inset
 from .section_margin import (
@@ -181,9 +182,8 @@ def draw_section(draft: Draft, path_stem: str | os.PathLike, map_data: MapData |
     # No creation dates: rebuilding the same draft gives byte-identical files.
     meta = {"png": None, "svg": {"Date": None}, "pdf": {"CreationDate": None}}
     png_dpi = min(PNG_DPI, PNG_MAX_PX / fig.get_figwidth())
-    rc = {"svg.fonttype": "none", "svg.hashsalt": "mapsection", "pdf.fonttype": 42,
-          "ps.fonttype": 42}
-    with matplotlib.rc_context(rc):
+    rc = {"svg.fonttype": "none", "svg.hashsalt": "mapsection"}
+    with matplotlib.rc_context(rc), pdf_fonts():
         for fmt in formats:
             path = stem.with_name(f"{stem.name}.{fmt}")
             with atomic_file(path) as tmp:

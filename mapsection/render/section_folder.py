@@ -62,11 +62,8 @@ def _write_check_figures(folder: Path, draft: Draft, report: CheckReport
     restoration = report.restoration
     if (folder / "section.gpkg").is_file():
         add_layers(folder / "section.gpkg", restoration_frames(restoration))
-    import matplotlib
-
-    # TrueType (Type 42) fonts in the PDF, as on the section sheet: publishers refuse Type 3.
-    with matplotlib.rc_context({"pdf.fonttype": 42, "ps.fonttype": 42}):
-        out += draw_restoration(restoration, folder / "restored")
+    # TrueType (Type 42) fonts in the PDF, as on the section sheet (see .fonts).
+    out += draw_restoration(restoration, folder / "restored")
     figures["restored"] = folder / "restored.png"
     # The structure forming step by step: sequence/sequence_01.png ... and a GIF.
     seq = folder / "sequence"
