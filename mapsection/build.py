@@ -33,9 +33,6 @@ Example::
 from __future__ import annotations
 
 import contextlib
-import dataclasses
-import time
-from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -46,69 +43,24 @@ from . import __version__
 from ._atomic import atomic_dir, atomic_file, folder_lock, remove_stale
 from ._messages import Warn
 from ._messages import default_warn as _default_warn
+from .build_jobs import run_jobs
+from .build_jobs import workers_for as _workers
 from .caution import CAUTION
 from .draft import Draft
+from .drafting import SectionData as _SectionData
+from .drafting import build_section  # noqa: F401 (importable from mapsection.build)
+from .drafting import construct as _construct
+from .drafting import overridden as _overridden
+from .drafting import section_data as _section_data
 from .errors import OutputError, ParameterError
 from .project import Project, SectionSpec, load_project
-from .session import ProjectInputs, SectionSession, load_inputs
+from .session import load_inputs
+from .stages import STAGES, Progress, listen, listener, reporting  # noqa: F401 (importable from mapsection.build)
+from .stages import stage as _stage
 from .thickness import resolve_map_thicknesses
 
 if TYPE_CHECKING:
     from .checks import CheckReport, KeyFigures
-
-# progress(section, stage): what a build is doing now ("" for the whole project)
-Progress = Callable[[str, str], None]
-STAGES = ("load", "section data", "construction", "checks", "check figures", "figures",
-          "geopackages")
-
-
-# Told (section, stage) as each stage starts (see listen, reporting); None: nobody listens.
-_listener: Progress | None = None
-_section = ""  # the section in progress
-
-
-def listen(progress: Progress | None) -> None:
-    """Tell ``progress`` every stage of every build from now on (None: stop telling).
-
-    This is how the command line shows the progress of ``build``, ``check`` and ``demo``.
-    """
-    global _listener
-    _listener = progress
-
-
-@contextlib.contextmanager
-def reporting(progress: Progress | None, section: str) -> Iterator[None]:
-    """Within the block, stages are those of ``section``, told to ``progress`` (when given,
-    else to the listener)."""
-    global _listener, _section
-    before = _listener, _section
-    if progress is not None:
-        _listener = progress
-    _section = section
-    try:
-        yield
-    finally:
-        _listener, _section = before
-
-
-@contextlib.contextmanager
-def _stage(timings: dict[str, float] | None, name: str) -> Iterator[None]:
-    """Add the wall time of the block to ``timings[name]`` (when timings are kept)."""
-    if _listener is not None:
-        _listener(_section, name)
-    t0 = time.perf_counter()
-    try:
-        yield
-    finally:
-        if timings is not None:
-            timings[name] = timings.get(name, 0.0) + time.perf_counter() - t0
-
-
-def _overridden(spec: SectionSpec, method: str | None, ve: float | None) -> SectionSpec:
-    """The section with the command line's ``method`` and ``ve``; the settings check them."""
-    given = {k: v for k, v in (("method", method), ("ve", ve)) if v is not None}
-    return dataclasses.replace(spec, **given) if given else spec
-
 
 def sheet_options(spec: SectionSpec, draft: Draft, *, sheet: str | None = None,
                   scale: float | str | None = None, portrait: bool | None = None):
@@ -138,75 +90,6 @@ def title_info(project: Project, dem_crs: Any = None):
             text += f" ({project.sources[key]})"
         rows.append((what, text))
     return TitleInfo(project.title, tuple(rows), vertical_datum(dem_crs))
-
-
-def build_section(project: Project, spec: SectionSpec | str, *, method: str | None = None,
-                  ve: float | None = None, warn: Warn | None = None,
-                  inputs: ProjectInputs | None = None,
-                  timings: dict[str, float] | None = None) -> Draft:
-    """Construct the draft of one section of a project.
-
-    ``method`` (``kink`` or ``arc``) and ``ve`` override the section's settings.
-    ``inputs`` (from :func:`load_inputs`) share the loaded map, attitudes and DEM
-    between sections; without them they are read for this section alone.
-    """
-    spec = _overridden(project.section(spec), method, ve)
-    with reporting(None, spec.name):
-        return _build_section(project, spec, warn, inputs, timings)
-
-
-def _build_section(project: Project, spec: SectionSpec, warn: Warn | None,
-                   inputs: ProjectInputs | None, timings: dict[str, float] | None) -> Draft:
-    warn = warn or _default_warn
-    args = _section_data(project, spec, warn, inputs, timings)
-    return _construct(*args, warn=warn, timings=timings)
-
-
-@dataclass(eq=False)
-class _SectionData:
-    """What a section's construction needs once the inputs are read: the project (with
-    its thicknesses resolved), the section and its data."""
-
-    project: Project
-    spec: SectionSpec
-    data: Any  # mapsection.session.SectionData
-    plunge_axis: tuple[float, float] | None
-
-
-def _section_data(project: Project, spec: SectionSpec, warn: Warn,
-                  inputs: ProjectInputs | None, timings: dict[str, float] | None
-                  ) -> tuple[_SectionData]:
-    """The section's data (profile, surface geology, dips, contacts beside the line)."""
-    with _stage(timings, "section data"):
-        own = inputs is None
-        inputs = load_inputs(project, warn, [spec]) if own else inputs
-        try:
-            project = resolve_map_thicknesses(project, inputs, warn)  # thickness = "map"
-            session = SectionSession.from_inputs(inputs, project, spec, warn)
-            data = session.run()
-            _ = data.corridor_contacts  # found while the inputs are open
-        finally:
-            if own:
-                inputs.close()
-    plunge_axis = spec.fold_axis
-    if plunge_axis is None and session.axis is not None:
-        plunge_axis = (float(session.axis.trend), float(session.axis.plunge))
-    return (_SectionData(project, spec, data, plunge_axis),)
-
-
-def _construct(sd: _SectionData, *, warn: Warn, timings: dict[str, float] | None) -> Draft:
-    """The section's draft from its data (no file is read)."""
-    from .construct import build_draft
-
-    project, spec, data = sd.project, sd.spec, sd.data
-    with _stage(timings, "construction"):
-        return build_draft(
-            data.line, data.profile, data.geology, data.dips, project.column,
-            name=spec.name, method=spec.method, ve=spec.ve,
-            dip_tolerance=spec.dip_tolerance, depth=spec.depth, fault_depth=spec.fault_depth,
-            default_dip=spec.default_dip, keep_readings=project.keep_readings,
-            corridor_contacts=data.corridor_contacts, plunge_axis=sd.plunge_axis,
-            faults=project.faults, default_fault_dip=project.default_fault_dip, warn=warn)
 
 
 def write_build_log(draft: Draft, path: Path, warnings: list[str] = (),
@@ -313,7 +196,7 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
     or a section folder would be, or would hold, an input, or when a section
     folder is there and is not a previous build (see :mod:`mapsection.outputs`).
     """
-    from .outputs import check_build_target, check_output, project_inputs
+    from .outputs import check_output
     from .render.sheet import parse_scale, sheet_name
 
     if sheet is not None:
@@ -322,66 +205,18 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
         scale = parse_scale(scale)
     warn = warn or _default_warn
     note = note or (lambda message: None)
-    progress = progress if progress is not None else _listener
+    progress = progress if progress is not None else listener()
     check_output(outdir, ())  # an empty OUTDIR would be the current folder
     with _stage(timings, "load"):
-        if progress is not None:
-            progress("", "reading the project file")
-        project = load_project(project_path, warn)
-        specs = [project.section(section)] if section is not None else list(project.sections)
-        specs = [_overridden(spec, method, ve) for spec in specs]  # checked once, here
-        if ve is not None:
-            from .settings import large_note
-
-            if (large := large_note("ve", ve)) is not None:
-                warn(f"--ve: {large}")
-        outdir = Path(outdir)
-        if outdir.exists() and not outdir.is_dir():
-            raise OutputError(f"{outdir}: exists and is not a folder")
-        created = not outdir.exists()
-        sources = project_inputs(project)
-        targets = [outdir / _folder_name(spec.name) for spec in specs]
-        for spec, target in zip(specs, targets, strict=True):
-            check_build_target(target, sources, spec.name)  # refused before anything is made
-        try:
-            outdir.mkdir(parents=True, exist_ok=True)
-        except OSError as exc:
-            raise OutputError(f"{outdir}: cannot create the output folder ({exc.strerror})") \
-                from None
+        plan = _plan(project_path, outdir, section, method, ve, warn, progress)
     try:
         with contextlib.ExitStack() as folders_in_progress:
-            # One build at a time writes into OUTDIR: a second one waits here.
-            def waiting(message: str) -> None:
-                note(message)
-                if progress is not None:
-                    progress("", "waiting for another build into the output folder")
-
-            folders_in_progress.enter_context(folder_lock(outdir, waiting=waiting,
-                                                          create=True))
-            for gone in remove_stale(outdir):
-                note(f"removed {gone}, left by a build that was stopped")
-            for spec, target in zip(specs, targets, strict=True):
-                check_build_target(target, sources, spec.name)  # again: it may have changed
+            _hold_outdir(plan, folders_in_progress, note, progress)
             with _stage(timings, "load"):
-                if progress is not None:
-                    progress("", "reading the map, the attitudes and the DEM")
-                # Only the neighbourhood of the sections built is read from the map.
-                inputs = load_inputs(project, warn, specs)
-                column_said: list[str] = []  # thickness = "map": said once, and in build.log
-
-                def say(message: str) -> None:
-                    column_said.append(message)
-                    warn(message)
-
-                try:
-                    project = resolve_map_thicknesses(project, inputs, say)
-                except BaseException:
-                    inputs.close()
-                    raise
-                info = title_info(project, getattr(inputs.dem, "crs", None))
+                inputs, project, column_said, info = _read_inputs(plan, warn, progress)
             jobs = []
             try:
-                for spec, target in zip(specs, targets, strict=True):
+                for spec, target in zip(plan.specs, plan.targets, strict=True):
                     said: list[str] = list(column_said)
                     with reporting(progress, spec.name):
                         (sd,) = _section_data(project, spec,
@@ -389,27 +224,117 @@ def build_project(project_path: str | Path, outdir: str | Path, *, section: str 
                                               timings)
                     tmp = folders_in_progress.enter_context(atomic_dir(target))
                     jobs.append(_Job(tmp, None, project, spec, said, target, None, None, info,
-                                     sd, inputs.attitudes, (sheet, scale, portrait)))
+                                    sd, inputs.attitudes, (sheet, scale, portrait)))
             finally:
                 # Closed before any fork: no GDAL file handle is shared with a worker.
                 inputs.close()
-            for job, said, job_timings, figures in _run_jobs(jobs, inputs.map_data,
-                                                             _workers(workers), progress):
+            results = run_jobs(jobs, inputs.map_data, _workers(workers), progress,
+                               _write_job_named, lambda job: job.spec.name)
+            for job, said, job_timings, figures in results:
                 for message in said[len(job.said):]:  # the checks' warnings, said in a worker
                     warn(_named(message, job.spec.name))
-                if timings is not None:
-                    for k, v in job_timings.items():
-                        timings[k] = timings.get(k, 0.0) + v
+                _add_timings(timings, job_timings)
                 if summaries is not None:
                     summaries[job.target] = figures
     except BaseException:
-        if created:
+        if plan.created:
             with contextlib.suppress(OSError):
-                outdir.rmdir()  # only if still empty
+                plan.outdir.rmdir()  # only if still empty
         raise
     if progress is not None:
         progress("", "")  # done
     return [job.target for job in jobs]
+
+
+@dataclass(frozen=True)
+class _Plan:
+    """What a build will write: the project's sections, their folders, the inputs that no
+    output may touch."""
+
+    project: Project
+    specs: list[SectionSpec]
+    outdir: Path
+    created: bool  # OUTDIR did not exist before this build
+    sources: Any  # the project's input files (mapsection.outputs.project_inputs)
+    targets: list[Path]
+
+
+def _plan(project_path, outdir, section: str | None, method: str | None, ve: float | None,
+          warn: Warn, progress: Progress | None) -> _Plan:
+    """Read the project file and check every section folder before anything is made; then
+    make OUTDIR."""
+    from .outputs import check_build_target, project_inputs
+
+    if progress is not None:
+        progress("", "reading the project file")
+    project = load_project(project_path, warn)
+    specs = [project.section(section)] if section is not None else list(project.sections)
+    specs = [_overridden(spec, method, ve) for spec in specs]  # checked once, here
+    if ve is not None:
+        from .settings import large_note
+
+        if (large := large_note("ve", ve)) is not None:
+            warn(f"--ve: {large}")
+    outdir = Path(outdir)
+    if outdir.exists() and not outdir.is_dir():
+        raise OutputError(f"{outdir}: exists and is not a folder")
+    created = not outdir.exists()
+    sources = project_inputs(project)
+    targets = [outdir / _folder_name(spec.name) for spec in specs]
+    for spec, target in zip(specs, targets, strict=True):
+        check_build_target(target, sources, spec.name)  # refused before anything is made
+    try:
+        outdir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise OutputError(f"{outdir}: cannot create the output folder ({exc.strerror})") \
+            from None
+    return _Plan(project, specs, outdir, created, sources, targets)
+
+
+def _hold_outdir(plan: _Plan, stack: contextlib.ExitStack, note: Warn,
+                 progress: Progress | None) -> None:
+    """Take OUTDIR's lock (one build at a time writes there: a second one waits), remove
+    what a killed build left, and check the section folders again (they may have changed
+    while this build waited)."""
+    from .outputs import check_build_target
+
+    def waiting(message: str) -> None:
+        note(message)
+        if progress is not None:
+            progress("", "waiting for another build into the output folder")
+
+    stack.enter_context(folder_lock(plan.outdir, waiting=waiting, create=True))
+    for gone in remove_stale(plan.outdir):
+        note(f"removed {gone}, left by a build that was stopped")
+    for spec, target in zip(plan.specs, plan.targets, strict=True):
+        check_build_target(target, plan.sources, spec.name)
+
+
+def _read_inputs(plan: _Plan, warn: Warn, progress: Progress | None):
+    """The map (the sections' neighbourhood only), attitudes and DEM, read once for every
+    section; the project with its ``thickness = "map"`` units measured (what that said,
+    for each build.log); the title block's information."""
+    if progress is not None:
+        progress("", "reading the map, the attitudes and the DEM")
+    inputs = load_inputs(plan.project, warn, plan.specs)
+    column_said: list[str] = []  # thickness = "map": said once, and in build.log
+
+    def say(message: str) -> None:
+        column_said.append(message)
+        warn(message)
+
+    try:
+        project = resolve_map_thicknesses(plan.project, inputs, say)
+    except BaseException:
+        inputs.close()
+        raise
+    return inputs, project, column_said, title_info(project, getattr(inputs.dem, "crs", None))
+
+
+def _add_timings(timings: dict[str, float] | None, more: dict[str, float]) -> None:
+    if timings is not None:
+        for k, v in more.items():
+            timings[k] = timings.get(k, 0.0) + v
 
 
 @dataclass(eq=False)
@@ -428,27 +353,6 @@ class _Job:
     data: _SectionData | None = None  # the draft is constructed from it (in the worker)
     attitudes: Any = None
     options: tuple = (None, None, None)  # the command line's sheet, scale and portrait
-
-
-WORKERS_ENV = "MAPSECTION_WORKERS"
-
-
-def _workers(workers: int | None) -> int:
-    """How many sections are built at once: ``workers``, else the MAPSECTION_WORKERS
-    environment variable, else one per CPU core."""
-    import os
-
-    if workers is None:
-        text = os.environ.get(WORKERS_ENV, "").strip()
-        if text:
-            try:
-                workers = int(text)
-            except ValueError:
-                raise ParameterError(f"{WORKERS_ENV}={text!r}: not a whole number of "
-                                     "workers") from None
-    if workers is not None and workers < 1:
-        raise ParameterError(f"workers: {workers}: must be 1 or more")
-    return workers or os.cpu_count() or 1
 
 
 def _prepare(job: _Job, said: list[str], timings: dict[str, float]) -> None:
@@ -514,20 +418,6 @@ def _write_job(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], K
     return said, timings, key_figures(report)
 
 
-# The jobs of the build in progress, read by forked workers (nothing is pickled but an
-# index), and the queue that carries the workers' progress to the parent (or None).
-_JOBS: list[tuple[_Job, Any]] = []
-_QUEUE: list[Any] = [None]
-
-
-def _write_job_at(index: int) -> tuple[list[str], dict[str, float], KeyFigures]:
-    job, map_data = _JOBS[index]
-    queue = _QUEUE[0]
-    progress = None if queue is None else (lambda section, stage: queue.put((section, stage)))
-    with reporting(progress, job.spec.name):
-        return _write_job_named(job, map_data)
-
-
 def _write_job_named(job: _Job, map_data: Any) -> tuple[list[str], dict[str, float], KeyFigures]:
     """:func:`_write_job`; a full disk or a folder that cannot be written: OutputError naming
     the section folder."""
@@ -543,74 +433,6 @@ def _write_job_named(job: _Job, map_data: Any) -> tuple[list[str], dict[str, flo
             # name the section folder, not its temporary (which is gone)
             raise OutputError(str(exc).replace(str(job.folder), str(job.target))) from None
         raise
-
-
-def _run_jobs(jobs: list[_Job], map_data: Any, workers: int | None,
-              progress: Progress | None = None):
-    """Yield (job, said, timings, key figures) for each job, writing them in parallel where
-    that pays."""
-    import multiprocessing
-    import os
-
-    n = min(len(jobs), workers or os.cpu_count() or 1)
-    if n < 2 or "fork" not in multiprocessing.get_all_start_methods():
-        for job in jobs:
-            with reporting(progress, job.spec.name):
-                result = _write_job_named(job, map_data)
-            yield (job, *result)
-        return
-    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
-
-    # Import the construction, drawing and writing code once, here, so that workers
-    # inherit it.
-    from . import checks, construct, export  # noqa: F401
-    from .render import area_depth, report, restoration, section, section_folder  # noqa: F401
-    from .render import sequence as render_sequence  # noqa: F401
-
-    _preload_writers()
-
-    context = multiprocessing.get_context("fork")
-    queue = context.SimpleQueue() if progress is not None else None
-
-    def drain() -> None:
-        while queue is not None and not queue.empty():
-            progress(*queue.get())
-
-    _JOBS[:] = [(job, map_data) for job in jobs]
-    _QUEUE[0] = queue
-    # A progress display pauses its own thread while the workers are forked.
-    paused = getattr(progress, "paused", None)
-    try:
-        with ProcessPoolExecutor(n, mp_context=context) as pool:
-            with paused() if paused is not None else contextlib.nullcontext():
-                futures = [pool.submit(_write_job_at, i) for i in range(len(jobs))]
-            pending = set(futures)
-            while pending:
-                _, pending = wait(pending, timeout=0.2, return_when=FIRST_COMPLETED)
-                drain()
-            drain()
-            results = [f.result() for f in futures]
-    finally:
-        _JOBS.clear()
-        _QUEUE[0] = None
-        if queue is not None:
-            queue.close()
-    for job, result in zip(jobs, results, strict=True):
-        yield (job, *result)
-
-
-def _preload_writers() -> None:
-    """Import, in the parent, what every worker would otherwise import for itself when it
-    first writes a figure (the PDF and SVG backends, the font subsetter, the GIF writer):
-    forked workers then share one copy instead of each paying the import."""
-    import importlib
-
-    for name in ("matplotlib.backends.backend_pdf", "matplotlib.backends.backend_svg",
-                 "fontTools.subset", "PIL.GifImagePlugin", "PIL.PngImagePlugin"):
-        try:
-            importlib.import_module(name)
-        except ImportError:  # not installed: the worker would have failed on it anyway
-            pass
 
 
 def _folder_name(name: str) -> str:

@@ -172,8 +172,9 @@ def check_section(project, spec, from_path: Path | None = None,
         draft = build_section(project, spec, warn=warn_fn, inputs=inputs)
     else:
         draft = edited_draft(project, spec, from_path, warn_fn, inputs=inputs)
-    from .build import _stage, reporting
     from .checks.diagnosis import nearby_attitudes
+    from .stages import reporting
+    from .stages import stage as _stage
 
     xy = nearby_attitudes(inputs.attitudes, draft.line, spec.corridor) if inputs else None
     with reporting(None, spec.name), _stage(None, "checks"):  # told to a progress display
