@@ -94,92 +94,116 @@ def main(argv: list[str] | None = None) -> int:
                     help="time a copy of the project with N sections, in parallel against "
                          "one at a time")
     args = ap.parse_args(argv)
-    from ..build import STAGES, build_project
-
     if args.sections:
         return _many_sections(args.project, args.sections, args.repeat)
-
+    prev_env = None
+    if args.previous:
+        tree = Path(args.previous).resolve()
+        if not (tree / "mapsection" / "__init__.py").is_file():
+            ap.error(f"--previous {args.previous}: no mapsection/ package in that folder")
+        prev_env = {**os.environ,
+                    "PYTHONPATH": os.pathsep.join([str(tree),
+                                                   os.environ.get("PYTHONPATH", "")])}
     with tempfile.TemporaryDirectory(prefix="mapsection-bench-") as tmpdir:
         tmp = Path(tmpdir)
         project = _project(args.project, tmp).resolve()
-        cli = [sys.executable, "-c", "from mapsection.cli.main import cli; cli()", "build",
-               str(project), "-o", str(tmp / "cli")]
-        base = [sys.executable, "-c", IMPORTS]
-        start = [sys.executable, "-c", STARTUP]
-        prev_env = None
-        if args.previous:
-            tree = Path(args.previous).resolve()
-            if not (tree / "mapsection" / "__init__.py").is_file():
-                ap.error(f"--previous {args.previous}: no mapsection/ package in that folder")
-            prev_env = {**os.environ,
-                        "PYTHONPATH": os.pathsep.join([str(tree),
-                                                       os.environ.get("PYTHONPATH", "")])}
-            prev_cli = [*cli[:-1], str(tmp / "prev")]
-        _run(base, tmp)  # warm the file cache once
-        walls, floors, cpus, floor_cpus, prevs, prev_cpus = [], [], [], [], [], []
-        starts, prev_starts = [], []
-        for _ in range(args.repeat):
-            starts.append(_run(start, tmp)[0])
-            if prev_env is not None:
-                prev_starts.append(_run(start, tmp, prev_env)[0])
-            w, c = _run(base, tmp)
-            floors.append(w)
-            floor_cpus.append(c)
-            w, c = _run(cli, tmp)
-            walls.append(w)
-            cpus.append(c)
-            if prev_env is not None:
-                w, c = _run(prev_cli, tmp, prev_env)
-                prevs.append(w)
-                prev_cpus.append(c)
-        runs: list[dict[str, float]] = []
-        totals = []
-        # One warm-up run in this process: the stage shares below are of warm runs, and
-        # the command's start-up and imports are what the fresh-interpreter wall adds.
-        build_project(project, tmp / "warm", warn=lambda m: None)
-        parallels = []
-        for i in range(args.repeat):
-            timings: dict[str, float] = {}
-            t0 = time.perf_counter()
-            folders = build_project(project, tmp / f"lib{i}", warn=lambda m: None,
-                                    timings=timings, workers=1)
-            totals.append(time.perf_counter() - t0)
-            runs.append(timings)
-            # The same with the sections' outputs written in parallel (the default).
-            t0 = time.perf_counter()
-            build_project(project, tmp / f"par{i}", warn=lambda m: None)
-            parallels.append(time.perf_counter() - t0)
+        t = _time_commands(project, tmp, args.repeat, prev_env)
+        lib = _time_library(project, tmp, args.repeat)
+    _print_commands(project, t, lib, args.repeat, args.previous)
+    _print_stages(lib)
+    return 0
 
-    wall = statistics.median(walls)
-    floor = statistics.median(floors)
-    cpu = statistics.median(cpus)
-    floor_cpu = statistics.median(floor_cpus)
-    total = statistics.median(totals)
-    parallel = statistics.median(parallels)
-    print(f"mapsection build of {project.name} ({len(folders)} sections), "
-          f"median of {args.repeat} runs")
+
+def _time_commands(project: Path, tmp: Path, repeat: int, prev_env: dict | None
+                   ) -> dict[str, list[float]]:
+    """Wall and CPU times of the command in fresh interpreters (and of the previous tree's),
+    of its start-up, and of a fresh interpreter importing the libraries (the baseline)."""
+    cli = [sys.executable, "-c", "from mapsection.cli.main import cli; cli()", "build",
+           str(project), "-o", str(tmp / "cli")]
+    base = [sys.executable, "-c", IMPORTS]
+    start = [sys.executable, "-c", STARTUP]
+    prev_cli = [*cli[:-1], str(tmp / "prev")]
+    _run(base, tmp)  # warm the file cache once
+    t: dict[str, list[float]] = {k: [] for k in ("wall", "cpu", "floor", "floor_cpu", "prev",
+                                                 "prev_cpu", "start", "prev_start")}
+    for _ in range(repeat):
+        t["start"].append(_run(start, tmp)[0])
+        if prev_env is not None:
+            t["prev_start"].append(_run(start, tmp, prev_env)[0])
+        for wall, cpu, cmd, env in (("floor", "floor_cpu", base, None),
+                                    ("wall", "cpu", cli, None),
+                                    ("prev", "prev_cpu", prev_cli, prev_env)):
+            if wall == "prev" and prev_env is None:
+                continue
+            w, c = _run(cmd, tmp, env)
+            t[wall].append(w)
+            t[cpu].append(c)
+    return t
+
+
+def _time_library(project: Path, tmp: Path, repeat: int) -> dict:
+    """Warm in-process builds: each stage's time one section after the other, and the whole
+    build with the sections in parallel (the default)."""
+    from ..build import build_project
+
+    runs: list[dict[str, float]] = []
+    totals, parallels = [], []
+    # One warm-up run in this process: the stage shares below are of warm runs, and
+    # the command's start-up and imports are what the fresh-interpreter wall adds.
+    build_project(project, tmp / "warm", warn=lambda m: None)
+    for i in range(repeat):
+        timings: dict[str, float] = {}
+        t0 = time.perf_counter()
+        folders = build_project(project, tmp / f"lib{i}", warn=lambda m: None,
+                                timings=timings, workers=1)
+        totals.append(time.perf_counter() - t0)
+        runs.append(timings)
+        t0 = time.perf_counter()
+        build_project(project, tmp / f"par{i}", warn=lambda m: None)
+        parallels.append(time.perf_counter() - t0)
+    return {"runs": runs, "totals": totals, "parallels": parallels, "n": len(folders)}
+
+
+def _within(value: float, target: float) -> str:
+    return "within" if value <= target else "OVER"
+
+
+def _print_commands(project: Path, t: dict[str, list[float]], lib: dict, repeat: int,
+                    previous: str | None) -> None:
+    med = {k: statistics.median(v) for k, v in t.items() if v}
+    wall, cpu, floor, floor_cpu, st = (med[k] for k in ("wall", "cpu", "floor", "floor_cpu",
+                                                         "start"))
+    total = statistics.median(lib["totals"])
+    parallel = statistics.median(lib["parallels"])
+    print(f"mapsection build of {project.name} ({lib['n']} sections), median of {repeat} runs")
     print(f"command wall time (fresh interpreter): {wall:.2f} s   target {TARGET_S:.1f} s   "
-          f"{'within' if wall <= TARGET_S else 'OVER'} target")
-    st = statistics.median(starts)
+          f"{_within(wall, TARGET_S)} target")
     print(f"start-up (imports before the project is read): {st:.2f} s   target "
-          f"{STARTUP_TARGET_S:.1f} s   {'within' if st <= STARTUP_TARGET_S else 'OVER'} target; "
+          f"{STARTUP_TARGET_S:.1f} s   {_within(st, STARTUP_TARGET_S)} target; "
           f"the rest: {wall - st:.2f} s   target {REST_TARGET_S:.1f} s   "
-          f"{'within' if wall - st <= REST_TARGET_S else 'OVER'} target; load average "
+          f"{_within(wall - st, REST_TARGET_S)} target; load average "
           f"{os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
     print(f"command CPU time (user + system): {cpu:.2f} s (wall above CPU means the machine "
           f"was shared)")
     print(f"baseline, fresh interpreter importing the libraries: {floor:.2f} s wall, "
           f"{floor_cpu:.2f} s CPU   build / baseline = {wall / floor:.2f} (wall), "
           f"{cpu / floor_cpu:.2f} (CPU)")
-    if prevs:
-        pw, pc = statistics.median(prevs), statistics.median(prev_cpus)
-        print(f"previous version ({args.previous}): {pw:.2f} s wall, {pc:.2f} s CPU   "
+    if "prev" in med:
+        pw, pc = med["prev"], med["prev_cpu"]
+        print(f"previous version ({previous}): {pw:.2f} s wall, {pc:.2f} s CPU   "
               f"build / previous = {wall / pw:.2f} (wall), {cpu / pc:.2f} (CPU); its "
-              f"start-up {statistics.median(prev_starts):.2f} s")
+              f"start-up {med['prev_start']:.2f} s")
     print(f"in-process build_project, warm: {parallel:.2f} s with the sections' outputs written "
           f"in parallel (the default), {total:.2f} s one section after the other "
           f"(parallel / serial = {parallel / total:.2f}); interpreter start-up and imports "
           f"take about {max(wall - parallel, 0.0):.2f} s of the command's wall time")
+
+
+def _print_stages(lib: dict) -> None:
+    from ..stages import STAGES
+
+    runs, totals = lib["runs"], lib["totals"]
+    total = statistics.median(totals)
     print()
     print("Stages of the serial in-process build (both sections):")
     print()
@@ -191,7 +215,6 @@ def main(argv: list[str] | None = None) -> int:
     other = statistics.median(t - sum(r.get(s, 0.0) for s in STAGES)
                               for t, r in zip(totals, runs, strict=True))
     print(f"| other (logs, folder swap) | {other:.3f} | {100 * other / total:.0f} % |")
-    return 0
 
 
 def _many_sections(project_arg: str | None, n: int, repeat: int) -> int:
