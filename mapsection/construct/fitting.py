@@ -11,9 +11,31 @@ with the residual evaluated for every perturbed vector in one array call.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
+from functools import lru_cache
 
 import numpy as np
+
+
+@lru_cache(maxsize=1)
+def _blas_controller():
+    import scipy.linalg  # noqa: F401  (its BLAS must be loaded to be found)
+    from threadpoolctl import ThreadpoolController
+
+    return ThreadpoolController()
+
+
+@contextmanager
+def one_blas_thread() -> Iterator[None]:
+    """Run the fits' linear algebra on one BLAS thread.
+
+    Their matrices are small (contacts x hinges, an SVD per iteration): a threaded BLAS
+    spends more on waking its threads than on the work, 10-20 times more on a busy
+    two-core machine (measured in docs/performance.md)."""
+    with _blas_controller().limit(limits=1, user_api="blas"):
+        yield
+
 
 _EPS2 = float(np.finfo(float).eps) ** 0.5  # scipy's fallback relative step (2-point)
 
