@@ -96,8 +96,14 @@ class BatchedJacobian:
 
 
 def searchsorted_rows(edges: np.ndarray, values: np.ndarray, side: str = "left") -> np.ndarray:
-    """``np.searchsorted`` of ``values`` in each row of ``edges`` (rows sorted)."""
+    """``np.searchsorted`` of ``values`` in each row of ``edges`` (rows sorted): the count
+    of edges below (``side="left"``) or not above (``"right"``) each value."""
     edges = np.atleast_2d(edges)
+    values = np.asarray(values, float)
+    if edges.size * values.size <= 4_000_000:  # one comparison array (a few MB at most)
+        below = edges[:, None, :] < values[None, :, None] if side == "left" \
+            else edges[:, None, :] <= values[None, :, None]
+        return np.count_nonzero(below, axis=2)
     out = np.empty((len(edges), len(values)), int)
     for b, row in enumerate(edges):
         out[b] = np.searchsorted(row, values, side=side)
