@@ -41,7 +41,7 @@ from ..angles import wrap180
 from ..notes import Notes
 from .constraints import Constraints
 from .domains import Domain, unit_vectors
-from .fitting import BatchedJacobian, one_blas_thread, searchsorted_rows
+from .fitting import BatchedJacobian, in_order, one_blas_thread, searchsorted_rows
 from .frame import SectionFrame
 
 _STRAIGHT_DEG = 0.05  # adjacent dips closer than this are drawn as straight, parallel beds
@@ -324,7 +324,8 @@ def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
     hi = np.maximum(hi, lo + 1e-3)
     width = hi - lo
     ph = np.repeat(phis, 2)[1:-1]  # phi_0, phi_1, phi_1, phi_2, ...
-    w, sw = cons.weight, np.sqrt(cons.weight)
+    cd, cz, cs, w = in_order(cons)
+    sw = np.sqrt(w)
     eps = 0.01 * scale  # metres: breaks ties only where the data leave a hinge free
 
     def points(x):
@@ -344,15 +345,15 @@ def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
         return np.stack([dist, ground(dist)], axis=2)
 
     def resid_rows(xs):
-        r0 = _chain_depth_rows(points_rows(xs), ph, cons.distance, cons.elevation) - cons.depth
-        r = sw * (r0 - ((r0 @ w) / np.sum(w))[:, None])
+        r0 = _chain_depth_rows(points_rows(xs), ph, cd, cz) - cs
+        r = sw * (r0 - (np.sum(w * r0, axis=1) / np.sum(w))[:, None])
         c, f = xs[:, :k_all - 1], xs[:, k_all - 1:]
         return np.concatenate([r, eps * (c - h) / width, eps * (1.0 - f)], axis=1)
 
     lb = np.concatenate([lo, np.full(k_all - 1, _MIN_SPAN)])
     ub = np.concatenate([hi, np.ones(k_all - 1)])
     def resid(x):
-        r0 = _Chain(points(x), ph).depth_at(cons.distance, cons.elevation) - cons.depth
+        r0 = _Chain(points(x), ph).depth_at(cd, cz) - cs
         r = sw * (r0 - np.sum(w * r0) / np.sum(w))
         c, f = x[:k_all - 1], x[k_all - 1:]
         return np.concatenate([r, eps * (c - h) / width, eps * (1.0 - f)])

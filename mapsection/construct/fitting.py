@@ -63,36 +63,37 @@ class BatchedJacobian:
     """A ``jac`` callable for ``least_squares``: forward differences of a residual that
     takes a batch of parameter vectors (rows) and returns one residual vector per row.
 
-    The residual at the point itself is the one scipy evaluated just before (kept by
-    :meth:`residual`, which is the ``fun`` to hand to ``least_squares``); ``single``, if
-    given, computes it for one vector (the fit's own residual)."""
+    :meth:`residual` is the ``fun`` to hand to ``least_squares``: ``single`` if given
+    (the fit's own residual for one vector), else the batch of one row."""
 
     def __init__(self, batch: Callable[[np.ndarray], np.ndarray], lb: np.ndarray,
                  ub: np.ndarray, rel_step: float = 1e-6,
                  single: Callable[[np.ndarray], np.ndarray] | None = None) -> None:
         self.batch, self.lb, self.ub, self.rel_step = batch, lb, ub, rel_step
         self.single = single if single is not None else (lambda x: batch(x[None, :])[0])
-        self._x: np.ndarray | None = None
-        self._f: np.ndarray | None = None
 
     def residual(self, x: np.ndarray) -> np.ndarray:
-        f = self.single(np.asarray(x, float))
-        self._x, self._f = np.array(x, float), f
-        return f
+        return self.single(np.asarray(x, float))
 
     def __call__(self, x: np.ndarray) -> np.ndarray:
         x = np.asarray(x, float)
-        if self._x is not None and np.array_equal(x, self._x):
-            f0 = self._f
-        else:
-            f0 = self.single(x)
         h = forward_steps(x, self.lb, self.ub, self.rel_step)
         n = len(x)
-        xs = np.repeat(x[None, :], n, axis=0)
+        xs = np.repeat(x[None, :], n + 1, axis=0)  # the last row: the point itself
         idx = np.arange(n)
         xs[idx, idx] = x + h
         dx = (x + h) - x
-        return ((self.batch(xs) - f0[None, :]) / dx[:, None]).T
+        f = self.batch(xs)  # differences of one computation, rounded alike
+        return ((f[:-1] - f[-1][None, :]) / dx[:, None]).T
+
+
+def in_order(cons):
+    """The constraints sorted by distance, elevation, depth and weight: the fits' sums
+    then do not depend on the order the contacts came in (a cut map lists them in
+    another order than the whole one), so the same contacts give the same fit."""
+    order = np.lexsort((cons.weight, cons.depth, cons.elevation, cons.distance))
+    return (cons.distance[order], cons.elevation[order], cons.depth[order],
+            cons.weight[order])
 
 
 def searchsorted_rows(edges: np.ndarray, values: np.ndarray, side: str = "left") -> np.ndarray:

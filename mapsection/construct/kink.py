@@ -35,7 +35,7 @@ from shapely.geometry import Point
 from ..notes import Notes
 from .constraints import Constraints
 from .domains import Domain, unit_vectors
-from .fitting import BatchedJacobian, one_blas_thread, searchsorted_rows
+from .fitting import BatchedJacobian, in_order, one_blas_thread, searchsorted_rows
 from .frame import SectionFrame
 
 
@@ -266,8 +266,8 @@ def fit_kink_offsets(domains: list[Domain], cons: Constraints, ground: Callable,
     distances, without building the model (:func:`fit_kink`)."""
     k_all = len(domains)
     _, n = unit_vectors([d.phi for d in domains])
-    d, s, w = cons.distance, cons.depth, cons.weight
-    p = np.column_stack([cons.distance, cons.elevation])
+    d, z, s, w = in_order(cons)
+    p = np.column_stack([d, z])
     sw = np.sqrt(w)
     lo = np.array([domains[k].end for k in range(k_all - 1)])
     hi = np.array([domains[k + 1].start for k in range(k_all - 1)])
@@ -290,6 +290,11 @@ def fit_kink_offsets(domains: list[Domain], cons: Constraints, ground: Callable,
     def c0_of(r0):
         return -np.sum(w * r0) / np.sum(w)
 
+    def resid(h):
+        r0, _ = base_resid(h)
+        r = sw * (r0 + c0_of(r0))
+        return np.concatenate([r, eps * (h - mid) / width])
+
     # The residual for a batch of hinge vectors (rows), for the Jacobian's columns in
     # one call (fitting.BatchedJacobian): the same sums as base_resid, row by row.
     dn = n[:-1] - n[1:]
@@ -302,7 +307,7 @@ def fit_kink_offsets(domains: list[Domain], cons: Constraints, ground: Callable,
         k = searchsorted_rows(hs, d)
         rows = np.arange(len(hs))[:, None]
         r0 = c[rows, k] - np_all[np.arange(len(d))[None, :], k] - s
-        c0 = -(r0 @ w) / np.sum(w)
+        c0 = -np.sum(w * r0, axis=1) / np.sum(w)
         r = sw * (r0 + c0[:, None])
         return np.concatenate([r, eps * (hs - mid) / width], axis=1)
 
@@ -313,7 +318,7 @@ def fit_kink_offsets(domains: list[Domain], cons: Constraints, ground: Callable,
         starts = [np.full(k_all - 1, f) for f in (0.5, 0.25, 0.75, 0.1, 0.9)]
         starts += [rng.uniform(0.05, 0.95, k_all - 1) for _ in range(4)]
         best = None
-        jac = BatchedJacobian(resid_rows, lo, hi, 1e-6)
+        jac = BatchedJacobian(resid_rows, lo, hi, 1e-6, single=resid)
         with one_blas_thread():
             for f in starts:
                 x0 = lo + f * (hi - lo)
