@@ -343,7 +343,7 @@ def _contact_support(dips: ProjectedDips, contacts: Constraints, ground, frame: 
     after it, narrowed to ``SUPPORT_READINGS`` readings either side where that keeps three
     contacts; the log says so once. The fit without the reading is reused while the
     readings in use stay the same."""
-    from .kink import fit_kink
+    from .kink import fit_kink_offsets, kink_depth_at
     from .outliers import subset_dips
 
     d_all = np.asarray(dips.distance_m, float) if dips is not None else np.zeros(0)
@@ -355,8 +355,8 @@ def _contact_support(dips: ProjectedDips, contacts: Constraints, ground, frame: 
         if len(ds) == 0:
             return float("inf")
         doms = group_domains(ds.distance, ds.phi, ds.weight, tolerance)
-        model = fit_kink(doms, cons, ground, frame, scale, Notes(lambda m: None))
-        r = model.depth_at(cons.distance, cons.elevation) - cons.depth
+        c, h = fit_kink_offsets(doms, cons, ground, scale)  # the depths need no sweep
+        r = kink_depth_at(doms, c, h, cons.distance, cons.elevation) - cons.depth
         return float(np.sqrt(np.mean(r * r)))
 
     def window(lo: float, hi: float, at: float, used: np.ndarray) -> tuple[float, float]:

@@ -41,6 +41,7 @@ from ..angles import wrap180
 from ..notes import Notes
 from .constraints import Constraints
 from .domains import Domain, unit_vectors
+from .fitting import BatchedJacobian, in_order, one_blas_thread, searchsorted_rows
 from .frame import SectionFrame
 
 _STRAIGHT_DEG = 0.05  # adjacent dips closer than this are drawn as straight, parallel beds
@@ -112,6 +113,57 @@ class _Chain:
         straight_s = self.lam[i] - np.einsum("ij,ij->i", pi - self.q[i], self.nbar[i])
         out[inner] = np.where(self.is_arc[i], arc_s, straight_s)
         return out
+
+
+def _chain_depth_rows(q: np.ndarray, phi: np.ndarray, distance: np.ndarray,
+                      elevation: np.ndarray) -> np.ndarray:
+    """:meth:`_Chain.depth_at` for a batch of chains sharing their dips: ``q`` (B, m, 2)
+    the normals' ground points of each chain, sorted by distance. Returns (B, points).
+
+    The same sums as the chain itself, chain by chain, so that the fits can evaluate
+    every perturbed chain of a Jacobian in one call (fitting.BatchedJacobian)."""
+    q = np.asarray(q, float)
+    bn, m = q.shape[0], q.shape[1]
+    k = max(m - 1, 0)
+    t, n = unit_vectors(np.asarray(phi, float))
+    d = np.asarray(distance, float)
+    p = np.column_stack([d, np.asarray(elevation, float)])
+    dphi = np.asarray(wrap180(phi[1:] - phi[:-1]), float)
+    dq = q[:, 1:] - q[:, :-1]  # (B, k, 2)
+    straight = np.broadcast_to(np.abs(dphi) < _STRAIGHT_DEG, (bn, k)).copy()
+    turn = np.flatnonzero(~straight[0]) if k else np.zeros(0, int)
+    mu, nu = np.zeros((bn, k)), np.zeros((bn, k))
+    if turn.size:
+        a = np.stack([n[turn], -n[turn + 1]], axis=2)  # (T, 2, 2) columns n_i, -n_i+1
+        sol = np.linalg.solve(np.broadcast_to(a, (bn, *a.shape)), dq[:, turn][..., None])[..., 0]
+        mu[:, turn], nu[:, turn] = sol[..., 0], sol[..., 1]
+        straight[:, turn] = (np.sign(mu[:, turn]) != np.sign(nu[:, turn])) | (mu[:, turn] == 0)
+    nbar = n[:-1] + n[1:]
+    nbar = nbar / np.hypot(nbar[:, 0], nbar[:, 1])[:, None]
+    arc = ~straight
+    mu, nu = np.where(arc, mu, 0.0), np.where(arc, nu, 0.0)
+    centre = q[:, :-1] + mu[..., None] * n[None, :-1]
+    e = np.where(arc, np.sign(-mu), 1.0)
+    along = dq[..., 0] * nbar[:, 0] + dq[..., 1] * nbar[:, 1]
+    lam = np.zeros((bn, m))
+    lam[:, 1:] = np.cumsum(np.where(arc, -mu + nu, -along), axis=1)
+    sec = searchsorted_rows(q[:, :, 0], d, side="right") - 1  # (B, points)
+    rows = np.arange(bn)[:, None]
+    first = lam[:, :1] - (p[None, :, 0] - q[:, :1, 0]) * n[0, 0] \
+        - (p[None, :, 1] - q[:, :1, 1]) * n[0, 1]
+    last = lam[:, -1:] - (p[None, :, 0] - q[:, -1:, 0]) * n[-1, 0] \
+        - (p[None, :, 1] - q[:, -1:, 1]) * n[-1, 1]
+    i = np.clip(sec, 0, max(k - 1, 0))
+    if k:
+        dx = p[None, :, 0] - q[rows, i, 0]
+        dz = p[None, :, 1] - q[rows, i, 1]
+        r = np.hypot(p[None, :, 0] - centre[rows, i, 0], p[None, :, 1] - centre[rows, i, 1])
+        arc_s = lam[rows, i] - mu[rows, i] - e[rows, i] * r
+        straight_s = lam[rows, i] - (dx * nbar[i, 0] + dz * nbar[i, 1])
+        inner = np.where(arc[rows, i], arc_s, straight_s)
+    else:
+        inner = first
+    return np.where(sec < 0, first, np.where(sec >= m - 1, last, inner))
 
 
 class ArcModel(_Chain):
@@ -272,7 +324,8 @@ def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
     hi = np.maximum(hi, lo + 1e-3)
     width = hi - lo
     ph = np.repeat(phis, 2)[1:-1]  # phi_0, phi_1, phi_1, phi_2, ...
-    w, sw = cons.weight, np.sqrt(cons.weight)
+    cd, cz, cs, w = in_order(cons)
+    sw = np.sqrt(w)
     eps = 0.01 * scale  # metres: breaks ties only where the data leave a hinge free
 
     def points(x):
@@ -285,21 +338,35 @@ def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
         return points(np.concatenate([0.5 * (lo + hi), np.ones(k_all - 1)])), ph
     h = fit_kink(domains, cons, ground, frame, scale, Notes()).hinges
 
+    def points_rows(xs):
+        c, f = xs[:, :k_all - 1], xs[:, k_all - 1:]
+        a, b = c - f * (c - lo), c + f * (hi - c)
+        dist = np.stack([a, b], axis=2).reshape(len(xs), -1)
+        return np.stack([dist, ground(dist)], axis=2)
+
+    def resid_rows(xs):
+        r0 = _chain_depth_rows(points_rows(xs), ph, cd, cz) - cs
+        r = sw * (r0 - (np.sum(w * r0, axis=1) / np.sum(w))[:, None])
+        c, f = xs[:, :k_all - 1], xs[:, k_all - 1:]
+        return np.concatenate([r, eps * (c - h) / width, eps * (1.0 - f)], axis=1)
+
+    lb = np.concatenate([lo, np.full(k_all - 1, _MIN_SPAN)])
+    ub = np.concatenate([hi, np.ones(k_all - 1)])
     def resid(x):
-        r0 = _Chain(points(x), ph).depth_at(cons.distance, cons.elevation) - cons.depth
+        r0 = _Chain(points(x), ph).depth_at(cd, cz) - cs
         r = sw * (r0 - np.sum(w * r0) / np.sum(w))
         c, f = x[:k_all - 1], x[k_all - 1:]
         return np.concatenate([r, eps * (c - h) / width, eps * (1.0 - f)])
 
-    lb = np.concatenate([lo, np.full(k_all - 1, _MIN_SPAN)])
-    ub = np.concatenate([hi, np.ones(k_all - 1)])
+    jac = BatchedJacobian(resid_rows, lb, ub, 1e-6, single=resid)
     best = None
-    for f0 in (1.0, 0.6, 0.3, 0.1):
-        x0 = np.clip(np.concatenate([h, np.full(k_all - 1, f0)]), lb, ub)
-        sol = least_squares(resid, x0, bounds=(lb, ub), method="trf",
-                            x_scale=np.concatenate([width, np.ones(k_all - 1)]), diff_step=1e-6)
-        if best is None or sol.cost < best.cost - 1e-9:
-            best = sol
+    with one_blas_thread():
+        for f0 in (1.0, 0.6, 0.3, 0.1):
+            x0 = np.clip(np.concatenate([h, np.full(k_all - 1, f0)]), lb, ub)
+            sol = least_squares(jac.residual, x0, jac=jac, bounds=(lb, ub), method="trf",
+                                x_scale=np.concatenate([width, np.ones(k_all - 1)]))
+            if best is None or sol.cost < best.cost - 1e-9:
+                best = sol
     return points(best.x), ph
 
 

@@ -35,6 +35,7 @@ from shapely.geometry import Point
 from ..notes import Notes
 from .constraints import Constraints
 from .domains import Domain, unit_vectors
+from .fitting import BatchedJacobian, in_order, one_blas_thread, searchsorted_rows
 from .frame import SectionFrame
 
 
@@ -71,6 +72,21 @@ class KinkModel:
         p = self._meet(k, j, [0.0, 1.0]) - self._meet(i, k, [0.0, 1.0])
         w = p @ self.t[k]
         return float(w[0]), float(w[1] - w[0])
+
+    def _widths(self, alive: list[int]) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`_width_coeffs` of every inner domain of ``alive`` at once (a, b arrays)."""
+        al = np.asarray(alive)
+        i, k, j = al[:-2], al[1:-1], al[2:]
+
+        def meet(u, v):  # (m, 2 levels, 2): where levels 0 and 1 of u and v meet
+            a = np.stack([self.n[u], self.n[v]], axis=1)
+            rhs = np.stack([self.c[u][:, None] - [0.0, 1.0], self.c[v][:, None] - [0.0, 1.0]],
+                           axis=1)
+            return np.swapaxes(np.linalg.solve(a, rhs), 1, 2)
+
+        p = meet(k, j) - meet(i, k)
+        w = np.einsum("mlx,mx->ml", p, self.t[k])
+        return w[:, 0], w[:, 1] - w[:, 0]
 
     def depth_at(self, distance, elevation) -> np.ndarray:
         """Stratigraphic depth at ground points, each in the domain that holds it at the ground."""
@@ -109,17 +125,13 @@ class KinkModel:
         s_ground = self.depth_at(self.hinges, self.hinge_z)
         s_pref = float(np.median(s_ground))
         while len(alive) > 2:
-            lo, hi = -np.inf, np.inf
-            coeffs = []
-            for idx in range(1, len(alive) - 1):
-                a, b = self._width_coeffs(alive[idx - 1], alive[idx], alive[idx + 1])
-                coeffs.append((a, b))
-                if b > 1e-12:
-                    lo = max(lo, -a / b)
-                elif b < -1e-12:
-                    hi = min(hi, -a / b)
-                elif a <= 0:
-                    lo, hi = np.inf, -np.inf
+            a_all, b_all = self._widths(alive)  # all inner domains at once
+            coeffs = list(zip(a_all.tolist(), b_all.tolist(), strict=True))
+            pos, neg = b_all > 1e-12, b_all < -1e-12
+            lo = float(np.max(-a_all[pos] / b_all[pos])) if pos.any() else -np.inf
+            hi = float(np.min(-a_all[neg] / b_all[neg])) if neg.any() else np.inf
+            if np.any(~pos & ~neg & (a_all <= 0)):
+                lo, hi = np.inf, -np.inf
             if lo < hi:
                 if lo < s_pref < hi:
                     self.s0 = s_pref
@@ -146,13 +158,14 @@ class KinkModel:
         events = []
         while len(alive) > 2:
             best = None
-            for idx in range(1, len(alive) - 1):
-                a, b = self._width_coeffs(alive[idx - 1], alive[idx], alive[idx + 1])
-                if direction * b < -1e-12:
-                    sz = -a / b
-                    ahead = direction * (sz - s) > 0
-                    if ahead and (best is None or direction * (sz - best[0]) < 0):
-                        best = (sz, idx)
+            a_all, b_all = self._widths(alive)  # all inner domains at once
+            cand = direction * b_all < -1e-12
+            with np.errstate(divide="ignore", invalid="ignore"):
+                sz_all = np.where(cand, -a_all / b_all, np.nan)
+            cand &= direction * (sz_all - s) > 0
+            if cand.any():  # the nearest ahead (the first of equals)
+                pick = int(np.argmin(np.where(cand, direction * sz_all, np.inf)))
+                best = (float(sz_all[pick]), pick + 1)
             if best is None or not (self.s_lo < best[0] < self.s_hi):
                 break
             sz, idx = best
@@ -233,10 +246,28 @@ def fit_kink(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
              scale: float, notes: Notes, rng_seed: int = 0) -> KinkModel:
     """Position the domains' stacks by the constraints (joint least squares over the
     block: one offset plus each hinge's ground position, bounded to its gap)."""
+    c, h = fit_kink_offsets(domains, cons, ground, scale, rng_seed)
+    return KinkModel(domains, c, h, ground(h), frame, notes)
+
+
+def kink_depth_at(domains: list[Domain], c: np.ndarray, hinges: np.ndarray, distance,
+                  elevation) -> np.ndarray:
+    """:meth:`KinkModel.depth_at` from the fitted offsets and hinges alone (no sweep)."""
+    _, n = unit_vectors([dm.phi for dm in domains])
+    d = np.asarray(distance, float)
+    k = np.searchsorted(hinges, d)
+    p = np.column_stack([d, np.asarray(elevation, float)])
+    return c[k] - np.einsum("ij,ij->i", n[k], p)
+
+
+def fit_kink_offsets(domains: list[Domain], cons: Constraints, ground: Callable,
+                     scale: float, rng_seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    """The kink fit's reference offsets ``c`` (one per domain) and hinge ground
+    distances, without building the model (:func:`fit_kink`)."""
     k_all = len(domains)
     _, n = unit_vectors([d.phi for d in domains])
-    d, s, w = cons.distance, cons.depth, cons.weight
-    p = np.column_stack([cons.distance, cons.elevation])
+    d, z, s, w = in_order(cons)
+    p = np.column_stack([d, z])
     sw = np.sqrt(w)
     lo = np.array([domains[k].end for k in range(k_all - 1)])
     hi = np.array([domains[k + 1].start for k in range(k_all - 1)])
@@ -264,6 +295,22 @@ def fit_kink(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
         r = sw * (r0 + c0_of(r0))
         return np.concatenate([r, eps * (h - mid) / width])
 
+    # The residual for a batch of hinge vectors (rows), for the Jacobian's columns in
+    # one call (fitting.BatchedJacobian): the same sums as base_resid, row by row.
+    dn = n[:-1] - n[1:]
+    np_all = p @ n.T  # (contacts, domains): n_k . p for every domain
+
+    def resid_rows(hs):
+        gs = ground(hs)
+        inc = -(dn[:, 0] * hs + dn[:, 1] * gs)
+        c = np.concatenate([np.zeros((len(hs), 1)), np.cumsum(inc, axis=1)], axis=1)
+        k = searchsorted_rows(hs, d)
+        rows = np.arange(len(hs))[:, None]
+        r0 = c[rows, k] - np_all[np.arange(len(d))[None, :], k] - s
+        c0 = -np.sum(w * r0, axis=1) / np.sum(w)
+        r = sw * (r0 + c0[:, None])
+        return np.concatenate([r, eps * (hs - mid) / width], axis=1)
+
     if k_all == 1:
         h = np.zeros(0)
     else:
@@ -271,13 +318,14 @@ def fit_kink(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
         starts = [np.full(k_all - 1, f) for f in (0.5, 0.25, 0.75, 0.1, 0.9)]
         starts += [rng.uniform(0.05, 0.95, k_all - 1) for _ in range(4)]
         best = None
-        for f in starts:
-            x0 = lo + f * (hi - lo)
-            sol = least_squares(resid, x0, bounds=(lo, hi), method="trf", x_scale=width,
-                                diff_step=1e-6)
-            if best is None or sol.cost < best.cost - 1e-9:
-                best = sol
+        jac = BatchedJacobian(resid_rows, lo, hi, 1e-6, single=resid)
+        with one_blas_thread():
+            for f in starts:
+                x0 = lo + f * (hi - lo)
+                sol = least_squares(jac.residual, x0, jac=jac, bounds=(lo, hi),
+                                    method="trf", x_scale=width)
+                if best is None or sol.cost < best.cost - 1e-9:
+                    best = sol
         h = best.x
     r0, c = base_resid(h)
-    c = c + c0_of(r0)
-    return KinkModel(domains, c, h, ground(h), frame, notes)
+    return c + c0_of(r0), h

@@ -1,0 +1,104 @@
+"""The construction fits' batched Jacobian against scipy's own finite differences.
+
+The kink (Suppe 1985) and Busk arc (Busk 1929) fits hand ``least_squares`` a Jacobian
+whose columns are evaluated in one batch (construct/fitting.py); the reference is what
+``scipy.optimize.least_squares`` computes itself with ``diff_step=1e-6`` (its
+forward differences), which the fits used before.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import shapely
+from conftest import TRAIN_COLUMN, fold_train
+from scipy.optimize import least_squares
+
+from mapsection.construct import arc as arc_module
+from mapsection.construct import build_draft
+from mapsection.construct import kink as kink_module
+from mapsection.construct.arc import _Chain, _chain_depth_rows
+from mapsection.construct.fitting import BatchedJacobian, searchsorted_rows
+
+
+def _rows(xs):
+    # a coupled test residual (chained Rosenbrock terms; invented) for many vectors at once
+    return np.concatenate([10 * (xs[:, 1:] - xs[:, :-1] ** 2), 1 - xs[:, :-1],
+                           np.sin(xs) * np.cumsum(xs, axis=1)], axis=1)
+
+
+def test_batched_jacobian_equals_scipys_forward_differences():
+    # scipy.optimize.least_squares (reference library): its own 2-point differences at
+    # the solution, with diff_step=1e-6 and steps flipped at the bounds.
+    rng = np.random.default_rng(3)
+    lb, ub = np.full(6, -0.5), np.full(6, 0.9)
+    jac = BatchedJacobian(_rows, lb, ub, 1e-6)
+    for _ in range(5):
+        x0 = rng.uniform(-0.4, 0.8, 6)
+        ref = least_squares(jac.residual, x0, bounds=(lb, ub), method="trf", diff_step=1e-6)
+        got = jac(ref.x)
+        assert np.allclose(got, ref.jac, rtol=1e-9, atol=1e-9)
+        new = least_squares(jac.residual, x0, jac=jac, bounds=(lb, ub), method="trf")
+        assert np.allclose(new.x, ref.x, atol=1e-6)
+
+
+def test_rows_searchsorted_equals_numpy():
+    # numpy.searchsorted (reference library), row by row
+    rng = np.random.default_rng(0)
+    edges = np.sort(rng.integers(0, 50, (30, 20)).astype(float), axis=1)
+    values = rng.integers(-5, 55, 100).astype(float)
+    for side in ("left", "right"):
+        want = np.array([np.searchsorted(r, values, side=side) for r in edges])
+        assert np.array_equal(searchsorted_rows(edges, values, side), want)
+
+
+def test_batched_chain_depths_equal_the_chain():
+    # The batched sectors give the depths of Busk's chain (Busk 1929) built one at a
+    # time, on random chains with arcs, straight sectors and repeated dips.
+    rng = np.random.default_rng(1)
+    for _ in range(100):
+        m = int(rng.integers(1, 12))
+        phi = np.radians(np.cumsum(rng.uniform(-40, 40, m)))
+        if m > 1 and rng.random() < 0.3:
+            phi[1] = phi[0]
+        q = np.column_stack([np.sort(rng.uniform(0, 10000, m)), rng.uniform(-100, 100, m)])
+        d, z = rng.uniform(-1000, 11000, 50), rng.uniform(-200, 200, 50)
+        want = _Chain(q, phi).depth_at(d, z)
+        got = _chain_depth_rows(np.stack([q, q]), phi, d, z)
+        ok = np.isfinite(want)
+        for row in got:
+            assert np.array_equal(np.isfinite(row), ok)
+            assert np.abs(row[ok] - want[ok]).max() <= 1e-6
+
+
+def _scipy_differences(real):
+    """least_squares as the fits called it before: scipy's own forward differences."""
+    def call(fun, x0, jac=None, **kw):
+        return real(fun, x0, diff_step=1e-6, **kw)
+    return call
+
+
+def _horizons(method, args):
+    draft = build_draft(*args, TRAIN_COLUMN, method=method, depth=3000.0, dip_tolerance=5.0)
+    return draft, [(h.top_of, h.above_ground, shapely.get_coordinates(h.geometry))
+                   for h in draft.horizons]
+
+
+@pytest.mark.parametrize(("method", "args", "tol"), [
+    # many noisy dips: lone readings screened, dozens of kink domains (Suppe 1985)
+    ("kink", fold_train(10_000.0, spacing=100.0, noise=8.0), 1e-4),
+    # Busk arcs along a 20 km train (Busk 1929); the arc fit's optimum is flatter
+    ("arc", fold_train(20_000.0), 1e-3),
+])
+def test_fits_give_the_horizons_of_scipys_differences(monkeypatch, method, args, tol):
+    fast, got = _horizons(method, args)
+    with monkeypatch.context() as m:
+        m.setattr(kink_module, "least_squares", _scipy_differences(least_squares))
+        m.setattr(arc_module, "least_squares", _scipy_differences(least_squares))
+        plain, want = _horizons(method, args)
+    assert len(got) == len(want) > 10
+    for (name, above, xy), (name0, above0, xy0) in zip(got, want, strict=True):
+        assert (name, above) == (name0, above0)
+        assert xy.shape == xy0.shape
+        assert np.abs(xy - xy0).max() <= tol
+    assert fast.log == plain.log
