@@ -105,6 +105,7 @@ BAD_ROWS = (
 
 def _read_both(path, monkeypatch):
     """read_attitudes with the C engine, then with the csv module: results and messages."""
+    import mapsection.readers.attitude_csv as csv_reader
     import mapsection.readers.attitudes as reader
 
     fast, slow = reader._read_csv, reader._read_csv_rows
@@ -117,7 +118,7 @@ def _read_both(path, monkeypatch):
     out = []
     for read in (fast, slow):
         monkeypatch.setattr(reader, "_read_csv", read)
-        monkeypatch.setattr(reader, "_read_csv_rows", rows_counted)
+        monkeypatch.setattr(csv_reader, "_read_csv_rows", rows_counted)
         said: list[str] = []
         att = reader.read_attitudes(path, warn=said.append)
         out.append((att, said, read(Path(path))))

@@ -7,16 +7,15 @@ of dropped rows is reported once. CSV coordinates are taken to be in the
 project's CRS; a vector file in another CRS is reprojected to it (its azimuths
 rotated to the new grid north) and that is said once.
 
-The value object and the conventions are in :mod:`mapsection.attitudes`.
+The value object and the conventions are in :mod:`mapsection.attitudes`; the CSV's
+text reading in :mod:`mapsection.readers.attitude_csv`.
 """
 
 from __future__ import annotations
 
-import csv
 import dataclasses
-import io
 import os
-from collections.abc import Callable, Iterator, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -35,267 +34,21 @@ from ..attitudes import (
 from ..crs import same_crs
 from ..errors import AttitudeError
 from ..settings import CONVENTIONS
+from .attitude_csv import (
+    _ASCII_SPACE,
+    _read_csv,
+    _read_csv_chunks,
+    _read_csv_rows,
+    _Rows,
+    _Table,
+    _WholeFile,
+)
 
 CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 LOGICAL_FIELDS = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
 
 _TRUE = {"true", "t", "yes", "y", "1"}
 _FALSE = {"false", "f", "no", "n", "0", ""}
-
-
-@dataclass
-class _Table:
-    """Raw attribute table: text columns plus the row label of each record."""
-
-    columns: dict[str, list]  # original column name -> values
-    rows: Sequence[str]  # "line 7" or "feature 3"
-    x: np.ndarray | None = None  # from geometry (vector files)
-    y: np.ndarray | None = None
-    z: np.ndarray | None = None
-    crs: pyproj.CRS | None = None
-    repeated: dict[str, list[int]] = dataclasses.field(default_factory=dict)
-    # lower-case column name -> its column numbers (from 1), for names given more than once
-
-
-def _sniff(first_line: str) -> type[csv.Dialect] | csv.Dialect:
-    """The CSV dialect of a file, sniffed from its header line (comma, semicolon or tab)."""
-    try:
-        return csv.Sniffer().sniff(first_line, ",;\t")
-    except csv.Error:
-        return csv.excel
-
-
-def _read_csv(path: Path) -> _Table:
-    """The CSV as text columns, parsed by pandas' C engine (no Python per row).
-
-    Gives exactly what :func:`_read_csv_rows` gives (the csv module, row by row): the
-    header's names stripped, blank lines skipped but counted in the line numbers,
-    short rows padded with blanks and long ones cut to the header's length. Files
-    where the two could differ go to :func:`_read_csv_rows`.
-    """
-    import warnings
-
-    import pandas as pd
-
-    try:
-        raw = path.read_bytes()
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
-    except OSError as exc:
-        raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
-    first = text[:4096].splitlines()[0] if text else ""
-    if not first.strip() or "\x00" in text:
-        return _read_csv_rows(path)
-    dialect = _sniff(first)
-    header_reader = csv.reader(io.StringIO(text[:1 << 20]), dialect)
-    header = next(header_reader, None)
-    if header is None or header_reader.line_num != 1:
-        return _read_csv_rows(path)  # a quoted header over several lines
-    # One record per physical line, or a quoted field runs over several: other line numbers.
-    # (Counted on the bytes: in UTF-8 a newline byte is always a newline.)
-    n_lines = raw.count(b"\n") + raw.count(b"\r") - raw.count(b"\r\n")
-    if not raw.endswith((b"\n", b"\r")):
-        n_lines += 1
-    del text  # the C engine reads the bytes: no copy of the text as wide characters
-    names = [h.strip() for h in header]
-    k = len(names)
-    try:
-        with warnings.catch_warnings(record=True) as said:
-            warnings.simplefilter("always", pd.errors.ParserWarning)
-            # One column more than the header: a row ending in a delimiter stays here.
-            df = pd.read_csv(
-                io.BytesIO(raw), encoding="utf-8-sig", sep=dialect.delimiter,
-                quotechar=dialect.quotechar,
-                doublequote=dialect.doublequote, skipinitialspace=dialect.skipinitialspace,
-                quoting=csv.QUOTE_MINIMAL, header=None, names=range(k + 1), skiprows=1,
-                index_col=False, dtype=str, na_filter=False, keep_default_na=False,
-                skip_blank_lines=False, engine="c")
-    except Exception:  # noqa: BLE001 - anything the C engine refuses, the csv module decides
-        return _read_csv_rows(path)
-    if any(issubclass(w.category, pd.errors.ParserWarning) for w in said):
-        return _read_csv_rows(path)  # a row longer still: cut by the csv module's rules
-    del raw
-    if len(df) + 1 != n_lines:
-        return _read_csv_rows(path)
-    stripped = [_stripped(df[j].to_numpy(dtype=object)) for j in range(k + 1)]
-    # Blank lines (nothing but delimiters and spaces) are skipped, their lines still counted.
-    keep = np.zeros(len(df), bool)
-    for c in stripped:
-        keep |= c != ""
-    lines = np.flatnonzero(keep) + 2  # the header is line 1, one physical line per record
-    cols = {n: c[keep].tolist() for n, c in zip(names, stripped[:k], strict=True)}
-    where: dict[str, list[int]] = {}
-    for j, name in enumerate(names):
-        where.setdefault(name.lower(), []).append(j + 1)
-    repeated = {key: v for key, v in where.items() if len(v) > 1}
-    return _Table(cols, _LineLabels(lines), repeated=repeated)
-
-
-def _read_csv_chunks(path: Path, chunk_rows: int) -> Iterator[_Table]:
-    """The CSV as :func:`_read_csv` gives it, in tables of ``chunk_rows`` records (their
-    line numbers the file's), parsed by pandas' C engine a chunk at a time.
-
-    The file is first scanned in blocks (UTF-8, NUL bytes, its physical lines) so that
-    its errors are those of :func:`_read_csv`; raises :class:`_WholeFile` where the
-    reading would differ from the csv module's (the caller then reads it row by row).
-    """
-    import codecs
-    import warnings
-
-    import pandas as pd
-
-    decoder = codecs.getincrementaldecoder("utf-8-sig")()
-    head = ""
-    n_lines = 0
-    nul = False
-    last = b""
-    try:
-        with open(path, "rb") as fh:
-            while block := fh.read(1 << 23):
-                text = decoder.decode(block)
-                if len(head) < 1 << 20:
-                    head += text[: (1 << 20) - len(head)]
-                nul |= b"\x00" in block
-                # A newline byte is always a newline in UTF-8; CR LF across blocks counted once.
-                n_lines += block.count(b"\n") + block.count(b"\r") - block.count(b"\r\n")
-                if last == b"\r" and block[:1] == b"\n":
-                    n_lines -= 1
-                last = block[-1:]
-            decoder.decode(b"", final=True)
-    except UnicodeDecodeError:
-        raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
-    except OSError as exc:
-        raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
-    if last not in (b"\n", b"\r"):
-        n_lines += 1
-    first = head[:4096].splitlines()[0] if head else ""
-    if not first.strip() or nul:
-        raise _WholeFile
-    dialect = _sniff(first)
-    header_reader = csv.reader(io.StringIO(head), dialect)
-    header = next(header_reader, None)
-    if header is None or header_reader.line_num != 1:
-        raise _WholeFile  # a quoted header over several lines
-    del head
-    names = [h.strip() for h in header]
-    k = len(names)
-    where: dict[str, list[int]] = {}
-    for j, name in enumerate(names):
-        where.setdefault(name.lower(), []).append(j + 1)
-    repeated = {key: v for key, v in where.items() if len(v) > 1}
-    done = 0  # records read so far
-    chunks = None
-    try:
-        while True:
-            # The parser's warnings caught around the parsing only, not the caller's work.
-            with warnings.catch_warnings(record=True) as said:
-                warnings.simplefilter("always", pd.errors.ParserWarning)
-                try:
-                    if chunks is None:
-                        # As in _read_csv: one column more than the header keeps a trailing
-                        # delimiter.
-                        chunks = pd.read_csv(
-                            path, encoding="utf-8-sig", sep=dialect.delimiter,
-                            quotechar=dialect.quotechar, doublequote=dialect.doublequote,
-                            skipinitialspace=dialect.skipinitialspace, quoting=csv.QUOTE_MINIMAL,
-                            header=None, names=range(k + 1), skiprows=1, index_col=False,
-                            dtype=str, na_filter=False, keep_default_na=False,
-                            skip_blank_lines=False, engine="c", chunksize=chunk_rows)
-                    df = next(chunks, None)
-                except Exception:  # noqa: BLE001 - what the C engine refuses, the csv module decides
-                    raise _WholeFile from None
-            if any(issubclass(w.category, pd.errors.ParserWarning) for w in said):
-                raise _WholeFile  # a row longer still: cut by the csv module's rules
-            if df is None:
-                break
-            stripped = [_stripped(df[j].to_numpy(dtype=object)) for j in range(k + 1)]
-            del df
-            # Blank lines (nothing but delimiters and spaces) skipped, their lines still counted.
-            keep = np.zeros(len(stripped[0]), bool)
-            for c in stripped:
-                keep |= c != ""
-            lines = np.flatnonzero(keep) + 2 + done
-            done += len(keep)
-            cols = {n: c[keep].tolist() for n, c in zip(names, stripped[:k], strict=True)}
-            del stripped
-            yield _Table(cols, _LineLabels(lines), repeated=repeated)
-    finally:
-        if chunks is not None:
-            chunks.close()
-    if done == 0:
-        yield _Table({n: [] for n in names}, _LineLabels(np.zeros(0, int)), repeated=repeated)
-    if done + 1 != n_lines:
-        raise _WholeFile  # a quoted field over several lines: other line numbers
-
-
-_ASCII_SPACE = (" ", "\t", "\x0b", "\x0c", "\x1c", "\x1d", "\x1e", "\x1f")
-
-
-def _stripped(column: np.ndarray) -> np.ndarray:
-    """A column of text values (object array) without their surrounding whitespace, as
-    ``str.strip`` takes it off; a column without any whitespace is given back as it is."""
-    joined = "\x01".join(column)
-    if joined.isascii() and not any(c in joined for c in _ASCII_SPACE):
-        return column
-    return np.strings.strip(column.astype(str)).astype(object)
-
-
-class _LineLabels(Sequence):
-    """The row labels ``"line 7"`` of a CSV's records, made when asked for."""
-
-    def __init__(self, lines: np.ndarray) -> None:
-        self._lines = lines
-
-    def __len__(self) -> int:
-        return len(self._lines)
-
-    def __getitem__(self, i):
-        if isinstance(i, slice):
-            return [f"line {n}" for n in self._lines[i]]
-        return f"line {int(self._lines[i])}"
-
-    def __eq__(self, other) -> bool:
-        return list(self) == list(other)
-
-
-def _read_csv_rows(path: Path) -> _Table:
-    """The CSV read record by record with the csv module: the reference, and the way
-    for the files the C engine of :func:`_read_csv` leaves to it (a field over several
-    lines, a NUL byte, a blank header)."""
-    try:
-        with open(path, newline="", encoding="utf-8-sig") as fh:
-            sample = fh.read(4096)
-            fh.seek(0)
-            try:
-                dialect = csv.Sniffer().sniff(sample.splitlines()[0] if sample else "", ",;\t")
-            except csv.Error:
-                dialect = csv.excel
-            reader = csv.reader(fh, dialect)
-            header = next(reader, None)
-            if header is None:
-                raise AttitudeError(f"{path}: empty file (expected a header row)")
-            names = [h.strip() for h in header]
-            k = len(names)
-            records: list[list[str]] = []
-            lines: list[int] = []
-            for rec in reader:
-                if not "".join(rec).strip():
-                    continue  # blank line
-                lines.append(reader.line_num)
-                records.append(rec if len(rec) == k else (rec + [""] * k)[:k])
-            columns = list(zip(*records, strict=True)) if records else [()] * k
-            cols = {n: [v.strip() for v in c] for n, c in zip(names, columns, strict=True)}
-            rows = [f"line {n}" for n in lines]
-            where: dict[str, list[int]] = {}
-            for j, name in enumerate(names):
-                where.setdefault(name.lower(), []).append(j + 1)
-            repeated = {k: v for k, v in where.items() if len(v) > 1}
-    except UnicodeDecodeError:
-        raise AttitudeError(f"{path}: not a text CSV file (not UTF-8)") from None
-    except OSError as exc:
-        raise AttitudeError(f"{path}: cannot be read ({exc.strerror})") from None
-    return _Table(cols, rows, repeated=repeated)
 
 
 def _read_vector(path: Path, layer: str | None) -> _Table:
@@ -477,10 +230,6 @@ def _inside(x: np.ndarray, y: np.ndarray, box) -> np.ndarray:
     return (x >= box[0]) & (x <= box[2]) & (y >= box[1]) & (y <= box[3])
 
 
-class _WholeFile(Exception):
-    """The chunked C-engine reading cannot give the csv module's rows: read it row by row."""
-
-
 def _read(path, convention, layer, fields, crs, warn, box, chunk_rows) -> AttitudesInBox:
     """The reading behind :func:`read_attitudes` (``box`` None: every row) and
     :func:`read_attitudes_in_box` (a CSV's rows cut to ``box`` chunk by chunk)."""
@@ -637,46 +386,6 @@ def _check_path(path: Path, convention: str) -> None:
         raise AttitudeError(f"{path}: no such attitudes file")
     if path.is_dir():
         raise AttitudeError(f"{path}: is a folder, not an attitudes file")
-
-
-class _Rows:
-    """A table being validated: its columns by logical name, and each bad row's reasons."""
-
-    def __init__(self, path: Path, table: _Table, fields: Mapping[str, str] | None) -> None:
-        self.path = path
-        self.table = table
-        self.n = len(table.rows)
-        self.existing = list(table.columns)
-        self.lower = {c.lower(): c for c in self.existing}
-        self.fields = dict(fields or {})
-        self.reasons: dict[int, list[str]] = {}  # bad rows only
-
-    def has(self, logical: str) -> bool:
-        """Whether the file has the column for ``logical``."""
-        return (self.fields.get(logical) or logical).lower() in self.lower
-
-    def column(self, logical: str, required: bool, hint: str = "") -> list | None:
-        """The values of the column for ``logical``; None if absent and not required."""
-        table = self.table
-        name = self.fields.get(logical) or logical
-        real = self.lower.get(name.lower())
-        if real is None and required:
-            listed = ", ".join(self.existing) if self.existing else "none"
-            raise AttitudeError(
-                f"{self.path}: no column {name!r}{hint} (columns: {listed})"
-            )
-        if real is not None and real.lower() in table.repeated:
-            nums = table.repeated[real.lower()]
-            raise AttitudeError(
-                f"{self.path}: column {real!r} appears {len(nums)} times in the header "
-                f"(columns {', '.join(map(str, nums))}); keep one or rename the others"
-            )
-        return None if real is None else table.columns[real]
-
-    def flag(self, mask: np.ndarray, why: Callable[[int], str]) -> None:
-        """Give each row of ``mask`` the reason ``why(row)``."""
-        for i in np.flatnonzero(mask):  # only the bad rows are visited
-            self.reasons.setdefault(int(i), []).append(why(int(i)))
 
 
 def _coordinates(rows: _Rows, is_csv: bool
