@@ -23,7 +23,7 @@ import numpy as np
 import pyproj
 
 from .._messages import default_warn as _default_warn
-from .._messages import first_line, human
+from .._messages import human
 from ..attitudes import (
     Attitudes,
     Warn,
@@ -40,64 +40,15 @@ from .attitude_csv import (
     _read_csv_chunks,
     _read_csv_rows,
     _Rows,
-    _Table,
     _WholeFile,
 )
+from .attitude_vector import read_vector as _read_vector
 
 CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 LOGICAL_FIELDS = ("x", "y", "z", "strike", "dip", "dip_direction", "id", "overturned", "attitude")
 
 _TRUE = {"true", "t", "yes", "y", "1"}
 _FALSE = {"false", "f", "no", "n", "0", ""}
-
-
-def _read_vector(path: Path, layer: str | None) -> _Table:
-    import pyogrio
-    import shapely
-
-
-    try:
-        layers = [str(r[0]) for r in pyogrio.list_layers(path)]
-    except Exception as exc:
-        raise AttitudeError(
-            f"{path}: not a CSV or a readable vector file ({first_line(exc)})"
-        ) from None
-    if layer is not None and layer not in layers:
-        raise AttitudeError(f"{path}: no layer {layer!r} (layers: {', '.join(layers)})")
-    if layer is None and len(layers) > 1:
-        raise AttitudeError(f"{path}: holds several layers; name one (layers: {', '.join(layers)})")
-    try:
-        df = pyogrio.read_dataframe(path, layer=layer)
-    except Exception as exc:
-        raise AttitudeError(f"{path}: cannot be read ({first_line(exc)})") from None
-    geom = np.asarray(df.geometry.values, dtype=object) if "geometry" in df else None
-    if geom is None:
-        raise AttitudeError(f"{path}: has no point geometry")
-    types = shapely.get_type_id(geom)
-    # Single-part MultiPoints are accepted as points.
-    multi = types == 4
-    if multi.any():
-        one = shapely.get_num_geometries(geom) == 1
-        geom = np.where(multi & one, shapely.get_geometry(geom, 0), geom)
-        types = shapely.get_type_id(geom)
-    bad = (types != 0) & (types != -1)
-    if bad.any():
-        i = int(np.flatnonzero(bad)[0])
-        raise AttitudeError(
-            f"{path}: feature {i + 1} is a {geom[i].geom_type}; attitudes must be points"
-        )
-    ok = types == 0
-    x = np.full(len(geom), np.nan)
-    y = np.full(len(geom), np.nan)
-    z = np.full(len(geom), np.nan)
-    if ok.any():
-        c = shapely.get_coordinates(geom[ok], include_z=True)
-        x[ok], y[ok], z[ok] = c[:, 0], c[:, 1], c[:, 2]
-    cols = {str(c): [("" if v is None else v) for v in df[c].tolist()]
-            for c in df.columns if c != "geometry"}
-    rows = [f"feature {i + 1}" for i in range(len(df))]
-    crs = pyproj.CRS(df.crs) if df.crs is not None else None
-    return _Table(cols, rows, x, y, z, crs)
 
 
 def _to_float(values: list) -> tuple[np.ndarray, np.ndarray]:
