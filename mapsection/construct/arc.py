@@ -41,7 +41,7 @@ from ..angles import wrap180
 from ..notes import Notes
 from .constraints import Constraints
 from .domains import Domain, unit_vectors
-from .fitting import BatchedJacobian, in_order, one_blas_thread, searchsorted_rows
+from .fitting import BatchedJacobian, best_of_starts, in_order, searchsorted_rows
 from .frame import SectionFrame
 
 _STRAIGHT_DEG = 0.05  # adjacent dips closer than this are drawn as straight, parallel beds
@@ -359,15 +359,10 @@ def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
         return np.concatenate([r, eps * (c - h) / width, eps * (1.0 - f)])
 
     jac = BatchedJacobian(resid_rows, lb, ub, 1e-6, single=resid)
-    best = None
-    with one_blas_thread():
-        for f0 in (1.0, 0.6, 0.3, 0.1):
-            x0 = np.clip(np.concatenate([h, np.full(k_all - 1, f0)]), lb, ub)
-            sol = least_squares(jac.residual, x0, jac=jac, bounds=(lb, ub), method="trf",
-                                x_scale=np.concatenate([width, np.ones(k_all - 1)]))
-            if best is None or sol.cost < best.cost - 1e-9:
-                best = sol
-    return points(best.x), ph
+    starts = [np.concatenate([h, np.full(k_all - 1, f0)]) for f0 in (1.0, 0.6, 0.3, 0.1)]
+    return points(best_of_starts(jac, starts, lb, ub,
+                                 np.concatenate([width, np.ones(k_all - 1)]),
+                                 least_squares)), ph
 
 
 def _ground_estimate(cons: Constraints, d: np.ndarray, z: np.ndarray) -> Callable:

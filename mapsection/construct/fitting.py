@@ -109,3 +109,20 @@ def searchsorted_rows(edges: np.ndarray, values: np.ndarray, side: str = "left")
     for b, row in enumerate(edges):
         out[b] = np.searchsorted(row, values, side=side)
     return out
+
+
+def best_of_starts(jac, starts, lb: np.ndarray, ub: np.ndarray, x_scale,
+                   least_squares: Callable) -> np.ndarray:
+    """The least-squares solution (scipy.optimize.least_squares, method "trf", bounded) with
+    the lowest cost over the starting vectors ``starts`` (each clipped to the bounds); a
+    later start replaces an earlier one only when it is better by more than 1e-9. ``jac``
+    is a :class:`BatchedJacobian`; the fits run on one BLAS thread. ``least_squares`` is
+    scipy.optimize.least_squares as the calling module holds it."""
+    best = None
+    with one_blas_thread():
+        for x0 in starts:
+            sol = least_squares(jac.residual, np.clip(x0, lb, ub), jac=jac, bounds=(lb, ub),
+                                method="trf", x_scale=x_scale)
+            if best is None or sol.cost < best.cost - 1e-9:
+                best = sol
+    return best.x

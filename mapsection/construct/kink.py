@@ -35,7 +35,7 @@ from shapely.geometry import Point
 from ..notes import Notes
 from .constraints import Constraints
 from .domains import Domain, unit_vectors
-from .fitting import BatchedJacobian, in_order, one_blas_thread, searchsorted_rows
+from .fitting import BatchedJacobian, best_of_starts, in_order, searchsorted_rows
 from .frame import SectionFrame
 
 
@@ -260,6 +260,14 @@ def kink_depth_at(domains: list[Domain], c: np.ndarray, hinges: np.ndarray, dist
     return c[k] - np.einsum("ij,ij->i", n[k], p)
 
 
+def _hinge_starts(k_all: int, rng_seed: int) -> list[np.ndarray]:
+    """Where the fit starts each hinge, as fractions of its free range: five spreads, then
+    four random ones (seeded: the same draft for the same data)."""
+    rng = np.random.default_rng(rng_seed)
+    starts = [np.full(k_all - 1, f) for f in (0.5, 0.25, 0.75, 0.1, 0.9)]
+    return starts + [rng.uniform(0.05, 0.95, k_all - 1) for _ in range(4)]
+
+
 def fit_kink_offsets(domains: list[Domain], cons: Constraints, ground: Callable,
                      scale: float, rng_seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
     """The kink fit's reference offsets ``c`` (one per domain) and hinge ground
@@ -314,18 +322,8 @@ def fit_kink_offsets(domains: list[Domain], cons: Constraints, ground: Callable,
     if k_all == 1:
         h = np.zeros(0)
     else:
-        rng = np.random.default_rng(rng_seed)
-        starts = [np.full(k_all - 1, f) for f in (0.5, 0.25, 0.75, 0.1, 0.9)]
-        starts += [rng.uniform(0.05, 0.95, k_all - 1) for _ in range(4)]
-        best = None
         jac = BatchedJacobian(resid_rows, lo, hi, 1e-6, single=resid)
-        with one_blas_thread():
-            for f in starts:
-                x0 = lo + f * (hi - lo)
-                sol = least_squares(jac.residual, x0, jac=jac, bounds=(lo, hi),
-                                    method="trf", x_scale=width)
-                if best is None or sol.cost < best.cost - 1e-9:
-                    best = sol
-        h = best.x
+        h = best_of_starts(jac, [lo + f * (hi - lo) for f in _hinge_starts(k_all, rng_seed)],
+                           lo, hi, width, least_squares)
     r0, c = base_resid(h)
     return c + c0_of(r0), h
