@@ -144,6 +144,43 @@ class Screened:
     why: tuple[str, ...]
 
 
+def _dip_of(v) -> float:
+    return float(plane_dip(wrap180(v)))
+
+
+def _verdict(u: np.ndarray, k: int, left: list[int], right: list[int], tol: float
+             ) -> tuple[str, float, str] | None:
+    """Why reading ``k`` (unsupported) is left out: (kind, the dip expected there, the
+    reason), or None where its neighbours are too few to judge (see screen_readings)."""
+
+    def agree(a, b):
+        return abs(u[a] - u[b]) <= tol
+
+    lc = len(left) == 2 and agree(*left)
+    rc = len(right) == 2 and agree(*right)
+    if left and right:
+        l1, r1 = left[0], right[0]
+        if agree(l1, r1):
+            exp = 0.5 * (u[l1] + u[r1])
+            return ("outlier", exp, f"its neighbours agree on {_dip_of(exp):.1f}°")
+        if lc and rc:
+            lo, hi = sorted((u[l1], u[r1]))
+            if lo <= u[k] <= hi:
+                exp = u[l1] if abs(u[k] - u[l1]) < abs(u[k] - u[r1]) else u[r1]
+                return ("hinge", exp, f"between dip domains {_dip_of(u[l1]):.1f}° and "
+                        f"{_dip_of(u[r1]):.1f}°, fitting neither: taken as a reading in "
+                        "the hinge")
+            exp = lo if u[k] < lo else hi
+            return ("outlier", exp, f"outside the dips of both neighbouring "
+                    f"domains ({_dip_of(u[l1]):.1f}° and {_dip_of(u[r1]):.1f}°)")
+    elif (lc and not right) or (rc and not left):
+        side = left if lc else right
+        exp = 0.5 * (u[side[0]] + u[side[1]])
+        return ("outlier", exp, f"the last reading, after readings that agree on "
+                f"{_dip_of(exp):.1f}°: the change does not persist")
+    return None
+
+
 def screen_readings(distance, phi, tolerance: float, keep=None) -> Screened:
     """Readings that one reading alone would make into a dip domain.
 
@@ -177,44 +214,15 @@ def screen_readings(distance, phi, tolerance: float, keep=None) -> Screened:
     why = [""] * n
     expected = np.full(n, np.nan)
 
-    def agree(a, b):
-        return abs(u[a] - u[b]) <= tol
-
-    def dip_of(v):
-        return float(plane_dip(wrap180(v)))
-
     for k in range(n):
         left = [j for j in (k - 1, k - 2) if j >= 0]
         right = [j for j in (k + 1, k + 2) if j < n]
         near = left[:1] + right[:1]
-        if kp[k] or not near or any(agree(k, j) for j in near) or _fits_run(u, k, left, tol) \
-                or _fits_run(u, k, right, tol):
+        if kp[k] or not near or any(abs(u[k] - u[j]) <= tol for j in near) \
+                or _fits_run(u, k, left, tol) or _fits_run(u, k, right, tol):
             continue
-        lc = len(left) == 2 and agree(*left)
-        rc = len(right) == 2 and agree(*right)
-        here = dip_of(u[k])
-        verdict = None
-        if left and right:
-            l1, r1 = left[0], right[0]
-            if agree(l1, r1):
-                exp = 0.5 * (u[l1] + u[r1])
-                verdict = ("outlier", exp, f"its neighbours agree on {dip_of(exp):.1f}°")
-            elif lc and rc:
-                lo, hi = sorted((u[l1], u[r1]))
-                if lo <= u[k] <= hi:
-                    exp = u[l1] if abs(u[k] - u[l1]) < abs(u[k] - u[r1]) else u[r1]
-                    verdict = ("hinge", exp, f"between dip domains {dip_of(u[l1]):.1f}° and "
-                               f"{dip_of(u[r1]):.1f}°, fitting neither: taken as a reading in "
-                               "the hinge")
-                else:
-                    exp = lo if u[k] < lo else hi
-                    verdict = ("outlier", exp, f"outside the dips of both neighbouring "
-                               f"domains ({dip_of(u[l1]):.1f}° and {dip_of(u[r1]):.1f}°)")
-        elif (lc and not right) or (rc and not left):
-            side = left if lc else right
-            exp = 0.5 * (u[side[0]] + u[side[1]])
-            verdict = ("outlier", exp, f"the last reading, after readings that agree on "
-                       f"{dip_of(exp):.1f}°: the change does not persist")
+        here = _dip_of(u[k])
+        verdict = _verdict(u, k, left, right, tol)
         if verdict is None:
             continue
         kind, exp, reason = verdict
