@@ -342,38 +342,8 @@ def main(argv: list[str] | None = None) -> int:
             ap.error(f"--{name} must be at least 1")
     with tempfile.TemporaryDirectory(prefix="mapsection-world-") as tmpdir:
         tmp = Path(args.keep) if args.keep else Path(tmpdir)
-        t0 = time.perf_counter()
-        if (tmp / "whole" / "project.toml").is_file() and (tmp / "cut" / "project.toml").is_file():
-            world = World(tmp / "whole" / "project.toml", args.size, -1, -1,
-                          section_lines(args.size, args.length, args.sections))
-            cut = World(tmp / "cut" / "project.toml", args.size, -1, -1, world.lines)
-            print(f"reusing the world in {tmp} (counts not known: -1)")
-        else:
-            world = generate_world(tmp / "whole", args.size, args.polygons, args.attitudes,
-                                   args.length, args.sections)
-            cut = cut_world(world, tmp / "cut")
-        print(f"world ready in {time.perf_counter() - t0:.1f} s: DEM {args.size}^2 at "
-              f"{PIXEL:g} m, {world.polygons} polygons, {world.attitudes} attitudes; "
-              f"{args.sections} section(s) of {args.length / 1000:g} km; cut to "
-              f"{CUT_M / 1000:g} km around the line(s): {cut.polygons} polygons, "
-              f"{cut.attitudes} attitudes")
-        runs = []
-        for i in range(max(args.repeat, 1)):  # interleaved: both see the same machine load
-            runs.append((*measure_build(world.project, tmp / "whole" / "out"),
-                         *measure_build(cut.project, tmp / "cut" / "out")))
-            tw, mw, tc, mc = runs[-1]
-            print(f"run {i + 1}: whole {tw:.2f} s {mw:.0f} MB, cut {tc:.2f} s {mc:.0f} MB "
-                  f"({tw / tc:.2f}x, {mw / mc:.2f}x); load average "
-                  f"{', '.join(f'{v:.1f}' for v in _load())}", flush=True)
-        t_whole, m_whole, t_cut, m_cut = (float(np.median(c)) for c in zip(*runs, strict=True))
-        print()
-        print("| build | wall s | peak MB |")
-        print("|---|---:|---:|")
-        print(f"| whole world | {t_whole:.2f} | {m_whole:.0f} |")
-        print(f"| cut world | {t_cut:.2f} | {m_cut:.0f} |")
-        rt, rm = t_whole / t_cut, m_whole / m_cut
-        print(f"| whole / cut | {rt:.2f}x {'within' if rt <= TARGET else 'OVER'} "
-              f"{TARGET:g}x | {rm:.2f}x {'within' if rm <= TARGET else 'OVER'} {TARGET:g}x |")
+        world, cut = _worlds(args, tmp)
+        _whole_against_cut(world, cut, tmp, args.repeat)
         if args.growth:
             base = {"size": args.size, "polygons": args.polygons, "attitudes": args.attitudes,
                     "length": args.length}
@@ -386,6 +356,48 @@ def main(argv: list[str] | None = None) -> int:
             _growth(tmp, base, "size", [args.size // 2, int(args.size / 1.41), args.size],
                     dems)
     return 0
+
+
+def _worlds(args, tmp: Path) -> tuple[World, World]:
+    """The whole world and its cut, generated into ``tmp`` (or reused from there)."""
+    t0 = time.perf_counter()
+    if (tmp / "whole" / "project.toml").is_file() and (tmp / "cut" / "project.toml").is_file():
+        world = World(tmp / "whole" / "project.toml", args.size, -1, -1,
+                      section_lines(args.size, args.length, args.sections))
+        cut = World(tmp / "cut" / "project.toml", args.size, -1, -1, world.lines)
+        print(f"reusing the world in {tmp} (counts not known: -1)")
+    else:
+        world = generate_world(tmp / "whole", args.size, args.polygons, args.attitudes,
+                               args.length, args.sections)
+        cut = cut_world(world, tmp / "cut")
+    print(f"world ready in {time.perf_counter() - t0:.1f} s: DEM {args.size}^2 at "
+          f"{PIXEL:g} m, {world.polygons} polygons, {world.attitudes} attitudes; "
+          f"{args.sections} section(s) of {args.length / 1000:g} km; cut to "
+          f"{CUT_M / 1000:g} km around the line(s): {cut.polygons} polygons, "
+          f"{cut.attitudes} attitudes")
+    return world, cut
+
+
+def _whole_against_cut(world: World, cut: World, tmp: Path, repeat: int) -> None:
+    """Build both worlds ``repeat`` times, interleaved (both see the same machine load), and
+    print the medians and the ratios against the target."""
+    runs = []
+    for i in range(max(repeat, 1)):
+        runs.append((*measure_build(world.project, tmp / "whole" / "out"),
+                     *measure_build(cut.project, tmp / "cut" / "out")))
+        tw, mw, tc, mc = runs[-1]
+        print(f"run {i + 1}: whole {tw:.2f} s {mw:.0f} MB, cut {tc:.2f} s {mc:.0f} MB "
+              f"({tw / tc:.2f}x, {mw / mc:.2f}x); load average "
+              f"{', '.join(f'{v:.1f}' for v in _load())}", flush=True)
+    t_whole, m_whole, t_cut, m_cut = (float(np.median(c)) for c in zip(*runs, strict=True))
+    print()
+    print("| build | wall s | peak MB |")
+    print("|---|---:|---:|")
+    print(f"| whole world | {t_whole:.2f} | {m_whole:.0f} |")
+    print(f"| cut world | {t_cut:.2f} | {m_cut:.0f} |")
+    rt, rm = t_whole / t_cut, m_whole / m_cut
+    print(f"| whole / cut | {rt:.2f}x {'within' if rt <= TARGET else 'OVER'} "
+          f"{TARGET:g}x | {rm:.2f}x {'within' if rm <= TARGET else 'OVER'} {TARGET:g}x |")
 
 
 if __name__ == "__main__":  # pragma: no cover
