@@ -27,7 +27,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
-import shapely
 
 from .stratigraphy import Column, Unit
 
@@ -188,7 +187,8 @@ def _grid(n: int, cell: float, origin: float) -> np.ndarray:
 
 def _map(model: UnconformityModel):
     from affine import Affine
-    from rasterio.features import shapes
+
+    from .sample.generator import polygonised_units
 
     fine = CELL / SUPERSAMPLE
     xs = _grid(NCOLS * SUPERSAMPLE, fine, X0)
@@ -197,14 +197,8 @@ def _map(model: UnconformityModel):
     z = dem_surface(gx, gy)
     idx = model.unit_index(gx, gy, z, ground=z).astype(np.int16)
     tr = Affine(fine, 0, X0, 0, -fine, Y0 + NROWS * CELL)
-    polys: dict[int, list] = {}
-    for geom, val in shapes(idx, transform=tr):
-        polys.setdefault(int(val), []).append(shapely.geometry.shape(geom))
-    keys = sorted(polys)
-    merged = shapely.coverage_simplify(
-        np.array([shapely.union_all(polys[k]) for k in keys], dtype=object), fine * 0.5)
-    names = [model.column.names[k] for k in keys]
-    return names, [shapely.make_valid(g) for g in merged]
+    keys, geoms = polygonised_units(idx, tr, fine)
+    return [model.column.names[k] for k in keys], geoms
 
 
 def _attitudes(model: UnconformityModel, rng: np.random.Generator) -> dict:

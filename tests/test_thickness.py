@@ -89,10 +89,10 @@ def _drape(folder, depth_below_top, attitude_at):
     Returns (column, map, open DEM, attitudes)."""
     import rasterio
     from affine import Affine
-    from rasterio.features import shapes
     from scipy.ndimage import map_coordinates
 
     from mapsection.readers.dem import Dem
+    from mapsection.sample.generator import polygonised_units
 
     elev = _jacksboro()
     h, w = elev.shape
@@ -109,14 +109,9 @@ def _drape(folder, depth_below_top, attitude_at):
     depth = depth_below_top(X0 + cols * fine, YTOP - rows * fine, z)
     idx = np.sum(depth[..., None] > tops, axis=-1).astype(np.int16)
     tr = Affine(fine, 0, X0, 0, -fine, YTOP)
-    polys: dict[int, list] = {}
-    for geom, val in shapes(idx, transform=tr):
-        polys.setdefault(int(val), []).append(shapely.geometry.shape(geom))
-    keys = sorted(polys)
-    merged = shapely.coverage_simplify(
-        np.array([shapely.union_all(polys[k]) for k in keys], dtype=object), fine * 0.5)
-    units = gpd.GeoDataFrame({"unit": [NAMES[k] for k in keys]},
-                             geometry=[shapely.make_valid(g) for g in merged], crs="EPSG:32616")
+    keys, geoms = polygonised_units(idx, tr, fine)
+    units = gpd.GeoDataFrame({"unit": [NAMES[k] for k in keys]}, geometry=geoms,
+                             crs="EPSG:32616")
     rng = np.random.default_rng(1)
     ax = rng.uniform(X0, X0 + w * CELL, 60)
     ay = rng.uniform(YTOP - h * CELL, YTOP, 60)

@@ -72,7 +72,6 @@ def map_units(model: SampleModel, dem: np.ndarray, supersample: int = SUPERSAMPL
     """Unit polygons at the ground: the model cut by the (bilinear) DEM surface,
     classified on a grid ``supersample`` times finer than the DEM, polygonised and
     dissolved by unit. Returns (names, geometries) in column order."""
-    import rasterio.features
     from affine import Affine
 
     n, cell = NCOLS * supersample, CELL / supersample
@@ -83,16 +82,33 @@ def map_units(model: SampleModel, dem: np.ndarray, supersample: int = SUPERSAMPL
         raise RuntimeError("sample model: the ground leaves the column (above its top or "
                            "in the basement); adjust the model")
     transform = Affine(cell, 0.0, X0, 0.0, -cell, Y0 + NROWS * CELL)
+    keys, geoms = polygonised_units(idx, transform, cell)
+    return [model.column.names[k] for k in keys], geoms
+
+
+def polygonised_units(idx: np.ndarray, transform, cell: float) -> tuple[list[int], list]:
+    """A grid of unit indices as one polygon per index: (the indices in order, their valid
+    geometries), each dissolved and simplified within half a ``cell``.
+
+    Examples
+    --------
+    >>> from affine import Affine
+    >>> keys, geoms = polygonised_units(np.array([[0, 0, 1], [0, 1, 1]]),
+    ...                                 Affine(1.0, 0, 0, 0, -1.0, 2.0), 1.0)
+    >>> keys, round(sum(g.area for g in geoms), 6)
+    ([0, 1], 6.0)
+    """
+    import rasterio.features
+
     polys: dict[int, list] = {}
     for geom, val in rasterio.features.shapes(idx.astype(np.int16), transform=transform):
         polys.setdefault(int(val), []).append(shapely.geometry.shape(geom))
     keys = sorted(polys)
     merged = [shapely.union_all(polys[k]) for k in keys]
-    # Removing the grid's stair steps (within a fraction of a DEM pixel), as one
-    # coverage so that neighbouring polygons keep sharing their edges.
+    # Removing the grid's stair steps (within a fraction of a pixel), as one coverage so
+    # that neighbouring polygons keep sharing their edges.
     simple = shapely.coverage_simplify(np.array(merged, dtype=object), cell * 0.5)
-    names = [model.column.names[k] for k in keys]
-    return names, [shapely.make_valid(g) for g in simple]
+    return keys, [shapely.make_valid(g) for g in simple]
 
 
 def fault_trace(model: SampleModel, dem: np.ndarray, supersample: int = SUPERSAMPLE):
