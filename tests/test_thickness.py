@@ -173,16 +173,24 @@ def fold(tmp_path_factory):
     out[2].close()
 
 
-def test_layer_cake_on_a_real_dem_within_5_percent(layer_cake):
-    column, md, dem, att = layer_cake
-    est = estimate_column(column, md, dem.sample, att, dem.pixel_size)
+def _measured_within(est, rel: float) -> list:
+    """Each unit of known thickness measured, within ``rel`` of the truth; the units."""
+    units = []
     for name, true in zip(NAMES, THICK, strict=True):
         if true is None:
             continue
         u = est.unit(name)
         assert u.kind == "measured", (name, u.why)
-        # truth: the invented layer-cake's thicknesses (the test builds the map from them)
-        assert u.thickness == pytest.approx(true, rel=0.05), name
+        assert u.thickness == pytest.approx(true, rel=rel), name
+        units.append(u)
+    return units
+
+
+def test_layer_cake_on_a_real_dem_within_5_percent(layer_cake):
+    column, md, dem, att = layer_cake
+    est = estimate_column(column, md, dem.sample, att, dem.pixel_size)
+    # truth: the invented layer-cake's thicknesses (the test builds the map from them)
+    for u in _measured_within(est, 0.05):
         assert u.uncertainty is not None and u.uncertainty >= 0
     for c in est.contacts:
         assert c.plane.dip == pytest.approx(DIP, abs=1.0)
@@ -246,13 +254,8 @@ def test_fold_limbs_get_their_own_planes_within_5_percent(fold):
     for c in est.contacts:
         # every plane is one limb's (dip within 1 degree), never a mixture of the two
         assert min(abs(c.plane.dip - d) for d in limbs) < 1.0, c
-    for name, true in zip(NAMES, THICK, strict=True):
-        if true is None:
-            continue
-        u = est.unit(name)
-        assert u.kind == "measured", (name, u.why)
-        # truth: the invented fold's thicknesses
-        assert u.thickness == pytest.approx(true, rel=0.05), name
+    for u in _measured_within(est, 0.05):  # truth: the invented fold's thicknesses
+        name, true = u.unit, dict(zip(NAMES, THICK, strict=True))[u.unit]
         dips = {round(est_dip) for g in u.groups
                 for est_dip in [next(c.plane.dip for c in est.contacts
                                      if c.block == g.block and c.domain == g.domain)]}
