@@ -90,7 +90,7 @@ def run_jobs(jobs: list, map_data: Any, workers: int | None,
     paused = getattr(progress, "paused", None)
     try:
         with ProcessPoolExecutor(n, mp_context=context) as pool:
-            with paused() if paused is not None else contextlib.nullcontext():
+            with paused() if paused is not None else contextlib.nullcontext(), _frozen():
                 futures = [pool.submit(_write_job_at, i) for i in range(len(jobs))]
             pending = set(futures)
             while pending:
@@ -105,6 +105,21 @@ def run_jobs(jobs: list, map_data: Any, workers: int | None,
             queue.close()
     for job, result in zip(jobs, results, strict=True):
         yield (job, *result)
+
+
+@contextlib.contextmanager
+def _frozen():
+    """While the workers are forked, the parent's objects are kept out of the garbage
+    collector's reach (``gc.freeze``): a worker's collections then do not write to the
+    pages it shares with the parent (copy-on-write), which would copy them."""
+    import gc
+
+    gc.collect()
+    gc.freeze()
+    try:
+        yield
+    finally:
+        gc.unfreeze()
 
 
 def _preload_writers() -> None:

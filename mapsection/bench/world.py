@@ -319,7 +319,7 @@ def _load() -> tuple[float, ...]:
 
 def _said(kw: dict) -> str:
     return (f"DEM {kw['size']}^2, {kw['polygons']} polygons, {kw['attitudes']} attitudes, "
-            f"{kw['length'] / 1000:g} km line")
+            f"{kw.get('sections', 1)} section(s) of {kw['length'] / 1000:g} km")
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -331,7 +331,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--length", type=float, default=20_000.0, help="section length, m [20000]")
     ap.add_argument("--sections", type=int, default=1, help="parallel sections [1]")
     ap.add_argument("--growth", action="store_true",
-                    help="also the growth tables (line length, attitudes, polygons, DEM size)")
+                    help="also the growth tables (line length, attitudes, polygons, DEM size, "
+                         "sections)")
     ap.add_argument("--repeat", type=int, default=1,
                     help="builds of each world, interleaved; medians are shown [1]")
     ap.add_argument("--keep", metavar="DIR",
@@ -346,7 +347,7 @@ def main(argv: list[str] | None = None) -> int:
         _whole_against_cut(world, cut, tmp, args.repeat)
         if args.growth:
             base = {"size": args.size, "polygons": args.polygons, "attitudes": args.attitudes,
-                    "length": args.length}
+                    "length": args.length, "sections": args.sections}
             dems: dict[int, Path] = {args.size: world.project.parent / "dem.tif"}
             _growth(tmp, base, "length", [args.length / 4, args.length / 2, args.length], dems)
             _growth(tmp, base, "attitudes",
@@ -355,6 +356,9 @@ def main(argv: list[str] | None = None) -> int:
                     [args.polygons // 4, args.polygons // 2, args.polygons], dems)
             _growth(tmp, base, "size", [args.size // 2, int(args.size / 1.41), args.size],
                     dems)
+            # More sections in one project: built in parallel, one worker per core.
+            _growth(tmp, base, "sections", [args.sections, 2 * args.sections,
+                                            4 * args.sections], dems)
     return 0
 
 
