@@ -393,6 +393,9 @@ _EDGE_FILES = {
     "ids: digits, zeros, long, text": ("id,x,y,strike,dip,overturned\n007,0,0,30,45,yes\n"
                                        "1234567890123456789,1,1,40,50,0\n"),
     "text ids and flags": "id,x,y,strike,dip,overturned\nA1,0,0,30,45,T\n B2 ,1,1,40,50,maybe\n",
+    "flags": ("x,y,strike,dip,overturned\n0,0,30,45,TRUE\n1,1,40,50, No \n2,2,40,50,\n"
+              "3,3,40,50,f\n4,4,1,1,nope\n5,5,1,1,Yes\n"),
+    "flags, not ASCII": "x,y,strike,dip,overturned\n0,0,30,45,TRUE\n3,3,40,50,\uff39\n",
     "quoted header and values": '"id","x","y","strike","dip"\n"1","0","0","30","45"\n',
     "quote inside a value": 'id,x,y,strike,dip\nab"c,0,0,30,45\n"d"e,1,1,40,50\n',
 }

@@ -130,6 +130,18 @@ class _TextColumn(Sequence):
         out = np.array(num.to_numpy(), dtype=float)  # a writable copy
         return out if np.isfinite(out).all() else None
 
+    def lower_in(self, words: set[str]) -> np.ndarray | None:
+        """Whether each value, lower-cased as ``str.lower`` does, is one of ``words``;
+        None when a value is not ASCII (where ASCII lower-casing could differ)."""
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        v = self.values
+        if not pc.all(pc.string_is_ascii(v)).as_py():
+            return None
+        found = pc.is_in(pc.ascii_lower(v), value_set=pa.array(sorted(words), pa.string()))
+        return np.asarray(found.to_numpy(zero_copy_only=False), bool)
+
     def digits(self) -> np.ndarray | None:
         """The values as integers when every one is text of 1 to 18 ASCII digits (as
         ``_digit_ids`` in :mod:`mapsection.readers.attitudes` takes them); else None."""
@@ -264,7 +276,7 @@ def _piece(buf: bytes, first: int, dialect, names: list[str], quoted: bool
     if quoted and any(_has_line_break(c) for c in columns):
         raise _WholeFile  # a quoted field going on past these lines
     columns, lines, odd_kept = _merged(columns, odd.rows, first, dialect, k)
-    cols, lines = _records_of(columns, lines, odd_kept, names)
+    cols, lines = _records_of(columns, lines, odd_kept, names, _spaced(buf))
     return cols, lines, n_lines
 
 
@@ -309,9 +321,11 @@ def _chunks(column) -> list:
 
 
 def _records_of(columns: list, lines: np.ndarray, odd_kept: np.ndarray | None,
-                names: list[str]) -> tuple[dict[str, _TextColumn], np.ndarray]:
+                names: list[str], spaced: bool = True
+                ) -> tuple[dict[str, _TextColumn], np.ndarray]:
     """The stripped columns of the non-blank records after the header, and their lines
-    (``columns`` is emptied as they are stripped)."""
+    (``columns`` is emptied as they are stripped; ``spaced`` False: the text holds no
+    character ``str.strip`` takes off, nothing to strip)."""
     import pyarrow as pa
     import pyarrow.compute as pc
 
@@ -319,16 +333,27 @@ def _records_of(columns: list, lines: np.ndarray, odd_kept: np.ndarray | None,
     nonblank = np.zeros(len(lines), bool) if odd_kept is None else odd_kept.copy()
     stripped = []
     while columns:
-        c = pc.utf8_trim(columns.pop(0), _SPACES)  # as str.strip() strips
+        c = columns.pop(0)
+        if spaced:
+            c = pc.utf8_trim(c, _SPACES)  # as str.strip() strips
         nonblank |= np.asarray(pc.not_equal(c, "").to_numpy(zero_copy_only=False), bool)
         stripped.append(c)
     keep = (lines > 1) & nonblank  # line 1: the header
-    if not keep.all():
+    if len(keep) and not keep[0] and keep[1:].all():
+        stripped = [c.slice(1) for c in stripped]  # the header only: no copy
+        lines = lines[1:]
+    elif not keep.all():
         mask = pa.array(keep)
         stripped = [c.filter(mask) for c in stripped]
         lines = lines[keep]
     cols = {n: _TextColumn(c) for n, c in zip(names, stripped, strict=True)}
     return cols, lines
+
+
+def _spaced(buf: bytes) -> bool:
+    """Whether ``buf`` may hold a character ``str.strip`` takes off (other than line
+    breaks, which in a value send the file to the csv module)."""
+    return not buf.isascii() or any(c.encode() in buf for c in _ASCII_SPACE)
 
 
 def _header_matches(columns: list, names: list[str]) -> bool:

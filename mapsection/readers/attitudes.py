@@ -418,9 +418,13 @@ def _overturned(rows: _Rows) -> np.ndarray:
     ov_txt = rows.column("overturned", False)
     if ov_txt is None:
         return np.zeros(rows.n, bool)
-    low = np.array([str(v).strip().lower() for v in ov_txt], dtype=object)
-    is_true = np.isin(low, list(_TRUE))
-    is_false = np.isin(low, list(_FALSE)) | np.array([v is None for v in ov_txt], bool)
+    is_true = is_false = None
+    if isinstance(ov_txt, _TextColumn):  # a CSV column parsed by pyarrow (stripped text)
+        is_true, is_false = ov_txt.lower_in(_TRUE), ov_txt.lower_in(_FALSE)
+    if is_true is None or is_false is None:
+        low = np.array([str(v).strip().lower() for v in ov_txt], dtype=object)
+        is_true = np.isin(low, list(_TRUE))
+        is_false = np.isin(low, list(_FALSE)) | np.array([v is None for v in ov_txt], bool)
     rows.flag(~is_true & ~is_false,
               lambda i: f"overturned {ov_txt[i]!r} is not true/false/yes/no/1/0")
     return is_true
