@@ -1,10 +1,11 @@
 """Reading an attitudes CSV as text columns: the raw table and the table being validated.
 
-pyarrow's CSV reader parses the file (whole, or a block at a time) into text columns where
-it gives exactly what the csv module gives row by row (:func:`_read_csv_rows`, the
-reference): the values are stripped as ``str.strip`` strips them and the numbers are parsed
-in pyarrow, with no Python per row. Rows whose number of fields is not the header's are
-handed back by pyarrow and read by the csv module, one by one. Files where the two could
+pyarrow's CSV reader parses the file (whole, or a piece of whole lines at a time) into
+text columns where it gives exactly what the csv module gives row by row
+(:func:`_read_csv_rows`, the reference): the values are stripped as ``str.strip`` strips
+them and the numbers are parsed in pyarrow (:class:`_TextColumn`), with no Python per
+row. Rows whose number of fields is not the header's are handed back by pyarrow and read
+by the csv module, one by one. Files where the two could
 differ (a field over several lines, a NUL byte, a blank or quoted multi-line header, a row
 longer than the header by more than one delimiter, a quote after a space when the header
 is sniffed with spaces after its delimiters) go to the csv module. Line numbers are the
@@ -35,7 +36,8 @@ _ASCII_SPACE = (" ", "\t", "\x0b", "\x0c", "\x1c", "\x1d", "\x1e", "\x1f")
 _SPACES = ("\t\n\x0b\x0c\r\x1c\x1d\x1e\x1f \x85\xa0\u1680\u2000\u2001\u2002\u2003\u2004"
            "\u2005\u2006\u2007\u2008\u2009\u200a\u2028\u2029\u202f\u205f\u3000")
 
-# Bytes pyarrow parses at a time: about 100 000 rows of a five-column attitude file.
+# pyarrow's block, and the first piece of a file read in chunks (later pieces are sized to
+# the chunk's rows): about 100 000 rows of a five-column attitude file.
 _BLOCK_BYTES = 1 << 22
 
 
