@@ -363,3 +363,197 @@ def test_box_read_quadrant_and_errors_as_the_whole_read(tmp_path, monkeypatch):
     with pytest.raises(AttitudeError) as cut:
         read_attitudes_in_box(path, _BOX, chunk_rows=2, warn=lambda m: None)
     assert str(cut.value) == str(whole.value)
+
+
+# --- the CSV parsed by pyarrow against the csv module, row by row ----------------------------
+# The reference for every check below is Python's own reading: the csv module row by row
+# (``_read_csv_rows``: csv.reader's fields and line_num, values cut with str.strip()) and,
+# for the numbers, Python's float() on the stripped text (through the reader's rules for
+# blanks, "nan" and non-finite values, as the csv module's table gives them).
+
+_EDGE_FILES = {
+    "spaces around values and names": "x , y ,strike, dip \n 1 , 2 , 30 , 45 \n\t3\t,4, 40 ,50\n",
+    "BOM and CR LF": "\ufeffid,x,y,strike,dip\r\n1,0,0,30,45\r\n\r\n2,1,1,40,50\r\n",
+    "CR only": "id,x,y,strike,dip\r1,0,0,30,45\r\r2,1,1,40,50\r",
+    "semicolons and quoted delimiters": ('id;x;y;strike;dip\n"a;1";1;2;30;45\n'
+                                         '"b ""q""";3;4;"40";50\n'),
+    "tabs": "id\tx\ty\tstrike\tdip\n1\t0\t0\t30\t45\n2\t1\t1\t40\t50\n",
+    "blank lines": ("x,y,strike,dip\n\n1,2,30,45\n,,,\n   \n , , , \n3,4,40,50\n\n"
+                    "5,6,50,55"),
+    "short, long and trailing-delimiter rows": ("id,x,y,strike,dip\n1,0,0,30,45\n2,1,1\n"
+                                                "3,2,2,40,50,\n4,3,3,40,50,extra\n,,,,,x\n"),
+    "text that is not a number": "x,y,strike,dip\nabc,2,30,45\n1,N30E,30,45\n1,2,\"3,5\",45\n",
+    "numbers float() reads": ("x,y,strike,dip\n1e3,2,+5,45\n 7 ,.5,5.,4E1\n1_0,2,30,45\n"
+                              "\u0663\u0660,\uff11\uff12,30,45\n-0,00012,359.99999999999999,0\n"),
+    "nan, inf and overflow": ("x,y,strike,dip\nnan,2,30,45\n1,NaN,30,45\n1,2,inf,45\n"
+                              "1,2,30,-Infinity\n1e400,2,30,45\n1,2,nan(1),45\n1,2,0x10,45\n"),
+    "unicode spaces": ("x,y,strike,dip\n\u30001\u3000,\xa02\xa0,\x1c30\x1d,\u200945\u2028\n"
+                       "\x85 3,4\x0b,40\x0c,50\u202f\n"),
+    "repeated names": "x,y,strike,dip,X\n1,2,30,45,9\n",
+    "ids: digits, zeros, long, text": ("id,x,y,strike,dip,overturned\n007,0,0,30,45,yes\n"
+                                       "1234567890123456789,1,1,40,50,0\n"),
+    "text ids and flags": "id,x,y,strike,dip,overturned\nA1,0,0,30,45,T\n B2 ,1,1,40,50,maybe\n",
+    "flags": ("x,y,strike,dip,overturned\n0,0,30,45,TRUE\n1,1,40,50, No \n2,2,40,50,\n"
+              "3,3,40,50,f\n4,4,1,1,nope\n5,5,1,1,Yes\n"),
+    "flags, not ASCII": "x,y,strike,dip,overturned\n0,0,30,45,TRUE\n3,3,40,50,\uff39\n",
+    "quoted header and values": '"id","x","y","strike","dip"\n"1","0","0","30","45"\n',
+    "quote inside a value": 'id,x,y,strike,dip\nab"c,0,0,30,45\n"d"e,1,1,40,50\n',
+}
+
+
+def _reading(table):
+    return ({n: list(c) for n, c in table.columns.items()}, list(table.rows), table.repeated)
+
+
+def _chunked_reading(path, chunk_rows):
+    from mapsection.readers.attitude_csv import _read_csv_chunks
+
+    tables = list(_read_csv_chunks(path, chunk_rows))
+    cols = {n: [v for t in tables for v in t.columns[n]] for n in tables[0].columns}
+    return cols, [r for t in tables for r in t.rows], tables[0].repeated
+
+
+@pytest.mark.parametrize("name", list(_EDGE_FILES))
+def test_pyarrow_reading_equals_the_csv_module_on_edge_files(name, tmp_path, monkeypatch):
+    # Reference: Python's csv module row by row (_read_csv_rows), the same columns, values,
+    # line numbers (physical lines, the header line 1) and repeated names; the pyarrow
+    # path taken for every one of these files (no fall-back).
+    import mapsection.readers.attitude_csv as csv_reader
+
+    path = tmp_path / "att.csv"
+    path.write_bytes(_EDGE_FILES[name].encode("utf-8"))
+    ref = _reading(csv_reader._read_csv_rows(path))
+
+    def no_fallback(p):
+        raise AssertionError("fell back to the row-by-row reader")
+
+    monkeypatch.setattr(csv_reader, "_read_csv_rows", no_fallback)
+    assert _reading(csv_reader._read_csv(path)) == ref
+    for chunk_rows in (1, 2, 100_000):
+        assert _chunked_reading(path, chunk_rows) == ref
+
+
+@pytest.mark.parametrize("name", list(_EDGE_FILES))
+def test_attitudes_from_pyarrow_equal_those_from_the_csv_module(name, tmp_path, monkeypatch):
+    # Reference: read_attitudes on the csv module's table (Python's float() and the reader's
+    # rules on its text): the same attitudes (ids, values, NaN where blank), the same
+    # messages for the bad rows, or the same error.
+    import mapsection.readers.attitudes as reader
+
+    path = tmp_path / "att.csv"
+    path.write_bytes(_EDGE_FILES[name].encode("utf-8"))
+    out = []
+    for read in (reader._read_csv, reader._read_csv_rows):
+        monkeypatch.setattr(reader, "_read_csv", read)
+        said: list[str] = []
+        try:
+            att = reader.read_attitudes(path, warn=said.append)
+        except AttitudeError as exc:
+            out.append(("error", str(exc), said))
+            continue
+        out.append((att, said))
+    fast, ref = out
+    assert len(fast) == len(ref)
+    if fast[0] == "error":
+        assert fast == ref
+        return
+    assert fast[1] == ref[1]
+    for f in ("id", "x", "y", "z", "strike", "dip", "overturned"):
+        a, b = getattr(fast[0], f), getattr(ref[0], f)
+        assert a.dtype == b.dtype, f
+        assert np.array_equal(a, b, equal_nan=a.dtype.kind == "f"), f
+    assert fast[0].source == ref[0].source
+
+
+def test_numbers_float_reads_are_read_as_before(tmp_path):
+    # Reference: Python's float() on the stripped text, which reads a column whose every
+    # value it takes ("1e3" -> 1000, " +5 " -> 5, "1_0" -> 10, Arabic-Indic "٣٠" -> 30);
+    # then the reader's rules, as before: "nan" a blank, "inf" not a number (a value must
+    # be finite).
+    path = _write(tmp_path / "n.csv", "x,y,strike,dip\n1e3, +5 ,1_0,\u0663\u0660\n")
+    a = read_attitudes(path)
+    assert list(a.x) == [float("1e3")] and list(a.y) == [float(" +5 ")]
+    assert list(a.strike) == [float("1_0")] and list(a.dip) == [float("\u0663\u0660")]
+    path = _write(tmp_path / "m.csv", "x,y,strike,dip\n1,2,30,45\n1,2,inf,45\n1,nan,30,45\n")
+    said: list[str] = []
+    read_attitudes(path, warn=said.append)
+    assert any("line 3: strike 'inf' is not a number" in m for m in said)
+    assert any("line 4: y 'nan' is not a number" in m for m in said)
+
+
+_NUMBERISH = st.text(alphabet="0123456789+-.eE_ infatyINFATY(),x\u0663\uff11", max_size=12)
+
+
+@settings(max_examples=400, deadline=None)
+@given(st.lists(_NUMBERISH, min_size=1, max_size=6))
+def test_pyarrow_takes_a_column_as_numbers_only_where_float_agrees(values):
+    # Reference: Python's float(). Where pyarrow's parsing gives every value of a column a
+    # finite number, float() gives each the same number; where it does not, the column
+    # is left to the text rules (floats() is None).
+    import pyarrow as pa
+
+    from mapsection.readers.attitude_csv import _TextColumn
+
+    got = _TextColumn(pa.array(values, pa.string())).floats()
+    if got is None:
+        return
+    assert [float(v) for v in values] == list(got)
+
+
+def test_the_stripped_characters_are_those_of_str_strip():
+    # Reference: str.isspace, the characters str.strip() takes off.
+    from mapsection.readers.attitude_csv import _SPACES
+
+    assert set(_SPACES) == {chr(c) for c in range(0x110000) if chr(c).isspace()}
+
+
+@pytest.mark.parametrize("text", [
+    'id,x,y,strike,dip\n1,0,0,30,45\n"2\n",1,1,40,50\n3,2,2,40,50\n',  # a field over two lines
+    "id,x,y,strike,dip\n1,0,0,30,45,a,b\n",  # longer than the header by two fields
+    "id,x,y,strike,dip\n1,0,0\x00,30,45\n",  # a NUL byte
+    'id, x, y, strike, dip\n1, " 0", 0, 30, 45\n',  # a quote after a skipped space
+    'id,x,y,strike,dip\n1,0,0,30,"45\n',  # a quote left open over the last line break
+])
+def test_files_pyarrow_could_read_otherwise_go_to_the_csv_module(text, tmp_path,
+                                                                  monkeypatch):
+    # Reference: the csv module's reading, which these files get (row by row).
+    import mapsection.readers.attitude_csv as csv_reader
+
+    path = tmp_path / "att.csv"
+    path.write_bytes(text.encode("utf-8"))
+    ref = _reading(csv_reader._read_csv_rows(path))
+    slow = csv_reader._read_csv_rows
+    fell_back: list = []
+    monkeypatch.setattr(csv_reader, "_read_csv_rows",
+                        lambda p: fell_back.append(p) or slow(p))
+    assert _reading(csv_reader._read_csv(path)) == ref
+    assert fell_back
+    with pytest.raises(csv_reader._WholeFile):
+        _chunked_reading(path, 1)
+
+
+def test_pieces_of_the_file_cut_between_lines_read_as_the_whole(tmp_path, monkeypatch):
+    # The chunked read parses the file a piece of whole lines at a time; with pieces of a
+    # few lines (quoted delimiters, CR LF, blank lines and odd rows across the cuts) the
+    # reading is the csv module's (reference: _read_csv_rows).
+    import mapsection.readers.attitude_csv as csv_reader
+
+    rng = np.random.default_rng(3)
+    rows = ["id;x;y;strike;dip"]
+    for i in range(400):
+        kind = rng.integers(0, 8)
+        rows.append({0: "", 1: f'"{i};q";{i};{i};30;45', 2: f"{i};{i};{i}",
+                     3: f"{i};{i};{i};30;45;", 4: " ; ; ; ; "}.get(kind,
+                                                             f"{i};{i}.5;{i};30;45"))
+    path = tmp_path / "att.csv"
+    path.write_bytes(("\r\n".join(rows) + "\r\n").encode("utf-8"))
+    ref = _reading(csv_reader._read_csv_rows(path))
+    monkeypatch.setattr(csv_reader, "_BLOCK_BYTES", 64)
+    for chunk_rows in (1, 5, 1000):
+        assert _chunked_reading(path, chunk_rows) == ref
+    # A field over two lines found whichever piece it falls in.
+    text = path.read_bytes().decode("utf-8")
+    at = text.index(';q"', len(text) // 2)
+    path.write_bytes((text[:at] + '\r\nq"' + text[at + 3:]).encode("utf-8"))
+    with pytest.raises(csv_reader._WholeFile):
+        _chunked_reading(path, 5)

@@ -40,6 +40,7 @@ from .attitude_csv import (
     _read_csv_chunks,
     _read_csv_rows,
     _Rows,
+    _TextColumn,
     _WholeFile,
 )
 from .attitude_vector import read_vector as _read_vector
@@ -51,10 +52,15 @@ _TRUE = {"true", "t", "yes", "y", "1"}
 _FALSE = {"false", "f", "no", "n", "0", ""}
 
 
-def _to_float(values: list) -> tuple[np.ndarray, np.ndarray]:
+def _to_float(values: Sequence) -> tuple[np.ndarray, np.ndarray]:
     """Vectorised number parsing: (floats with NaN for blanks/bad, mask of non-numbers)."""
     import pandas as pd
 
+    if isinstance(values, _TextColumn):  # a CSV column parsed by pyarrow
+        num = values.floats()
+        if num is not None:  # every value a finite number, as float() reads it
+            return num, np.zeros(len(num), bool)
+        values = values.tolist()
     try:  # fast path: every value already a number or numeric text
         num = np.asarray(values, dtype=float)
         if np.all(np.isfinite(num)):
@@ -222,7 +228,7 @@ class _Checked:
     overturned: np.ndarray
     ids: np.ndarray | None  # None: no id column (the data row numbers)
     ids_are_int: bool
-    ids_txt: list | None  # the id column as read
+    ids_txt: Sequence | None  # the id column as read
     reasons: dict[int, list[str]]
     labels: Sequence[str]
     src_crs: pyproj.CRS | None
@@ -281,7 +287,10 @@ class _Gather:
             self.ids_are_int &= c.ids_are_int
             ids = c.ids[keep]
             if self.box is not None:  # text kept too: a later chunk may hold a text id
-                raw = [str(c.ids_txt[i]).strip() for i in np.flatnonzero(keep)]
+                if isinstance(c.ids_txt, _TextColumn):  # already stripped
+                    raw = c.ids_txt.take(np.flatnonzero(keep))
+                else:
+                    raw = [str(c.ids_txt[i]).strip() for i in np.flatnonzero(keep)]
         self.parts.append({"id": ids, "raw": raw, "x": c.x[keep], "y": c.y[keep], "z": c.z[keep],
                            "strike": c.strike[keep], "dip": c.dip[keep],
                            "overturned": c.overturned[keep], "int": c.ids_are_int})
@@ -409,18 +418,24 @@ def _overturned(rows: _Rows) -> np.ndarray:
     ov_txt = rows.column("overturned", False)
     if ov_txt is None:
         return np.zeros(rows.n, bool)
-    low = np.array([str(v).strip().lower() for v in ov_txt], dtype=object)
-    is_true = np.isin(low, list(_TRUE))
-    is_false = np.isin(low, list(_FALSE)) | np.array([v is None for v in ov_txt], bool)
+    is_true = is_false = None
+    if isinstance(ov_txt, _TextColumn):  # a CSV column parsed by pyarrow (stripped text)
+        is_true, is_false = ov_txt.lower_in(_TRUE), ov_txt.lower_in(_FALSE)
+    if is_true is None or is_false is None:
+        low = np.array([str(v).strip().lower() for v in ov_txt], dtype=object)
+        is_true = np.isin(low, list(_TRUE))
+        is_false = np.isin(low, list(_FALSE)) | np.array([v is None for v in ov_txt], bool)
     rows.flag(~is_true & ~is_false,
               lambda i: f"overturned {ov_txt[i]!r} is not true/false/yes/no/1/0")
     return is_true
 
 
-def _digit_ids(ids_txt: list) -> np.ndarray | None:
+def _digit_ids(ids_txt: Sequence) -> np.ndarray | None:
     """The ids as integers when every one is text of 1 to 18 ASCII digits (where ``int``
     and numpy's parsing agree and nothing overflows), parsed without Python per row; else
     None."""
+    if isinstance(ids_txt, _TextColumn):  # a CSV column parsed by pyarrow
+        return ids_txt.digits()
     try:
         joined = "\x01".join(ids_txt)
     except TypeError:  # not all text (a vector file's numbers)
@@ -434,7 +449,7 @@ def _digit_ids(ids_txt: list) -> np.ndarray | None:
     return text.astype(np.int64)
 
 
-def _ids(rows: _Rows, ids_txt: list | None) -> tuple[np.ndarray, bool]:
+def _ids(rows: _Rows, ids_txt: Sequence | None) -> tuple[np.ndarray, bool]:
     """The optional ``id`` column (integers where all are), else the data row number; and
     whether they are integers."""
     if ids_txt is None:
@@ -442,6 +457,8 @@ def _ids(rows: _Rows, ids_txt: list | None) -> tuple[np.ndarray, bool]:
     fast = _digit_ids(ids_txt)
     if fast is not None:
         return fast, True
+    if isinstance(ids_txt, _TextColumn):
+        ids_txt = ids_txt.tolist()  # text ids: Python strings from here on
     try:
         joined = "\x01".join(ids_txt)
     except TypeError:  # not all text (a vector file's numbers)
