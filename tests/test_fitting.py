@@ -102,3 +102,57 @@ def test_fits_give_the_horizons_of_scipys_differences(monkeypatch, method, args,
         assert xy.shape == xy0.shape
         assert np.abs(xy - xy0).max() <= tol
     assert fast.log == plain.log
+
+
+def _busk_fit_jacobian(monkeypatch, length, **train):
+    """The Jacobian object, bounds and scales fit_busk hands its least-squares fit on a
+    fold train (captured where the fit starts)."""
+    seen = []
+    real = arc_module.best_of_starts
+
+    def capture(jac, starts, lb, ub, x_scale, ls):
+        seen.append((jac, lb, ub, x_scale, starts))
+        return real(jac, starts, lb, ub, x_scale, ls)
+
+    with monkeypatch.context() as m:
+        m.setattr(arc_module, "best_of_starts", capture)
+        build_draft(*fold_train(length, **train), TRAIN_COLUMN, method="arc", depth=3000.0,
+                    dip_tolerance=5.0)
+    return seen[-1]
+
+
+def test_busk_jacobian_by_hinge_equals_scipys_forward_differences(monkeypatch):
+    # scipy.optimize.least_squares (reference library): its own 2-point differences
+    # (diff_step=1e-6) of the Busk fit's residual on a 40 km train (16 hinges), at the
+    # point where scipy's fit stops and at random points inside the bounds. The
+    # columns taken hinge by hinge (construct/arc.py _BuskJacobian: four trial chains,
+    # each contact beyond a hinge's stretch moved by the change of the summed level)
+    # must be the same differences up to their rounding (1e-7 of the largest entry).
+    jac, lb, ub, x_scale, starts = _busk_fit_jacobian(monkeypatch, 40_000.0)
+    assert isinstance(jac, arc_module._BuskJacobian)
+    ref = least_squares(jac.residual, np.clip(starts[0], lb, ub), bounds=(lb, ub),
+                        method="trf", x_scale=x_scale, diff_step=1e-6)
+    got = jac(ref.x)
+    assert got.shape == ref.jac.shape == (len(jac.residual(ref.x)), len(lb))
+    assert np.abs(got - ref.jac).max() <= 1e-7 * np.abs(ref.jac).max()
+    # its nonzeros: every contact beyond a hinge moves with it (the summed offset), so
+    # the pattern is the true one, not a band (scipy's differences, the reference)
+    assert np.array_equal(np.abs(got) > 0, np.abs(ref.jac) > 0)
+    rng = np.random.default_rng(5)
+    for _ in range(3):
+        x = lb + rng.uniform(0.0, 1.0, len(lb)) * (ub - lb)
+        want = jac.full(x)  # one trial chain per unknown: checked against scipy above
+        assert np.abs(jac(x) - want).max() <= 1e-7 * np.abs(want).max()
+
+
+def test_busk_jacobian_at_the_bounds_steps_as_scipy(monkeypatch):
+    # At the upper bounds (arcs spanning their gaps: f = 1, hinges at the gap's end)
+    # scipy flips its steps inward; the hinge-by-hinge columns take the same steps
+    # (reference: scipy.optimize.least_squares with diff_step=1e-6 stopped after its
+    # first evaluation, which returns the Jacobian at its start: the upper bounds moved
+    # inside by scipy's own rule for a strictly feasible start).
+    jac, lb, ub, x_scale, _ = _busk_fit_jacobian(monkeypatch, 20_000.0)
+    ref = least_squares(jac.residual, ub, bounds=(lb, ub), method="trf", x_scale=x_scale,
+                        diff_step=1e-6, max_nfev=1)
+    assert ref.nfev == 1 and np.all(ub - ref.x < 1e-6 * np.maximum(1.0, np.abs(ub)))
+    assert np.abs(jac(ref.x) - ref.jac).max() <= 1e-7 * np.abs(ref.jac).max()

@@ -41,7 +41,7 @@ from ..angles import wrap180
 from ..notes import Notes
 from .constraints import Constraints
 from .domains import Domain, unit_vectors
-from .fitting import BatchedJacobian, best_of_starts, in_order, searchsorted_rows
+from .fitting import BatchedJacobian, best_of_starts, forward_steps, in_order, searchsorted_rows
 from .frame import SectionFrame
 
 _STRAIGHT_DEG = 0.05  # adjacent dips closer than this are drawn as straight, parallel beds
@@ -121,7 +121,14 @@ def _chain_depth_rows(q: np.ndarray, phi: np.ndarray, distance: np.ndarray,
     the normals' ground points of each chain, sorted by distance. Returns (B, points).
 
     The same sums as the chain itself, chain by chain, so that the fits can evaluate
-    every perturbed chain of a Jacobian in one call (fitting.BatchedJacobian)."""
+    several perturbed chains in one call (:class:`_BuskJacobian`)."""
+    return _chain_rows(q, phi, distance, elevation)[0]
+
+
+def _chain_rows(q: np.ndarray, phi: np.ndarray, distance: np.ndarray,
+                elevation: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`_chain_depth_rows` and the chains' reference levels on their normals
+    (``lam``, (B, m): 0 on the first normal, summed sector by sector)."""
     q = np.asarray(q, float)
     bn, m = q.shape[0], q.shape[1]
     k = max(m - 1, 0)
@@ -163,7 +170,7 @@ def _chain_depth_rows(q: np.ndarray, phi: np.ndarray, distance: np.ndarray,
         inner = np.where(arc[rows, i], arc_s, straight_s)
     else:
         inner = first
-    return np.where(sec < 0, first, np.where(sec >= m - 1, last, inner))
+    return np.where(sec < 0, first, np.where(sec >= m - 1, last, inner)), lam
 
 
 class ArcModel(_Chain):
@@ -358,11 +365,86 @@ def fit_busk(domains: list[Domain], cons: Constraints, ground: Callable, frame: 
         c, f = x[:k_all - 1], x[k_all - 1:]
         return np.concatenate([r, eps * (c - h) / width, eps * (1.0 - f)])
 
-    jac = BatchedJacobian(resid_rows, lb, ub, 1e-6, single=resid)
+    def chain_rows(xs):
+        q = points_rows(xs)
+        depth, lam = _chain_rows(q, ph, cd, cz)
+        return depth - cs, lam, q[:, :, 0]
+
+    def tie_rows(xs):
+        c, f = xs[:, :k_all - 1], xs[:, k_all - 1:]
+        return np.concatenate([eps * (c - h) / width, eps * (1.0 - f)], axis=1)
+
+    full = BatchedJacobian(resid_rows, lb, ub, 1e-6, single=resid)
+    jac = _BuskJacobian(chain_rows, tie_rows, cd, w, full)
     starts = [np.concatenate([h, np.full(k_all - 1, f0)]) for f0 in (1.0, 0.6, 0.3, 0.1)]
     return points(best_of_starts(jac, starts, lb, ub,
                                  np.concatenate([width, np.ones(k_all - 1)]),
                                  least_squares)), ph
+
+
+class _BuskJacobian:
+    """The Jacobian of :func:`fit_busk`'s residual: scipy's forward differences (the
+    steps of ``full``, a :class:`~.fitting.BatchedJacobian` of the same residual), each
+    column taken from its own hinge's stretch of the chain.
+
+    A hinge's unknowns move only its two normals (``2k``, ``2k+1``): the chain changes
+    between the normals either side (``2k-1`` and ``2k+2``), and every contact beyond
+    them only by the change of the summed reference level (one number), the whole
+    residual then by the shift of the offset (a weighted mean). So the hinges two
+    apart are perturbed in the same trial chain (four trial chains in all, not one per
+    unknown), and filling the columns costs (contacts x unknowns) array work instead of
+    a chain per unknown (which grew with the cube of the line: docs/performance.md).
+    Where the normals are not in order (a degenerate gap) every unknown is perturbed
+    in its own chain, as ``full`` does.
+
+    ``chain_rows(xs)`` gives, for a batch of unknown vectors (rows), the contacts' depth
+    misfits before the offset (rows of ``depth - stratigraphic depth``), the chain's
+    reference levels on its normals and the normals' ground distances; ``tie_rows(xs)``
+    the tie-breaking residuals (one per unknown, each of its own unknown only); ``cd``
+    and ``w`` the contacts' distances (sorted) and weights."""
+
+    def __init__(self, chain_rows: Callable, tie_rows: Callable, cd: np.ndarray,
+                 w: np.ndarray, full: BatchedJacobian) -> None:
+        self.chain_rows, self.tie_rows, self.full = chain_rows, tie_rows, full
+        self.cd, self.w, self.sw = cd, w, np.sqrt(w)
+        self.residual = full.residual
+
+    def __call__(self, x: np.ndarray) -> np.ndarray:
+        x = np.asarray(x, float)
+        n = len(x)
+        nk = n // 2  # hinges: unknowns c_0.., f_0..
+        h = forward_steps(x, self.full.lb, self.full.ub, self.full.rel_step)
+        dx = (x + h) - x
+        hinge = np.arange(n) % nk
+        group = (np.arange(n) // nk) * 2 + hinge % 2  # (c or f) x (hinge parity)
+        xs = np.repeat(x[None, :], 5, axis=0)
+        xs[group + 1, np.arange(n)] = x + h
+        r0, lam, qd = self.chain_rows(xs)
+        m = 2 * nk
+        if np.any(np.diff(qd, axis=1) < 0):  # normals out of order: one chain per unknown
+            return self.full(x)
+        base = qd[0]
+        lo_n = 2 * hinge - 1  # the unmoved normals either side of the hinge (-1: none)
+        hi_n = 2 * hinge + 2  # (m: none)
+        start = np.where(lo_n >= 0, np.searchsorted(self.cd, base[np.maximum(lo_n, 0)],
+                                                    side="left"), 0)
+        end = np.where(hi_n < m, np.searchsorted(self.cd, base[np.minimum(hi_n, m - 1)],
+                                                 side="left"), len(self.cd))
+        g = group + 1
+        at_lo = np.where(lo_n >= 0, lam[g, np.maximum(lo_n, 0)] - lam[0, np.maximum(lo_n, 0)],
+                         0.0)
+        at_hi = np.where(hi_n < m, lam[g, np.minimum(hi_n, m - 1)]
+                         - lam[0, np.minimum(hi_n, m - 1)], 0.0)
+        idx = np.arange(len(self.cd))[:, None]
+        inside = (idx >= start[None, :]) & (idx < end[None, :])
+        beyond = idx >= end[None, :]
+        d_r0 = (r0[g] - r0[0][None, :]).T  # (contacts, unknowns): each column's trial chain
+        e = np.where(inside, d_r0 - at_lo[None, :],
+                     np.where(beyond, (at_hi - at_lo)[None, :], 0.0))
+        e -= (self.w @ e)[None, :] / np.sum(self.w)
+        top = self.sw[:, None] * e / dx[None, :]
+        ties = self.tie_rows(xs)
+        return np.vstack([top, np.diag((ties[g, np.arange(n)] - ties[0]) / dx)])
 
 
 def _ground_estimate(cons: Constraints, d: np.ndarray, z: np.ndarray) -> Callable:
@@ -387,18 +469,27 @@ def _trim_loops(p: np.ndarray) -> tuple[np.ndarray, list[int]]:
     the raw concentric path folds back on itself): each loop is replaced by the point
     where the path crosses itself. Returns the path and the indices of those points.
 
-    Only the pairs of segments whose boxes meet (an STRtree query) are tested for a
-    crossing, so a long horizon costs about its number of segments, not its square."""
+    The loops are cut one at a time, the first crossing along the path first (the
+    segment ``i`` that crosses a later one, cut at the last segment ``j`` it crosses).
+    Only the pairs of segments whose boxes meet (one STRtree query of the raw path) are
+    tested for a crossing: a cut keeps the segments before ``i`` and from ``j`` on,
+    shortening ``i`` and ``j``, so a pair of the cut path can cross only if the segments
+    they are part of met in the raw path. A long horizon costs about its number of
+    segments and its number of loops, not their product or its square."""
     cusps: list[int] = []
+    if len(p) < 4:
+        return p, cusps
+    pairs = _box_pairs(p[:-1], p[1:])
+    keep = pairs[1] >= pairs[0] + 2
+    pi, pj = pairs[0][keep], pairs[1][keep]  # raw segment ids, pi < pj
+    seg = np.arange(len(p) - 1)  # where each raw segment is in the path now (-1: cut away)
     for _ in range(len(p)):
         a, v = p[:-1], np.diff(p, axis=0)
-        n = len(a)
-        if n < 3:
+        if len(a) < 3 or not pi.size:
             break
-        pairs = _box_pairs(a, a + v)
-        i_s, j_s = pairs[0], pairs[1]
-        keep = j_s >= i_s + 2
-        i_s, j_s = i_s[keep], j_s[keep]
+        i_s, j_s = seg[pi], seg[pj]
+        live = (i_s >= 0) & (j_s >= i_s + 2)
+        pi, pj, i_s, j_s = pi[live], pj[live], i_s[live], j_s[live]
         if not i_s.size:
             break
         den = v[i_s, 0] * v[j_s, 1] - v[i_s, 1] * v[j_s, 0]
@@ -415,6 +506,8 @@ def _trim_loops(p: np.ndarray) -> tuple[np.ndarray, list[int]]:
         j = int(j_s[first].max())
         x = a[i] + t[first & (j_s == j)][0] * v[i]
         p = np.vstack([p[:i + 1], x[None, :], p[j + 1:]])
+        # segments i+1 .. j-1 are cut away; j (from x on) becomes i+1, the rest move up
+        seg = np.where(seg <= i, seg, np.where(seg < j, -1, seg - (j - i - 1)))
         cusps = [c if c <= i else c - (j - i - 1) for c in cusps if c <= i or c > j]
         cusps.append(i + 1)
     return p, sorted(cusps)
