@@ -101,7 +101,9 @@ def searchsorted_rows(edges: np.ndarray, values: np.ndarray, side: str = "left")
     of edges below (``side="left"``) or not above (``"right"``) each value."""
     edges = np.atleast_2d(edges)
     values = np.asarray(values, float)
-    if edges.size * values.size <= 4_000_000:  # one comparison array (a few MB at most)
+    # One comparison array while each row's is small; else a binary search per row (the
+    # array grows with edges x values per row: the square of a long line's hinges).
+    if edges.shape[1] * values.size <= 16_384:
         below = edges[:, None, :] < values[None, :, None] if side == "left" \
             else edges[:, None, :] <= values[None, :, None]
         return np.count_nonzero(below, axis=2)
