@@ -54,10 +54,11 @@ from .frame import SectionFrame
 
 _STRAIGHT_DEG = 0.05  # adjacent dips closer than this are drawn as straight, parallel beds
 _MIN_SPAN = 0.02  # narrowest arc, as a fraction of its gap (a sharper hinge is a kink)
-# From this many unknowns the Busk fit's trust-region steps are solved from banded
-# equations (time linear in the hinges) instead of scipy's SVD (cubic); below, scipy's
-# own least_squares, whose SVD is the cheaper on a few hinges.
-_BANDED_FROM = 24
+# From this many unknowns (two a hinge) the Busk fit's trust-region steps are solved
+# from banded equations (time linear in the hinges) instead of scipy's SVD (cubic);
+# below, scipy's own least_squares, whose SVD is the cheaper there (measured: about
+# even at 60-80 km of folds every 2.5 km, docs/performance.md).
+_BANDED_FROM = 56
 
 
 class _Chain:
