@@ -334,3 +334,29 @@ def test_long_fold_train_gives_the_horizons_of_the_plain_construction(monkeypatc
         assert xy.shape == xy0.shape
         assert np.abs(xy - xy0).max() <= 1e-6
     assert fast.log == plain.log
+
+
+def test_loops_cut_from_one_index_equal_the_all_pairs_trim(monkeypatch):
+    # The horizons of a noisier 30 km fold train (a dip every 400 m, ±3°) pass beyond
+    # several centres of curvature each: the trim from one STRtree query of the raw
+    # path cuts the same loops at the same points as the all-pairs segment test (the
+    # plain form, Busk 1929 construction), bit for bit.
+    from conftest import TRAIN_COLUMN, fold_train
+
+    paths = []
+    real = arc_module._trim_loops
+
+    def record(p):
+        paths.append(p.copy())
+        return real(p)
+
+    monkeypatch.setattr(arc_module, "_trim_loops", record)
+    build_draft(*fold_train(30_000.0, spacing=400.0, noise=3.0), TRAIN_COLUMN,
+                method="arc", depth=3000.0, dip_tolerance=5.0)
+    loops = 0
+    for p in paths:
+        got, cusps = real(p)
+        want, cusps0 = _trim_all_pairs(p)
+        assert np.array_equal(got, want) and cusps == cusps0
+        loops += len(cusps)
+    assert len(paths) >= 5 and loops >= 5

@@ -101,7 +101,9 @@ def searchsorted_rows(edges: np.ndarray, values: np.ndarray, side: str = "left")
     of edges below (``side="left"``) or not above (``"right"``) each value."""
     edges = np.atleast_2d(edges)
     values = np.asarray(values, float)
-    if edges.size * values.size <= 4_000_000:  # one comparison array (a few MB at most)
+    # One comparison array while each row's is small; else a binary search per row (the
+    # array grows with edges x values per row: the square of a long line's hinges).
+    if edges.shape[1] * values.size <= 16_384:
         below = edges[:, None, :] < values[None, :, None] if side == "left" \
             else edges[:, None, :] <= values[None, :, None]
         return np.count_nonzero(below, axis=2)
@@ -112,17 +114,136 @@ def searchsorted_rows(edges: np.ndarray, values: np.ndarray, side: str = "left")
 
 
 def best_of_starts(jac, starts, lb: np.ndarray, ub: np.ndarray, x_scale,
-                   least_squares: Callable) -> np.ndarray:
+                   least_squares: Callable, subproblem: Callable | None = None) -> np.ndarray:
     """The least-squares solution (scipy.optimize.least_squares, method "trf", bounded) with
     the lowest cost over the starting vectors ``starts`` (each clipped to the bounds); a
     later start replaces an earlier one only when it is better by more than 1e-9. ``jac``
     is a :class:`BatchedJacobian`; the fits run on one BLAS thread. ``least_squares`` is
-    scipy.optimize.least_squares as the calling module holds it."""
+    scipy.optimize.least_squares as the calling module holds it. With ``subproblem``
+    the same method runs with its trust-region steps solved by ``subproblem``
+    (:func:`trust_region_reflective`)."""
     best = None
     with one_blas_thread():
         for x0 in starts:
-            sol = least_squares(jac.residual, np.clip(x0, lb, ub), jac=jac, bounds=(lb, ub),
-                                method="trf", x_scale=x_scale)
+            if subproblem is not None:
+                sol = trust_region_reflective(jac.residual, jac, np.clip(x0, lb, ub), lb, ub,
+                                              np.asarray(x_scale, float), subproblem)
+            else:
+                sol = least_squares(jac.residual, np.clip(x0, lb, ub), jac=jac,
+                                    bounds=(lb, ub), method="trf", x_scale=x_scale)
             if best is None or sol.cost < best.cost - 1e-9:
                 best = sol
     return best.x
+
+
+class SvdSubproblem:
+    """The trust-region step of scipy's exact solver: one SVD of the augmented Jacobian,
+    then Moré's iteration on the Levenberg-Marquardt parameter
+    (``scipy.optimize._lsq.common.solve_lsq_trust_region``)."""
+
+    def __init__(self, J_h: np.ndarray, diag_h: np.ndarray, f: np.ndarray,
+                 d: np.ndarray | None = None) -> None:
+        from scipy.linalg import svd
+
+        m, n = J_h.shape
+        aug = np.empty((m + n, n))
+        aug[:m] = J_h
+        aug[m:] = np.diag(diag_h ** 0.5)
+        f_aug = np.zeros(m + n)
+        f_aug[:m] = f
+        U, self.s, V = svd(aug, full_matrices=False)
+        self.V = V.T
+        self.uf = U.T.dot(f_aug)
+        self.m, self.n = m, n
+
+    def step(self, Delta: float, alpha: float) -> tuple[np.ndarray, float]:
+        from scipy.optimize._lsq.common import solve_lsq_trust_region
+
+        p_h, alpha, _ = solve_lsq_trust_region(self.n, self.m, self.uf, self.s, self.V,
+                                               Delta, initial_alpha=alpha)
+        return p_h, alpha
+
+
+def trust_region_reflective(fun: Callable, jac: Callable, x0: np.ndarray, lb: np.ndarray,
+                            ub: np.ndarray, x_scale: np.ndarray,
+                            subproblem: Callable | None = None, ftol: float = 1e-8,
+                            xtol: float = 1e-8, gtol: float = 1e-8):
+    """``scipy.optimize.least_squares(fun, x0, jac=jac, bounds=(lb, ub), method="trf",
+    x_scale=x_scale)`` (the trust-region reflective method of Branch, Coleman & Li 1999
+    as scipy writes it, its exact solver, no loss function), step for step, with the
+    trust-region subproblem left to ``subproblem(J_h, diag_h, f, d)`` (an object whose
+    ``step(Delta, alpha)`` returns the step in scaled variables and the
+    Levenberg-Marquardt parameter; default :class:`SvdSubproblem`, scipy's own).
+
+    Returns an object with ``x``, ``cost``, ``nfev`` and ``status`` as scipy's."""
+    from types import SimpleNamespace
+
+    from numpy.linalg import norm
+    from scipy.optimize._lsq.common import (
+        CL_scaling_vector,
+        check_termination,
+        compute_grad,
+        make_strictly_feasible,
+        update_tr_radius,
+    )
+    from scipy.optimize._lsq.trf import select_step
+
+    subproblem = subproblem or SvdSubproblem
+    x = make_strictly_feasible(np.asarray(x0, float), lb, ub)
+    f = np.atleast_1d(fun(x))
+    J = np.atleast_2d(jac(x))
+    nfev = 1
+    n = x.size
+    max_nfev = n * 100
+    cost = 0.5 * np.dot(f, f)
+    g = compute_grad(J, f)
+    scale, scale_inv = x_scale, 1 / x_scale
+    v, dv = CL_scaling_vector(x, g, lb, ub)
+    v[dv != 0] *= scale_inv[dv != 0]
+    Delta = norm(x * scale_inv / v ** 0.5)
+    if Delta == 0:
+        Delta = 1.0
+    alpha = 0.0
+    status = None
+    while True:
+        v, dv = CL_scaling_vector(x, g, lb, ub)
+        g_norm = norm(g * v, ord=np.inf)
+        if g_norm < gtol:
+            status = 1
+        if status is not None or nfev == max_nfev:
+            break
+        v[dv != 0] *= scale_inv[dv != 0]
+        d = v ** 0.5 * scale
+        diag_h = g * dv * scale
+        g_h = d * g
+        J_h = J * d
+        sub = subproblem(J_h, diag_h, f, d)
+        theta = max(0.995, 1 - g_norm)
+        actual_reduction = -1
+        while actual_reduction <= 0 and nfev < max_nfev:
+            p_h, alpha = sub.step(Delta, alpha)
+            p = d * p_h
+            step, step_h, predicted_reduction = select_step(
+                x, J_h, diag_h, g_h, p, p_h, d, Delta, lb, ub, theta)
+            x_new = make_strictly_feasible(x + step, lb, ub, rstep=0)
+            f_new = fun(x_new)
+            nfev += 1
+            step_h_norm = norm(step_h)
+            if not np.all(np.isfinite(f_new)):
+                Delta = 0.25 * step_h_norm
+                continue
+            cost_new = 0.5 * np.dot(f_new, f_new)
+            actual_reduction = cost - cost_new
+            Delta_new, ratio = update_tr_radius(Delta, actual_reduction, predicted_reduction,
+                                                step_h_norm, step_h_norm > 0.95 * Delta)
+            status = check_termination(actual_reduction, cost, norm(step), norm(x), ratio,
+                                       ftol, xtol)
+            if status is not None:
+                break
+            alpha *= Delta / Delta_new
+            Delta = Delta_new
+        if actual_reduction > 0:
+            x, f, cost = x_new, f_new, cost_new
+            J = np.atleast_2d(jac(x))
+            g = compute_grad(J, f)
+    return SimpleNamespace(x=x, cost=cost, nfev=nfev, status=0 if status is None else status)
