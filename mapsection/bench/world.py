@@ -283,8 +283,10 @@ def _slope(sizes, values) -> float:
     return float(np.polyfit(np.log(sizes), np.log(values), 1)[0])
 
 
-def _growth(tmp: Path, base: dict, name: str, values: list, dem_cache: dict) -> None:
-    """One growth table: the whole-world build with ``name`` taking each of ``values``."""
+def _growth(tmp: Path, base: dict, name: str, values: list, dem_cache: dict,
+            repeat: int = 1) -> None:
+    """One growth table: the whole-world build with ``name`` taking each of ``values``
+    (median of ``repeat`` builds each)."""
     print()
     print(f"Growth with {name} (other inputs: {_said(base)})")
     print()
@@ -301,7 +303,8 @@ def _growth(tmp: Path, base: dict, name: str, values: list, dem_cache: dict) -> 
         dem = dem_cache.get(kw["size"])
         w = generate_world(folder, dem=dem, **kw)
         dem_cache.setdefault(kw["size"], folder / "dem.tif")
-        wall, mem = measure_build(w.project, folder / "out")
+        runs = [measure_build(w.project, folder / "out") for _ in range(max(repeat, 1))]
+        wall, mem = (float(np.median(c)) for c in zip(*runs, strict=True))
         walls.append(wall)
         mems.append(mem)
         print(f"| {v} | {wall:.2f} | {mem:.0f} |", flush=True)
@@ -334,7 +337,8 @@ def main(argv: list[str] | None = None) -> int:
                     help="also the growth tables (line length, attitudes, polygons, DEM size, "
                          "sections)")
     ap.add_argument("--repeat", type=int, default=1,
-                    help="builds of each world, interleaved; medians are shown [1]")
+                    help="builds of each world, interleaved; medians are shown (the growth "
+                         "tables too) [1]")
     ap.add_argument("--keep", metavar="DIR",
                     help="generate into DIR and keep it (a world already there is reused)")
     args = ap.parse_args(argv)
@@ -349,16 +353,17 @@ def main(argv: list[str] | None = None) -> int:
             base = {"size": args.size, "polygons": args.polygons, "attitudes": args.attitudes,
                     "length": args.length, "sections": args.sections}
             dems: dict[int, Path] = {args.size: world.project.parent / "dem.tif"}
-            _growth(tmp, base, "length", [args.length / 4, args.length / 2, args.length], dems)
+            _growth(tmp, base, "length", [args.length / 4, args.length / 2, args.length], dems,
+                    args.repeat)
             _growth(tmp, base, "attitudes",
-                    [args.attitudes // 4, args.attitudes // 2, args.attitudes], dems)
+                    [args.attitudes // 4, args.attitudes // 2, args.attitudes], dems, args.repeat)
             _growth(tmp, base, "polygons",
-                    [args.polygons // 4, args.polygons // 2, args.polygons], dems)
+                    [args.polygons // 4, args.polygons // 2, args.polygons], dems, args.repeat)
             _growth(tmp, base, "size", [args.size // 2, int(args.size / 1.41), args.size],
-                    dems)
+                    dems, args.repeat)
             # More sections in one project: built in parallel, one worker per core.
             _growth(tmp, base, "sections", [args.sections, 2 * args.sections,
-                                            4 * args.sections], dems)
+                                            4 * args.sections], dems, args.repeat)
     return 0
 
 
