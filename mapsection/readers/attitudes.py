@@ -391,7 +391,8 @@ def _orientation(rows: _Rows, convention: str) -> tuple[np.ndarray, np.ndarray]:
               lambda i: f"{az_name} {human(az[i])} is outside 0-360")
     rows.flag(np.isfinite(dip) & ((dip < 0) | (dip > 90)),
               lambda i: f"dip {human(dip[i])} is outside 0-90")
-    strike = az % 360.0 if convention == "rhr" else dip_direction_to_strike(az)
+    with np.errstate(invalid="ignore"):  # an infinite azimuth: its row is flagged above
+        strike = az % 360.0 if convention == "rhr" else dip_direction_to_strike(az)
     return strike, dip
 
 

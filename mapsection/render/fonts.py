@@ -42,6 +42,9 @@ def _lean_subset(fontfile: Any, glyphs: Any):
                             "ltag", "morx", "trak", "xref", *_LAYOUT_TABLES]
     options.font_number = getattr(fontfile, "face_index", 0)
     font = subset.load_font(fontfile, options)
+    for tag in _LAYOUT_TABLES:  # gone before subsetting: the subsetter would still read them
+        if tag in font:
+            del font[tag]
     subsetter = subset.Subsetter(options=options)
     subsetter.populate(gids=glyphs)
     subsetter.subset(font)
