@@ -10,7 +10,7 @@ import pyproj
 
 from .._messages import first_line
 from ..errors import AttitudeError
-from .attitude_csv import _Table
+from .attitude_table import _Table
 
 
 def read_vector(path: Path, layer: str | None) -> _Table:

@@ -39,10 +39,9 @@ from .attitude_csv import (
     _read_csv,
     _read_csv_chunks,
     _read_csv_rows,
-    _Rows,
-    _TextColumn,
     _WholeFile,
 )
+from .attitude_table import _Rows, _TextColumn
 from .attitude_vector import read_vector as _read_vector
 
 CSV_SUFFIXES = (".csv", ".txt", ".tsv")
